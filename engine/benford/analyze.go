@@ -1,0 +1,310 @@
+package benford
+
+import (
+	"fmt"
+	"math"
+	"sort"
+)
+
+// Rules of thumb applied by Analyze (common practice, no source).
+const (
+	// MinAmounts is the number of amounts below which a note warns that
+	// digit tests flag more bins by chance.
+	MinAmounts = 5000
+	// MaxFlaggedFirstTwo is the number of flagged first-two bins above
+	// which a note asks whether the population should follow Benford's law.
+	MaxFlaggedFirstTwo = 10
+	// FewRunsFirstTwo is the number of runs over the 90 first-two bins
+	// below which a note suggests looking for a threshold at work.
+	FewRunsFirstTwo = 35
+	// TopFlagged is the number of flagged bins to follow up first.
+	TopFlagged = 4
+	// SummationFactor: a summation bin holding more than this multiple of
+	// its expected share (1/90) of the total is flagged.
+	SummationFactor = 2.0
+)
+
+// Bin is one bin of a digit test.
+type Bin struct {
+	Bin            int     `json:"bin"`
+	Label          string  `json:"label"`            // e.g. "1", "10", "05" for last-two
+	Count          int64   `json:"count"`            // for Summation: count of amounts in the bin (informational)
+	Amount         float64 `json:"amount,omitempty"` // Summation only: sum of absolute amounts in the bin
+	Actual         float64 `json:"actual"`           // p̂ = count/N (Summation: amount/total)
+	Expected       float64 `json:"expected"`         // p
+	Diff           float64 `json:"diff"`             // actual - expected
+	Z              float64 `json:"z"`                // ZStat, never negative (0 for Summation)
+	Lower          float64 `json:"lower"`            // p - (1.96 sqrt(p(1-p)/N) + 1/(2N))
+	Upper          float64 `json:"upper"`            // p + (1.96 sqrt(p(1-p)/N) + 1/(2N))
+	Flagged        bool    `json:"flagged"`          // actual outside [Lower, Upper]
+	GoodmanLower   float64 `json:"goodman_lower"`    // simultaneous 95% interval for the bin's proportion
+	GoodmanUpper   float64 `json:"goodman_upper"`
+	OutsideGoodman bool    `json:"outside_goodman"` // expected outside [GoodmanLower, GoodmanUpper]
+}
+
+// Result is the result of one digit test.
+type Result struct {
+	Test           Test     `json:"test"`
+	N              int64    `json:"n"`               // amounts tested (Summation: amounts contributing)
+	Total          float64  `json:"total,omitempty"` // Summation: total absolute amount
+	Bins           []Bin    `json:"bins"`
+	MAD            float64  `json:"mad"`
+	Conformity     string   `json:"conformity"` // Close, Acceptable, Marginal, Nonconforming, NoPublishedRange or NoAmounts
+	ExpectedMAD    float64  `json:"expected_mad"`
+	ExcessMAD      float64  `json:"excess_mad"`
+	Chi2           float64  `json:"chi2"`
+	DF             int      `json:"df"` // 0: chi-square not computed (N == 0, Summation)
+	PValue         float64  `json:"p_value"`
+	KSD            float64  `json:"ks_d"`
+	KSCritical     float64  `json:"ks_critical"` // 0: not computed (N == 0, Summation)
+	Flagged        int      `json:"flagged"`     // bins outside the per-bin 95% bounds
+	OutsideGoodman int      `json:"outside_goodman"`
+	TopFlagged     []int    `json:"top_flagged"` // up to four flagged bins: surplus first, each kind by Z descending
+	Runs           *Runs    `json:"runs,omitempty"`
+	Notes          []string `json:"notes"`
+}
+
+// Analyze runs digit test t from its bin counts: counts[i] is the count of
+// bin lo+i, where lo, hi := t.Bins() and len(counts) == hi-lo+1. Counts are
+// additive, so counts of partitions can be merged (Merge) before testing.
+// Use AnalyzeSummation for the summation test.
+//
+// Per bin it reports the proportion, the Z-statistic and 95% bounds
+// (ZStat, Bounds) and Goodman's simultaneous 95% interval (Goodman); over
+// the bins the MAD with its published conformity range (Conformity), the
+// MAD expected for N (ExpectedMAD) and the excess over it, the chi-square
+// test (ChiSquare), the Kolmogorov-Smirnov distance with its 5% critical
+// value (KS, KSCritical) and, for the first-two, first-three and
+// second-order tests, the runs test over the ordered bins (RunsTest).
+//
+// Notes carry the rules of thumb of the trade (common practice, no
+// source): fewer than MinAmounts amounts; more than MaxFlaggedFirstTwo
+// flagged first-two bins; fewer than FewRunsFirstTwo runs over the
+// first-two bins; and "no amounts" when N == 0, in which case only the
+// bins' expected proportions are filled and Conformity is NoAmounts.
+//
+// No field of the result is NaN or infinite, so it always encodes as JSON.
+func Analyze(t Test, counts []int64) (Result, error) {
+	if !t.Valid() {
+		return Result{}, fmt.Errorf("benford: unknown test %q", t)
+	}
+	if t == Summation {
+		return Result{}, fmt.Errorf("benford: the summation test needs amounts per bin: use AnalyzeSummation")
+	}
+	lo, hi := t.Bins()
+	if len(counts) != hi-lo+1 {
+		return Result{}, fmt.Errorf("benford: %s needs %d bin counts (bins %s to %s), got %d",
+			t.Name(), hi-lo+1, t.Label(lo), t.Label(hi), len(counts))
+	}
+	var n int64
+	for i, c := range counts {
+		if c < 0 {
+			return Result{}, fmt.Errorf("benford: %s: negative count %d in bin %s", t.Name(), c, t.Label(lo+i))
+		}
+		n += c
+	}
+
+	exp := Expected(t)
+	res := Result{Test: t, N: n, Bins: make([]Bin, len(counts)), TopFlagged: []int{}, Notes: []string{}}
+	actual := make([]float64, len(counts))
+	gl, gu := Goodman(counts, GoodmanAlpha)
+	for i, c := range counts {
+		b := Bin{Bin: lo + i, Label: t.Label(lo + i), Count: c, Expected: exp[i],
+			GoodmanLower: gl[i], GoodmanUpper: gu[i]}
+		b.Lower, b.Upper = Bounds(exp[i], n)
+		if n > 0 {
+			b.Actual = float64(c) / float64(n)
+			b.Diff = b.Actual - b.Expected
+			b.Z = ZStat(b.Actual, b.Expected, n)
+			b.Flagged = b.Actual < b.Lower || b.Actual > b.Upper
+			b.OutsideGoodman = b.Expected < b.GoodmanLower || b.Expected > b.GoodmanUpper
+		}
+		actual[i] = b.Actual
+		res.Bins[i] = b
+	}
+	if n == 0 {
+		res.Conformity = NoAmounts
+		res.PValue = 1
+		res.Notes = append(res.Notes, "no amounts")
+		return res, nil
+	}
+
+	res.MAD = MAD(actual, exp)
+	res.Conformity = Conformity(t, res.MAD)
+	res.ExpectedMAD = ExpectedMAD(t, n)
+	res.ExcessMAD = res.MAD - res.ExpectedMAD
+	res.Chi2, res.DF, res.PValue = ChiSquare(counts, exp)
+	res.KSD = KS(actual, exp)
+	res.KSCritical = KSCritical(n)
+	res.countFlags()
+	if t == FirstTwo || t == FirstThree || t == SecondOrder {
+		r := RunsTest(actual, exp, lo)
+		res.Runs = &r
+	}
+
+	if n < MinAmounts {
+		res.Notes = append(res.Notes, fmt.Sprintf(
+			"only %d amounts: digit tests want about %d or more; with fewer, expect more flagged bins by chance (common practice, no source)",
+			n, MinAmounts))
+	}
+	if t == FirstTwo && res.Flagged > MaxFlaggedFirstTwo {
+		res.Notes = append(res.Notes, fmt.Sprintf(
+			"%d first-two bins flagged (more than %d): ask whether this population should follow Benford's law at all, e.g. built-in minimums or maximums, assigned numbers, a single dominant transaction type (common practice, no source)",
+			res.Flagged, MaxFlaggedFirstTwo))
+	}
+	if t == FirstTwo && res.Runs != nil && res.Runs.Runs < FewRunsFirstTwo {
+		msg := fmt.Sprintf("%d runs over the 90 first-two bins (fewer than %d; about 46 expected when overs and unders balance): long stretches of surplus and shortfall, look for a threshold at work",
+			res.Runs.Runs, FewRunsFirstTwo)
+		if s, ok := res.Runs.LargestSurplus(); ok {
+			msg += fmt.Sprintf(", starting with the surplus in bins %d to %d", s.From, s.To)
+		}
+		res.Notes = append(res.Notes, msg+" (common practice, no source)")
+	}
+	return res, nil
+}
+
+// countFlags fills Flagged, OutsideGoodman and TopFlagged from the bins.
+func (res *Result) countFlags() {
+	var flagged []Bin
+	for _, b := range res.Bins {
+		if b.Flagged {
+			res.Flagged++
+			flagged = append(flagged, b)
+		}
+		if b.OutsideGoodman {
+			res.OutsideGoodman++
+		}
+	}
+	sort.SliceStable(flagged, func(i, j int) bool {
+		a, b := flagged[i], flagged[j]
+		if (a.Diff > 0) != (b.Diff > 0) {
+			return a.Diff > 0
+		}
+		if a.Z != b.Z {
+			return a.Z > b.Z
+		}
+		return math.Abs(a.Diff) > math.Abs(b.Diff)
+	})
+	for i := 0; i < len(flagged) && i < TopFlagged; i++ {
+		res.TopFlagged = append(res.TopFlagged, flagged[i].Bin)
+	}
+}
+
+// AnalyzeSummation runs the summation test (Nigrini 2012) from the sums of
+// absolute amounts per first-two digits bin: sums[i] and counts[i] are the
+// sum of absolute amounts and the count of amounts whose first two digits
+// are 10+i (len 90 each; counts may be nil). Each bin expects 1/90 of the
+// total absolute amount.
+//
+// Per bin it reports Actual = sum/total, Expected = 1/90 and Diff, and
+// over the bins the MAD, with Conformity NoPublishedRange (no range is
+// published for the summation test).
+//
+// The Z-statistic, the per-bin bounds, Goodman's intervals, the chi-square
+// and the Kolmogorov-Smirnov test are all built on counts; the variance of
+// a share of amounts depends on the spread of the amounts within each bin,
+// which bin sums do not carry. So Z is left 0, DF and KSCritical are 0
+// ("not computed"), PValue is 1, ExpectedMAD and ExcessMAD are 0, and each
+// Goodman interval is [0, 1]. Instead a bin is flagged when its share of
+// the total exceeds SummationFactor (2) times its expected share, that is
+// Lower = 0 and Upper = 2/90 (common practice, no source). Only surpluses
+// are flagged: the test looks for large amounts.
+func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
+	t := Summation
+	lo, hi := t.Bins()
+	K := hi - lo + 1
+	if len(sums) != K {
+		return Result{}, fmt.Errorf("benford: summation test needs %d bin sums (bins 10 to 99), got %d", K, len(sums))
+	}
+	if counts != nil && len(counts) != K {
+		return Result{}, fmt.Errorf("benford: summation test needs %d bin counts (bins 10 to 99) or none, got %d", K, len(counts))
+	}
+	var total float64
+	var n int64
+	for i, s := range sums {
+		if s < 0 || math.IsNaN(s) || math.IsInf(s, 0) {
+			return Result{}, fmt.Errorf("benford: summation test: bin %d has sum %v: sums must be finite sums of absolute amounts", lo+i, s)
+		}
+		total += s
+		if counts != nil {
+			if counts[i] < 0 {
+				return Result{}, fmt.Errorf("benford: summation test: negative count %d in bin %d", counts[i], lo+i)
+			}
+			n += counts[i]
+		}
+	}
+	if math.IsInf(total, 0) {
+		return Result{}, fmt.Errorf("benford: summation test: total absolute amount overflows")
+	}
+	exp := Expected(t)
+	res := Result{Test: t, N: n, Total: total, Bins: make([]Bin, K), PValue: 1, TopFlagged: []int{}, Notes: []string{}}
+	actual := make([]float64, K)
+	upper := SummationFactor * exp[0]
+	for i := range sums {
+		b := Bin{Bin: lo + i, Label: t.Label(lo + i), Amount: sums[i], Expected: exp[i],
+			Lower: 0, Upper: upper, GoodmanLower: 0, GoodmanUpper: 1}
+		if counts != nil {
+			b.Count = counts[i]
+		}
+		if total > 0 {
+			b.Actual = sums[i] / total
+			b.Diff = b.Actual - b.Expected
+			b.Flagged = b.Actual > b.Upper
+		}
+		actual[i] = b.Actual
+		res.Bins[i] = b
+	}
+	if total == 0 {
+		res.Conformity = NoAmounts
+		res.Notes = append(res.Notes, "no amounts")
+		return res, nil
+	}
+	res.MAD = MAD(actual, exp)
+	res.Conformity = Conformity(t, res.MAD)
+	res.countFlags()
+	res.Notes = append(res.Notes, fmt.Sprintf(
+		"summation test: bins holding more than %g times their expected share of the total (1/90) are flagged (common practice, no source); Z-statistics, bounds, chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
+		SummationFactor))
+	if counts != nil && n < MinAmounts {
+		res.Notes = append(res.Notes, fmt.Sprintf(
+			"only %d amounts: digit tests want about %d or more (common practice, no source)", n, MinAmounts))
+	}
+	return res, nil
+}
+
+// Merge returns the element-wise sum of two count vectors, for counts of
+// the same test computed over different partitions. A nil argument stands
+// for zeros, so Merge(nil, c) copies c. It panics if both are non-nil and
+// their lengths differ.
+func Merge(a, b []int64) []int64 {
+	if a != nil && b != nil && len(a) != len(b) {
+		panic("benford: Merge: length mismatch")
+	}
+	out := make([]int64, max(len(a), len(b)))
+	for i := range out {
+		if a != nil {
+			out[i] += a[i]
+		}
+		if b != nil {
+			out[i] += b[i]
+		}
+	}
+	return out
+}
+
+// MergeSums is Merge for the summation test's bin sums.
+func MergeSums(a, b []float64) []float64 {
+	if a != nil && b != nil && len(a) != len(b) {
+		panic("benford: MergeSums: length mismatch")
+	}
+	out := make([]float64, max(len(a), len(b)))
+	for i := range out {
+		if a != nil {
+			out[i] += a[i]
+		}
+		if b != nil {
+			out[i] += b[i]
+		}
+	}
+	return out
+}
