@@ -72,10 +72,10 @@ func simulate(seed uint64, inject bool) population {
 	le := limitEdges()
 	lge := bandEdges(simLogBands)
 	lne := bandEdges(simLinBands)
-	add := func(x float64) {
+	add := func(x, l10 float64) { // l10 = log10(x)
 		// first two digits
-		k := math.Floor(math.Log10(x))
-		m := x / math.Pow(10, k-1)
+		k := int(math.Floor(l10))
+		m := x / math.Pow10(k-1)
 		ft := int(m)
 		if ft > 99 { // rounding at the top of a decade
 			ft = 99
@@ -96,16 +96,21 @@ func simulate(seed uint64, inject bool) population {
 		if i := bandIndex(lge, x); i >= 0 {
 			p.logBands[i]++
 		}
+		if x >= 20000 {
+			return
+		}
 		if i := bandIndex(lne, x); i >= 0 {
 			p.linBands[i]++
 		}
 	}
 	for range simBase {
-		add(math.Pow(10, 1+5*rng.Float64()))
+		l := 1 + 5*rng.Float64()
+		add(math.Exp(l*math.Ln10), l)
 	}
 	if inject {
 		for range simInjected {
-			add(2000 + 3000*rng.Float64())
+			x := 2000 + 3000*rng.Float64()
+			add(x, math.Log10(x))
 		}
 	}
 	return p
