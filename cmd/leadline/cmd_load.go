@@ -1,0 +1,142 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"strings"
+
+	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/spf13/pflag"
+)
+
+func init() {
+	register(&command{
+		name:    "load",
+		summary: "load CSV, TSV or Parquet extracts into the workspace and prove completeness",
+		usage: `Usage: leadline load [options] FILE|PATTERN...
+
+Loads every file in one transaction: if any file fails, the workspace is left
+exactly as it was. Every record read is either loaded or stored in the
+workspace's rejects table with its file, line and reason, so that
+rows read = rows loaded + rows rejected for every file.
+
+Columns named like the canonical columns (amount, entity, account,
+counterparty, doc_id, line_id, posted, user_id, source, descr) map
+themselves; map others with --map. Amounts are parsed exactly into DECIMAL:
+thousands separators, currency symbols and ISO codes, (parentheses),
+trailing minus, CR/DR suffixes and scientific notation are understood.
+
+Examples:
+  leadline load ledger_2025.csv
+  leadline load --db acme.duckdb 'extracts/*.parquet'
+  leadline load --map amount=Betrag --map entity=Buchungskreis --decimal-comma --delimiter ';' gl.csv
+  leadline load --debit Debit --credit Credit --date-format '%d/%m/%Y' journal.csv
+  leadline load --format json ledger.csv    # per file rows_read, rows_loaded, rows_rejected, sha256`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var db dbFlags
+			var f formatFlag
+			var maps []string
+			o := load.Options{}
+			db.add(fs)
+			fs.StringArrayVar(&maps, "map", nil, "map a canonical column to a file column, CANONICAL=COLUMN (repeatable)")
+			fs.StringVar(&o.Debit, "debit", "", "debit column of a two-column ledger (amount = debit - credit)")
+			fs.StringVar(&o.Credit, "credit", "", "credit column of a two-column ledger")
+			fs.BoolVar(&o.DecimalComma, "decimal-comma", false, "amounts write the decimal mark as a comma (1.234,56)")
+			fs.IntVar(&o.Scale, "scale", 2, "decimal places kept in amounts (fixed by a workspace's first load)")
+			fs.IntVar(&o.Precision, "precision", 18, "total digits of amounts: 18 (fast) or 38")
+			fs.StringVar(&o.Delimiter, "delimiter", "", `CSV field delimiter (default: guessed from the header among , ; tab |; "\t" for tab)`)
+			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8 (default), utf-16 or latin-1")
+			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
+			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of an earlier load of the same content")
+			f.add(fs)
+			return func(ctx context.Context, args []string, e *env) error {
+				if err := f.check(); err != nil {
+					return err
+				}
+				if len(args) == 0 {
+					return fmt.Errorf("give one or more files or patterns to load (see --help)")
+				}
+				m, err := parseMaps(maps)
+				if err != nil {
+					return err
+				}
+				o.Map = m
+				ws, err := db.open(ctx, false)
+				if err != nil {
+					return err
+				}
+				defer ws.Close()
+				rep, err := load.Load(ctx, ws, args, o)
+				if err != nil {
+					return err
+				}
+				return printLoad(e.stdout, f.value, rep)
+			}
+		},
+	})
+}
+
+func parseMaps(maps []string) (map[string]string, error) {
+	m := map[string]string{}
+	for _, s := range maps {
+		k, v, ok := strings.Cut(s, "=")
+		k = strings.ToLower(strings.TrimSpace(k))
+		if !ok || k == "" || strings.TrimSpace(v) == "" {
+			return nil, fmt.Errorf("--map %q: write CANONICAL=COLUMN, e.g. --map amount=Betrag", s)
+		}
+		if !load.IsCanonical(k) {
+			return nil, fmt.Errorf("--map %q: %q is not a canonical column (%s)", s, k, strings.Join(load.Canonical, ", "))
+		}
+		m[k] = strings.TrimSpace(v)
+	}
+	return m, nil
+}
+
+func printLoad(w io.Writer, format string, rep *load.Report) error {
+	if format == "json" {
+		return writeJSON(w, rep)
+	}
+	files := &tabular.Table{Name: "files", Columns: []string{"file", "format", "bytes", "sha256", "rows_read", "rows_loaded", "rows_rejected", "sum_positive", "sum_negative", "net"}}
+	for _, f := range rep.Files {
+		files.Add(f.Name, f.Format, f.SizeBytes, f.SHA256[:16]+"…", f.RowsRead, f.RowsLoaded, f.RowsRejected, f.Positive, f.Negative, f.Net)
+	}
+	if format == "csv" {
+		for i := range files.Rows {
+			files.Rows[i][3] = rep.Files[i].SHA256
+		}
+		return files.WriteCSV(w)
+	}
+	fmt.Fprintf(w, "Loaded into %s (load %d, amounts as %s) in %.1fs\n\n", rep.Workspace, rep.LoadID, rep.AmountType, rep.Seconds)
+	if err := files.WriteText(w, 0); err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "\nTotal: %d rows read = %d loaded + %d rejected\n", rep.RowsRead, rep.RowsLoaded, rep.RowsRejected)
+	for _, f := range rep.Files {
+		fmt.Fprintf(w, "\n%s: mapping %s", f.Name, f.Mapping.Describe())
+		if f.Format == "csv" {
+			fmt.Fprintf(w, "; delimiter %q, %s", f.Delimiter, f.Encoding)
+		}
+		fmt.Fprintln(w)
+		for _, warn := range f.Warnings {
+			fmt.Fprintf(w, "  note: %s\n", warn)
+		}
+		for _, r := range f.RejectReasons {
+			first := ""
+			if r.FirstLine != nil {
+				first = fmt.Sprintf(", first at line %d", *r.FirstLine)
+			}
+			fmt.Fprintf(w, "  rejected %d: %s%s\n", r.Rows, r.Reason, first)
+		}
+	}
+	if rep.RowsRejected > 0 {
+		fmt.Fprintln(w, "\nEvery rejected row is in the workspace: leadline sql \"SELECT * FROM rejects ORDER BY file_id, line\"")
+	}
+	ent := &tabular.Table{Columns: []string{"entity", "rows", "sum_positive", "sum_negative", "net"}}
+	for _, e := range rep.Entities {
+		ent.Add(e.Entity, e.Rows, e.Positive, e.Negative, e.Net)
+	}
+	fmt.Fprintln(w, "\nControl totals per entity (whole workspace):")
+	return ent.WriteText(w, 0)
+}

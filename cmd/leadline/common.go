@@ -1,0 +1,64 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/spf13/pflag"
+)
+
+func version() string { return workspace.Version }
+
+// dbFlags are the workspace flags every workspace command takes.
+type dbFlags struct {
+	path    string
+	memory  string
+	threads int
+	tempDir string
+}
+
+func (d *dbFlags) add(fs *pflag.FlagSet) {
+	fs.StringVar(&d.path, "db", "leadline.duckdb", "workspace file (a DuckDB database; :memory: for a throwaway one)")
+	fs.StringVar(&d.memory, "memory-limit", "", "DuckDB memory limit, e.g. 4GB (default: DuckDB's, 80% of RAM)")
+	fs.IntVar(&d.threads, "threads", 0, "DuckDB worker threads (default: one per core)")
+	fs.StringVar(&d.tempDir, "temp-dir", "", "folder where DuckDB spills when memory runs short (default: beside the workspace)")
+}
+
+func (d *dbFlags) open(ctx context.Context, readOnly bool) (*workspace.Workspace, error) {
+	return workspace.Open(ctx, d.path, workspace.Options{ReadOnly: readOnly, MemoryLimit: d.memory, Threads: d.threads, TempDir: d.tempDir})
+}
+
+// formatFlag is --format text|csv|json.
+type formatFlag struct{ value string }
+
+func (f *formatFlag) add(fs *pflag.FlagSet) {
+	fs.StringVar(&f.value, "format", "text", "output format: text, csv or json")
+}
+
+func (f *formatFlag) check() error {
+	switch f.value {
+	case "text", "csv", "json":
+		return nil
+	}
+	return fmt.Errorf("--format %q: give text, csv or json", f.value)
+}
+
+func writeJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
+
+func writeTable(w io.Writer, format string, t *tabular.Table) error {
+	switch format {
+	case "csv":
+		return t.WriteCSV(w)
+	case "json":
+		return t.WriteJSON(w)
+	}
+	return t.WriteText(w, 60)
+}

@@ -1,0 +1,272 @@
+package load
+
+import (
+	"bufio"
+	"bytes"
+	"compress/gzip"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"unicode/utf8"
+
+	"golang.org/x/text/encoding/charmap"
+	"golang.org/x/text/encoding/unicode"
+	"golang.org/x/text/transform"
+)
+
+// Source is one input file, examined before loading.
+type Source struct {
+	Path      string   // absolute path
+	Name      string   // base name
+	Format    string   // "csv" or "parquet"
+	Size      int64    // bytes
+	SHA256    string   // hex digest of the file's bytes
+	Delimiter string   // CSV: the field delimiter
+	Encoding  string   // CSV: utf-8, utf-16 or latin-1
+	Gzip      bool     // CSV: gzip-compressed
+	Columns   []string // column names as stored (duplicates made unique)
+	Warnings  []string
+
+	types []string // Parquet: DuckDB type of each column
+}
+
+// ExpandPaths turns the command-line arguments (files and glob patterns)
+// into a sorted list of distinct files. A pattern that matches nothing is an
+// error: an analyst who typed a glob expects files behind it.
+func ExpandPaths(args []string) ([]string, error) {
+	seen := map[string]bool{}
+	var out []string
+	for _, a := range args {
+		var matches []string
+		if strings.ContainsAny(a, "*?[") {
+			m, err := filepath.Glob(a)
+			if err != nil {
+				return nil, fmt.Errorf("pattern %q: %w", a, err)
+			}
+			if len(m) == 0 {
+				return nil, fmt.Errorf("pattern %q matches no file", a)
+			}
+			sort.Strings(m)
+			matches = m
+		} else {
+			matches = []string{a}
+		}
+		for _, m := range matches {
+			abs, err := filepath.Abs(m)
+			if err != nil {
+				return nil, err
+			}
+			st, err := os.Stat(abs)
+			if err != nil {
+				return nil, fmt.Errorf("%s: %w", m, unwrapPathError(err))
+			}
+			if st.IsDir() {
+				return nil, fmt.Errorf("%s: is a folder; give files or a pattern such as %s", m, filepath.Join(m, "*.csv"))
+			}
+			if !seen[abs] {
+				seen[abs] = true
+				out = append(out, abs)
+			}
+		}
+	}
+	if len(out) == 0 {
+		return nil, errors.New("no input files given")
+	}
+	return out, nil
+}
+
+func unwrapPathError(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
+// FormatOf tells the format from the file name.
+func FormatOf(path string) (format string, gz bool, err error) {
+	lower := strings.ToLower(path)
+	if strings.HasSuffix(lower, ".gz") {
+		gz = true
+		lower = strings.TrimSuffix(lower, ".gz")
+	}
+	switch filepath.Ext(lower) {
+	case ".parquet", ".pq":
+		if gz {
+			return "", false, fmt.Errorf("%s: gzip around a Parquet file is not supported; Parquet compresses itself", path)
+		}
+		return "parquet", false, nil
+	case ".csv", ".tsv", ".txt", ".tab", ".dsv", "":
+		return "csv", gz, nil
+	}
+	return "", false, fmt.Errorf("%s: unknown file type %q (leadline reads .csv, .tsv, .txt, their .gz, and .parquet)", path, filepath.Ext(lower))
+}
+
+// Hash returns the file's size and SHA-256.
+func Hash(path string) (int64, string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	n, err := io.Copy(h, bufio.NewReaderSize(f, 1<<20))
+	if err != nil {
+		return 0, "", fmt.Errorf("%s: reading: %w", path, err)
+	}
+	return n, hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// ExamineCSV reads the head of a CSV file: encoding (from a byte-order mark
+// or the option), the delimiter (the option, the extension, or the most
+// frequent of , ; tab | in the header line) and the column names. It does
+// not parse the body: DuckDB's reader does that.
+func ExamineCSV(path string, delim, encoding string) (*Source, error) {
+	s := &Source{Path: path, Name: filepath.Base(path), Format: "csv"}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	var r io.Reader = f
+	if strings.HasSuffix(strings.ToLower(path), ".gz") {
+		gz, err := gzip.NewReader(f)
+		if err != nil {
+			return nil, fmt.Errorf("%s: not a readable gzip file: %v", path, err)
+		}
+		s.Gzip = true
+		r = gz
+	}
+	head := make([]byte, 256<<10)
+	n, err := io.ReadFull(r, head)
+	if err != nil && !errors.Is(err, io.ErrUnexpectedEOF) && !errors.Is(err, io.EOF) {
+		return nil, fmt.Errorf("%s: reading: %v", path, err)
+	}
+	head = head[:n]
+	if len(bytes.TrimSpace(head)) == 0 {
+		return nil, fmt.Errorf("%s: the file is empty", path)
+	}
+	// Encoding: a byte-order mark decides; otherwise the option; otherwise UTF-8.
+	var text []byte
+	switch {
+	case bytes.HasPrefix(head, []byte{0xFF, 0xFE}) || bytes.HasPrefix(head, []byte{0xFE, 0xFF}):
+		s.Encoding = "utf-16"
+		dec := unicode.UTF16(unicode.LittleEndian, unicode.UseBOM).NewDecoder()
+		text, _, _ = transform.Bytes(dec, head[:len(head)&^1])
+	case strings.EqualFold(encoding, "latin-1") || strings.EqualFold(encoding, "latin1") || strings.EqualFold(encoding, "iso-8859-1"):
+		s.Encoding = "latin-1"
+		text, _, _ = transform.Bytes(charmap.ISO8859_1.NewDecoder(), head)
+	case encoding == "" || strings.EqualFold(encoding, "utf-8") || strings.EqualFold(encoding, "utf8"):
+		s.Encoding = "utf-8"
+		text = bytes.TrimPrefix(head, []byte{0xEF, 0xBB, 0xBF})
+	case strings.EqualFold(encoding, "utf-16"):
+		s.Encoding = "utf-16"
+		dec := unicode.UTF16(unicode.LittleEndian, unicode.UseBOM).NewDecoder()
+		text, _, _ = transform.Bytes(dec, head[:len(head)&^1])
+	default:
+		return nil, fmt.Errorf("%s: unsupported --encoding %q (use utf-8, utf-16 or latin-1)", path, encoding)
+	}
+	if bytes.IndexByte(text, 0) >= 0 && s.Encoding == "utf-8" {
+		return nil, fmt.Errorf("%s: contains NUL bytes in its first %d bytes: not a text file, or UTF-16 without a byte-order mark (try --encoding utf-16)", path, n)
+	}
+	firstLine := text
+	if i := bytes.IndexAny(text, "\r\n"); i >= 0 {
+		firstLine = text[:i]
+	}
+	if s.Encoding == "utf-8" && !utf8.Valid(firstLine) {
+		return nil, fmt.Errorf("%s: line 1: the header is not valid UTF-8; if the file is Latin-1 (ISO-8859-1) give --encoding latin-1", path)
+	}
+	s.Delimiter = delim
+	if s.Delimiter == "" {
+		s.Delimiter = guessDelimiter(path, firstLine)
+	}
+	if s.Delimiter == `\t` {
+		s.Delimiter = "\t"
+	}
+	if len([]rune(s.Delimiter)) != 1 {
+		return nil, fmt.Errorf("--delimiter %q: give a single character", s.Delimiter)
+	}
+	cr := csv.NewReader(bytes.NewReader(firstLine))
+	cr.Comma = []rune(s.Delimiter)[0]
+	cr.LazyQuotes = true
+	cr.FieldsPerRecord = -1
+	rec, err := cr.Read()
+	if err != nil {
+		return nil, fmt.Errorf("%s: line 1: cannot read the header: %v", path, err)
+	}
+	s.Columns, s.Warnings = cleanNames(rec)
+	if len(s.Columns) < 1 {
+		return nil, fmt.Errorf("%s: line 1: no columns in the header", path)
+	}
+	if n < len(head) && len(bytes.TrimSpace(text[len(firstLine):])) == 0 {
+		return nil, fmt.Errorf("%s: has a header but no data rows", path)
+	}
+	return s, nil
+}
+
+func guessDelimiter(path string, line []byte) string {
+	lower := strings.ToLower(strings.TrimSuffix(strings.ToLower(path), ".gz"))
+	if strings.HasSuffix(lower, ".tsv") || strings.HasSuffix(lower, ".tab") {
+		return "\t"
+	}
+	best, bestN := ",", 0
+	for _, d := range []string{",", ";", "\t", "|"} {
+		n := countOutsideQuotes(line, d[0])
+		if n > bestN {
+			best, bestN = d, n
+		}
+	}
+	return best
+}
+
+func countOutsideQuotes(line []byte, d byte) int {
+	in := false
+	n := 0
+	for _, b := range line {
+		switch {
+		case b == '"':
+			in = !in
+		case b == d && !in:
+			n++
+		}
+	}
+	return n
+}
+
+// cleanNames trims header names, names empty ones column_N and makes
+// duplicates unique with a _2, _3 suffix, saying so in a warning.
+func cleanNames(rec []string) ([]string, []string) {
+	var warns []string
+	seen := map[string]int{}
+	out := make([]string, len(rec))
+	for i, n := range rec {
+		n = strings.TrimSpace(strings.TrimPrefix(n, "\uFEFF"))
+		if n == "" {
+			n = fmt.Sprintf("column_%d", i+1)
+			warns = append(warns, fmt.Sprintf("column %d has no name in the header; called it %s", i+1, n))
+		}
+		key := strings.ToLower(n)
+		if seen[key] > 0 {
+			base := n
+			for k := seen[key] + 1; ; k++ {
+				n = fmt.Sprintf("%s_%d", base, k)
+				if seen[strings.ToLower(n)] == 0 {
+					break
+				}
+			}
+			warns = append(warns, fmt.Sprintf("column %d repeats the name %q; kept as %s", i+1, base, n))
+			seen[key]++
+			key = strings.ToLower(n)
+		}
+		seen[key]++
+		out[i] = n
+	}
+	return out, warns
+}

@@ -1,0 +1,218 @@
+// Package workspace opens the engagement workspace: one DuckDB database file
+// that holds the loaded ledger, the load log, the rejected rows and the
+// stored results of every run. Any DuckDB client can open the file.
+package workspace
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"os"
+	"strings"
+	"time"
+
+	duckdb "github.com/duckdb/duckdb-go/v2"
+	"github.com/leadline/leadline/queries"
+)
+
+// Version is leadline's version, written into the load log and every run.
+var Version = "0.1.0-dev"
+
+// Options tune the embedded database. Zero values keep DuckDB's defaults.
+type Options struct {
+	ReadOnly    bool   // open without write access (the sql command, reviewers)
+	MemoryLimit string // e.g. "4GB"; DuckDB's memory_limit
+	Threads     int    // DuckDB worker threads
+	TempDir     string // where DuckDB spills when memory runs short
+}
+
+// Workspace is an open workspace. It holds a single connection: DuckDB
+// temporary objects (macros, reject tables) live per connection, and one
+// writer at a time is all a workspace needs.
+type Workspace struct {
+	Path string
+	DB   *sql.DB
+	Conn *sql.Conn
+	opts Options
+}
+
+// ErrInUse is returned when another process holds the workspace open.
+var ErrInUse = errors.New("workspace is in use by another process")
+
+// Open opens (creating if needed, unless read-only) the workspace at path.
+// ":memory:" gives a workspace that lives only as long as the process.
+func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
+	dsn := path
+	if path == ":memory:" {
+		dsn = ""
+	} else if opts.ReadOnly {
+		if _, err := os.Stat(path); err != nil {
+			return nil, fmt.Errorf("workspace %s: %w (load some files first with `leadline load`)", path, err)
+		}
+	}
+	params := []string{}
+	if opts.ReadOnly && dsn != "" {
+		params = append(params, "access_mode=READ_ONLY")
+	}
+	if len(params) > 0 {
+		dsn += "?" + strings.Join(params, "&")
+	}
+	connector, err := duckdb.NewConnector(dsn, nil)
+	if err != nil {
+		return nil, classifyOpenError(path, err)
+	}
+	db := sql.OpenDB(connector)
+	db.SetMaxOpenConns(1)
+	conn, err := db.Conn(ctx)
+	if err != nil {
+		db.Close()
+		return nil, classifyOpenError(path, err)
+	}
+	ws := &Workspace{Path: path, DB: db, Conn: conn, opts: opts}
+	if err := ws.configure(ctx); err != nil {
+		ws.Close()
+		return nil, err
+	}
+	if !opts.ReadOnly {
+		if _, err := conn.ExecContext(ctx, queries.Get("create_schema")); err != nil {
+			ws.Close()
+			return nil, fmt.Errorf("workspace %s: creating the schema: %w", path, err)
+		}
+	}
+	if _, err := conn.ExecContext(ctx, queries.Get("create_amount_macros")); err != nil {
+		ws.Close()
+		return nil, fmt.Errorf("workspace %s: creating the amount macros: %w", path, err)
+	}
+	return ws, nil
+}
+
+func classifyOpenError(path string, err error) error {
+	msg := err.Error()
+	if strings.Contains(msg, "Could not set lock") || strings.Contains(msg, "Conflicting lock") {
+		return fmt.Errorf("%w: %s (close the other leadline or DuckDB session, or use another --db): %v", ErrInUse, path, firstLine(msg))
+	}
+	return fmt.Errorf("opening workspace %s: %w", path, err)
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i]
+	}
+	return s
+}
+
+func (ws *Workspace) configure(ctx context.Context) error {
+	var stmts []string
+	if ws.opts.MemoryLimit != "" {
+		stmts = append(stmts, "SET memory_limit = "+queries.QuoteString(ws.opts.MemoryLimit))
+	}
+	if ws.opts.Threads > 0 {
+		stmts = append(stmts, fmt.Sprintf("SET threads = %d", ws.opts.Threads))
+	}
+	if ws.opts.TempDir != "" {
+		stmts = append(stmts, "SET temp_directory = "+queries.QuoteString(ws.opts.TempDir))
+	}
+	for _, s := range stmts {
+		if _, err := ws.Conn.ExecContext(ctx, s); err != nil {
+			return fmt.Errorf("workspace setting %q: %w", s, err)
+		}
+	}
+	return nil
+}
+
+// Close releases the connection and the database.
+func (ws *Workspace) Close() error {
+	var first error
+	if ws.Conn != nil {
+		first = ws.Conn.Close()
+	}
+	if err := ws.DB.Close(); err != nil && first == nil {
+		first = err
+	}
+	return first
+}
+
+// Meta reads a workspace setting; ok is false when it is not set.
+func (ws *Workspace) Meta(ctx context.Context, key string) (value string, ok bool, err error) {
+	err = ws.Conn.QueryRowContext(ctx, queries.Get("meta_get"), key).Scan(&value)
+	if errors.Is(err, sql.ErrNoRows) {
+		return "", false, nil
+	}
+	if err != nil && strings.Contains(err.Error(), "does not exist") {
+		return "", false, nil
+	}
+	return value, err == nil, err
+}
+
+// SetMeta stores a workspace setting.
+func (ws *Workspace) SetMeta(ctx context.Context, key, value string) error {
+	_, err := ws.Conn.ExecContext(ctx, queries.Get("meta_set"), key, value)
+	return err
+}
+
+// HasLedger reports whether anything has been loaded.
+func (ws *Workspace) HasLedger(ctx context.Context) (bool, error) {
+	var n int
+	err := ws.Conn.QueryRowContext(ctx,
+		`SELECT count(*) FROM information_schema.tables WHERE table_name = 'ledger' AND table_schema = 'main'`).Scan(&n)
+	return n > 0, err
+}
+
+// Column is one column of the ledger table.
+type Column struct {
+	Name string
+	Type string
+}
+
+// LedgerColumns lists the ledger's columns in table order.
+func (ws *Workspace) LedgerColumns(ctx context.Context) ([]Column, error) {
+	rows, err := ws.Conn.QueryContext(ctx, queries.Get("ledger_columns"))
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	var cols []Column
+	for rows.Next() {
+		var c Column
+		if err := rows.Scan(&c.Name, &c.Type); err != nil {
+			return nil, err
+		}
+		cols = append(cols, c)
+	}
+	return cols, rows.Err()
+}
+
+// DuckDBVersion returns the embedded DuckDB's version string.
+func (ws *Workspace) DuckDBVersion(ctx context.Context) (string, error) {
+	var v string
+	err := ws.Conn.QueryRowContext(ctx, "SELECT version()").Scan(&v)
+	return v, err
+}
+
+// SaveRun stores a finished run (its parameters and its JSON result) and
+// returns the run id.
+func (ws *Workspace) SaveRun(ctx context.Context, kind string, started time.Time, params, result []byte) (int64, error) {
+	id, err := ws.NextRunID(ctx)
+	if err != nil {
+		return 0, fmt.Errorf("saving run: %w", err)
+	}
+	return id, ws.SaveRunWithID(ctx, id, kind, started, params, result)
+}
+
+// NextRunID reserves a run id before the run starts, so that results can
+// carry it; SaveRunWithID stores the run under it.
+func (ws *Workspace) NextRunID(ctx context.Context) (int64, error) {
+	var id int64
+	err := ws.Conn.QueryRowContext(ctx, queries.Get("next_run_id")).Scan(&id)
+	return id, err
+}
+
+// SaveRunWithID stores a run under an id from NextRunID.
+func (ws *Workspace) SaveRunWithID(ctx context.Context, id int64, kind string, started time.Time, params, result []byte) error {
+	_, err := ws.Conn.ExecContext(ctx, queries.Get("insert_run"), id, kind, started.UTC(), time.Now().UTC(), Version, string(params), string(result))
+	if err != nil {
+		return fmt.Errorf("saving run %d: %w", id, err)
+	}
+	return nil
+}

@@ -1,0 +1,101 @@
+-- Loading. The reader expression, the column list and the amount type are
+-- built by engine/load from validated, quoted identifiers; values are bound.
+
+-- name: load_insert
+-- One pass over the file: every record goes into the ledger with its
+-- record number; rows whose amount or date does not parse are moved to
+-- rejects by load_move_rejects right after, inside the same transaction.
+INSERT INTO ledger BY NAME
+SELECT
+    {{row_id_base}} + ll_rn AS row_id,
+    {{file_id}} AS file_id,
+    ll_rn + {{line_offset}} AS line,
+    {{amount_expr}} AS amount,
+    {{columns}}
+FROM (
+    SELECT *, row_number() OVER () AS ll_rn{{fast}}
+    FROM {{reader}}
+);
+
+-- name: load_reject_amounts
+INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
+SELECT file_id, line, ?, {{raw_expr}}, {{reason_expr}}, NULL
+FROM ledger
+WHERE file_id = ? AND amount IS NULL;
+
+-- name: load_reject_dates
+INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
+SELECT file_id, line, ?, {{raw_expr}}, ?, NULL
+FROM ledger
+WHERE file_id = ? AND amount IS NOT NULL AND posted IS NULL
+  AND nullif(trim(CAST({{raw_expr}} AS VARCHAR)), '') IS NOT NULL;
+
+-- name: load_delete_rejected
+DELETE FROM ledger
+WHERE file_id = ?
+  AND (amount IS NULL OR (posted IS NULL AND nullif(trim(CAST({{raw_expr}} AS VARCHAR)), '') IS NOT NULL));
+
+-- name: load_delete_rejected_no_date
+DELETE FROM ledger WHERE file_id = ? AND amount IS NULL;
+
+-- name: load_structural_rejects
+-- Records the CSV reader itself could not take (ragged rows, bad quoting,
+-- bad encoding), one row per record with its errors joined.
+SELECT line, string_agg(DISTINCT error_type || coalesce(' (' || column_name || ')', ''), '; ' ORDER BY error_type || coalesce(' (' || column_name || ')', '')) AS reason,
+       any_value(csv_line) AS raw_line
+FROM {{rejects_table}}
+GROUP BY line
+ORDER BY line;
+
+-- name: load_file_counts
+SELECT count(*) AS rows_in_ledger, coalesce(max(line), 0) FROM ledger WHERE file_id = ?;
+
+-- name: load_rejected_count
+SELECT count(*) FROM rejects WHERE file_id = ?;
+
+-- name: load_next_row_id
+SELECT coalesce(max(row_id), 0) FROM ledger;
+
+-- name: load_insert_file
+INSERT INTO files (file_id, load_id, path, name, format, size_bytes, sha256,
+                   rows_read, rows_loaded, rows_rejected, mapping, dialect, loaded_at)
+VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?);
+
+-- name: load_insert_load
+INSERT INTO loads (load_id, started_at, finished_at, tool_version, options)
+VALUES (?, ?, ?, ?, ?);
+
+-- name: load_forget_ledger
+DELETE FROM ledger WHERE file_id = ?;
+
+-- name: load_forget_rejects
+DELETE FROM rejects WHERE file_id = ?;
+
+-- name: load_forget_file
+DELETE FROM files WHERE file_id = ?;
+
+-- name: entity_totals
+-- Control totals per entity over the whole workspace, exact decimals as text.
+SELECT coalesce(entity, '') AS entity,
+       count(*) AS rows,
+       CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR) AS positive,
+       CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR) AS negative,
+       CAST(coalesce(sum(amount), 0) AS VARCHAR) AS net
+FROM ledger
+GROUP BY ALL
+ORDER BY entity;
+
+-- name: file_totals
+SELECT f.file_id, f.name, f.rows_read, f.rows_loaded, f.rows_rejected, f.size_bytes, f.sha256,
+       CAST(coalesce(sum(l.amount) FILTER (WHERE l.amount > 0), 0) AS VARCHAR) AS positive,
+       CAST(coalesce(sum(l.amount) FILTER (WHERE l.amount < 0), 0) AS VARCHAR) AS negative,
+       CAST(coalesce(sum(l.amount), 0) AS VARCHAR) AS net
+FROM files f LEFT JOIN ledger l USING (file_id)
+GROUP BY ALL
+ORDER BY f.file_id;
+
+-- name: reject_reasons
+SELECT file_id, reason, count(*) AS rows, min(line) AS first_line
+FROM rejects
+GROUP BY ALL
+ORDER BY file_id, rows DESC, reason;

@@ -1,0 +1,90 @@
+-- The workspace schema. Every table is plain DuckDB so that any DuckDB
+-- client can open the workspace file and read it.
+
+-- name: create_schema
+CREATE TABLE IF NOT EXISTS meta (
+    key   VARCHAR PRIMARY KEY,
+    value VARCHAR NOT NULL
+);
+CREATE SEQUENCE IF NOT EXISTS load_seq START 1;
+CREATE SEQUENCE IF NOT EXISTS file_seq START 1;
+CREATE SEQUENCE IF NOT EXISTS run_seq START 1;
+CREATE TABLE IF NOT EXISTS loads (
+    load_id      INTEGER PRIMARY KEY,
+    started_at   TIMESTAMP NOT NULL,
+    finished_at  TIMESTAMP NOT NULL,
+    tool_version VARCHAR NOT NULL,
+    options      VARCHAR NOT NULL  -- JSON: the load options as given
+);
+CREATE TABLE IF NOT EXISTS files (
+    file_id       INTEGER PRIMARY KEY,
+    load_id       INTEGER NOT NULL,
+    path          VARCHAR NOT NULL,   -- as given on the command line, made absolute
+    name          VARCHAR NOT NULL,   -- base name
+    format        VARCHAR NOT NULL,   -- csv or parquet
+    size_bytes    BIGINT NOT NULL,
+    sha256        VARCHAR NOT NULL,
+    rows_read     BIGINT NOT NULL,
+    rows_loaded   BIGINT NOT NULL,
+    rows_rejected BIGINT NOT NULL,
+    mapping       VARCHAR NOT NULL,   -- JSON: canonical column -> original column
+    dialect       VARCHAR NOT NULL,   -- JSON: delimiter, encoding, decimal comma, scale...
+    loaded_at     TIMESTAMP NOT NULL
+);
+CREATE TABLE IF NOT EXISTS rejects (
+    file_id     INTEGER NOT NULL,
+    line        BIGINT,               -- record number in the file, header = 1; NULL when unknown
+    column_name VARCHAR,
+    raw_value   VARCHAR,
+    reason      VARCHAR NOT NULL,
+    raw_line    VARCHAR
+);
+CREATE TABLE IF NOT EXISTS runs (
+    run_id      INTEGER PRIMARY KEY,
+    kind        VARCHAR NOT NULL,     -- scan, segments, limits, ranges, duplicates, drill, pack...
+    started_at  TIMESTAMP NOT NULL,
+    finished_at TIMESTAMP NOT NULL,
+    tool_version VARCHAR NOT NULL,
+    params      VARCHAR NOT NULL,     -- JSON
+    result      VARCHAR NOT NULL      -- JSON, the same document --format json prints
+);
+
+-- name: create_ledger
+-- {{amount_type}} is DECIMAL(p,s), fixed by the first load of the workspace.
+CREATE TABLE IF NOT EXISTS ledger (
+    row_id       BIGINT NOT NULL,
+    file_id      INTEGER NOT NULL,
+    line         BIGINT NOT NULL,
+    amount       {{amount_type}},     -- never NULL once a load commits: unparseable rows move to rejects
+    entity       VARCHAR,
+    account      VARCHAR,
+    counterparty VARCHAR,
+    doc_id       VARCHAR,
+    line_id      VARCHAR,
+    posted       DATE,
+    user_id      VARCHAR,
+    "source"     VARCHAR,
+    descr        VARCHAR
+);
+
+-- name: ledger_columns
+SELECT column_name, data_type
+FROM information_schema.columns
+WHERE table_name = 'ledger' AND table_schema = 'main'
+ORDER BY ordinal_position;
+
+-- name: meta_get
+SELECT value FROM meta WHERE key = ?;
+
+-- name: meta_set
+INSERT OR REPLACE INTO meta (key, value) VALUES (?, ?);
+
+-- name: file_by_sha
+SELECT file_id, path FROM files WHERE sha256 = ?;
+
+-- name: next_run_id
+SELECT nextval('run_seq');
+
+-- name: insert_run
+INSERT INTO runs (run_id, kind, started_at, finished_at, tool_version, params, result)
+VALUES (?, ?, ?, ?, ?, ?, ?);
