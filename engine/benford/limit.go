@@ -37,6 +37,7 @@ type LimitResult struct {
 	ObservedRatio float64 `json:"observed_ratio"` // below/above; 0 when above == 0
 	ExpectedBelow float64 `json:"expected_below"` // (below+above) r/(1+r)
 	Excess        float64 `json:"excess"`         // below - expected_below
+	ExcessVsAbove float64 `json:"excess_vs_above"` // below - r·above: the surplus below if the amounts above are untouched
 	Z             float64 `json:"z"`              // excess / sqrt(n q (1-q)), for display and ranking ties
 	P             float64 `json:"p"`              // one-sided exact binomial P(X >= below | n, q)
 	PAdjusted     float64 `json:"p_adjusted"`     // Holm over the limits adjusted together
@@ -64,8 +65,13 @@ func CheckLimit(limit, w float64) error {
 //
 // so below ~ Binomial(n, q). P is the exact one-sided binomial tail
 // P(X >= below) (BinomialUpperTail), ExpectedBelow = n q and Excess =
-// below - n q. PAdjusted and Flagged are left for AdjustLimits (PAdjusted
-// is set to P, which is right for a single limit).
+// below - n q, the excess over the split expected for the pooled count.
+// When amounts have been moved from above the limit to below it, or added
+// below it, the pooled count includes them, so Excess understates their
+// number; ExcessVsAbove = below - r·above takes the count above the limit
+// as untouched and estimates it directly (a point estimate, not a test).
+// PAdjusted and Flagged are left for AdjustLimits (PAdjusted is set to P,
+// which is right for a single limit).
 //
 // The 1/x density is a local assumption. With millions of amounts a
 // density that falls faster or slower than 1/x around T also moves P, so
@@ -92,6 +98,7 @@ func LimitProbe(limit, w float64, below, above int64) LimitResult {
 		res.ObservedRatio = float64(below) / float64(above)
 	}
 	res.Excess = float64(below) - res.ExpectedBelow
+	res.ExcessVsAbove = float64(below) - r*float64(above)
 	if n > 0 {
 		res.Z = res.Excess / math.Sqrt(float64(n)*q*(1-q))
 	}
