@@ -34,14 +34,14 @@ type LimitResult struct {
 	Below         int64   `json:"below"`
 	Above         int64   `json:"above"`
 	ExpectedRatio float64 `json:"expected_ratio"`
-	ObservedRatio float64 `json:"observed_ratio"` // below/above; 0 when above == 0
-	ExpectedBelow float64 `json:"expected_below"` // (below+above) r/(1+r)
-	Excess        float64 `json:"excess"`         // below - expected_below
+	ObservedRatio float64 `json:"observed_ratio"`  // below/above; 0 when above == 0
+	ExpectedBelow float64 `json:"expected_below"`  // (below+above) r/(1+r)
+	Excess        float64 `json:"excess"`          // below - expected_below
 	ExcessVsAbove float64 `json:"excess_vs_above"` // below - r·above: the surplus below if the amounts above are untouched
-	Z             float64 `json:"z"`              // excess / sqrt(n q (1-q)), for display and ranking ties
-	P             float64 `json:"p"`              // one-sided exact binomial P(X >= below | n, q)
-	PAdjusted     float64 `json:"p_adjusted"`     // Holm over the limits adjusted together
-	Flagged       bool    `json:"flagged"`        // PAdjusted < 0.05
+	Z             float64 `json:"z"`               // excess / sqrt(n q (1-q)), for display and ranking ties
+	P             float64 `json:"p"`               // one-sided exact binomial P(X >= below | n, q)
+	PAdjusted     float64 `json:"p_adjusted"`      // Holm over the limits adjusted together
+	Flagged       bool    `json:"flagged"`         // PAdjusted < 0.05
 }
 
 // CheckLimit reports whether limit and width can be probed: limit must be
