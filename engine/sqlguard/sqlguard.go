@@ -1,0 +1,250 @@
+// Package sqlguard decides whether SQL written by a user (the sql command, a
+// filter predicate, a pack's extra checks) may run against a workspace. It
+// lets through a single SELECT that reads only workspace tables and calls
+// no function that reaches files, settings or other databases. The check
+// works on DuckDB's own parse tree (json_serialize_sql), not on the text,
+// so comments, quoting and case tricks do not get past it.
+package sqlguard
+
+import (
+	"context"
+	"database/sql"
+	"encoding/json"
+	"fmt"
+	"strings"
+
+	"github.com/leadline/leadline/queries"
+)
+
+// Querier is what the guard needs: a connection to the workspace.
+type Querier interface {
+	QueryRowContext(ctx context.Context, query string, args ...any) *sql.Row
+	QueryContext(ctx context.Context, query string, args ...any) (*sql.Rows, error)
+}
+
+// allowedTableFunctions are table functions that produce values without
+// touching anything outside the query.
+var allowedTableFunctions = map[string]bool{
+	"range": true, "generate_series": true, "unnest": true,
+}
+
+// deniedFunctions reach files, the environment, settings or other
+// databases, or run SQL text of their own.
+var deniedFunctions = map[string]bool{
+	"read_text": true, "read_blob": true, "getenv": true, "current_setting": true,
+	"query": true, "query_table": true, "sql_auto_complete": true, "json_execute_serialized_sql": true,
+	"setseed": true, "nextval": true, "currval": true, "getvariable": true,
+	"read_csv": true, "read_csv_auto": true, "read_parquet": true, "parquet_scan": true,
+	"read_json": true, "read_json_auto": true, "read_ndjson": true, "glob": true,
+}
+
+// Error is a refusal with the reason.
+type Error struct{ Reason string }
+
+func (e *Error) Error() string { return e.Reason }
+
+// CheckSelect returns nil when query is one read-only SELECT over the
+// workspace's own tables, and an *Error saying why not otherwise.
+func CheckSelect(ctx context.Context, q Querier, query string) error {
+	var doc string
+	if err := q.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", query).Scan(&doc); err != nil {
+		return fmt.Errorf("checking the SQL: %w", err)
+	}
+	var parsed struct {
+		Error        bool              `json:"error"`
+		ErrorType    string            `json:"error_type"`
+		ErrorMessage string            `json:"error_message"`
+		Statements   []json.RawMessage `json:"statements"`
+	}
+	if err := json.Unmarshal([]byte(doc), &parsed); err != nil {
+		return fmt.Errorf("checking the SQL: %w", err)
+	}
+	if parsed.Error {
+		if strings.Contains(parsed.ErrorMessage, "Only SELECT") {
+			return &Error{"only a single read-only SELECT may run here; statements that write, attach, copy, install or change settings are refused"}
+		}
+		return &Error{"the SQL does not parse: " + parsed.ErrorMessage}
+	}
+	if len(parsed.Statements) != 1 {
+		return &Error{fmt.Sprintf("give exactly one SELECT statement (found %d)", len(parsed.Statements))}
+	}
+	tables, err := workspaceTables(ctx, q)
+	if err != nil {
+		return err
+	}
+	var tree any
+	if err := json.Unmarshal(parsed.Statements[0], &tree); err != nil {
+		return err
+	}
+	ctes := map[string]bool{}
+	collectCTEs(tree, ctes)
+	return walk(tree, tables, ctes)
+}
+
+func workspaceTables(ctx context.Context, q Querier) (map[string]bool, error) {
+	rows, err := q.QueryContext(ctx, `SELECT lower(table_name) FROM information_schema.tables WHERE table_catalog = current_database() AND table_schema = 'main'`)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	out := map[string]bool{}
+	for rows.Next() {
+		var n string
+		if err := rows.Scan(&n); err != nil {
+			return nil, err
+		}
+		out[n] = true
+	}
+	return out, rows.Err()
+}
+
+func collectCTEs(n any, ctes map[string]bool) {
+	switch x := n.(type) {
+	case map[string]any:
+		if cm, ok := x["cte_map"].(map[string]any); ok {
+			if list, ok := cm["map"].([]any); ok {
+				for _, e := range list {
+					if em, ok := e.(map[string]any); ok {
+						if k, ok := em["key"].(string); ok {
+							ctes[strings.ToLower(k)] = true
+						}
+					}
+				}
+			}
+		}
+		for _, v := range x {
+			collectCTEs(v, ctes)
+		}
+	case []any:
+		for _, v := range x {
+			collectCTEs(v, ctes)
+		}
+	}
+}
+
+func walk(n any, tables, ctes map[string]bool) error {
+	switch x := n.(type) {
+	case map[string]any:
+		typ, _ := x["type"].(string)
+		switch typ {
+		case "BASE_TABLE":
+			name, _ := x["table_name"].(string)
+			cat, _ := x["catalog_name"].(string)
+			schema, _ := x["schema_name"].(string)
+			lname := strings.ToLower(name)
+			if cat != "" && !strings.EqualFold(cat, "memory") || (schema != "" && !strings.EqualFold(schema, "main")) {
+				return &Error{fmt.Sprintf("table %s.%s: only the workspace's own tables may be read", schema, name)}
+			}
+			if !tables[lname] && !ctes[lname] {
+				return &Error{fmt.Sprintf("%q is not a table of this workspace (tables: ledger, files, rejects, loads, runs, meta); files and other databases cannot be read here", name)}
+			}
+		case "TABLE_FUNCTION":
+			fn, _ := x["function"].(map[string]any)
+			name, _ := fn["function_name"].(string)
+			if !allowedTableFunctions[strings.ToLower(name)] {
+				return &Error{fmt.Sprintf("table function %s() is not allowed here: it may read outside the workspace", name)}
+			}
+		case "FUNCTION":
+			name, _ := x["function_name"].(string)
+			if deniedFunctions[strings.ToLower(name)] {
+				return &Error{fmt.Sprintf("function %s() is not allowed here", name)}
+			}
+		}
+		for _, v := range x {
+			if err := walk(v, tables, ctes); err != nil {
+				return err
+			}
+		}
+	case []any:
+		for _, v := range x {
+			if err := walk(v, tables, ctes); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// Filter checks a WHERE predicate written over the ledger's columns and
+// returns it ready to paste after WHERE (wrapped in parentheses). An empty
+// predicate gives "TRUE".
+func Filter(ctx context.Context, q Querier, predicate string) (string, error) {
+	p := strings.TrimSpace(predicate)
+	if p == "" {
+		return "TRUE", nil
+	}
+	wrapped := "(" + p + "\n)"
+	probe := "SELECT " + wrapped + " AS ll_predicate FROM ledger"
+	if err := CheckSelect(ctx, q, probe); err != nil {
+		return "", fmt.Errorf("filter %q: %w", predicate, err)
+	}
+	if err := singleExpression(ctx, q, probe); err != nil {
+		return "", fmt.Errorf("filter %q: %w", predicate, err)
+	}
+	rows, err := q.QueryContext(ctx, "SELECT 1 FROM ledger WHERE "+wrapped+" LIMIT 0")
+	if err != nil {
+		return "", fmt.Errorf("filter %q: %s", predicate, firstLine(err.Error()))
+	}
+	rows.Close()
+	return wrapped, nil
+}
+
+// Column checks that name is a column of the ledger and returns it quoted.
+func Column(ctx context.Context, q Querier, name string) (string, error) {
+	var n int
+	if err := q.QueryRowContext(ctx, `SELECT count(*) FROM information_schema.columns WHERE table_name = 'ledger' AND table_schema = 'main' AND lower(column_name) = lower(?)`, name).Scan(&n); err != nil {
+		return "", err
+	}
+	if n == 0 {
+		return "", &Error{fmt.Sprintf("no column %q in the ledger (see: leadline sql \"DESCRIBE ledger\")", name)}
+	}
+	return queries.QuoteIdent(name), nil
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i]
+	}
+	return s
+}
+
+// singleExpression checks that probe parsed as one plain SELECT of one
+// expression from ledger, with nothing else: a predicate that closes our
+// parenthesis and opens a clause of its own (a UNION, another column, a
+// WHERE) changes that shape and is refused.
+func singleExpression(ctx context.Context, q Querier, probe string) error {
+	var doc string
+	if err := q.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", probe).Scan(&doc); err != nil {
+		return err
+	}
+	var parsed struct {
+		Statements []struct {
+			Node struct {
+				Type        string            `json:"type"`
+				SelectList  []json.RawMessage `json:"select_list"`
+				WhereClause json.RawMessage   `json:"where_clause"`
+				GroupExprs  []json.RawMessage `json:"group_expressions"`
+				Having      json.RawMessage   `json:"having"`
+				Modifiers   []json.RawMessage `json:"modifiers"`
+				FromTable   struct {
+					Type      string `json:"type"`
+					TableName string `json:"table_name"`
+				} `json:"from_table"`
+			} `json:"node"`
+		} `json:"statements"`
+	}
+	if err := json.Unmarshal([]byte(doc), &parsed); err != nil {
+		return err
+	}
+	bad := &Error{"not a single predicate over the ledger's columns"}
+	if len(parsed.Statements) != 1 {
+		return bad
+	}
+	n := parsed.Statements[0].Node
+	isNull := func(r json.RawMessage) bool { return len(r) == 0 || string(r) == "null" }
+	if n.Type != "SELECT_NODE" || len(n.SelectList) != 1 || !isNull(n.WhereClause) || len(n.GroupExprs) != 0 ||
+		!isNull(n.Having) || len(n.Modifiers) != 0 || n.FromTable.Type != "BASE_TABLE" || !strings.EqualFold(n.FromTable.TableName, "ledger") {
+		return bad
+	}
+	return nil
+}
