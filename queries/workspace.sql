@@ -88,3 +88,9 @@ SELECT nextval('run_seq');
 -- name: insert_run
 INSERT INTO runs (run_id, kind, started_at, finished_at, tool_version, params, result)
 VALUES (?, ?, ?, ?, ?, ?, ?);
+
+-- name: describe_table
+SELECT column_name, data_type, is_nullable
+FROM information_schema.columns
+WHERE table_schema = 'main' AND lower(table_name) = ?
+ORDER BY ordinal_position;
