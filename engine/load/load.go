@@ -416,13 +416,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 			amountExpr = "TRY_CAST(" + orig + " AS " + amountType + ")"
 			reasonExpr = "CASE WHEN " + rawExpr + " IS NULL THEN 'blank amount' WHEN lower(" + rawExpr + ") IN ('nan', '-nan', 'inf', '-inf', 'infinity', '-infinity') THEN 'not a finite number' ELSE 'out of range' END"
 		} else {
-			t := "CAST(" + orig + " AS VARCHAR)"
-			guard := "NOT contains(" + t + ", '_')"
-			if opts.DecimalComma {
-				guard += " AND NOT contains(" + t + ", '.')"
-			}
-			fast = ", CASE WHEN " + guard + " THEN TRY_CAST(" + t + " AS " + amountType + ") END AS ll_fast"
-			amountExpr = "CASE WHEN ll_fast IS NOT NULL THEN ll_fast ELSE " + parse(t) + " END"
+			fast, amountExpr = textAmountSQL("CAST("+orig+" AS VARCHAR)", opts.DecimalComma, amountType)
 			reasonExpr = "ll_amount_reason(" + rawExpr + ", " + dc + ")"
 		}
 	}
@@ -618,7 +612,11 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 	}
 	defer app.Close()
 	for _, r := range rejs {
-		if _, err := app.ExecContext(ctx, fileID, r.line, "unreadable record: "+r.reason, r.raw); err != nil {
+		reason := "unreadable record: " + r.reason
+		if strings.Contains(r.reason, "INVALID ENCODING") {
+			reason += " (not UTF-8; if the file is Latin-1 give --encoding latin-1)"
+		}
+		if _, err := app.ExecContext(ctx, fileID, r.line, reason, r.raw); err != nil {
 			return 0, err
 		}
 	}
@@ -711,4 +709,41 @@ func EntityTotals(ctx context.Context, ws *workspace.Workspace) ([]EntityTotal, 
 		out = append(out, e)
 	}
 	return out, rows.Err()
+}
+
+// textAmountSQL returns the projection that computes the fast-path value
+// (", ... AS ll_fast", evaluated once per row in the inner select) and the
+// amount expression over it, for an amount held as text. The fast path is a
+// plain DECIMAL cast, which takes the common shapes (1234.56, -5, 1e3);
+// everything else goes through the grammar of queries/amount.sql.
+func textAmountSQL(text string, decimalComma bool, amountType string) (fast, expr string) {
+	dc := "false"
+	guard := "NOT contains(" + text + ", '_')"
+	if decimalComma {
+		dc = "true"
+		guard += " AND NOT contains(" + text + ", '.')"
+	}
+	fast = ", CASE WHEN " + guard + " THEN TRY_CAST(" + text + " AS " + amountType + ") END AS ll_fast"
+	expr = "CASE WHEN ll_fast IS NOT NULL THEN ll_fast ELSE TRY_CAST(ll_amount_canonical(" + text + ", " + dc + ") AS " + amountType + ") END"
+	return fast, expr
+}
+
+// ParseText parses one amount text exactly as a load would and returns the
+// value as text (with the type's scale) or the rejection reason. It exists
+// for tests and the fuzzer, which hold it against engine/amount.
+func ParseText(ctx context.Context, ws *workspace.Workspace, s string, decimalComma bool, amountType string) (value, reason string, err error) {
+	fast, expr := textAmountSQL("v", decimalComma, amountType)
+	dc := "false"
+	if decimalComma {
+		dc = "true"
+	}
+	q := "SELECT CAST(" + expr + " AS VARCHAR), replace(ll_amount_reason(v, " + dc + "), 'out of range', 'out of range') FROM (SELECT v" + fast + " FROM (SELECT CAST(? AS VARCHAR) AS v))"
+	var val sql.NullString
+	if err := ws.Conn.QueryRowContext(ctx, q, s).Scan(&val, &reason); err != nil {
+		return "", "", err
+	}
+	if val.Valid {
+		return val.String, "", nil
+	}
+	return "", reason, nil
 }
