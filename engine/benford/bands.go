@@ -8,22 +8,23 @@ import (
 // Band is one amount range of the range table: the count of amounts in
 // [From, To) against a smooth expectation drawn from the other bands.
 type Band struct {
-	From      float64 `json:"from"`
-	To        float64 `json:"to"`
-	Count     int64   `json:"count"`
-	Expected  float64 `json:"expected"`   // smooth expectation from the neighbouring bands (0 if not scored)
-	Ratio     float64 `json:"ratio"`      // count / expected (0 if not scored)
-	Z         float64 `json:"z"`          // (count - expected) / sqrt(φ expected), φ the dispersion
-	P         float64 `json:"p"`          // one-sided upper tail, scaled Poisson
-	PAdjusted float64 `json:"p_adjusted"` // Holm over the scored bands
-	Flagged   bool    `json:"flagged"`    // PAdjusted < 0.05 and count > expected
-	Scored    bool    `json:"scored"`     // false for bands that start at or below zero, or too few bands
+	From       float64 `json:"from"`
+	To         float64 `json:"to"`
+	Count      int64   `json:"count"`
+	Expected   float64 `json:"expected"`    // smooth expectation from the neighbouring bands (0 if not scored)
+	ExpectedSE float64 `json:"expected_se"` // standard error of Expected from the fit
+	Ratio      float64 `json:"ratio"`       // count / expected (0 if not scored)
+	Z          float64 `json:"z"`           // (count - expected) / sqrt(φ expected), φ the dispersion
+	P          float64 `json:"p"`           // one-sided upper tail, scaled Poisson
+	PAdjusted  float64 `json:"p_adjusted"`  // Holm over the scored bands
+	Flagged    bool    `json:"flagged"`     // PAdjusted < 0.05 and count > expected
+	Scored     bool    `json:"scored"`      // false for bands that start at or below zero, or too few bands
 }
 
 // Parameters of the band scoring.
 const (
 	// MaxBands bounds LinearBands and LogBands.
-	MaxBands = 100000
+	MaxBands = 10000
 	// MinScoredBands is the fewest scorable bands ScoreBands works with.
 	MinScoredBands = 5
 	// BandAlpha is the family-wise error rate at which bands are flagged.
@@ -31,7 +32,7 @@ const (
 	// minNeighbours and maxNeighbours bound the neighbours on each side of
 	// a band in its local fit (see ScoreBands).
 	minNeighbours = 10
-	maxNeighbours = 30
+	maxNeighbours = 60
 )
 
 // LinearBands returns bands of equal width covering [min, max):
@@ -105,75 +106,51 @@ func LogBands(min, max float64, perDecade int) []Band {
 // ascending order of amount; only From, To and Count are read.
 //
 // The expectation works on the log scale, where a scale-invariant density
-// f(x) ∝ 1/x (the Benford case) is flat. For band i = [a, b) with count
-// n_i let
+// f(x) ∝ 1/x (the Benford case) is flat and a log-normal density is a
+// parabola. For band i = [a, b) with count n_i let
 //
 //	u_i = ln(b/a)                    its width on the log scale
 //	x_i = ln((b - a)/u_i)            the log of its logarithmic mean
 //	y_i = ln((n_i + 1/2)/u_i)        log count per unit of log width
 //
-// (the logarithmic mean is where a 1/x density takes its band average, and
-// the 1/2 is the usual start for counts that may be 0). For each band a
-// straight line y = α + βx is fitted by Siegel's repeated median
-// (A. F. Siegel, Robust regression using repeated medians, Biometrika 69,
-// 242-244, 1982) through its nearest scorable neighbours, h on each side
-// (h = n/4 clamped to [10, 30], shifted inwards at the ends of the range),
-// the band itself excluded; then Expected_i = u_i exp(α + β x_i). The
-// repeated median tolerates up to half the neighbours being inflated, so a
-// block of several adjacent inflated bands neither hides itself nor is
-// absorbed into its neighbours' expectations, and a straight line on the
-// log scale follows any smooth trend (a power law exactly). Linear and
-// logarithmic bands are treated alike.
+// (the logarithmic mean is where a 1/x density takes its band average; the
+// 1/2 is the usual start for counts that may be 0). For each band a
+// quadratic in x is fitted by weighted least squares through its nearest
+// scorable neighbours, h on each side (h = m/4 clamped to [10, 60] for m
+// scorable bands, shifted inwards at the ends of the range, a straight
+// line when fewer than 10 neighbours), the band itself left out; then
+// Expected_i = u_i exp(ŷ_i). The weights are the precision of y_j (about
+// n_j + 1/2) times robustness weights: Tukey's biweight with tuning
+// constant 4.685 of the standardized leave-one-out residuals
+// (y_j - ŷ_j) sqrt(n_j + 1/2), scaled by their median absolute value, over
+// five iterations (the robust locally weighted regression of
+// W. S. Cleveland, Robust locally weighted regression and smoothing
+// scatterplots, JASA 74, 829-836, 1979, with a flat window and precision
+// weights). Inflated bands, alone or in a block up to about a third of the
+// window, get weight 0 and neither hide themselves nor lift their
+// neighbours' expectations. Linear and logarithmic bands are treated
+// alike. ExpectedSE is the standard error of Expected from the fit,
+// Expected · sqrt(v_i) with v_i the fit's variance at x_i.
 //
-// With Pearson residuals z_i = (n_i - E_i)/sqrt(E_i), the dispersion is
+// With z_i = (n_i - E_i)/sqrt(E_i + E_i² v_i), the dispersion is
 // φ = max(1, (1.4826 · MAD(z))²), a robust quasi-Poisson scale (the median
-// absolute deviation about the median, scaled to the normal standard
-// deviation; Hampel 1974) that absorbs both the noise of the fit and any
-// misfit of the smooth trend common to most bands. Then
+// absolute deviation about the median scaled to a normal standard
+// deviation; Hampel 1974) that absorbs any misfit of the smooth trend
+// common to most bands. Then, with φ_i = φ (1 + E_i v_i),
 //
-//	Z_i = (n_i - E_i) / sqrt(φ E_i)
-//	P_i = P(X >= n_i/φ), X ~ Poisson(E_i/φ)   (PoissonUpperTail; exact Poisson when φ = 1)
+//	Z_i = (n_i - E_i) / sqrt(φ_i E_i)
+//	P_i = P(X >= n_i/φ_i), X ~ Poisson(E_i/φ_i)   (PoissonUpperTail; exact Poisson when φ_i = 1)
 //
 // and the one-sided P_i are adjusted over the scored bands with Holm's
 // procedure (Holm); a band is flagged when PAdjusted < 0.05 and it holds
 // more than expected. Shortfalls are never flagged.
 //
-// A band that starts at or below zero has no log scale position: it is
+// A band that starts at or below zero has no log-scale position: it is
 // left unscored (Scored false, Expected 0, P and PAdjusted 1), as are all
 // bands when fewer than MinScoredBands are scorable. The first band of
 // LinearBands(0, ...) is such a band; under a 1/x density its count is
 // dominated by the smallest amounts in any case.
 func ScoreBands(bands []Band) {
-	scoreBands(bands)
-}
-
-// BandDispersion returns the dispersion φ >= 1 that ScoreBands used for
-// the scored bands (1 if none are scored).
-func BandDispersion(bands []Band) float64 {
-	var z []float64
-	for _, b := range bands {
-		if b.Scored && b.Expected > 0 {
-			z = append(z, (float64(b.Count)-b.Expected)/math.Sqrt(b.Expected))
-		}
-	}
-	return dispersion(z)
-}
-
-// dispersion returns max(1, (1.4826 MAD(z))²).
-func dispersion(z []float64) float64 {
-	if len(z) == 0 {
-		return 1
-	}
-	m := median(append([]float64(nil), z...))
-	dev := make([]float64, len(z))
-	for i, v := range z {
-		dev[i] = math.Abs(v - m)
-	}
-	s := 1.4826 * median(dev)
-	return math.Max(1, s*s)
-}
-
-func scoreBands(bands []Band) {
 	var idx []int // scorable bands
 	for i := range bands {
 		b := &bands[i]
@@ -189,42 +166,81 @@ func scoreBands(bands []Band) {
 	x := make([]float64, m)
 	y := make([]float64, m)
 	u := make([]float64, m)
+	w := make([]float64, m) // precision of y
 	for s, i := range idx {
 		b := bands[i]
 		u[s] = math.Log(b.To / b.From)
 		x[s] = math.Log((b.To - b.From) / u[s])
-		y[s] = math.Log((float64(b.Count) + 0.5) / u[s])
+		w[s] = float64(b.Count) + 0.5
+		y[s] = math.Log(w[s] / u[s])
 	}
 	h := min(max(m/4, minNeighbours), maxNeighbours)
 	win := min(2*h, m-1)
-	nx := make([]float64, 0, win)
-	ny := make([]float64, 0, win)
-	slopes := make([]float64, 0, win)
-	z := make([]float64, 0, m)
-	for s, i := range idx {
-		lo := max(0, min(s-h, m-1-win))
-		hi := lo + win // inclusive; window of win+1 positions containing s
-		nx, ny = nx[:0], ny[:0]
-		for t := lo; t <= hi; t++ {
-			if t != s {
-				nx = append(nx, x[t]-x[s])
-				ny = append(ny, y[t])
+	window := func(s, win int) (lo, hi int) {
+		lo = max(0, min(s-win/2, m-1-win))
+		return lo, lo + win
+	}
+	yhat := make([]float64, m)
+	v := make([]float64, m)
+	// Robust start: a least-median-of-squares quadratic through each
+	// band's neighbours (lmsQuadraticAt0), which no block of fewer than
+	// half the neighbours can move.
+	{
+		nx := make([]float64, 0, win)
+		ny := make([]float64, 0, win)
+		scratch := make([]float64, 0, win)
+		for s := range m {
+			lo, hi := window(s, win)
+			nx, ny = nx[:0], ny[:0]
+			for t := lo; t <= hi; t++ {
+				if t != s {
+					nx = append(nx, x[t]-x[s])
+					ny = append(ny, y[t])
+				}
 			}
+			yhat[s] = lmsQuadraticAt0(nx, ny, scratch)
 		}
-		pred := repeatedMedianAt0(nx, ny, slopes)
-		e := u[s] * math.Exp(pred)
+	}
+	rw := make([]float64, m) // robustness weights
+	e := make([]float64, m)
+	abs := make([]float64, m)
+	for iter := 0; ; iter++ {
+		// Robustness weights from the leave-one-out residuals on the log
+		// scale, each against the larger of the common scale and the
+		// band's own Poisson noise.
+		for s := range m {
+			e[s] = y[s] - yhat[s]
+			abs[s] = math.Abs(e[s])
+		}
+		sc := 1.4826 * median(abs)
+		for s := range m {
+			rw[s] = biweight(e[s] / (biweightC * math.Sqrt(sc*sc+1/w[s])))
+		}
+		for s := range m {
+			lo, hi := window(s, win)
+			yhat[s], v[s] = localFit(x, y, w, rw, s, lo, hi)
+		}
+		if iter == robustIterations {
+			break
+		}
+	}
+	z := make([]float64, m)
+	for s, i := range idx {
 		b := &bands[i]
+		e := u[s] * math.Exp(yhat[s])
 		b.Expected = e
+		b.ExpectedSE = e * math.Sqrt(v[s])
 		b.Scored = true
 		b.Ratio = float64(b.Count) / e
-		z = append(z, (float64(b.Count)-e)/math.Sqrt(e))
+		z[s] = (float64(b.Count) - e) / math.Sqrt(e+b.ExpectedSE*b.ExpectedSE)
 	}
 	phi := dispersion(z)
 	p := make([]float64, m)
 	for s, i := range idx {
 		b := &bands[i]
-		b.Z = (float64(b.Count) - b.Expected) / math.Sqrt(phi*b.Expected)
-		b.P = PoissonUpperTail(float64(b.Count)/phi, b.Expected/phi)
+		phiI := phi * (1 + b.ExpectedSE*b.ExpectedSE/b.Expected)
+		b.Z = (float64(b.Count) - b.Expected) / math.Sqrt(phiI*b.Expected)
+		b.P = PoissonUpperTail(float64(b.Count)/phiI, b.Expected/phiI)
 		p[s] = b.P
 	}
 	adj := Holm(p)
@@ -235,36 +251,229 @@ func scoreBands(bands []Band) {
 	}
 }
 
-// repeatedMedianAt0 fits y = α + βx by Siegel's repeated median,
-//
-//	β = med_i med_{j≠i} (y_j - y_i)/(x_j - x_i),   α = med_i (y_i - β x_i),
-//
-// and returns α, the fitted value at x = 0. Pairs with equal x are
-// skipped. With fewer than two distinct x it returns the median of y.
-// scratch is reused storage.
-func repeatedMedianAt0(x, y, scratch []float64) float64 {
-	n := len(x)
-	inner := make([]float64, 0, n)
-	for i := 0; i < n; i++ {
-		scratch = scratch[:0]
-		for j := 0; j < n; j++ {
-			if j != i && x[j] != x[i] {
-				scratch = append(scratch, (y[j]-y[i])/(x[j]-x[i]))
+const (
+	robustIterations = 4
+	lmsPerThird      = 5
+	biweightC        = 4.685 // Tukey's biweight tuning constant (95% efficiency at the normal)
+)
+
+// biweight returns Tukey's biweight (1 - t²)² for |t| < 1, else 0.
+func biweight(t float64) float64 {
+	if math.Abs(t) >= 1 {
+		return 0
+	}
+	a := 1 - t*t
+	return a * a
+}
+
+// localFit fits y ≈ b0 + b1 (x - x_s) + b2 (x - x_s)² by weighted least
+// squares over positions lo..hi except s, with weights w·rw, and returns
+// the fitted value b0 at x_s and its variance [(XᵀWX)⁻¹]₀₀. It uses a
+// straight line when fewer than 10 points carry weight, and falls back to
+// lower degrees when the normal equations are singular; with no weight at
+// all it returns the median of the window's y and a variance of 0.
+func localFit(x, y, w, rw []float64, s, lo, hi int) (fit, variance float64) {
+	npos := 0
+	for t := lo; t <= hi; t++ {
+		if t != s && w[t]*rw[t] > 0 {
+			npos++
+		}
+	}
+	deg := 2
+	if npos < 10 {
+		deg = 1
+	}
+	for ; deg >= 0; deg-- {
+		if npos <= deg {
+			continue
+		}
+		var a [3][3]float64
+		var rhs [3]float64
+		for t := lo; t <= hi; t++ {
+			wt := w[t] * rw[t]
+			if t == s || wt == 0 {
+				continue
+			}
+			d := x[t] - x[s]
+			f := [3]float64{1, d, d * d}
+			for r := 0; r <= deg; r++ {
+				rhs[r] += wt * f[r] * y[t]
+				for c := 0; c <= deg; c++ {
+					a[r][c] += wt * f[r] * f[c]
+				}
 			}
 		}
-		if len(scratch) > 0 {
-			inner = append(inner, median(scratch))
+		inv, ok := invertSym(a, deg+1)
+		if !ok {
+			continue
+		}
+		var b0 float64
+		for c := 0; c <= deg; c++ {
+			b0 += inv[0][c] * rhs[c]
+		}
+		return b0, math.Max(0, inv[0][0])
+	}
+	var win []float64
+	for t := lo; t <= hi; t++ {
+		if t != s {
+			win = append(win, y[t])
 		}
 	}
-	if len(inner) == 0 {
-		return median(append([]float64(nil), y...))
+	return median(win), 0
+}
+
+// invertSym inverts the leading n×n block of a by Gauss-Jordan elimination
+// with partial pivoting, reporting false when it is (nearly) singular.
+func invertSym(a [3][3]float64, n int) (inv [3][3]float64, ok bool) {
+	var m [3][6]float64
+	var norm float64
+	for r := range n {
+		for c := range n {
+			m[r][c] = a[r][c]
+			norm = math.Max(norm, math.Abs(a[r][c]))
+		}
+		m[r][n+r] = 1
 	}
-	beta := median(inner)
-	res := make([]float64, n)
-	for i := range res {
-		res[i] = y[i] - beta*x[i]
+	if norm == 0 {
+		return inv, false
 	}
-	return median(res)
+	for c := range n {
+		p := c
+		for r := c + 1; r < n; r++ {
+			if math.Abs(m[r][c]) > math.Abs(m[p][c]) {
+				p = r
+			}
+		}
+		if math.Abs(m[p][c]) <= 1e-12*norm {
+			return inv, false
+		}
+		m[c], m[p] = m[p], m[c]
+		piv := m[c][c]
+		for k := range 2 * n {
+			m[c][k] /= piv
+		}
+		for r := range n {
+			if r != c && m[r][c] != 0 {
+				f := m[r][c]
+				for k := range 2 * n {
+					m[r][k] -= f * m[c][k]
+				}
+			}
+		}
+	}
+	for r := range n {
+		for c := range n {
+			inv[r][c] = m[r][n+c]
+		}
+	}
+	return inv, true
+}
+
+// BandDispersion returns the dispersion φ >= 1 that ScoreBands used for
+// the scored bands (1 if none are scored).
+func BandDispersion(bands []Band) float64 {
+	var z []float64
+	for _, b := range bands {
+		if b.Scored && b.Expected > 0 {
+			z = append(z, (float64(b.Count)-b.Expected)/math.Sqrt(b.Expected+b.ExpectedSE*b.ExpectedSE))
+		}
+	}
+	return dispersion(z)
+}
+
+// dispersion returns max(1, (1.4826 MAD(z))²), the MAD taken about the
+// median.
+func dispersion(z []float64) float64 {
+	if len(z) == 0 {
+		return 1
+	}
+	m := median(append([]float64(nil), z...))
+	dev := make([]float64, len(z))
+	for i, v := range z {
+		dev[i] = math.Abs(v - m)
+	}
+	s := 1.4826 * median(dev)
+	return math.Max(1, s*s)
+}
+
+// lmsQuadraticAt0 returns, at x = 0, the quadratic through three of the
+// points (x, y) that minimizes the median absolute residual over all of
+// them: a least-median-of-squares fit (P. J. Rousseeuw, Least median of
+// squares regression, JASA 79, 871-880, 1984) searched over the triples
+// that take one point from each third of the points (in x order), up to
+// lmsPerThird evenly spaced choices a third. A contiguous block of
+// outliers spoils only the triples that touch it. With fewer than six
+// points it returns the median of y. scratch is reused storage.
+func lmsQuadraticAt0(x, y, scratch []float64) float64 {
+	n := len(x)
+	if n < 6 {
+		return median(append(scratch[:0], y...))
+	}
+	pick := func(lo, hi int) []int { // up to lmsPerThird evenly spaced in [lo, hi)
+		k := min(lmsPerThird, hi-lo)
+		out := make([]int, k)
+		for i := range out {
+			out[i] = lo + (2*i+1)*(hi-lo)/(2*k)
+		}
+		return out
+	}
+	A, B, C := pick(0, n/3), pick(n/3, 2*n/3), pick(2*n/3, n)
+	best, bestFit := math.Inf(1), median(append(scratch[:0], y...))
+	for _, a := range A {
+		for _, b := range B {
+			for _, c := range C {
+				xa, xb, xc := x[a], x[b], x[c]
+				if xa == xb || xb == xc || xa == xc {
+					continue
+				}
+				// Newton form: q(t) = y_a + d1 (t - x_a) + d2 (t - x_a)(t - x_b)
+				d1 := (y[b] - y[a]) / (xb - xa)
+				d2 := ((y[c]-y[b])/(xc-xb) - d1) / (xc - xa)
+				scratch = scratch[:0]
+				for i := range n {
+					q := y[a] + d1*(x[i]-xa) + d2*(x[i]-xa)*(x[i]-xb)
+					scratch = append(scratch, math.Abs(y[i]-q))
+				}
+				if crit := selectK(scratch, n/2); crit < best {
+					best = crit
+					bestFit = y[a] + d1*(0-xa) + d2*(0-xa)*(0-xb)
+				}
+			}
+		}
+	}
+	return bestFit
+}
+
+// selectK returns the k-th smallest element (0-based) of v, reordering v
+// (Hoare's selection).
+func selectK(v []float64, k int) float64 {
+	lo, hi := 0, len(v)-1
+	for lo < hi {
+		p := v[(lo+hi)/2]
+		i, j := lo, hi
+		for i <= j {
+			for v[i] < p {
+				i++
+			}
+			for v[j] > p {
+				j--
+			}
+			if i <= j {
+				v[i], v[j] = v[j], v[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return v[k]
+		}
+	}
+	return v[k]
 }
 
 // median returns the median of v, reordering v. It returns 0 for an empty

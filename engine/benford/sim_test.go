@@ -70,7 +70,6 @@ func simulate(seed uint64, inject bool) population {
 		linBands: make([]int64, len(simLinBands)),
 	}
 	le := limitEdges()
-	lge := bandEdges(simLogBands)
 	lne := bandEdges(simLinBands)
 	add := func(x, l10 float64) { // l10 = log10(x)
 		// first two digits
@@ -93,8 +92,8 @@ func simulate(seed uint64, inject bool) population {
 				p.above[i/3]++
 			}
 		}
-		if i := bandIndex(lge, x); i >= 0 {
-			p.logBands[i]++
+		if i := int(math.Floor((l10 - 1) * 10)); i >= 0 && i < len(p.logBands) {
+			p.logBands[i]++ // simLogBands: 10 a decade from 10
 		}
 		if x >= 20000 {
 			return
