@@ -115,22 +115,30 @@ func LogBands(min, max float64, perDecade int) []Band {
 //
 // (the logarithmic mean is where a 1/x density takes its band average; the
 // 1/2 is the usual start for counts that may be 0). For each band a
-// quadratic in x is fitted by weighted least squares through its nearest
-// scorable neighbours, h on each side (h = m/4 clamped to [10, 60] for m
-// scorable bands, shifted inwards at the ends of the range, a straight
-// line when fewer than 10 neighbours), the band itself left out; then
-// Expected_i = u_i exp(ŷ_i). The weights are the precision of y_j (about
-// n_j + 1/2) times robustness weights: Tukey's biweight with tuning
-// constant 4.685 of the standardized leave-one-out residuals
-// (y_j - ŷ_j) sqrt(n_j + 1/2), scaled by their median absolute value, over
-// five iterations (the robust locally weighted regression of
-// W. S. Cleveland, Robust locally weighted regression and smoothing
-// scatterplots, JASA 74, 829-836, 1979, with a flat window and precision
-// weights). Inflated bands, alone or in a block up to about a third of the
-// window, get weight 0 and neither hide themselves nor lift their
-// neighbours' expectations. Linear and logarithmic bands are treated
-// alike. ExpectedSE is the standard error of Expected from the fit,
-// Expected · sqrt(v_i) with v_i the fit's variance at x_i.
+// quadratic in x is fitted through its nearest scorable neighbours, h on
+// each side (h = m/4 clamped to [10, 60] for m scorable bands; the window
+// is shifted inwards at the ends of the range), the band itself left out;
+// then Expected_i = u_i exp(ŷ_i). The fit is robust in two steps:
+//
+//  1. start: a least-median-of-squares quadratic (Rousseeuw 1984) through
+//     each band's window, searched over triples with one point from each
+//     third of the window (lmsQuadraticAt0); a block of inflated bands
+//     covering less than half the window does not move it;
+//  2. five passes of weighted least squares (the robustness iterations of
+//     Cleveland 1979, with a flat window): with e_j = y_j - ŷ_j the
+//     leave-one-out residuals of the previous pass and s = 1.4826 med|e|,
+//     band j gets weight (n_j + 1/2) · B(e_j / (4.685 sqrt(s² + 1/(n_j + 1/2))))
+//     where n_j + 1/2 is the precision of y_j and B(t) = (1 - t²)² for
+//     |t| < 1, else 0, is Tukey's biweight. A residual is thus judged
+//     against the larger of the common misfit and the band's own Poisson
+//     noise. A straight line is used where fewer than 10 neighbours carry
+//     weight.
+//
+// Inflated bands, alone or in a block up to about a third of the window,
+// get weight 0 and neither hide themselves nor lift their neighbours'
+// expectations. Linear and logarithmic bands are treated alike.
+// ExpectedSE = Expected · sqrt(v_i) is the standard error of Expected,
+// v_i = [(XᵀWX)⁻¹]₀₀ the variance of the last pass's fit at x_i.
 //
 // With z_i = (n_i - E_i)/sqrt(E_i + E_i² v_i), the dispersion is
 // φ = max(1, (1.4826 · MAD(z))²), a robust quasi-Poisson scale (the median
@@ -183,8 +191,7 @@ func ScoreBands(bands []Band) {
 	yhat := make([]float64, m)
 	v := make([]float64, m)
 	// Robust start: a least-median-of-squares quadratic through each
-	// band's neighbours (lmsQuadraticAt0), which no block of fewer than
-	// half the neighbours can move.
+	// band's neighbours (lmsQuadraticAt0).
 	{
 		nx := make([]float64, 0, win)
 		ny := make([]float64, 0, win)

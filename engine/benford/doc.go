@@ -34,9 +34,10 @@
 //     & Theory 28(2), 305-324: the second-order test.
 //   - B. Barney and K. Schulzke (2016), Moderating "cry wolf" events with
 //     excess MAD in Benford's law research and practice, Journal of Forensic
-//     Accounting Research 1(1): the excess MAD.
-//   - R. Cerqueti and C. Lupi (2022), on the asymptotic distribution of the
-//     MAD in Benford tests (from memory).
+//     Accounting Research 1(1) (title and journal from memory): the excess
+//     MAD.
+//   - R. Cerqueti and C. Lupi (2022): the asymptotic distribution of the
+//     MAD (as cited in DESIGN.md; title not checked).
 //   - L. A. Goodman (1965), On simultaneous confidence intervals for
 //     multinomial proportions, Technometrics 7(2), 247-254; as recommended
 //     by M. Lesperance, W. J. Reed, M. A. Stephens, C. Tsao and B. Wilton
@@ -47,8 +48,13 @@
 //     147-162: the runs test.
 //   - S. Holm (1979), A simple sequentially rejective multiple test
 //     procedure, Scandinavian Journal of Statistics 6(2), 65-70.
-//   - A. F. Siegel (1982), Robust regression using repeated medians,
-//     Biometrika 69(1), 242-244: the range table's neighbour fit.
+//   - W. S. Cleveland (1979), Robust locally weighted regression and
+//     smoothing scatterplots, Journal of the American Statistical
+//     Association 74, 829-836: the range table's neighbour fit (robustness
+//     iterations with Tukey's biweight).
+//   - P. J. Rousseeuw (1984), Least median of squares regression, Journal of
+//     the American Statistical Association 79, 871-880: the robust start of
+//     that fit.
 //   - F. R. Hampel (1974), The influence curve and its role in robust
 //     estimation, Journal of the American Statistical Association 69,
 //     383-393: the MAD scale estimate used for the range table's dispersion.
