@@ -10,6 +10,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"os"
 	"sort"
 	"strings"
 	"time"
@@ -440,9 +441,14 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		"fast":        fast,
 		"reader":      reader,
 	})
+	t0 := time.Now()
+	if tracing {
+		fmt.Fprintln(os.Stderr, insert)
+	}
 	if _, err := tx.ExecContext(ctx, insert); err != nil {
 		return nil, fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
+	trace("insert", t0)
 	var fromReader, maxLine int64
 	if err := tx.QueryRowContext(ctx, queries.Get("load_file_counts"), fr.FileID).Scan(&fromReader, &maxLine); err != nil {
 		return nil, err
@@ -474,6 +480,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	} else if _, err := tx.ExecContext(ctx, queries.Get("load_delete_rejected_no_date"), fr.FileID); err != nil {
 		return nil, err
 	}
+	trace("rejects", t0)
 	if err := tx.QueryRowContext(ctx, queries.Get("load_rejected_count"), fr.FileID).Scan(&fr.RowsRejected); err != nil {
 		return nil, err
 	}
@@ -502,6 +509,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		FROM ledger WHERE file_id = ?`, fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
 		return nil, err
 	}
+	trace("counts", t0)
 	mapJSON, _ := json.Marshal(m)
 	dialect, _ := json.Marshal(map[string]any{"delimiter": src.Delimiter, "encoding": src.Encoding, "gzip": src.Gzip,
 		"decimal_comma": opts.DecimalComma, "amount_type": amountType, "date_format": opts.DateFormat})
@@ -746,4 +754,14 @@ func ParseText(ctx context.Context, ws *workspace.Workspace, s string, decimalCo
 		return val.String, "", nil
 	}
 	return "", reason, nil
+}
+
+var tracing = os.Getenv("LEADLINE_TRACE") != ""
+
+// trace prints how long a load step has taken so far, when LEADLINE_TRACE
+// is set: a plain aid for finding where a slow load spends its time.
+func trace(step string, since time.Time) {
+	if tracing {
+		fmt.Fprintf(os.Stderr, "trace: %-10s %6.2fs\n", step, time.Since(since).Seconds())
+	}
 }
