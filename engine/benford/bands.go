@@ -231,9 +231,23 @@ func ScoreBands(bands []Band) {
 			break
 		}
 	}
+	// Keep extrapolations at the ends of the range finite: no expectation
+	// beyond e^20 times the extreme observed densities, and a relative
+	// standard error of at most 10.
+	ylo, yhi := y[0], y[0]
+	for _, t := range y {
+		ylo, yhi = math.Min(ylo, t), math.Max(yhi, t)
+	}
 	z := make([]float64, m)
 	for s, i := range idx {
 		b := &bands[i]
+		if math.IsNaN(yhat[s]) {
+			yhat[s] = median(append([]float64(nil), y...))
+		}
+		yhat[s] = math.Min(math.Max(yhat[s], ylo-20), yhi+20)
+		if !(v[s] <= 100) {
+			v[s] = 100
+		}
 		e := u[s] * math.Exp(yhat[s])
 		b.Expected = e
 		b.ExpectedSE = e * math.Sqrt(v[s])

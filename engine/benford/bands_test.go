@@ -1,6 +1,7 @@
 package benford
 
 import (
+	"encoding/json"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -203,6 +204,32 @@ func TestScoreBandsDegenerate(t *testing.T) {
 	for _, x := range z {
 		if !x.Scored || x.Flagged || math.IsNaN(x.Z) || math.IsNaN(x.P) || math.IsInf(x.Expected, 0) {
 			t.Errorf("zero counts: %+v", x)
+		}
+	}
+}
+
+// TestScoreBandsExtreme: lopsided counts and widths stay finite and encode
+// as JSON.
+func TestScoreBandsExtreme(t *testing.T) {
+	for _, bands := range [][]Band{LogBands(1e-3, 1e12, 3), LinearBands(1e9, 1e9+1000, 1), LinearBands(-50, 50, 10)} {
+		for i := range bands {
+			switch {
+			case i == len(bands)/2:
+				bands[i].Count = 1 << 40
+			case i%7 == 0:
+				bands[i].Count = int64(i * i * i)
+			}
+		}
+		ScoreBands(bands)
+		for _, b := range bands {
+			for _, f := range []float64{b.Expected, b.ExpectedSE, b.Ratio, b.Z, b.P, b.PAdjusted} {
+				if math.IsNaN(f) || math.IsInf(f, 0) {
+					t.Fatalf("band %+v", b)
+				}
+			}
+		}
+		if _, err := json.Marshal(bands); err != nil {
+			t.Error(err)
 		}
 	}
 }

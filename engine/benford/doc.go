@@ -16,7 +16,8 @@
 // comment. Values recalled rather than looked up are marked "from memory";
 // rules of thumb of the trade are marked "common practice, no source".
 //
-// Sources:
+// Sources (bibliographic details from memory unless a test checks a value
+// against them):
 //
 //   - F. Benford (1938), The law of anomalous numbers, Proceedings of the
 //     American Philosophical Society 78(4), 551-572: expected proportions.
