@@ -1,0 +1,463 @@
+// Package duplicates runs leadline's duplicate tests over the ledger, each
+// group ranked and addressable for drill-down:
+//
+//   - exact: exact duplicates, the same amount, counterparty, posted date
+//     and document, two records or more;
+//   - same_amount: the same amount and counterparty under two or more
+//     documents (possible double payments), optionally only where two
+//     documents fall within a window of days;
+//   - same_doc: the same document and counterparty with different amounts;
+//   - spread: one amount spread across many counterparties;
+//   - rsf: the relative size factor per counterparty, the largest amount
+//     divided by the second largest (M. J. Nigrini (2012), Benford's Law,
+//     Wiley; the factor as described there, from memory).
+//
+// A test whose key columns the ledger lacks (never filled: not mapped at
+// load) is reported as skipped with the column it needs, not as an error.
+// The tests run in DuckDB over the population of drill.Base (filter, signs,
+// minimum, with the scan's defaults); only the top groups reach Go.
+//
+// A stored run keeps each group's key, so that `leadline drill --dup
+// RUN:TEST:GROUP` lists its records again (GroupSelection).
+//
+// Results are signals for follow-up, never proof of fraud: recurring
+// payments, instalments and round prices produce many innocent groups.
+package duplicates
+
+import (
+	"context"
+	"database/sql"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
+)
+
+// Test names, stable in JSON, CSV and group references.
+const (
+	Exact      = "exact"
+	SameAmount = "same_amount"
+	SameDoc    = "same_doc"
+	Spread     = "spread"
+	RSF        = "rsf"
+)
+
+// Tests lists the tests in the order they run and print.
+var Tests = []string{Exact, SameAmount, SameDoc, Spread, RSF}
+
+// Defaults.
+const (
+	DefaultTop               = 20 // groups kept per test
+	DefaultMinCounterparties = 3  // spread: counterparties an amount must reach
+	DefaultMinRecords        = 3  // rsf: records a counterparty must have (our own default)
+)
+
+// Kind is the kind of the stored run.
+const Kind = "duplicates"
+
+// Options say which tests to run over which population.
+type Options struct {
+	drill.Base
+	Tests             []string `json:"tests"`              // default: all
+	WindowDays        int      `json:"window_days"`        // same_amount: 0 = any dates; N = documents within N days
+	MinCounterparties int      `json:"min_counterparties"` // spread
+	MinRecords        int      `json:"min_records"`        // rsf
+	Top               int      `json:"top"`                // groups kept per test; -1 = all
+}
+
+func (o *Options) defaults() {
+	o.Base = o.Base.WithDefaults()
+	if len(o.Tests) == 0 {
+		o.Tests = append([]string(nil), Tests...)
+	}
+	if o.MinCounterparties == 0 {
+		o.MinCounterparties = DefaultMinCounterparties
+	}
+	if o.MinRecords == 0 {
+		o.MinRecords = DefaultMinRecords
+	}
+	if o.Top == 0 {
+		o.Top = DefaultTop
+	}
+}
+
+func (o *Options) check() error {
+	seen := map[string]bool{}
+	for i, t := range o.Tests {
+		t = strings.ToLower(strings.TrimSpace(t))
+		o.Tests[i] = t
+		if _, ok := titles[t]; !ok {
+			return fmt.Errorf("--tests: unknown test %q; give any of %s", t, strings.Join(Tests, ", "))
+		}
+		if seen[t] {
+			return fmt.Errorf("--tests: %s given twice", t)
+		}
+		seen[t] = true
+	}
+	if o.WindowDays < 0 {
+		return fmt.Errorf("--window-days %d: give 0 (any dates) or a number of days", o.WindowDays)
+	}
+	if o.MinCounterparties < 2 {
+		return fmt.Errorf("--min-counterparties %d: give 2 or more", o.MinCounterparties)
+	}
+	if o.MinRecords < 2 {
+		return fmt.Errorf("--min-records %d: the size factor needs 2 records or more", o.MinRecords)
+	}
+	if o.Top < -1 {
+		return fmt.Errorf("--top %d: give a number of groups, or -1 for all", o.Top)
+	}
+	return drill.CheckSigns(o.Signs)
+}
+
+var titles = map[string]string{
+	Exact:      "exact duplicates: same amount, counterparty, date and document",
+	SameAmount: "same amount and counterparty, different documents (possible double payments)",
+	SameDoc:    "same document and counterparty, different amounts",
+	Spread:     "one amount across many counterparties",
+	RSF:        "relative size factor: largest / second-largest amount per counterparty (Nigrini 2012)",
+}
+
+var rankings = map[string]string{
+	Exact:      "excess amount |amount| x (records - 1), largest first",
+	SameAmount: "excess amount |amount| x (documents - 1), largest first",
+	SameDoc:    "sum of absolute amounts, largest first",
+	Spread:     "counterparties, then records, most first",
+	RSF:        "relative size factor, largest first",
+}
+
+// needs lists the key columns of each test.
+func needs(test string, o Options) []string {
+	switch test {
+	case Exact:
+		return []string{"counterparty", "doc_id", "posted"}
+	case SameAmount:
+		if o.WindowDays > 0 {
+			return []string{"counterparty", "doc_id", "posted"}
+		}
+		return []string{"counterparty", "doc_id"}
+	case SameDoc:
+		return []string{"counterparty", "doc_id"}
+	}
+	return []string{"counterparty"}
+}
+
+// Group is one duplicate group. Which fields are set depends on the test
+// (docs/json.md lists them); amounts are exact decimal text.
+type Group struct {
+	ID             int     `json:"id"`            // rank within the test, from 1
+	Ref            string  `json:"ref,omitempty"` // RUN:TEST:ID for leadline drill --dup
+	Amount         string  `json:"amount,omitempty"`
+	Counterparty   string  `json:"counterparty,omitempty"`
+	DocID          string  `json:"doc_id,omitempty"`
+	Posted         string  `json:"posted,omitempty"`
+	FirstPosted    string  `json:"first_posted,omitempty"`
+	LastPosted     string  `json:"last_posted,omitempty"`
+	Records        int64   `json:"records"`
+	Documents      int64   `json:"documents,omitempty"`
+	Amounts        int64   `json:"amounts,omitempty"` // distinct amounts
+	Counterparties int64   `json:"counterparties,omitempty"`
+	MinAmount      string  `json:"min_amount,omitempty"`
+	MaxAmount      string  `json:"max_amount,omitempty"`
+	Largest        string  `json:"largest,omitempty"`
+	Second         string  `json:"second,omitempty"`
+	RSF            float64 `json:"rsf,omitempty"`
+	Excess         string  `json:"excess,omitempty"`
+	Total          string  `json:"total"`
+}
+
+// TestResult is what one test found.
+type TestResult struct {
+	Test         string   `json:"test"`
+	Title        string   `json:"title"`
+	Status       string   `json:"status"`           // ok or skipped
+	Reason       string   `json:"reason,omitempty"` // why skipped, e.g. "needs doc_id"
+	Needs        []string `json:"needs"`
+	Ranking      string   `json:"ranking"`
+	GroupsTotal  int64    `json:"groups_total"`  // groups found (Groups holds the top ones)
+	RecordsTotal int64    `json:"records_total"` // records in all groups found
+	Groups       []Group  `json:"groups"`
+	Seconds      float64  `json:"seconds"`
+}
+
+// Result is a duplicates run: the document `leadline dups --format json`
+// prints and the workspace stores.
+type Result struct {
+	RunID         int64        `json:"run_id"` // 0 until stored
+	Kind          string       `json:"kind"`
+	StartedAt     time.Time    `json:"started_at"`
+	AmountType    string       `json:"amount_type"`
+	Options       Options      `json:"options"`
+	RecordsTested int64        `json:"records_tested"`
+	Tests         []TestResult `json:"tests"`
+	Seconds       float64      `json:"seconds"`
+	Note          string       `json:"note"`
+}
+
+// Note is printed with every result.
+const Note = "Duplicate groups are signals for follow-up, never proof of fraud: recurring payments, instalments and fixed prices make innocent groups."
+
+// Run runs the tests. It does not store the result; see Save.
+func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, error) {
+	started := time.Now()
+	o.defaults()
+	if err := o.check(); err != nil {
+		return nil, err
+	}
+	at, err := drill.LedgerAmountType(ctx, ws)
+	if err != nil {
+		return nil, err
+	}
+	base, err := o.Base.Predicate(ctx, ws, at)
+	if err != nil {
+		return nil, err
+	}
+	res := &Result{Kind: Kind, StartedAt: started.UTC(), AmountType: at.SQL(), Options: o, Note: Note}
+	if err := ws.Conn.QueryRowContext(ctx, queries.Render("dup_records_tested", map[string]string{"base": base.SQL}), base.Args...).Scan(&res.RecordsTested); err != nil {
+		return nil, fmt.Errorf("duplicates: %w", err)
+	}
+	have := map[string]bool{}
+	var cp, doc, posted int64
+	if err := ws.Conn.QueryRowContext(ctx, queries.Get("dup_columns")).Scan(&cp, &doc, &posted); err != nil {
+		return nil, fmt.Errorf("duplicates: %w", err)
+	}
+	have["counterparty"], have["doc_id"], have["posted"] = cp > 0, doc > 0, posted > 0
+	repl := map[string]string{"base": base.SQL, "wide": fmt.Sprintf("DECIMAL(38,%d)", at.Scale)}
+	limit := int64(o.Top)
+	if limit < 0 {
+		limit = 1 << 62
+	}
+	for _, test := range o.Tests {
+		tr := TestResult{Test: test, Title: titles[test], Status: "ok", Needs: needs(test, o), Ranking: rankings[test], Groups: []Group{}}
+		var missing []string
+		for _, c := range tr.Needs {
+			if !have[c] {
+				missing = append(missing, c)
+			}
+		}
+		if len(missing) > 0 {
+			tr.Status = "skipped"
+			tr.Reason = "needs " + strings.Join(missing, ", ") + " (not in this ledger; map it at load with --map)"
+			res.Tests = append(res.Tests, tr)
+			continue
+		}
+		t0 := time.Now()
+		if err := runTest(ctx, ws, test, o, repl, base.Args, limit, &tr); err != nil {
+			return nil, fmt.Errorf("duplicates, test %s: %w", test, err)
+		}
+		tr.Seconds = time.Since(t0).Seconds()
+		res.Tests = append(res.Tests, tr)
+	}
+	res.Seconds = time.Since(started).Seconds()
+	return res, nil
+}
+
+func runTest(ctx context.Context, ws *workspace.Workspace, test string, o Options, repl map[string]string, baseArgs []any, limit int64, tr *TestResult) error {
+	name := "dup_" + test
+	args := append([]any(nil), baseArgs...)
+	switch test {
+	case SameAmount:
+		if o.WindowDays > 0 {
+			name = "dup_same_amount_window"
+			args = append(args, o.WindowDays)
+		}
+	case Spread:
+		args = append(args, o.MinCounterparties)
+	case RSF:
+		args = append(args, o.MinRecords)
+	}
+	args = append(args, limit)
+	rows, err := ws.Conn.QueryContext(ctx, queries.Render(name, repl), args...)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		g := Group{ID: len(tr.Groups) + 1}
+		var ns [4]sql.NullString
+		var dest []any
+		switch test {
+		case Exact:
+			dest = []any{&g.Amount, &g.Counterparty, &g.Posted, &g.DocID, &g.Records, &g.Excess, &g.Total}
+		case SameAmount:
+			dest = []any{&g.Amount, &g.Counterparty, &g.Records, &g.Documents, &ns[0], &ns[1], &g.Excess, &g.Total}
+		case SameDoc:
+			dest = []any{&g.DocID, &g.Counterparty, &g.Records, &g.Amounts, &g.MinAmount, &g.MaxAmount, &ns[0], &ns[1], &g.Total}
+		case Spread:
+			dest = []any{&g.Amount, &g.Counterparties, &g.Records, &g.Total}
+		case RSF:
+			dest = []any{&g.Counterparty, &g.Records, &g.Largest, &g.Second, &g.RSF, &g.Total}
+		}
+		dest = append(dest, &tr.GroupsTotal, &tr.RecordsTotal)
+		if err := rows.Scan(dest...); err != nil {
+			return err
+		}
+		g.FirstPosted, g.LastPosted = ns[0].String, ns[1].String
+		tr.Groups = append(tr.Groups, g)
+	}
+	return rows.Err()
+}
+
+// Save stores the result as a run of kind "duplicates" and gives it and its
+// groups their run id and references.
+func Save(ctx context.Context, ws *workspace.Workspace, res *Result) error {
+	id, err := ws.NextRunID(ctx)
+	if err != nil {
+		return fmt.Errorf("saving the duplicates run: %w", err)
+	}
+	res.RunID = id
+	for i := range res.Tests {
+		for j := range res.Tests[i].Groups {
+			g := &res.Tests[i].Groups[j]
+			g.Ref = fmt.Sprintf("%d:%s:%d", id, res.Tests[i].Test, g.ID)
+		}
+	}
+	params, err := json.Marshal(res.Options)
+	if err != nil {
+		return err
+	}
+	doc, err := json.Marshal(res)
+	if err != nil {
+		return err
+	}
+	return ws.SaveRunWithID(ctx, id, Kind, res.StartedAt, params, doc)
+}
+
+// Ref is a reference to one group of a stored run.
+type Ref struct {
+	Run   int64 // 0 = the latest duplicates run
+	Test  string
+	Group int
+}
+
+// ParseRef reads RUN:TEST:GROUP (e.g. 7:same_amount:3) or TEST:GROUP for
+// the latest duplicates run.
+func ParseRef(s string) (Ref, error) {
+	parts := strings.Split(strings.TrimSpace(s), ":")
+	bad := fmt.Errorf("--dup %q: write RUN:TEST:GROUP as printed by leadline dups, e.g. --dup 7:same_amount:3 (or TEST:GROUP for the latest run)", s)
+	var r Ref
+	switch len(parts) {
+	case 3:
+		n, err := strconv.ParseInt(parts[0], 10, 64)
+		if err != nil || n <= 0 {
+			return r, bad
+		}
+		r.Run = n
+		parts = parts[1:]
+	case 2:
+	default:
+		return r, bad
+	}
+	r.Test = strings.ToLower(parts[0])
+	if _, ok := titles[r.Test]; !ok {
+		return r, fmt.Errorf("--dup %q: unknown test %q; the tests are %s", s, parts[0], strings.Join(Tests, ", "))
+	}
+	g, err := strconv.Atoi(parts[1])
+	if err != nil || g <= 0 {
+		return r, bad
+	}
+	r.Group = g
+	return r, nil
+}
+
+// LoadRun reads a stored duplicates run (run 0: the latest).
+func LoadRun(ctx context.Context, ws *workspace.Workspace, run int64) (*Result, error) {
+	var id int64
+	var kind, doc string
+	var err error
+	if run == 0 {
+		err = ws.Conn.QueryRowContext(ctx, queries.Get("dup_run_latest")).Scan(&id, &kind, &doc)
+		if errors.Is(err, sql.ErrNoRows) {
+			return nil, fmt.Errorf("no duplicates run in this workspace yet: run `leadline dups` first")
+		}
+	} else {
+		err = ws.Conn.QueryRowContext(ctx, queries.Get("dup_run_by_id"), run).Scan(&id, &kind, &doc)
+		if errors.Is(err, sql.ErrNoRows) {
+			return nil, fmt.Errorf("no run %d in this workspace (see leadline sql \"SELECT run_id, kind, started_at FROM runs\")", run)
+		}
+	}
+	if err != nil {
+		return nil, err
+	}
+	if kind != Kind {
+		return nil, fmt.Errorf("run %d is a %s run, not a duplicates run", id, kind)
+	}
+	var res Result
+	if err := json.Unmarshal([]byte(doc), &res); err != nil {
+		return nil, fmt.Errorf("run %d: reading its stored result: %w", id, err)
+	}
+	res.RunID = id
+	return &res, nil
+}
+
+// GroupSelection turns a group reference into a drill selection: the run's
+// population (filter, signs, minimum) and the group's key, with the same
+// conditions the test put on its key columns, so that the drill finds the
+// group's records (as many as the run counted, unless the ledger changed
+// since).
+func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (drill.Selection, *Group, error) {
+	res, err := LoadRun(ctx, ws, ref.Run)
+	if err != nil {
+		return drill.Selection{}, nil, err
+	}
+	var tr *TestResult
+	for i := range res.Tests {
+		if res.Tests[i].Test == ref.Test {
+			tr = &res.Tests[i]
+		}
+	}
+	if tr == nil {
+		return drill.Selection{}, nil, fmt.Errorf("run %d did not run the %s test", res.RunID, ref.Test)
+	}
+	if tr.Status != "ok" {
+		return drill.Selection{}, nil, fmt.Errorf("run %d skipped the %s test (%s)", res.RunID, ref.Test, tr.Reason)
+	}
+	if ref.Group > len(tr.Groups) {
+		more := ""
+		if tr.GroupsTotal > int64(len(tr.Groups)) {
+			more = fmt.Sprintf("; it found %d, rerun leadline dups with --top %d to keep more", tr.GroupsTotal, ref.Group)
+		}
+		return drill.Selection{}, nil, fmt.Errorf("run %d kept %d groups of the %s test, no group %d%s", res.RunID, len(tr.Groups), ref.Test, ref.Group, more)
+	}
+	g := tr.Groups[ref.Group-1]
+	at, err := drill.ParseAmountType(res.AmountType)
+	if err != nil {
+		return drill.Selection{}, nil, err
+	}
+	amt := "amount = CAST(? AS " + at.SQL() + ")"
+	var p drill.Predicate
+	var what string
+	switch ref.Test {
+	case Exact:
+		p = drill.Predicate{SQL: amt + " AND counterparty = ? AND posted = CAST(? AS DATE) AND doc_id = ?", Args: []any{g.Amount, g.Counterparty, g.Posted, g.DocID}}
+		what = fmt.Sprintf("amount %s, counterparty %s, posted %s, document %s", g.Amount, g.Counterparty, g.Posted, g.DocID)
+	case SameAmount:
+		p = drill.Predicate{SQL: amt + " AND counterparty = ? AND doc_id <> ''", Args: []any{g.Amount, g.Counterparty}}
+		what = fmt.Sprintf("amount %s, counterparty %s", g.Amount, g.Counterparty)
+		if res.Options.WindowDays > 0 {
+			p.SQL += " AND posted BETWEEN CAST(? AS DATE) AND CAST(? AS DATE)"
+			p.Args = append(p.Args, g.FirstPosted, g.LastPosted)
+			what += fmt.Sprintf(", posted %s to %s", g.FirstPosted, g.LastPosted)
+		}
+	case SameDoc:
+		p = drill.Predicate{SQL: "doc_id = ? AND counterparty = ?", Args: []any{g.DocID, g.Counterparty}}
+		what = fmt.Sprintf("document %s, counterparty %s", g.DocID, g.Counterparty)
+	case Spread:
+		p = drill.Predicate{SQL: amt + " AND counterparty <> ''", Args: []any{g.Amount}}
+		what = fmt.Sprintf("amount %s", g.Amount)
+	case RSF:
+		p = drill.Predicate{SQL: "counterparty = ?", Args: []any{g.Counterparty}}
+		what = fmt.Sprintf("counterparty %s", g.Counterparty)
+	}
+	sel := drill.Selection{
+		Base:      res.Options.Base,
+		Extra:     []drill.Predicate{p},
+		Described: []string{fmt.Sprintf("duplicates run %d, %s group %d: %s", res.RunID, ref.Test, g.ID, what)},
+	}
+	return sel, &g, nil
+}

@@ -1,0 +1,195 @@
+-- Duplicate tests. {{base}} is the population predicate leadline built
+-- (filter checked by sqlguard, signs, minimum bound with ?); {{wide}} is
+-- DECIMAL(38,s) for sums that must not overflow. Every query returns the
+-- top groups (LIMIT ?) with, on every row, the number of groups and of
+-- records in all groups. Records whose key columns are blank (NULL or '')
+-- take no part in a test that needs those columns.
+
+-- name: dup_columns
+-- Which key columns the ledger has at all (a column that is never filled
+-- was not mapped).
+SELECT count(*) FILTER (WHERE counterparty <> '') AS counterparty,
+       count(*) FILTER (WHERE doc_id <> '')       AS doc_id,
+       count(posted)                              AS posted
+FROM ledger;
+
+-- name: dup_records_tested
+SELECT count(*) FROM ledger WHERE {{base}};
+
+-- name: dup_exact
+-- Exact duplicates: same amount, counterparty, posted date and document,
+-- two records or more. Ranked by the excess amount, |amount| x (records - 1).
+WITH base AS (
+    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+),
+g AS (
+    SELECT amount, counterparty, posted, doc_id, count(*) AS records
+    FROM base
+    WHERE counterparty <> '' AND doc_id <> '' AND posted IS NOT NULL
+    GROUP BY amount, counterparty, posted, doc_id
+    HAVING count(*) >= 2
+),
+r AS (
+    SELECT *, CAST(abs(amount) AS {{wide}}) * (records - 1) AS excess,
+           CAST(amount AS {{wide}}) * records AS total
+    FROM g
+)
+SELECT CAST(amount AS VARCHAR), counterparty, CAST(posted AS VARCHAR), doc_id, records,
+       CAST(excess AS VARCHAR), CAST(total AS VARCHAR),
+       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+FROM r
+ORDER BY excess DESC, records DESC, amount DESC, counterparty, posted, doc_id
+LIMIT ?;
+
+-- name: dup_same_amount
+-- Same amount and counterparty under two or more documents (possible
+-- double payments). Ranked by the excess amount, |amount| x (documents - 1).
+WITH base AS (
+    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+),
+g AS (
+    SELECT amount, counterparty, count(*) AS records, count(DISTINCT doc_id) AS documents,
+           min(posted) AS first_posted, max(posted) AS last_posted,
+           sum(CAST(amount AS {{wide}})) AS total
+    FROM base
+    WHERE counterparty <> '' AND doc_id <> ''
+    GROUP BY amount, counterparty
+    HAVING count(DISTINCT doc_id) >= 2
+),
+r AS (
+    SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess FROM g
+)
+SELECT CAST(amount AS VARCHAR), counterparty, records, documents,
+       CAST(first_posted AS VARCHAR), CAST(last_posted AS VARCHAR),
+       CAST(excess AS VARCHAR), CAST(total AS VARCHAR),
+       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+FROM r
+ORDER BY excess DESC, records DESC, amount DESC, counterparty
+LIMIT ?;
+
+-- name: dup_same_amount_window
+-- The same within a window of days: the records of one amount and
+-- counterparty, in date order, fall into clusters where each record is at
+-- most ? days after the one before; a cluster that holds two or more
+-- documents is a group. Every pair of records of different documents
+-- within the window lies in one group, and each group holds such a pair.
+WITH base AS (
+    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+),
+b AS (
+    SELECT amount, counterparty, posted, doc_id FROM base
+    WHERE counterparty <> '' AND doc_id <> '' AND posted IS NOT NULL
+),
+k AS (
+    SELECT amount, counterparty FROM b
+    GROUP BY amount, counterparty
+    HAVING count(DISTINCT doc_id) >= 2
+),
+s AS (
+    SELECT b.*,
+           CASE WHEN posted - lag(posted) OVER (PARTITION BY amount, counterparty ORDER BY posted) > ? THEN 1 ELSE 0 END AS brk
+    FROM b SEMI JOIN k USING (amount, counterparty)
+),
+c AS (
+    -- RANGE framing (the default) counts every record of the same date
+    -- together, so records of one date always share a cluster.
+    SELECT *, sum(brk) OVER (PARTITION BY amount, counterparty ORDER BY posted) AS cluster FROM s
+),
+g AS (
+    SELECT amount, counterparty, cluster, count(*) AS records, count(DISTINCT doc_id) AS documents,
+           min(posted) AS first_posted, max(posted) AS last_posted,
+           sum(CAST(amount AS {{wide}})) AS total
+    FROM c
+    GROUP BY amount, counterparty, cluster
+    HAVING count(DISTINCT doc_id) >= 2
+),
+r AS (
+    SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess FROM g
+)
+SELECT CAST(amount AS VARCHAR), counterparty, records, documents,
+       CAST(first_posted AS VARCHAR), CAST(last_posted AS VARCHAR),
+       CAST(excess AS VARCHAR), CAST(total AS VARCHAR),
+       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+FROM r
+ORDER BY excess DESC, records DESC, amount DESC, counterparty, first_posted
+LIMIT ?;
+
+-- name: dup_same_doc
+-- Same document and counterparty with two or more different amounts.
+-- Ranked by the sum of absolute amounts.
+WITH base AS (
+    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+),
+g AS (
+    SELECT doc_id, counterparty, count(*) AS records, count(DISTINCT amount) AS amounts,
+           min(amount) AS min_amount, max(amount) AS max_amount,
+           min(posted) AS first_posted, max(posted) AS last_posted,
+           sum(CAST(amount AS {{wide}})) AS total,
+           sum(abs(CAST(amount AS {{wide}}))) AS abs_total
+    FROM base
+    WHERE counterparty <> '' AND doc_id <> ''
+    GROUP BY doc_id, counterparty
+    HAVING count(DISTINCT amount) >= 2
+)
+SELECT doc_id, counterparty, records, amounts,
+       CAST(min_amount AS VARCHAR), CAST(max_amount AS VARCHAR),
+       CAST(first_posted AS VARCHAR), CAST(last_posted AS VARCHAR),
+       CAST(total AS VARCHAR),
+       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+FROM g
+ORDER BY abs_total DESC, amounts DESC, doc_id, counterparty
+LIMIT ?;
+
+-- name: dup_spread
+-- One amount spread across many counterparties (at least ? of them).
+-- Ranked by the number of counterparties, then records.
+WITH base AS (
+    SELECT amount, counterparty FROM ledger WHERE {{base}}
+),
+g AS (
+    SELECT amount, count(DISTINCT counterparty) AS counterparties, count(*) AS records,
+           sum(CAST(amount AS {{wide}})) AS total
+    FROM base
+    WHERE counterparty <> ''
+    GROUP BY amount
+    HAVING count(DISTINCT counterparty) >= ?
+)
+SELECT CAST(amount AS VARCHAR), counterparties, records, CAST(total AS VARCHAR),
+       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+FROM g
+ORDER BY counterparties DESC, records DESC, abs(amount) DESC, amount DESC
+LIMIT ?;
+
+-- name: dup_rsf
+-- Relative size factor (Nigrini 2012): per counterparty with at least ?
+-- records, the largest absolute amount divided by the second largest (the
+-- second largest record, which may equal the largest). Ranked by the
+-- factor.
+WITH base AS (
+    SELECT amount, counterparty FROM ledger WHERE {{base}}
+),
+g AS (
+    SELECT counterparty, count(*) AS records, max(abs(amount), 2) AS top2,
+           sum(CAST(amount AS {{wide}})) AS total
+    FROM base
+    WHERE counterparty <> ''
+    GROUP BY counterparty
+    HAVING count(*) >= ?
+),
+h AS (
+    SELECT counterparty, records, top2[1] AS largest, top2[2] AS second, total,
+           CAST(top2[1] AS DOUBLE) / CAST(top2[2] AS DOUBLE) AS rsf
+    FROM g
+    WHERE top2[2] > 0
+)
+SELECT counterparty, records, CAST(largest AS VARCHAR), CAST(second AS VARCHAR), rsf, CAST(total AS VARCHAR),
+       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+FROM h
+ORDER BY rsf DESC, largest DESC, counterparty
+LIMIT ?;
+
+-- name: dup_run_by_id
+SELECT run_id, kind, result FROM runs WHERE run_id = ?;
+
+-- name: dup_run_latest
+SELECT run_id, kind, result FROM runs WHERE kind = 'duplicates' ORDER BY run_id DESC LIMIT 1;
