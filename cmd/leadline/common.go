@@ -5,7 +5,10 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"os"
+	"time"
 
+	"github.com/leadline/leadline/engine/progress"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
@@ -29,7 +32,16 @@ func (d *dbFlags) add(fs *pflag.FlagSet) {
 }
 
 func (d *dbFlags) open(ctx context.Context, readOnly bool) (*workspace.Workspace, error) {
-	return workspace.Open(ctx, d.path, workspace.Options{ReadOnly: readOnly, MemoryLimit: d.memory, Threads: d.threads, TempDir: d.tempDir})
+	ws, err := workspace.Open(ctx, d.path, workspace.Options{ReadOnly: readOnly, MemoryLimit: d.memory, Threads: d.threads, TempDir: d.tempDir})
+	if err != nil {
+		return nil, err
+	}
+	// A bar on standard error for queries that run longer than a second,
+	// only when standard error is a terminal: scripts see nothing.
+	if isTerminal(os.Stderr) && os.Getenv("LEADLINE_NO_PROGRESS") == "" {
+		ws.OnClose(progress.Watch(ws, os.Stderr, "working", time.Second))
+	}
+	return ws, nil
 }
 
 // formatFlag is --format text|csv|json.

@@ -10,9 +10,11 @@ import (
 	"fmt"
 	"os"
 	"strings"
+	"sync/atomic"
 	"time"
 
 	duckdb "github.com/duckdb/duckdb-go/v2"
+	"github.com/duckdb/duckdb-go/v2/mapping"
 	"github.com/leadline/leadline/queries"
 )
 
@@ -35,7 +37,16 @@ type Workspace struct {
 	DB   *sql.DB
 	Conn *sql.Conn
 	opts Options
+
+	handle    mapping.Connection // DuckDB's own handle, for Progress
+	hasHandle bool
+	closed    atomic.Bool
+	onClose   []func()
 }
+
+// OnClose registers a function to run when the workspace closes (before
+// the connection goes), such as stopping a progress display.
+func (ws *Workspace) OnClose(f func()) { ws.onClose = append(ws.onClose, f) }
 
 // ErrInUse is returned when another process holds the workspace open.
 var ErrInUse = errors.New("workspace is in use by another process")
@@ -70,6 +81,7 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 		return nil, classifyOpenError(path, err)
 	}
 	ws := &Workspace{Path: path, DB: db, Conn: conn, opts: opts}
+	ws.handle, ws.hasHandle = rawHandle(conn)
 	if err := ws.configure(ctx); err != nil {
 		ws.Close()
 		return nil, err
@@ -103,7 +115,10 @@ func firstLine(s string) string {
 }
 
 func (ws *Workspace) configure(ctx context.Context) error {
-	var stmts []string
+	// DuckDB tracks query progress only with its progress bar on; we keep
+	// its own drawing off (it would write to standard output) and draw our
+	// own bar on standard error from Progress.
+	stmts := []string{"SET enable_progress_bar = true", "SET enable_progress_bar_print = false", "SET progress_bar_time = 500"}
 	if ws.opts.MemoryLimit != "" {
 		stmts = append(stmts, "SET memory_limit = "+queries.QuoteString(ws.opts.MemoryLimit))
 	}
@@ -123,6 +138,11 @@ func (ws *Workspace) configure(ctx context.Context) error {
 
 // Close releases the connection and the database.
 func (ws *Workspace) Close() error {
+	for _, f := range ws.onClose {
+		f()
+	}
+	ws.onClose = nil
+	ws.closed.Store(true)
 	var first error
 	if ws.Conn != nil {
 		first = ws.Conn.Close()
