@@ -1,0 +1,134 @@
+package limits
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/workspace"
+)
+
+// Options are the parameters of a probe run.
+type Options struct {
+	drill.Base
+	Limits   []float64 `json:"limits,omitempty"` // nil: scan the round values
+	Width    float64   `json:"width"`            // fraction of the limit; 0 means DefaultWidth
+	By       []string  `json:"by,omitempty"`     // segment columns; the segment is their combination
+	MinCount int64     `json:"min_count"`        // 0 means DefaultMinCount
+}
+
+// Report is one probe run; it is what --format json prints and what the
+// workspace stores (docs/json.md, "limits").
+type Report struct {
+	RunID         int64         `json:"run_id"`
+	Kind          string        `json:"kind"` // "limits"
+	Population    drill.Base    `json:"population"`
+	AmountType    string        `json:"amount_type"`
+	Counts        ranges.Counts `json:"counts"` // the whole selection
+	Width         float64       `json:"width"`
+	ExpectedRatio float64       `json:"expected_ratio"`
+	LimitSource   string        `json:"limit_source"` // "given" or "round values"
+	Limits        []float64     `json:"limits"`
+	By            []string      `json:"by"`
+	Segments      int           `json:"segments"` // segments with rows (0 without --by)
+	MinCount      int64         `json:"min_count"`
+	Tested        int           `json:"tested"` // pairs tested: the Holm family
+	Flagged       int           `json:"flagged"`
+	TooFew        int           `json:"too_few"`       // pairs with fewer than MinCount amounts in the band
+	OutsideRange  int           `json:"outside_range"` // pairs whose band is not within the segment's amounts
+	Rows          []Row         `json:"rows"`
+}
+
+// Run probes the limits in one aggregate scan over all limits and segments
+// (after a cheap scan for the amounts' range). It does not store the run.
+func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, error) {
+	if o.Width == 0 {
+		o.Width = DefaultWidth
+	}
+	if o.MinCount == 0 {
+		o.MinCount = DefaultMinCount
+	}
+	if err := CheckWidth(o.Width); err != nil {
+		return nil, err
+	}
+	if o.MinCount < 1 {
+		return nil, fmt.Errorf("--min-count %d: give at least 1", o.MinCount)
+	}
+	for _, t := range o.Limits {
+		if err := benford.CheckLimit(t, o.Width); err != nil {
+			return nil, fmt.Errorf("--limits: %w", err)
+		}
+	}
+	pop, err := ranges.Prepare(ctx, ws, o.Base)
+	if err != nil {
+		return nil, err
+	}
+	segs, err := ranges.ResolveSegments(ctx, ws, o.By)
+	if err != nil {
+		return nil, err
+	}
+	sum, err := pop.Summary(ctx, ws)
+	if err != nil {
+		return nil, err
+	}
+	if sum.Tested == 0 {
+		return nil, fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
+			sum.Rows, sum.Zero, sum.OtherSign, sum.BelowMin, pop.Base.Min)
+	}
+	rep := &Report{
+		Kind: "limits", Population: pop.Base, AmountType: pop.AmountType.SQL(),
+		Width: o.Width, ExpectedRatio: benford.ExpectedBelowAboveRatio(o.Width),
+		Limits: ranges.SortedEdges(o.Limits), LimitSource: "given", By: []string{}, MinCount: o.MinCount,
+	}
+	for _, s := range segs {
+		rep.By = append(rep.By, s.Name)
+	}
+	if len(o.Limits) == 0 {
+		rep.LimitSource = "round values"
+		rep.Limits = ScanLimits(sum.Min, sum.Max, o.Width)
+		if len(rep.Limits) == 0 {
+			return nil, fmt.Errorf("the tested amounts (%v to %v) are too narrow for any round limit with its band of ±%v%%: give --limits or a smaller --width", sum.Min, sum.Max, 100*o.Width)
+		}
+	}
+	edges := Edges(rep.Limits, o.Width)
+	groups, err := pop.Count(ctx, ws, segs, edges)
+	if err != nil {
+		return nil, err
+	}
+	var all ranges.Group
+	if len(segs) == 0 {
+		all = groups[0]
+		groups = nil
+	} else {
+		if all, err = ranges.Merge(groups, edges); err != nil {
+			return nil, err
+		}
+		rep.Segments = len(groups)
+	}
+	rep.Counts = all.Counts
+	rows, err := Probe(all, groups, segs, rep.Limits, o.Width, o.MinCount)
+	if err != nil {
+		return nil, err
+	}
+	scale := pop.AmountType.Scale
+	for i := range rows {
+		r := &rows[i]
+		r.Range = ranges.DrillRange(r.From, r.Limit, scale)
+		r.Drill = ranges.DrillCommand(ws.Path, r.Range, pop.Base, r.key.DrillSegments(segs))
+		switch r.Status {
+		case StatusTested:
+			rep.Tested++
+			if r.Flagged {
+				rep.Flagged++
+			}
+		case StatusTooFew:
+			rep.TooFew++
+		case StatusOutRange:
+			rep.OutsideRange++
+		}
+	}
+	rep.Rows = rows
+	return rep, nil
+}

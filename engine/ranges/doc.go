@@ -1,0 +1,29 @@
+// Package ranges counts the tested amounts of the ledger in amount ranges
+// and answers "which range of amounts is inflated".
+//
+// Counting: one aggregate scan per run (Count) groups the tested amounts by
+// segment and, within each segment, by the elementary intervals between a
+// sorted list of edges (DuckDB's histogram aggregate with explicit
+// boundaries), together with the counts of what was left out. The result is
+// a bin-count table (Bins): counts are additive, so segments merge into the
+// whole population by addition, and everything downstream is pure Go. The
+// limit clustering probe (engine/limits) uses the same scan with the band
+// edges of its limits.
+//
+// The range table: bands of a fixed width over [FROM, TO), or of equal
+// width on a logarithmic scale (so many to a decade), each compared with a
+// smooth expectation fitted to its neighbouring bands and flagged when well
+// above it (benford.ScoreBands: a repeated-median line on the log scale, a
+// robust quasi-Poisson dispersion, Holm's adjustment over the bands). Bands
+// cut by the minimum amount or reaching past the largest amount are listed
+// but not scored. Adjacent flagged bands are joined into stretches, each
+// with the drill-down command that lists its records.
+//
+// The population is the digit battery's and the drill-down's (drill.Base):
+// a filter predicate, the signs kept (positive amounts by default) and the
+// smallest absolute amount kept (10 by default). Amounts are compared as
+// absolute values: with --signs negative a band [4500, 5000) holds the
+// amounts from -4,999.99 to -4,500.00.
+//
+// Results are signals for follow-up, never proof of fraud.
+package ranges

@@ -1,0 +1,114 @@
+package ranges
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/workspace"
+)
+
+// Options are the parameters of a range table.
+type Options struct {
+	drill.Base
+	Layout
+}
+
+// Report is the range table of one run; it is what --format json prints
+// and what the workspace stores (docs/json.md, "ranges").
+type Report struct {
+	RunID      int64      `json:"run_id"`
+	Kind       string     `json:"kind"` // "ranges"
+	Population drill.Base `json:"population"`
+	AmountType string     `json:"amount_type"`
+	Layout     Layout     `json:"layout"` // as run: From and To filled in
+	BandScale  string     `json:"scale"`  // fixed or logarithmic
+	Counts     Counts     `json:"counts"`
+	BelowBands int64      `json:"below_bands"` // tested amounts below the first band
+	AboveBands int64      `json:"above_bands"` // tested amounts at or above the end of the last band
+	Scored     int        `json:"scored"`      // bands scored (the Holm family)
+	Flagged    int        `json:"flagged"`
+	Dispersion float64    `json:"dispersion"` // quasi-Poisson dispersion of the scored bands
+	Bands      []Row      `json:"bands"`
+	Stretches  []Stretch  `json:"stretches"` // adjacent flagged bands joined, largest excess first
+}
+
+// Run counts the tested amounts in the bands of the layout in one scan
+// (after a cheap scan for the amounts' range) and scores the bands.
+// It does not store the run.
+func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, error) {
+	if err := o.Layout.Check(); err != nil {
+		return nil, err
+	}
+	pop, err := Prepare(ctx, ws, o.Base)
+	if err != nil {
+		return nil, err
+	}
+	sum, err := pop.Summary(ctx, ws)
+	if err != nil {
+		return nil, err
+	}
+	if sum.Tested == 0 {
+		return nil, fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
+			sum.Rows, sum.Zero, sum.OtherSign, sum.BelowMin, pop.Base.Min)
+	}
+	bands, err := o.Layout.Bands(sum.Min, sum.Max)
+	if err != nil {
+		return nil, err
+	}
+	edges := Edges(bands)
+	groups, err := pop.Count(ctx, ws, nil, edges)
+	if err != nil {
+		return nil, err
+	}
+	g := groups[0]
+	rows, str, err := Score(bands, g.Bins, pop.MinAmount, g.Min, g.Max)
+	if err != nil {
+		return nil, err
+	}
+	layout := o.Layout
+	layout.From, layout.To = bands[0].From, bands[len(bands)-1].To
+	if layout.Width == 0 && layout.PerDecade == 0 {
+		layout.PerDecade = DefaultPerDecade
+	}
+	rep := &Report{
+		Kind: "ranges", Population: pop.Base, AmountType: pop.AmountType.SQL(),
+		Layout: layout, BandScale: layout.Scale(), Counts: g.Counts,
+		BelowBands: g.Bins.Below(), AboveBands: g.Bins.Above(),
+		Bands: rows, Stretches: str,
+	}
+	scale := pop.AmountType.Scale
+	var scored []benford.Band
+	for i := range rep.Bands {
+		r := &rep.Bands[i]
+		r.Range = DrillRange(r.From, r.To, scale)
+		if r.Scored {
+			rep.Scored++
+			scored = append(scored, r.Band)
+		}
+		if r.Flagged {
+			rep.Flagged++
+			r.Drill = DrillCommand(ws.Path, r.Range, pop.Base, nil)
+		}
+	}
+	rep.Dispersion = benford.BandDispersion(scored)
+	for i := range rep.Stretches {
+		s := &rep.Stretches[i]
+		s.Range = DrillRange(s.From, s.To, scale)
+		s.Drill = DrillCommand(ws.Path, s.Range, pop.Base, nil)
+	}
+	sortStretches(rep.Stretches)
+	if rep.Stretches == nil {
+		rep.Stretches = []Stretch{}
+	}
+	return rep, nil
+}
+
+func sortStretches(s []Stretch) {
+	for i := 1; i < len(s); i++ {
+		for j := i; j > 0 && s[j].Excess > s[j-1].Excess; j-- {
+			s[j], s[j-1] = s[j-1], s[j]
+		}
+	}
+}
