@@ -1,6 +1,15 @@
 -- Loading. The reader expression, the column list and the amount type are
 -- built by engine/load from validated, quoted identifiers; values are bound.
 
+-- name: load_stage
+-- CSV records go first into a temporary table, in file order: its rowid is
+-- then the record's position, which numbers lines without a window
+-- function (a window over the reader would make the load single-threaded).
+CREATE OR REPLACE TEMP TABLE ll_stage AS SELECT * FROM {{reader}};
+
+-- name: load_unstage
+DROP TABLE IF EXISTS ll_stage;
+
 -- name: load_insert
 -- One pass over the file: every record goes into the ledger with its
 -- record number; rows whose amount or date does not parse are moved to
@@ -13,7 +22,7 @@ SELECT
     {{amount_expr}} AS amount,
     {{columns}}
 FROM (
-    SELECT *, row_number() OVER () AS ll_rn{{fast}}
+    SELECT *, {{row_number}} AS ll_rn{{fast}}
     FROM {{reader}}
 );
 

@@ -432,7 +432,18 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if src.Format == "parquet" {
 		lineOffset = "0"
 	}
+	rowNumber := "file_row_number + 1"
+	if src.Format == "csv" {
+		t1 := time.Now()
+		if _, err := tx.ExecContext(ctx, queries.Render("load_stage", map[string]string{"reader": reader})); err != nil {
+			return nil, fmt.Errorf("%s: %s", src.Path, explainReadError(err))
+		}
+		trace("stage", t1)
+		reader, rowNumber = "ll_stage", "rowid + 1"
+		defer tx.ExecContext(context.WithoutCancel(ctx), queries.Get("load_unstage"))
+	}
 	insert := queries.Render("load_insert", map[string]string{
+		"row_number":  rowNumber,
 		"row_id_base": fmt.Sprint(base),
 		"file_id":     fmt.Sprint(fr.FileID),
 		"line_offset": lineOffset,
@@ -544,7 +555,7 @@ func isDateLike(t string) bool {
 
 func readerSQL(src *Source, fileID int64) (reader, rejTable string) {
 	if src.Format == "parquet" {
-		return "read_parquet(" + queries.QuoteString(src.Path) + ")", ""
+		return "read_parquet(" + queries.QuoteString(src.Path) + ", file_row_number = true)", ""
 	}
 	var cols []string
 	for _, c := range src.Columns {
