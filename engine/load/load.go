@@ -439,7 +439,13 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 			return nil, fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 		}
 		trace("stage", t1)
-		reader, rowNumber = "ll_stage", "rowid + 1"
+		// Inside a transaction DuckDB numbers new rows from a large offset,
+		// so the position is the rowid less the first one.
+		var first int64
+		if err := tx.QueryRowContext(ctx, "SELECT coalesce(min(rowid), 0) FROM ll_stage").Scan(&first); err != nil {
+			return nil, err
+		}
+		reader, rowNumber = "ll_stage", fmt.Sprintf("rowid - %d + 1", first)
 		defer tx.ExecContext(context.WithoutCancel(ctx), queries.Get("load_unstage"))
 	}
 	insert := queries.Render("load_insert", map[string]string{
