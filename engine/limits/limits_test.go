@@ -3,8 +3,8 @@ package limits
 import (
 	"context"
 	"fmt"
-	"math/rand/v2"
 	"math"
+	"math/rand/v2"
 	"strings"
 	"testing"
 	"time"
