@@ -1,0 +1,90 @@
+package sensitivity
+
+import (
+	"testing"
+
+	"github.com/leadline/leadline/fixtures"
+)
+
+// population bins a log-uniform (Benford-conforming) population generated
+// from a seed.
+func population(n int) Population {
+	p := Population{FirstThree: make([]int64, 900), LastTwo: make([]int64, 100)}
+	for _, c := range fixtures.LogUniformAmounts(n, 10, 1e6, 3) {
+		p.FirstThree[firstThree(c)-100]++
+		p.LastTwo[c%100]++
+	}
+	return p
+}
+
+func TestFirstThreeDigits(t *testing.T) {
+	// Worked by hand: 10.00 -> 100, 99.99 -> 999, 4999.99 -> 499, 5000.00 -> 500, 1234.56 -> 123.
+	for c, want := range map[int64]int{1000: 100, 9999: 999, 499999: 499, 500000: 500, 123456: 123, 100000000000: 100} {
+		if got := firstThree(c); got != want {
+			t.Errorf("firstThree(%d) = %d, want %d", c, got, want)
+		}
+	}
+}
+
+// TestDetectionRises: with a conforming baseline the rate-0 column is the
+// false-alarm rate and stays near the nominal level; detection rises with
+// the injection rate (issue 8 check).
+func TestDetectionRises(t *testing.T) {
+	pop := population(200_000)
+	pop.Limits = []LimitCounts{{Limit: 5000, Below: 1300, Above: 1200}, {Limit: 1000, Below: 6500, Above: 5900}, {Limit: 10000, Below: 650, Above: 590}}
+	res, err := Run(pop, Options{Kind: BelowLimit, Limit: 5000, Rates: []float64{0, 0.002, 0.01, 0.05}, Seeds: 50})
+	if err != nil {
+		t.Fatal(err)
+	}
+	byName := map[string][]float64{}
+	for _, r := range res.Rows {
+		byName[r.Signal] = r.Detection
+		t.Logf("%-36s %v", r.Signal, r.Detection)
+	}
+	// False alarms at rate 0 near nominal: Goodman 5% family-wise
+	// (Lesperance et al. 2016), chi-square 1%, runs < 35 about 5% or less
+	// (common practice, no source), limit probe 5% after Holm.
+	for sig, max := range map[string]float64{SigGoodman: 0.16, SigFirstTwoChi: 0.08, SigRuns: 0.10, SigLimit: 0.16, SigFirstTwoMAD: 0.02} {
+		if d := byName[sig][0]; d > max {
+			t.Errorf("%s fires in %.0f%% of conforming populations, want at most %.0f%%", sig, 100*d, 100*max)
+		}
+	}
+	for _, sig := range []string{SigLimit, SigFirstTwoChi, SigGoodman} {
+		d := byName[sig]
+		if d[3] < 0.9 {
+			t.Errorf("%s detects a 5%% injection below the limit in only %.0f%% of seeds", sig, 100*d[3])
+		}
+		if d[3] < d[0] {
+			t.Errorf("%s: detection does not rise with the rate: %v", sig, d)
+		}
+	}
+}
+
+func TestRepeatedAmount(t *testing.T) {
+	pop := population(100_000)
+	pop.TopAmounts = []AmountCount{{100000, 40}, {50000, 35}, {25000, 30}, {20000, 28}, {10000, 25}, {30000, 20}, {40000, 18}, {60000, 15}, {70000, 12}, {80000, 10}, {90000, 9}}
+	res, err := Run(pop, Options{Kind: Repeated, Amount: 1847.23, Rates: []float64{0, 0.00005, 0.001}, Seeds: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range res.Rows {
+		if r.Signal == SigDuplication {
+			// 0 injected: cannot fire; 5 of 100,000: below the tenth (10);
+			// 100 of 100,000: above the top amount.
+			if r.Detection[0] != 0 || r.Detection[1] != 0 || r.Detection[2] != 1 {
+				t.Errorf("duplication detection %v, want [0 0 1]", r.Detection)
+			}
+			return
+		}
+	}
+	t.Fatal("no duplication signal")
+}
+
+func TestBadOptions(t *testing.T) {
+	pop := population(1000)
+	for _, o := range []Options{{Kind: "sideways"}, {Kind: Uniform, From: 5, To: 3}, {Kind: BelowLimit, Limit: -5}, {Kind: Rounded, Rates: []float64{2}}, {Kind: Rounded, Baseline: "x"}} {
+		if _, err := Run(pop, o); err == nil {
+			t.Errorf("options %+v accepted", o)
+		}
+	}
+}
