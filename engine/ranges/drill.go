@@ -18,15 +18,20 @@ const DefaultWorkspace = "leadline.duckdb"
 // x >= ceil(a), and x < b if and only if x < ceil(b). So a logarithmic
 // band [1258.925..., 1584.893...) becomes 1258.93:1584.90.
 func DrillRange(from, to float64, scale int) string {
-	return amountText(from, scale) + ":" + amountText(to, scale)
+	return AmountText(from, scale) + ":" + AmountText(to, scale)
 }
 
-func amountText(v float64, scale int) string {
+// AmountText writes a band edge rounded up to the ledger's scale, without
+// trailing zeros: the value that selects the same amounts (see DrillRange).
+func AmountText(v float64, scale int) string {
 	if scale < 0 {
 		scale = 0
 	}
 	p := math.Pow10(scale)
 	u := math.Ceil(v*p - 1e-6) // the 1e-6 absorbs binary noise: 2.2500000000000004 is 2.25
+	if u == 0 {
+		u = 0 // not -0
+	}
 	s := strconv.FormatFloat(u/p, 'f', scale, 64)
 	if strings.Contains(s, ".") {
 		s = strings.TrimRight(strings.TrimRight(s, "0"), ".")

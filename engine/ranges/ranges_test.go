@@ -256,6 +256,7 @@ func TestDrillRangeAndQuote(t *testing.T) {
 		{0.1 * 3, 2.5 * 0.9, 2, "0.3:2.25"},
 		{2.2500000000000004, 1e6, 2, "2.25:1000000"},
 		{12.3, 99.99, 0, "13:100"},
+		{0, 500, 2, "0:500"},
 	} {
 		if got := DrillRange(c.from, c.to, c.scale); got != c.want {
 			t.Errorf("DrillRange(%v, %v, %d) = %q, want %q", c.from, c.to, c.scale, got, c.want)

@@ -1,0 +1,244 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/spf13/pflag"
+)
+
+func init() {
+	register(&command{
+		name:    "ranges",
+		summary: "count amounts in bands and flag the ranges inflated against their neighbours",
+		usage: `Usage: leadline ranges [options]
+
+Counts the tested amounts in bands, either of a fixed width (--width 500
+over [--from, --to)) or of equal width on a logarithmic scale (--per-decade
+10, the default), and compares each band with a smooth expectation fitted
+to its neighbouring bands: a straight line on the log scale through the
+neighbours by repeated medians, robust to several inflated bands side by
+side. Bands well above their expectation are flagged (one-sided Poisson
+test with a dispersion estimated from all bands, Holm-adjusted over the
+bands at 5%), and adjacent flagged bands are joined into inflated ranges,
+each with the drill command that lists its records. Bands cut by the
+minimum amount or reaching past the largest amount are listed, not scored.
+
+The amounts tested are those of the digit battery and the drill-down:
+positive amounts of at least 10 by default (--signs, --min), narrowed by
+--where. Bands are on absolute amounts: with --signs negative, 4500:5000
+holds the amounts from -4,999.99 to -4,500.00.
+
+A flag is a signal for follow-up, never proof of fraud: price lists, fee
+scales and contract values inflate ranges for ordinary reasons.
+
+Examples:
+  leadline ranges                                   # logarithmic bands, 10 a decade
+  leadline ranges --width 500 --from 0 --to 20000   # fixed-width bands of 500
+  leadline ranges --per-decade 20 --where "entity = 'KELP'"
+  leadline ranges --width 1000 --to 50000 --signs negative --format csv > bands.csv`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var db dbFlags
+			var f formatFlag
+			var pop bandPopulation
+			var o ranges.Options
+			db.add(fs)
+			fs.Float64Var(&o.Width, "width", 0, "fixed band width in currency units, e.g. 500 (default: logarithmic bands)")
+			fs.IntVar(&o.PerDecade, "per-decade", 0, "logarithmic bands to a decade (default 10 when --width is not given)")
+			fs.Float64Var(&o.From, "from", 0, "start of the bands (default: 0 for fixed-width bands, the smallest tested amount for logarithmic ones)")
+			fs.Float64Var(&o.To, "to", 0, "end of the bands (default: the largest tested amount)")
+			pop.add(fs)
+			f.add(fs)
+			return func(ctx context.Context, args []string, e *env) error {
+				if err := f.check(); err != nil {
+					return err
+				}
+				if len(args) > 0 {
+					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
+				}
+				o.Base = pop.base()
+				if err := o.Layout.Check(); err != nil {
+					return err
+				}
+				started := time.Now()
+				ws, err := db.open(ctx, false)
+				if err != nil {
+					return err
+				}
+				defer ws.Close()
+				rep, err := ranges.Run(ctx, ws, o)
+				if err != nil {
+					return err
+				}
+				if rep.RunID, err = ws.NextRunID(ctx); err != nil {
+					return fmt.Errorf("saving the run: %w", err)
+				}
+				if err := saveBandRun(ctx, ws, rep.RunID, "ranges", started, o, rep); err != nil {
+					return err
+				}
+				return printRanges(e.stdout, f.value, rep)
+			}
+		},
+	})
+}
+
+// bandPopulation are the flags that choose the amounts tested, as in the
+// digit battery and the drill-down.
+type bandPopulation struct {
+	where, signs, min string
+}
+
+func (p *bandPopulation) add(fs *pflag.FlagSet) {
+	fs.StringVar(&p.signs, "signs", drill.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
+	fs.StringVar(&p.min, "min", drill.DefaultMin, "smallest absolute amount tested")
+	fs.StringVar(&p.where, "where", "", `filter on the ledger's columns, e.g. "entity = 'KELP' AND posted >= '2025-07-01'" (read-only)`)
+}
+
+func (p *bandPopulation) base() drill.Base {
+	return drill.Base{Where: p.where, Signs: p.signs, Min: p.min}
+}
+
+// saveBandRun stores a run of the ranges or limits command under the id
+// reserved for it: the options as its parameters and the report (which
+// carries the id) as its result, the document --format json prints.
+func saveBandRun(ctx context.Context, ws *workspace.Workspace, id int64, kind string, started time.Time, params, rep any) error {
+	p, err := json.Marshal(params)
+	if err != nil {
+		return err
+	}
+	r, err := json.Marshal(rep)
+	if err != nil {
+		return err
+	}
+	return ws.SaveRunWithID(ctx, id, kind, started, p, r)
+}
+
+// bandPopulationLine describes the amounts tested and what was left out.
+func bandPopulationLine(b drill.Base, c ranges.Counts) string {
+	other := map[string]string{"positive": "negative", "negative": "positive"}[b.Signs]
+	s := fmt.Sprintf("%s amounts tested (%s, |amount| >= %s", bf.count(c.Tested), b.Signs, b.Min)
+	if strings.TrimSpace(b.Where) != "" {
+		s += ", where " + strings.TrimSpace(b.Where)
+	}
+	s += fmt.Sprintf("); left out: %s zero", bf.count(c.Zero))
+	if other != "" {
+		s += fmt.Sprintf(", %s %s", bf.count(c.OtherSign), other)
+	}
+	s += fmt.Sprintf(", %s below %s", bf.count(c.BelowMin), b.Min)
+	return s
+}
+
+func printRanges(w io.Writer, format string, rep *ranges.Report) error {
+	if format == "json" {
+		return writeJSON(w, rep)
+	}
+	scale := bf.scale(rep.AmountType)
+	t := &tabular.Table{Name: "ranges", Columns: []string{"from", "to", "count", "expected", "ratio", "z", "p", "p_adjusted", "flagged", "note", "range"}}
+	if format == "csv" {
+		for _, b := range rep.Bands {
+			t.Add(b.From, b.To, b.Count, b.Expected, b.Ratio, b.Z, b.P, b.PAdjusted, b.Flagged, b.Note, b.Range)
+		}
+		return t.WriteCSV(w)
+	}
+	fmt.Fprintf(w, "Amount ranges (run %d): %s\n", rep.RunID, bandPopulationLine(rep.Population, rep.Counts))
+	l := rep.Layout
+	if l.Width > 0 {
+		fmt.Fprintf(w, "Bands: %d of fixed width %s from %s to %s", len(rep.Bands), bf.num(l.Width), bf.num(l.From), bf.num(l.To))
+	} else {
+		fmt.Fprintf(w, "Bands: %d logarithmic, %d to a decade, from %s to %s", len(rep.Bands), l.PerDecade, ranges.AmountText(l.From, scale), ranges.AmountText(l.To, scale))
+	}
+	fmt.Fprintf(w, "; %s tested amounts below the first band, %s at or above the end of the last\n", bf.count(rep.BelowBands), bf.count(rep.AboveBands))
+	fmt.Fprintf(w, "Each band against a smooth expectation from its neighbours; dispersion %.2f; %d bands scored, Holm-adjusted at 5%%: %d flagged\n\n",
+		rep.Dispersion, rep.Scored, rep.Flagged)
+	t.Columns = []string{"from", "to", "count", "expected", "ratio", "z", "p_adjusted", "flag", "note"}
+	for _, b := range rep.Bands {
+		if !b.Scored {
+			t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), bf.count(b.Count), "", "", "", "", "", b.Note)
+			continue
+		}
+		t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), bf.count(b.Count),
+			bf.count(int64(b.Expected+0.5)), fmt.Sprintf("%.2f", b.Ratio), fmt.Sprintf("%.1f", b.Z),
+			bf.p(b.PAdjusted), bf.flag(b.Flagged), b.Note)
+	}
+	if err := t.WriteText(w, 0); err != nil {
+		return err
+	}
+	if len(rep.Stretches) == 0 {
+		fmt.Fprintln(w, "\nNo range stands out against its neighbours at the 5% family-wise level.")
+		return nil
+	}
+	fmt.Fprintln(w, "\nInflated ranges (adjacent flagged bands), largest excess first:")
+	for i, s := range rep.Stretches {
+		if i == 5 {
+			fmt.Fprintf(w, "  ... and %d more (--format json lists them all)\n", len(rep.Stretches)-i)
+			break
+		}
+		fmt.Fprintf(w, "  %s to %s: %d band(s), %s amounts against %s expected (excess %s)\n    %s\n",
+			ranges.AmountText(s.From, scale), ranges.AmountText(s.To, scale), s.Bands,
+			bf.count(s.Count), bf.count(int64(s.Expected+0.5)), bf.count(int64(math.Round(s.Excess))), s.Drill)
+	}
+	return nil
+}
+
+// bandFormat holds the text formatting of the ranges and limits commands.
+type bandFormat struct{}
+
+var bf bandFormat
+
+// scale reads the decimal places of an amount type "DECIMAL(p,s)".
+func (bandFormat) scale(t string) int {
+	if i := strings.LastIndexByte(t, ','); i >= 0 {
+		if s, err := strconv.Atoi(strings.TrimSuffix(strings.TrimSpace(t[i+1:]), ")")); err == nil {
+			return s
+		}
+	}
+	return 2
+}
+
+// count writes n with thousands separators: 1234567 -> 1,234,567.
+func (bandFormat) count(n int64) string {
+	s := strconv.FormatInt(n, 10)
+	neg := strings.HasPrefix(s, "-")
+	s = strings.TrimPrefix(s, "-")
+	var b strings.Builder
+	for i, r := range s {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			b.WriteByte(',')
+		}
+		b.WriteRune(r)
+	}
+	if neg {
+		return "-" + b.String()
+	}
+	return b.String()
+}
+
+func (bandFormat) num(v float64) string { return strconv.FormatFloat(v, 'f', -1, 64) }
+
+// p writes a p-value; values that underflow print as <1e-300.
+func (bandFormat) p(p float64) string {
+	if p < 1e-300 {
+		return "<1e-300"
+	}
+	if p >= 0.01 {
+		return fmt.Sprintf("%.2f", p)
+	}
+	return fmt.Sprintf("%.1e", p)
+}
+
+func (bandFormat) flag(f bool) string {
+	if f {
+		return "yes"
+	}
+	return ""
+}
