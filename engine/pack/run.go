@@ -1,0 +1,158 @@
+package pack
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"path/filepath"
+	"time"
+
+	"github.com/leadline/leadline/engine/output"
+	"github.com/leadline/leadline/engine/workspace"
+)
+
+// RunOptions tune a pack run.
+type RunOptions struct {
+	Out    string           // the output folder (required)
+	Fresh  bool             // reload the workspace even when the inputs are unchanged
+	Log    io.Writer        // progress lines; nil for none
+	Output output.Options   // extra writers and hooks
+	Now    func() time.Time // the clock (tests); default time.Now
+}
+
+// Result is what a run did.
+type Result struct {
+	Plan     *Plan
+	Run      *output.Run
+	Outputs  []output.OutputFile
+	Warnings []Problem
+	// StepErrors lists the steps that could not complete (the others ran
+	// and the outputs were written); the command exits non-zero.
+	StepErrors []string
+}
+
+// Run checks the pack, prepares the output folder, loads the sources or
+// reuses the workspace, runs every step and writes the output folder. A
+// pack with problems returns *Problems and runs nothing.
+func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
+	now := o.Now
+	if now == nil {
+		now = time.Now
+	}
+	started := now().UTC()
+	if o.Out == "" {
+		return nil, fmt.Errorf("give the output folder (--out DIR)")
+	}
+	pl, probs := Check(ctx, p)
+	if len(probs.Errors()) > 0 {
+		return nil, probs
+	}
+	res := &Result{Plan: pl, Warnings: probs.Warnings()}
+	out, err := filepath.Abs(o.Out)
+	if err != nil {
+		return nil, err
+	}
+	info := output.PackInfo{Name: p.Pack.Name, Client: p.Pack.Client, Period: p.Pack.Period, File: p.File, SHA256: p.SHA256}
+	if err := output.PrepareDir(out, info); err != nil {
+		return nil, err
+	}
+	inputs, err := hashInputs(pl)
+	if err != nil {
+		return nil, err
+	}
+	ws, action, reason, err := openWorkspace(ctx, pl, inputs, o.Fresh, o.Log)
+	if err != nil {
+		return nil, err
+	}
+	defer ws.Close()
+	if o.Log != nil {
+		fmt.Fprintf(o.Log, "Workspace %s: %s (%s)\n", pl.Workspace, action, reason)
+	}
+	runID, err := ws.NextRunID(ctx)
+	if err != nil {
+		return nil, err
+	}
+	duck, err := ws.DuckDBVersion(ctx)
+	if err != nil {
+		return nil, err
+	}
+	run := &output.Run{Format: output.FormatVersion, Pack: info, Results: map[string]any{},
+		Summary: output.Summary{Caution: output.Caution, Findings: []output.Finding{}, Notes: []string{}}}
+	r := &runner{pl: pl, ws: ws, inputs: inputs, run: run, scale: pl.Scale, stepRuns: map[string]int64{}}
+	if err := r.completeness(ctx); err != nil {
+		return nil, fmt.Errorf("completeness: %w", err)
+	}
+	step := func(name string, fn func(context.Context) error) {
+		if ctx.Err() != nil {
+			return
+		}
+		if o.Log != nil {
+			fmt.Fprintf(o.Log, "Running %s\n", name)
+		}
+		if err := fn(ctx); err != nil {
+			r.stepFailed(name, err)
+		}
+	}
+	if pl.Battery != nil {
+		step("battery", r.batteryStep)
+	}
+	if pl.Limits != nil {
+		step("limits", r.limitsStep)
+	}
+	if pl.Ranges != nil {
+		step("ranges", r.rangesStep)
+	}
+	if pl.Duplicates != nil {
+		step("duplicates", r.duplicatesStep)
+	}
+	for _, e := range pl.Extracts {
+		e := e
+		step("extract "+e.Name, func(ctx context.Context) error { return r.extractStep(ctx, e) })
+	}
+	for _, c := range pl.Checks {
+		c := c
+		step("check "+c.Name, func(ctx context.Context) error { return r.checkStep(ctx, c) })
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, fmt.Errorf("run interrupted; nothing was written: %w", err)
+	}
+	for _, w := range res.Warnings {
+		run.Summary.Notes = append(run.Summary.Notes, "pack warning: "+w.String())
+	}
+	var manInputs []output.Input
+	for _, in := range inputs {
+		mi := output.Input{Source: pl.Sources[in.Source].Name, Path: pl.rel(in.Path), SizeBytes: in.Size, SHA256: in.SHA256}
+		for _, t := range run.Tables {
+			if t.Name != "inputs" {
+				continue
+			}
+			for _, row := range t.Rows {
+				if row[4] == in.SHA256 {
+					mi.RowsRead, _ = row[5].(int64)
+					mi.RowsLoaded, _ = row[6].(int64)
+					mi.RowsRejected, _ = row[7].(int64)
+				}
+			}
+		}
+		manInputs = append(manInputs, mi)
+	}
+	run.Manifest = &output.Manifest{
+		Format: output.FormatVersion, Tool: "leadline", ToolVersion: workspace.Version, DuckDBVersion: duck,
+		Pack: info, Workspace: pl.Workspace, AmountType: pl.AmountType, Inputs: manInputs, Parameters: pl.Parameters(),
+		Run: output.RunInfo{StartedAt: started, RunID: runID, WorkspaceAction: action, WorkspaceReason: reason, StepRuns: r.stepRuns},
+	}
+	run.Manifest.Run.FinishedAt = now().UTC()
+	outs, err := output.WriteAll(ctx, out, run, o.Output)
+	if err != nil {
+		return nil, err
+	}
+	run.Manifest.Outputs = outs
+	res.Run, res.Outputs, res.StepErrors = run, outs, r.errs
+	params, _ := json.Marshal(map[string]any{"pack": info, "parameters": pl.Parameters(), "out": out})
+	doc, _ := json.Marshal(run)
+	if err := ws.SaveRunWithID(ctx, runID, "pack", started, params, doc); err != nil {
+		return res, err
+	}
+	return res, nil
+}

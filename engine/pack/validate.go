@@ -1,0 +1,979 @@
+package pack
+
+import (
+	"context"
+	"database/sql"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"regexp"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/output"
+	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sqlguard"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
+)
+
+// Defaults of a pack.
+const (
+	DefaultScale          = 2
+	DefaultPrecision      = 18
+	DefaultMinSegmentRows = 1000
+	DefaultExtractTop     = 4
+	DefaultExtractRows    = 1000
+	DefaultCheckRows      = 100_000
+)
+
+// Plan is a checked pack, resolved and ready to run: absolute paths, the
+// files each glob matched, load options, filters as predicates and every
+// step's parameters with the defaults filled in.
+type Plan struct {
+	Pack       *Pack
+	Workspace  string // absolute path, or :memory:
+	Scale      int
+	Precision  int
+	AmountType string
+	Sources    []PlannedSource
+	Filters    map[string]string // name -> predicate
+	Battery    *BatteryPlan
+	Limits     *limits.Options
+	Ranges     *ranges.Options
+	Duplicates *duplicates.Options
+	Extracts   []ExtractPlan
+	Checks     []CheckPlan
+}
+
+// PlannedSource is a [[source]] with its files found and read.
+type PlannedSource struct {
+	Index   int
+	Name    string
+	Files   []string     // absolute, sorted, as the globs matched them
+	Options load.Options // Map, Debit, Credit and the parsing rules
+	Columns map[string][]string
+}
+
+// BatteryPlan holds the digit battery's parameters.
+type BatteryPlan struct {
+	drill.Base
+	Tests          []benford.Test `json:"tests"`
+	Segments       []string       `json:"segments"`
+	MinSegmentRows int64          `json:"min_segment_rows"`
+}
+
+// ExtractPlan is one drill-down extract.
+type ExtractPlan struct {
+	Name    string `json:"name"`
+	From    string `json:"from"`
+	Test    string `json:"test,omitempty"`
+	Top     int    `json:"top"`
+	GroupBy string `json:"group_by,omitempty"`
+	MaxRows int    `json:"max_rows"`
+}
+
+// CheckPlan is one extra SQL check, checked read-only, with its bound
+// parameters.
+type CheckPlan struct {
+	Name    string                 `json:"name"`
+	Title   string                 `json:"title"`
+	SQL     string                 `json:"sql"`
+	Params  map[string]any         `json:"params"`
+	Kinds   map[string]output.Kind `json:"formats,omitempty"`
+	MaxRows int                    `json:"max_rows"`
+	Finding string                 `json:"finding"`
+}
+
+// Args returns the check's parameters as named arguments for DuckDB.
+func (c CheckPlan) Args() []any {
+	names := make([]string, 0, len(c.Params))
+	for n := range c.Params {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	out := make([]any, 0, len(names))
+	for _, n := range names {
+		out = append(out, sql.Named(n, c.Params[n]))
+	}
+	return out
+}
+
+// Parameters returns every parameter of the plan, defaults filled in, for
+// the manifest.
+func (pl *Plan) Parameters() map[string]any {
+	src := []map[string]any{}
+	for _, s := range pl.Sources {
+		src = append(src, map[string]any{
+			"name": s.Name, "files": s.Files, "patterns": pl.Pack.Sources[s.Index].Files, "load": s.Options,
+		})
+	}
+	out := map[string]any{
+		"workspace":   pl.Workspace,
+		"amount_type": pl.AmountType,
+		"sources":     src,
+		"filters":     pl.Filters,
+		"population":  pl.Pack.Population,
+		"extracts":    pl.Extracts,
+		"checks":      pl.Checks,
+	}
+	if pl.Battery != nil {
+		out["battery"] = pl.Battery
+	}
+	if pl.Limits != nil {
+		out["limits"] = pl.Limits
+	}
+	if pl.Ranges != nil {
+		out["ranges"] = pl.Ranges
+	}
+	if pl.Duplicates != nil {
+		out["duplicates"] = pl.Duplicates
+	}
+	return out
+}
+
+// checker collects problems.
+type checker struct {
+	p   *Pack
+	out *Problems
+}
+
+func displayKey(path string) string {
+	// Indices are shown from 1: source[1] is the first [[source]].
+	re := regexp.MustCompile(`\[(\d+)\]`)
+	return re.ReplaceAllStringFunc(path, func(m string) string {
+		n, _ := strconv.Atoi(m[1 : len(m)-1])
+		return "[" + strconv.Itoa(n+1) + "]"
+	})
+}
+
+func (c *checker) errf(path, format string, args ...any) {
+	c.out.List = append(c.out.List, Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: fmt.Sprintf(format, args...)})
+}
+
+func (c *checker) warnf(path, format string, args ...any) {
+	c.out.List = append(c.out.List, Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: fmt.Sprintf(format, args...), Warning: true})
+}
+
+// Check validates the whole pack before anything runs: unknown keys (with
+// the likely intended key), values, the files behind every glob, every
+// mapped column against the files' headers, filters and extra SQL checks
+// against the ledger the sources would make (an empty copy in memory), and
+// every step's parameters. All problems are collected; the plan is usable
+// only when Problems holds no error.
+func Check(ctx context.Context, p *Pack) (*Plan, *Problems) {
+	c := &checker{p: p, out: &Problems{}}
+	pl := &Plan{Pack: p, Filters: map[string]string{}}
+	c.unknownKeys()
+	c.header(pl)
+	mem, err := workspace.Open(ctx, ":memory:", workspace.Options{})
+	if err != nil {
+		c.errf("", "opening a scratch database to check the pack: %v", err)
+		c.out.sort()
+		return pl, c.out
+	}
+	defer mem.Close()
+	c.sources(ctx, mem, pl)
+	schemaOK := c.mockLedger(ctx, mem, pl)
+	c.filters(ctx, mem, pl, schemaOK)
+	c.steps(ctx, mem, pl, schemaOK)
+	c.checks(ctx, mem, pl, schemaOK)
+	c.out.sort()
+	return pl, c.out
+}
+
+func (c *checker) unknownKeys() {
+	reported := map[string]bool{}
+	for _, k := range c.p.undecoded {
+		skip := false
+		for i := 1; i < len(k); i++ {
+			if reported[strings.Join(k[:i], ".")] {
+				skip = true
+				break
+			}
+		}
+		if skip {
+			continue
+		}
+		dotted := strings.Join(k, ".")
+		reported[dotted] = true
+		parent := k[:len(k)-1]
+		name := k[len(k)-1]
+		keys, _ := keysAt(parent)
+		where := "at the top level"
+		if len(parent) > 0 {
+			where = "in [" + strings.Join(parent, ".") + "]"
+			if _, isArray := arrayTables[parent[0]]; isArray && len(parent) == 1 {
+				where = "in [[" + parent[0] + "]]"
+			}
+		}
+		msg := fmt.Sprintf("unknown key %q %s", name, where)
+		if s := closest(name, keys); s != "" {
+			msg += fmt.Sprintf("; did you mean %q?", s)
+		} else if len(keys) > 0 {
+			msg += " (known keys: " + strings.Join(keys, ", ") + ")"
+		}
+		paths := c.p.lines.Match(dotted)
+		if len(paths) == 0 {
+			c.errf(strings.Join(parent, "."), "%s", msg)
+			continue
+		}
+		for _, path := range paths {
+			c.out.List = append(c.out.List, Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: msg})
+		}
+	}
+}
+
+var arrayTables = map[string]bool{"source": true, "extract": true, "check": true}
+
+func (c *checker) header(pl *Plan) {
+	h := c.p.Pack
+	if strings.TrimSpace(h.Name) == "" {
+		c.errf("pack.name", "the pack needs a name: add name = \"...\" under [pack]")
+	}
+	if strings.TrimSpace(h.Client) == "" {
+		c.errf("pack.client", "the pack needs the client's name: add client = \"...\" under [pack]")
+	}
+	if strings.TrimSpace(h.Period) == "" {
+		c.warnf("pack.period", "no period given: add period = \"...\" under [pack] so that the results say what they cover")
+	}
+	pl.Scale, pl.Precision = DefaultScale, DefaultPrecision
+	if h.Scale.Set() {
+		v, err := h.Scale.Int()
+		switch {
+		case err != nil:
+			c.errf("pack.scale", "%v", err)
+		case v < 1 || v > 6:
+			c.errf("pack.scale", "scale %d: give the amounts' decimal places, 1 to 6", v)
+		default:
+			pl.Scale = int(v)
+		}
+	}
+	if h.Precision.Set() {
+		v, err := h.Precision.Int()
+		switch {
+		case err != nil:
+			c.errf("pack.precision", "%v", err)
+		case v != 18 && v != 38:
+			c.errf("pack.precision", "precision %d: give 18 (fast) or 38 (for amounts of 10^16 and more)", v)
+		default:
+			pl.Precision = int(v)
+		}
+	}
+	pl.AmountType = fmt.Sprintf("DECIMAL(%d,%d)", pl.Precision, pl.Scale)
+	switch ws := strings.TrimSpace(h.Workspace); {
+	case ws == ":memory:":
+		pl.Workspace = ws
+	case ws == "":
+		base := strings.TrimSuffix(filepath.Base(c.p.File), filepath.Ext(c.p.File))
+		pl.Workspace = filepath.Join(c.p.Dir, base+".duckdb")
+	case filepath.IsAbs(ws):
+		pl.Workspace = filepath.Clean(ws)
+	default:
+		pl.Workspace = filepath.Join(c.p.Dir, ws)
+	}
+	if pl.Workspace != ":memory:" {
+		if st, err := os.Stat(pl.Workspace); err == nil && st.IsDir() {
+			c.errf("pack.workspace", "%s is a folder: give the workspace file's path, e.g. %q", pl.Workspace, "client.duckdb")
+		}
+	}
+}
+
+// sources expands the globs and reads each file's header.
+func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Plan) {
+	if len(c.p.Sources) == 0 {
+		c.errf("", "no [[source]]: add one with files = [\"extract.csv\"] (paths relative to the pack file)")
+		return
+	}
+	owner := map[string]string{}
+	for i, s := range c.p.Sources {
+		key := fmt.Sprintf("source[%d]", i)
+		ps := PlannedSource{Index: i, Name: s.Name, Columns: map[string][]string{}}
+		if ps.Name == "" {
+			ps.Name = fmt.Sprintf("source %d", i+1)
+		}
+		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma,
+			Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
+			Map: map[string]string{}}
+		if len(s.Files) == 0 {
+			c.errf(key+".files", "no files: give files = [\"extract.csv\"] or a pattern such as \"extracts/*.csv\" (relative to the pack file)")
+		}
+		for j, pat := range s.Files {
+			fk := fmt.Sprintf("%s.files[%d]", key, j)
+			if strings.TrimSpace(pat) == "" {
+				c.errf(fk, "an empty file name")
+				continue
+			}
+			full := pat
+			if !filepath.IsAbs(full) {
+				full = filepath.Join(c.p.Dir, pat)
+			}
+			var matches []string
+			if strings.ContainsAny(pat, "*?[") {
+				m, err := filepath.Glob(full)
+				if err != nil {
+					c.errf(fk, "pattern %q: %v", pat, err)
+					continue
+				}
+				if len(m) == 0 {
+					c.errf(fk, "pattern %q matches no file (looked in %s)", pat, filepath.Dir(full))
+					continue
+				}
+				matches = m
+			} else {
+				matches = []string{full}
+			}
+			sort.Strings(matches)
+			for _, m := range matches {
+				st, err := os.Stat(m)
+				if err != nil {
+					c.errf(fk, "%s: no such file", pat)
+					continue
+				}
+				if st.IsDir() {
+					c.errf(fk, "%s is a folder: give files or a pattern such as %q", pat, filepath.Join(pat, "*.csv"))
+					continue
+				}
+				if prev, dup := owner[m]; dup {
+					c.errf(fk, "%s is already read by %s: give each file to one source only", m, prev)
+					continue
+				}
+				owner[m] = displayKey(key)
+				ps.Files = append(ps.Files, m)
+			}
+		}
+		for canon, col := range s.Columns {
+			ck := key + ".columns." + canon
+			if !load.IsCanonical(canon) {
+				msg := fmt.Sprintf("%q is not a canonical column (%s)", canon, strings.Join(load.Canonical, ", "))
+				if sug := closest(canon, load.Canonical); sug != "" {
+					msg += fmt.Sprintf("; did you mean %q?", sug)
+				}
+				c.errf(ck, "%s", msg)
+				continue
+			}
+			if strings.TrimSpace(col) == "" {
+				c.errf(ck, "empty column name: name the file's column, or delete the line")
+				continue
+			}
+			ps.Options.Map[canon] = col
+		}
+		if (s.Debit == "") != (s.Credit == "") {
+			c.errf(key+".debit", "debit and credit go together (amount = debit - credit)")
+		}
+		if s.Debit != "" && s.Columns["amount"] != "" {
+			c.errf(key+".debit", "give either columns.amount or debit and credit, not both")
+		}
+		if len([]rune(strings.ReplaceAll(s.Delimiter, `\t`, "\t"))) > 1 {
+			c.errf(key+".delimiter", "delimiter %q: give one character (\"\\t\" for tab), or \"\" to guess", s.Delimiter)
+		}
+		switch strings.ToLower(s.Encoding) {
+		case "", "utf-8", "utf8", "utf-16", "latin-1", "latin1", "iso-8859-1":
+		default:
+			c.errf(key+".encoding", "encoding %q: give utf-8, utf-16 or latin-1", s.Encoding)
+		}
+		if s.DateFormat != "" && !strings.Contains(s.DateFormat, "%") {
+			c.errf(key+".date_format", "date_format %q: write a strptime format such as %%d/%%m/%%Y", s.DateFormat)
+		}
+		// Headers: every mapped column must be in every file.
+		for _, f := range ps.Files {
+			cols, err := fileColumns(ctx, mem, f, ps.Options)
+			if err != nil {
+				c.errf(key+".files", "%v", err)
+				continue
+			}
+			ps.Columns[f] = cols
+			rel := c.rel(f)
+			has := map[string]bool{}
+			for _, n := range cols {
+				has[strings.ToLower(n)] = true
+			}
+			missing := false
+			check := func(k, col string) {
+				if col == "" || has[strings.ToLower(col)] {
+					return
+				}
+				missing = true
+				msg := fmt.Sprintf("no column %q in %s (its columns: %s)", col, rel, strings.Join(cols, ", "))
+				if sug := closest(col, cols); sug != "" {
+					msg += fmt.Sprintf("; did you mean %q?", sug)
+				}
+				c.errf(k, "%s", msg)
+			}
+			canons := make([]string, 0, len(ps.Options.Map))
+			for k := range ps.Options.Map {
+				canons = append(canons, k)
+			}
+			sort.Strings(canons)
+			for _, k := range canons {
+				check(key+".columns."+k, ps.Options.Map[k])
+			}
+			check(key+".debit", s.Debit)
+			check(key+".credit", s.Credit)
+			if missing {
+				continue
+			}
+			if _, err := load.Resolve(rel, cols, ps.Options.Map, s.Debit, s.Credit); err != nil {
+				c.errf(key+".columns", "%v", err)
+			}
+		}
+		pl.Sources = append(pl.Sources, ps)
+	}
+}
+
+func (c *checker) rel(path string) string {
+	if r, err := filepath.Rel(c.p.Dir, path); err == nil && !strings.HasPrefix(r, "..") {
+		return filepath.ToSlash(r)
+	}
+	return path
+}
+
+// fileColumns reads a file's column names without loading it.
+func fileColumns(ctx context.Context, mem *workspace.Workspace, path string, o load.Options) ([]string, error) {
+	format, _, err := load.FormatOf(path)
+	if err != nil {
+		return nil, err
+	}
+	if format == "csv" {
+		src, err := load.ExamineCSV(path, o.Delimiter, o.Encoding)
+		if err != nil {
+			return nil, err
+		}
+		return src.Columns, nil
+	}
+	rows, err := mem.Conn.QueryContext(ctx, "SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(path)+"))")
+	if err != nil {
+		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, firstLine(err.Error()))
+	}
+	defer rows.Close()
+	var cols []string
+	for rows.Next() {
+		var n string
+		if err := rows.Scan(&n); err != nil {
+			return nil, err
+		}
+		cols = append(cols, n)
+	}
+	return cols, rows.Err()
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i]
+	}
+	return s
+}
+
+// mockLedger builds, in the scratch database, an empty ledger with the
+// columns a load of the sources would give (the canonical columns and
+// every original column kept as text, renamed as the loader renames them),
+// so that filters, segments and checks are checked against the real shape
+// before anything is loaded. It reports false when the sources could not
+// be read.
+func (c *checker) mockLedger(ctx context.Context, mem *workspace.Workspace, pl *Plan) bool {
+	if len(c.out.Errors()) > 0 {
+		for _, e := range c.out.Errors() {
+			if strings.HasPrefix(e.Key, "source") || e.Key == "" {
+				return false
+			}
+		}
+	}
+	if _, err := mem.Conn.ExecContext(ctx, queries.Render("create_ledger", map[string]string{"amount_type": pl.AmountType})); err != nil {
+		c.errf("pack", "building the ledger's shape: %v", err)
+		return false
+	}
+	used := map[string]bool{"row_id": true, "file_id": true, "line": true}
+	for _, k := range load.Canonical {
+		used[k] = true
+	}
+	added := map[string]bool{}
+	for _, s := range pl.Sources {
+		for _, f := range s.Files {
+			cols := s.Columns[f]
+			m, err := load.Resolve(f, cols, s.Options.Map, s.Options.Debit, s.Options.Credit)
+			if err != nil {
+				return false
+			}
+			direct := map[string]bool{}
+			for canon, n := range m.Columns {
+				if canon != "amount" && canon != "posted" {
+					direct[n] = true
+				}
+			}
+			local := map[string]bool{}
+			for k := range used {
+				local[k] = true
+			}
+			for _, n := range cols {
+				if direct[n] {
+					continue
+				}
+				name := n
+				if local[strings.ToLower(name)] {
+					name = n + "_text"
+					for k := 2; local[strings.ToLower(name)]; k++ {
+						name = fmt.Sprintf("%s_text%d", n, k)
+					}
+				}
+				local[strings.ToLower(name)] = true
+				if added[strings.ToLower(name)] {
+					continue
+				}
+				added[strings.ToLower(name)] = true
+				if _, err := mem.Conn.ExecContext(ctx, "ALTER TABLE ledger ADD COLUMN "+queries.QuoteIdent(name)+" VARCHAR"); err != nil {
+					c.errf("pack", "building the ledger's shape: %v", err)
+					return false
+				}
+			}
+		}
+	}
+	return true
+}
+
+func (c *checker) filters(ctx context.Context, mem *workspace.Workspace, pl *Plan, schemaOK bool) {
+	names := make([]string, 0, len(c.p.Filters))
+	for n := range c.p.Filters {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		pred := c.p.Filters[n]
+		k := "filters." + n
+		if strings.EqualFold(n, "none") {
+			c.errf(k, "\"none\" means no filter; give this filter another name")
+			continue
+		}
+		if strings.TrimSpace(pred) == "" {
+			c.errf(k, "empty filter: write a predicate over the ledger's columns, e.g. \"source <> 'FEE'\"")
+			continue
+		}
+		pl.Filters[n] = pred
+		if !schemaOK {
+			continue
+		}
+		if _, err := sqlguard.Filter(ctx, mem.Conn, pred); err != nil {
+			c.errf(k, "%v", err)
+		}
+	}
+}
+
+// scope resolves a step's population: its own filter, signs and minimum, or
+// the [population] defaults.
+func (c *checker) scope(pl *Plan, key string, s Scope) drill.Base {
+	pop := c.p.Population
+	b := drill.Base{Signs: drill.DefaultSigns, Min: drill.DefaultMin}
+	filter, filterKey := pop.Filter, "population.filter"
+	if s.Filter != "" {
+		filter, filterKey = s.Filter, key+".filter"
+	}
+	if filter != "" && !strings.EqualFold(filter, "none") {
+		pred, ok := pl.Filters[filter]
+		if !ok {
+			names := make([]string, 0, len(c.p.Filters))
+			for n := range c.p.Filters {
+				names = append(names, n)
+			}
+			sort.Strings(names)
+			msg := fmt.Sprintf("no filter named %q under [filters]", filter)
+			if sug := closest(filter, names); sug != "" {
+				msg += fmt.Sprintf("; did you mean %q?", sug)
+			} else if len(names) > 0 {
+				msg += " (filters: " + strings.Join(names, ", ") + ")"
+			}
+			if _, defined := c.p.Filters[filter]; !defined {
+				c.errf(filterKey, "%s", msg)
+			}
+		}
+		b.Where = pred
+	}
+	signs, signsKey := pop.Signs, "population.signs"
+	if s.Signs != "" {
+		signs, signsKey = s.Signs, key+".signs"
+	}
+	if signs != "" {
+		if err := drill.CheckSigns(signs); err != nil {
+			c.errf(signsKey, "signs %q: give positive, negative or both", signs)
+		} else {
+			b.Signs = signs
+		}
+	}
+	min, minKey := pop.MinAmount, "population.min_amount"
+	if s.MinAmount.Set() {
+		min, minKey = s.MinAmount, key+".min_amount"
+	}
+	if min.Set() {
+		t, err := min.Text()
+		switch {
+		case err != nil:
+			c.errf(minKey, "min_amount: %v", err)
+		case strings.HasPrefix(t, "-"):
+			c.errf(minKey, "min_amount %s: the minimum is on absolute amounts; give 0 or more (choose the sign with signs)", t)
+		default:
+			b.Min = t
+		}
+	}
+	return b
+}
+
+func enabled(b *bool) bool { return b == nil || *b }
+
+func (c *checker) intParam(key string, n Number, def, lo int64, what string) int64 {
+	if !n.Set() {
+		return def
+	}
+	v, err := n.Int()
+	if err != nil {
+		c.errf(key, "%s: %v", what, err)
+		return def
+	}
+	if v < lo {
+		c.errf(key, "%s %d: give %d or more", what, v, lo)
+		return def
+	}
+	return v
+}
+
+func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan, schemaOK bool) {
+	segments := func(key string, cols []string) {
+		if !schemaOK || len(cols) == 0 {
+			return
+		}
+		if _, err := ranges.ResolveSegments(ctx, mem, cols); err != nil {
+			msg := strings.ReplaceAll(err.Error(), "--by ", "")
+			c.errf(key, "%s", msg)
+		}
+	}
+	// The population is checked once even when no step uses it.
+	c.scope(pl, "population", Scope{})
+	if b := c.p.Battery; b != nil && enabled(b.Enabled) {
+		bp := &BatteryPlan{Base: c.scope(pl, "battery", b.Scope)}
+		tests := b.Tests
+		if len(tests) == 0 {
+			for _, t := range benford.AllTests() {
+				tests = append(tests, string(t))
+			}
+		}
+		seen := map[benford.Test]bool{}
+		for i, t := range tests {
+			bt, err := benford.ParseTest(t)
+			if err != nil {
+				names := []string{}
+				for _, a := range benford.AllTests() {
+					names = append(names, string(a))
+				}
+				msg := fmt.Sprintf("unknown test %q (tests: %s)", t, strings.Join(names, ", "))
+				if sug := closest(t, names); sug != "" {
+					msg += fmt.Sprintf("; did you mean %q?", sug)
+				}
+				c.errf(fmt.Sprintf("battery.tests[%d]", i), "%s", msg)
+				continue
+			}
+			if !seen[bt] {
+				seen[bt] = true
+				bp.Tests = append(bp.Tests, bt)
+			}
+		}
+		bp.Segments = b.Segments
+		segments("battery.segments", b.Segments)
+		bp.MinSegmentRows = c.intParam("battery.min_segment_rows", b.MinSegmentRows, DefaultMinSegmentRows, 1, "min_segment_rows")
+		pl.Battery = bp
+	}
+	if l := c.p.Limits; l != nil && enabled(l.Enabled) {
+		o := &limits.Options{Base: c.scope(pl, "limits", l.Scope), By: l.By}
+		o.Width = limits.DefaultWidth
+		if l.Width.Set() {
+			w, err := l.Width.Float()
+			if err != nil {
+				c.errf("limits.width", "width: %v", err)
+			} else if err := limits.CheckWidth(w); err != nil {
+				c.errf("limits.width", "width %v: the band is a fraction of the limit, strictly between 0 and 1 (0.10 for 10%%)", w)
+			} else {
+				o.Width = w
+			}
+		}
+		var texts []string
+		for i, v := range l.Values {
+			k := fmt.Sprintf("limits.values[%d]", i)
+			t, err := v.Text()
+			if err != nil {
+				c.errf(k, "limit %v", err)
+				continue
+			}
+			f, _ := strconv.ParseFloat(t, 64)
+			if !(f > 0) {
+				c.errf(k, "limit %s: a limit is a positive amount", t)
+				continue
+			}
+			if err := benford.CheckLimit(f, o.Width); err != nil {
+				c.errf(k, "limit %s: %v", t, err)
+				continue
+			}
+			texts = append(texts, t)
+		}
+		if len(texts) > 0 {
+			o.Limits, _ = limits.ParseLimits(texts)
+		}
+		o.MinCount = c.intParam("limits.min_count", l.MinCount, limits.DefaultMinCount, 1, "min_count")
+		segments("limits.by", l.By)
+		pl.Limits = o
+	}
+	if r := c.p.Ranges; r != nil && enabled(r.Enabled) {
+		o := &ranges.Options{Base: c.scope(pl, "ranges", r.Scope)}
+		ok := true
+		num := func(key string, n Number) float64 {
+			if !n.Set() {
+				return 0
+			}
+			v, err := n.Float()
+			if err != nil {
+				c.errf(key, "%v", err)
+				ok = false
+			}
+			return v
+		}
+		o.Width = num("ranges.width", r.Width)
+		o.From = num("ranges.from", r.From)
+		o.To = num("ranges.to", r.To)
+		o.PerDecade = int(c.intParam("ranges.per_decade", r.PerDecade, 0, 1, "per_decade"))
+		if ok {
+			if err := o.Layout.Check(); err != nil {
+				c.errf("ranges", "%s", strings.NewReplacer("--per-decade", "per_decade", "--width", "width", "--from", "from", "--to", "to").Replace(err.Error()))
+			}
+		}
+		pl.Ranges = o
+	}
+	if d := c.p.Duplicates; d != nil && enabled(d.Enabled) {
+		o := &duplicates.Options{Base: c.scope(pl, "duplicates", d.Scope)}
+		for i, t := range d.Tests {
+			if !contains(duplicates.Tests, t) {
+				msg := fmt.Sprintf("unknown duplicate test %q (tests: %s)", t, strings.Join(duplicates.Tests, ", "))
+				if sug := closest(t, duplicates.Tests); sug != "" {
+					msg += fmt.Sprintf("; did you mean %q?", sug)
+				}
+				c.errf(fmt.Sprintf("duplicates.tests[%d]", i), "%s", msg)
+				continue
+			}
+			o.Tests = append(o.Tests, t)
+		}
+		o.WindowDays = int(c.intParam("duplicates.window_days", d.WindowDays, 0, 0, "window_days"))
+		o.Top = int(c.intParam("duplicates.top", d.Top, duplicates.DefaultTop, 1, "top"))
+		o.MinCounterparties = int(c.intParam("duplicates.min_counterparties", d.MinCounterparties, duplicates.DefaultMinCounterparties, 2, "min_counterparties"))
+		o.MinRecords = int(c.intParam("duplicates.min_records", d.MinRecords, duplicates.DefaultMinRecords, 2, "min_records"))
+		pl.Duplicates = o
+	}
+	c.extracts(ctx, mem, pl, schemaOK)
+}
+
+func contains(list []string, s string) bool {
+	for _, x := range list {
+		if x == s {
+			return true
+		}
+	}
+	return false
+}
+
+var nameOK = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9_-]*$`)
+
+// ExtractSources are the steps an extract can take its top results from.
+var ExtractSources = []string{"battery", "limits", "ranges", "duplicates"}
+
+func (c *checker) extracts(ctx context.Context, mem *workspace.Workspace, pl *Plan, schemaOK bool) {
+	names := map[string]bool{}
+	for i, e := range c.p.Extracts {
+		key := fmt.Sprintf("extract[%d]", i)
+		ep := ExtractPlan{Name: e.Name, From: e.From, Test: e.Test, GroupBy: e.GroupBy}
+		if !nameOK.MatchString(e.Name) {
+			c.errf(key+".name", "extract name %q: give a short name of letters, digits, _ and - (it names the result table)", e.Name)
+		} else if names[strings.ToLower(e.Name)] {
+			c.errf(key+".name", "two extracts are named %q", e.Name)
+		}
+		names[strings.ToLower(e.Name)] = true
+		stepOn := map[string]bool{"battery": pl.Battery != nil, "limits": pl.Limits != nil, "ranges": pl.Ranges != nil, "duplicates": pl.Duplicates != nil}
+		switch {
+		case !contains(ExtractSources, e.From):
+			msg := fmt.Sprintf("from %q: give one of %s", e.From, strings.Join(ExtractSources, ", "))
+			if sug := closest(e.From, ExtractSources); sug != "" {
+				msg += fmt.Sprintf("; did you mean %q?", sug)
+			}
+			c.errf(key+".from", "%s", msg)
+		case !stepOn[e.From]:
+			c.errf(key+".from", "from %q, but the pack does not run [%s]: add the table or drop this extract", e.From, e.From)
+		}
+		switch e.From {
+		case "battery":
+			t := e.Test
+			if t == "" {
+				t = string(benford.FirstTwo)
+			}
+			bt, err := benford.ParseTest(t)
+			if err == nil {
+				_, err = drill.CheckBin(string(bt), firstBin(bt))
+			}
+			if err != nil {
+				c.errf(key+".test", "test %q: %v", e.Test, err)
+			} else {
+				ep.Test = string(bt)
+				if bt == benford.Summation {
+					ep.Test = string(benford.Summation)
+				}
+			}
+		case "duplicates":
+			if e.Test == "" {
+				c.errf(key+".test", "name the duplicate test whose top groups to extract (%s)", strings.Join(duplicates.Tests, ", "))
+			} else if !contains(duplicates.Tests, e.Test) {
+				c.errf(key+".test", "unknown duplicate test %q (tests: %s)", e.Test, strings.Join(duplicates.Tests, ", "))
+			} else if pl.Duplicates != nil && len(pl.Duplicates.Tests) > 0 && !contains(pl.Duplicates.Tests, e.Test) {
+				c.errf(key+".test", "test %q is not among [duplicates] tests", e.Test)
+			}
+		default:
+			if e.Test != "" {
+				c.errf(key+".test", "test is for extracts from battery or duplicates; leave it out for %s", e.From)
+			}
+		}
+		ep.Top = int(c.intParam(key+".top", e.Top, DefaultExtractTop, 1, "top"))
+		ep.MaxRows = int(c.intParam(key+".max_rows", e.MaxRows, DefaultExtractRows, 1, "max_rows"))
+		if e.GroupBy != "" && schemaOK {
+			if _, err := ranges.ResolveSegments(ctx, mem, []string{e.GroupBy}); err != nil {
+				c.errf(key+".group_by", "%s", strings.ReplaceAll(err.Error(), "--by ", "group_by "))
+			}
+		}
+		pl.Extracts = append(pl.Extracts, ep)
+	}
+}
+
+func firstBin(t benford.Test) int {
+	lo, _ := t.Bins()
+	return lo
+}
+
+var sqlLineRE = regexp.MustCompile(`LINE (\d+):`)
+
+func (c *checker) checks(ctx context.Context, mem *workspace.Workspace, pl *Plan, schemaOK bool) {
+	names := map[string]bool{}
+	for i, ch := range c.p.Checks {
+		key := fmt.Sprintf("check[%d]", i)
+		cp := CheckPlan{Name: ch.Name, Title: ch.Title, SQL: strings.TrimSpace(ch.SQL), Params: map[string]any{}, Kinds: map[string]output.Kind{}, Finding: ch.Finding}
+		if cp.Title == "" {
+			cp.Title = ch.Name
+		}
+		if !nameOK.MatchString(ch.Name) {
+			c.errf(key+".name", "check name %q: give a short name of letters, digits, _ and - (it names the result table)", ch.Name)
+		} else if names[strings.ToLower(ch.Name)] {
+			c.errf(key+".name", "two checks are named %q", ch.Name)
+		}
+		names[strings.ToLower(ch.Name)] = true
+		switch ch.Finding {
+		case "", "rows", "none":
+		default:
+			c.errf(key+".finding", "finding %q: give \"rows\" (report the row count among the key findings) or \"none\"", ch.Finding)
+		}
+		if cp.Finding == "" {
+			cp.Finding = "rows"
+		}
+		cp.MaxRows = int(c.intParam(key+".max_rows", ch.MaxRows, DefaultCheckRows, 1, "max_rows"))
+		pnames := make([]string, 0, len(ch.Params))
+		for n := range ch.Params {
+			pnames = append(pnames, n)
+		}
+		sort.Strings(pnames)
+		paramsOK := true
+		for _, n := range pnames {
+			v, err := ch.Params[n].Value()
+			if err != nil {
+				c.errf(key+".params."+n, "%v", err)
+				paramsOK = false
+				continue
+			}
+			if !nameOK.MatchString(n) || strings.Contains(n, "-") {
+				c.errf(key+".params."+n, "parameter name %q: use letters, digits and _ (the SQL refers to it as $%s)", n, n)
+				paramsOK = false
+				continue
+			}
+			cp.Params[n] = v
+		}
+		for col, f := range ch.Formats {
+			k, err := output.ParseKind(f)
+			if err != nil {
+				c.errf(key+".formats."+col, "%v", err)
+				continue
+			}
+			cp.Kinds[col] = k
+		}
+		sqlKey := key + ".sql"
+		if cp.SQL == "" {
+			c.errf(sqlKey, "no SQL: write one SELECT over the workspace's tables (ledger, files, rejects)")
+		}
+		pl.Checks = append(pl.Checks, cp)
+		if cp.SQL == "" || !schemaOK {
+			continue
+		}
+		at := func(err error) (string, string) {
+			msg := firstLine(strings.TrimSpace(err.Error()))
+			if m := sqlLineRE.FindStringSubmatch(err.Error()); m != nil {
+				n, _ := strconv.Atoi(m[1])
+				return sqlKey, fmt.Sprintf("%s (line %d of the SQL)", msg, n)
+			}
+			return sqlKey, msg
+		}
+		if err := sqlguard.CheckSelect(ctx, mem.Conn, cp.SQL); err != nil {
+			k, msg := at(err)
+			c.errf(k, "refused: %s", msg)
+			continue
+		}
+		if !paramsOK {
+			continue
+		}
+		// Run it on the empty ledger: this binds every column and parameter.
+		rows, err := mem.Conn.QueryContext(ctx, cp.SQL, cp.Args()...)
+		if err != nil {
+			k, msg := at(err)
+			c.errf(k, "%s", msg)
+			continue
+		}
+		cols, _ := rows.Columns()
+		rows.Close()
+		for col := range cp.Kinds {
+			if !contains(cols, col) {
+				c.errf(key+".formats."+col, "the check's result has no column %q (columns: %s)", col, strings.Join(cols, ", "))
+			}
+		}
+		if !hasOrderBy(ctx, mem, cp.SQL) {
+			c.warnf(sqlKey, "no ORDER BY: the rows may come out in another order on each run, and two runs' CSV files would then differ; end the SELECT with an ORDER BY over a unique key")
+		}
+	}
+}
+
+// hasOrderBy reports whether the statement's outermost query ends with an
+// ORDER BY.
+func hasOrderBy(ctx context.Context, mem *workspace.Workspace, q string) bool {
+	var doc string
+	if err := mem.Conn.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", q).Scan(&doc); err != nil {
+		return true
+	}
+	var parsed struct {
+		Statements []struct {
+			Node struct {
+				Modifiers []struct {
+					Type string `json:"type"`
+				} `json:"modifiers"`
+			} `json:"node"`
+		} `json:"statements"`
+	}
+	if json.Unmarshal([]byte(doc), &parsed) != nil || len(parsed.Statements) != 1 {
+		return true
+	}
+	for _, m := range parsed.Statements[0].Node.Modifiers {
+		if m.Type == "ORDER_MODIFIER" {
+			return true
+		}
+	}
+	return false
+}
