@@ -1,0 +1,379 @@
+package report
+
+import (
+	"encoding/json"
+	"fmt"
+	"html/template"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/ranges"
+)
+
+// resolvePointer returns the JSON value at an RFC 6901 pointer.
+func resolvePointer(raw json.RawMessage, ptr string) (json.RawMessage, error) {
+	if ptr == "" {
+		return raw, nil
+	}
+	if !strings.HasPrefix(ptr, "/") {
+		return nil, fmt.Errorf("JSON pointer %q does not start with /", ptr)
+	}
+	cur := raw
+	for _, tok := range strings.Split(ptr[1:], "/") {
+		tok = strings.ReplaceAll(strings.ReplaceAll(tok, "~1", "/"), "~0", "~")
+		trimmed := strings.TrimSpace(string(cur))
+		switch {
+		case strings.HasPrefix(trimmed, "{"):
+			var obj map[string]json.RawMessage
+			if err := json.Unmarshal(cur, &obj); err != nil {
+				return nil, err
+			}
+			v, ok := obj[tok]
+			if !ok {
+				return nil, fmt.Errorf("JSON pointer %q: no key %q", ptr, tok)
+			}
+			cur = v
+		case strings.HasPrefix(trimmed, "["):
+			var arr []json.RawMessage
+			if err := json.Unmarshal(cur, &arr); err != nil {
+				return nil, err
+			}
+			i, err := strconv.Atoi(tok)
+			if err != nil || i < 0 || i >= len(arr) {
+				return nil, fmt.Errorf("JSON pointer %q: bad index %q", ptr, tok)
+			}
+			cur = arr[i]
+		default:
+			return nil, fmt.Errorf("JSON pointer %q: %q is not inside an object or array", ptr, tok)
+		}
+	}
+	return cur, nil
+}
+
+// found is a JSON object found by findObjects, with its pointer.
+type found struct {
+	ptr   string
+	depth int
+	n     *node
+}
+
+// findObjects returns the objects of the document for which match holds,
+// not looking inside a match, in document order.
+func findObjects(n *node, ptr string, depth int, match func(*node) bool, out *[]found) {
+	switch n.kind {
+	case 'o':
+		if match(n) {
+			*out = append(*out, found{ptr, depth, n})
+			return
+		}
+		for i, k := range n.keys {
+			findObjects(n.vals[i], ptr+"/"+escapePointer(k), depth+1, match, out)
+		}
+	case 'a':
+		for i, it := range n.items {
+			findObjects(it, ptr+"/"+strconv.Itoa(i), depth+1, match, out)
+		}
+	}
+}
+
+func hasKeys(n *node, keys ...string) bool {
+	for _, k := range keys {
+		if n.get(k) == nil {
+			return false
+		}
+	}
+	return true
+}
+
+func isDigitResult(n *node) bool {
+	t := n.get("test")
+	return t != nil && t.kind == 's' && hasKeys(n, "bins", "mad", "n")
+}
+
+// shallowest keeps the matches at the smallest depth.
+func shallowest(fs []found) []found {
+	if len(fs) == 0 {
+		return nil
+	}
+	min := fs[0].depth
+	for _, f := range fs {
+		if f.depth < min {
+			min = f.depth
+		}
+	}
+	var out []found
+	for _, f := range fs {
+		if f.depth == min {
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+// topFacts lists the scalars at the top of a document (and one level into
+// plain objects) as facts.
+func topFacts(root *node, r ref, skip ...string) []Fact {
+	var facts []Fact
+	sk := map[string]bool{}
+	for _, s := range skip {
+		sk[s] = true
+	}
+	for i, k := range root.keys {
+		if sk[k] {
+			continue
+		}
+		v := root.vals[i]
+		if v.scalar() {
+			facts = append(facts, Fact{Label: humanLabel(k), Value: v.cell(r, k)})
+		} else if v.kind == 'o' {
+			for j, k2 := range v.keys {
+				if v.vals[j].scalar() {
+					facts = append(facts, Fact{Label: humanLabel(k + " " + k2), Value: v.vals[j].cell(r.At(k), k2)})
+				}
+			}
+		}
+	}
+	return facts
+}
+
+// addScan reads a battery run: the digit tests of the whole population
+// are the shallowest digit-test results in its document.
+func (m *Model) addScan(r *Run) error {
+	root, err := parseOrdered(r.Result)
+	if err != nil {
+		return err
+	}
+	var fs []found
+	findObjects(root, "", 0, isDigitResult, &fs)
+	top := shallowest(fs)
+	if len(top) == 0 {
+		return fmt.Errorf("no digit-test results in the scan")
+	}
+	sec := &DigitSection{Run: r}
+	for _, f := range top {
+		raw, err := resolvePointer(r.Result, f.ptr)
+		if err != nil {
+			return err
+		}
+		var res benford.Result
+		if err := json.Unmarshal(raw, &res); err != nil {
+			return fmt.Errorf("digit test at %s: %w", f.ptr, err)
+		}
+		sec.Tests = append(sec.Tests, DigitTest{Ref: runRef(r.ID, f.ptr, string(res.Test)), Result: res, ID: fmt.Sprintf("r%d-%s", r.ID, res.Test)})
+	}
+	sort.SliceStable(sec.Tests, func(i, j int) bool { return testOrder(sec.Tests[i].Result.Test) < testOrder(sec.Tests[j].Result.Test) })
+	if root.kind == 'o' {
+		sec.Meta = topFacts(root, runRef(r.ID, "", "scan"), "tests", "results", "segments", "kind", "run_id", "note", "notes")
+	}
+	m.Digits = sec
+	if len(fs) > len(top) || root.get("segments") != nil {
+		// Segment results sit deeper in the same run.
+		if seg := root.get("segments"); seg != nil {
+			raw, err := resolvePointer(r.Result, "/segments")
+			if err == nil {
+				_ = m.addSegments(r, raw, runRef(r.ID, "/segments", "segments"))
+			}
+		}
+	}
+	return nil
+}
+
+func testOrder(t benford.Test) int {
+	for i, x := range benford.AllTests() {
+		if x == t {
+			return i
+		}
+	}
+	return len(benford.AllTests())
+}
+
+// segmentLike is an object that describes one segment's digit result.
+func segmentLike(n *node) bool {
+	return hasKeys(n, "mad", "excess_mad") && (n.get("value") != nil || n.get("segment") != nil || n.get("name") != nil)
+}
+
+// addSegments reads a segment ranking: objects with a segment name or
+// value, a MAD and an excess MAD.
+func (m *Model) addSegments(r *Run, raw json.RawMessage, base ref) error {
+	root, err := parseOrdered(raw)
+	if err != nil {
+		return err
+	}
+	var fs []found
+	findObjects(root, "", 0, segmentLike, &fs)
+	if len(fs) == 0 {
+		return fmt.Errorf("no segment results")
+	}
+	sec := &SegmentSection{Run: r}
+	for _, f := range fs {
+		var row struct {
+			Column     string   `json:"column"`
+			By         string   `json:"by"`
+			Value      *string  `json:"value"`
+			Segment    *string  `json:"segment"`
+			Name       *string  `json:"name"`
+			Test       string   `json:"test"`
+			N          int64    `json:"n"`
+			MAD        float64  `json:"mad"`
+			ExcessMAD  float64  `json:"excess_mad"`
+			Conformity string   `json:"conformity"`
+			Flagged    int      `json:"flagged"`
+			PValue     *float64 `json:"p_value"`
+		}
+		sub, err := resolvePointer(raw, f.ptr)
+		if err != nil {
+			return err
+		}
+		if err := json.Unmarshal(sub, &row); err != nil {
+			return err
+		}
+		s := SegmentRow{Column: firstNonEmpty(row.Column, row.By), N: row.N, MAD: row.MAD, ExcessMAD: row.ExcessMAD, Conformity: row.Conformity, Flagged: row.Flagged}
+		for _, v := range []*string{row.Value, row.Segment, row.Name} {
+			if v != nil {
+				s.Value = *v
+				break
+			}
+		}
+		if row.PValue != nil {
+			s.PValue, s.HasP = *row.PValue, true
+		}
+		if row.Test != "" {
+			sec.Test = row.Test
+		}
+		s.Ref = ref{Src: base.Src + f.ptr, Field: fmt.Sprintf("segments.%s=%s", s.Column, s.Value)}
+		sec.Rows = append(sec.Rows, s)
+	}
+	sort.SliceStable(sec.Rows, func(i, j int) bool { return sec.Rows[i].ExcessMAD > sec.Rows[j].ExcessMAD })
+	m.Segments = sec
+	return nil
+}
+
+func firstNonEmpty(s ...string) string {
+	for _, x := range s {
+		if x != "" {
+			return x
+		}
+	}
+	return ""
+}
+
+// maxLimitRows bounds the limit table.
+const maxLimitRows = 30
+
+// addLimits reads a limit-probe run (limits.Report).
+func (m *Model) addLimits(r *Run) error {
+	var rep limits.Report
+	if err := json.Unmarshal(r.Result, &rep); err != nil {
+		return err
+	}
+	sec := &LimitSection{Run: r, Ref: runRef(r.ID, "", "limits"), Report: rep}
+	var tested []LimitRow
+	for i, row := range rep.Rows {
+		seg := segmentLabel(row.Segment)
+		lr := LimitRow{Ref: runRef(r.ID, fmt.Sprintf("/rows/%d", i), fmt.Sprintf("limits.%s.%s", seg, strconv.FormatFloat(row.Limit, 'f', -1, 64))), Segment: seg, Row: row}
+		if row.Status == limits.StatusTested {
+			tested = append(tested, lr)
+		}
+	}
+	sort.SliceStable(tested, func(i, j int) bool { return tested[i].Row.Rank < tested[j].Row.Rank })
+	if len(tested) > maxLimitRows {
+		tested = tested[:maxLimitRows]
+	}
+	sec.Rows = tested
+	sec.Hidden = len(rep.Rows) - len(tested)
+	sec.Chart = template.HTML(limitChart(fmt.Sprintf("r%d-limits", r.ID), tested))
+	m.Limits = sec
+	return nil
+}
+
+// segmentLabel writes a limit row's segment: "all" for the whole
+// selection, else "column = value" pairs.
+func segmentLabel(seg map[string]*string) string {
+	if seg == nil {
+		return "all"
+	}
+	var parts []string
+	for _, k := range sortedKeys(seg) {
+		v := "(blank)"
+		if seg[k] != nil {
+			v = *seg[k]
+		}
+		parts = append(parts, k+" = "+v)
+	}
+	return strings.Join(parts, ", ")
+}
+
+// addRanges reads an amount-range run (ranges.Report).
+func (m *Model) addRanges(r *Run) error {
+	var rep ranges.Report
+	if err := json.Unmarshal(r.Result, &rep); err != nil {
+		return err
+	}
+	if len(rep.Bands) == 0 {
+		return fmt.Errorf("no bands in the run")
+	}
+	sec := &RangeSection{Run: r, Ref: runRef(r.ID, "", "ranges"), Report: rep}
+	for i, b := range rep.Bands {
+		row := RangeRow{Ref: runRef(r.ID, fmt.Sprintf("/bands/%d", i), "ranges."+strconv.FormatFloat(b.From, 'f', -1, 64)), Row: b}
+		sec.Bands = append(sec.Bands, row)
+		if b.Flagged {
+			sec.Flagged = append(sec.Flagged, row)
+		}
+	}
+	sec.Chart = template.HTML(rangeChart(fmt.Sprintf("r%d-ranges", r.ID), sec.Bands))
+	m.Ranges = sec
+	return nil
+}
+
+// addDuplicates reads a duplicates run.
+func (m *Model) addDuplicates(r *Run) error {
+	var res duplicates.Result
+	if err := json.Unmarshal(r.Result, &res); err != nil {
+		return err
+	}
+	if len(res.Tests) == 0 {
+		return fmt.Errorf("no duplicate tests in the run")
+	}
+	m.Duplicates = &DuplicateSection{Run: r, Ref: runRef(r.ID, "", "duplicates"), Result: res}
+	return nil
+}
+
+// addDrill adds a drill-down extract, shown as stored.
+func (m *Model) addDrill(r *Run) error {
+	g, err := genericFrom(r, fmt.Sprintf("Extract (run %d)", r.ID), r.Result, runRef(r.ID, "", fmt.Sprintf("drill.%d", r.ID)))
+	if err != nil {
+		return err
+	}
+	if m.Drills == nil {
+		m.Drills = &DrillSection{}
+	}
+	m.Drills.Extracts = append(m.Drills.Extracts, g)
+	return nil
+}
+
+// addPack takes the manifest from a pack run: its "manifest" member when
+// there is one, else the whole document.
+func (m *Model) addPack(r *Run) error {
+	root, err := parseOrdered(r.Result)
+	if err != nil {
+		return err
+	}
+	ptr := ""
+	if root.get("manifest") != nil {
+		ptr = "/manifest"
+	}
+	raw, err := resolvePointer(r.Result, ptr)
+	if err != nil {
+		return err
+	}
+	g, err := genericFrom(r, "Manifest", raw, runRef(r.ID, ptr, "manifest"))
+	if err != nil {
+		return err
+	}
+	m.Manifest = g
+	return nil
+}

@@ -1,0 +1,156 @@
+package report
+
+import (
+	"fmt"
+	"html"
+	"html/template"
+	"math"
+	"strconv"
+	"strings"
+)
+
+// Number formats of the report. Each is a name the templates pass to
+// numHTML; the text shown always carries enough digits that a reader (and
+// the tests) can tell it from its neighbours.
+//
+//	int     whole number with thousands separators: 1,234,567
+//	pct:N   a proportion as a percentage with N decimals: 4.52%
+//	f:N     N decimals: 0.00123
+//	sf      four significant digits, plain or exponent: 12.35, 3.142e-05
+//	p       a p-value: four decimals, or an exponent below 0.001
+//	money   an exact decimal string with thousands separators
+//	text    any string, unchanged
+func formatValue(v any, kind string) string {
+	switch x := v.(type) {
+	case string:
+		if kind == "money" {
+			return groupThousands(x)
+		}
+		return x
+	case int:
+		return formatFloat(float64(x), kind)
+	case int64:
+		if kind == "int" || kind == "" {
+			return typoMinus(groupThousands(strconv.FormatInt(x, 10)))
+		}
+		return formatFloat(float64(x), kind)
+	case float64:
+		return formatFloat(x, kind)
+	case nil:
+		return ""
+	}
+	return fmt.Sprint(v)
+}
+
+func formatFloat(x float64, kind string) string {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return "n/a"
+	}
+	name, arg, _ := strings.Cut(kind, ":")
+	dec, _ := strconv.Atoi(arg)
+	var s string
+	switch name {
+	case "int":
+		s = groupThousands(strconv.FormatFloat(math.Round(x), 'f', 0, 64))
+	case "pct":
+		s = groupThousands(strconv.FormatFloat(x*100, 'f', dec, 64)) + "%"
+	case "f":
+		s = groupThousands(strconv.FormatFloat(x, 'f', dec, 64))
+	case "p":
+		switch {
+		case x == 0:
+			s = "0"
+		case math.Abs(x) < 0.001:
+			s = strconv.FormatFloat(x, 'e', 2, 64)
+		default:
+			s = strconv.FormatFloat(x, 'f', 4, 64)
+		}
+	default: // sf
+		a := math.Abs(x)
+		switch {
+		case x == 0:
+			s = "0"
+		case a >= 1e-3 && a < 1e9:
+			d := 3 - int(math.Floor(math.Log10(a)))
+			if d < 0 {
+				d = 0
+			}
+			s = groupThousands(strconv.FormatFloat(x, 'f', d, 64))
+		default:
+			s = strconv.FormatFloat(x, 'e', 3, 64)
+		}
+	}
+	return typoMinus(s)
+}
+
+// typoMinus writes a leading minus sign as the typographic minus (U+2212).
+func typoMinus(s string) string {
+	if strings.HasPrefix(s, "-") {
+		return "−" + s[1:]
+	}
+	return s
+}
+
+// groupThousands puts commas between groups of three digits of the
+// integer part of a plain decimal number ("-1234567.89" ->
+// "-1,234,567.89"); other text is returned unchanged.
+func groupThousands(s string) string {
+	start := 0
+	if strings.HasPrefix(s, "-") || strings.HasPrefix(s, "+") {
+		start = 1
+	}
+	end := len(s)
+	if i := strings.IndexByte(s, '.'); i >= 0 {
+		end = i
+	}
+	intPart := s[start:end]
+	if len(intPart) <= 3 {
+		return s
+	}
+	for _, r := range intPart {
+		if r < '0' || r > '9' {
+			return s
+		}
+	}
+	var b strings.Builder
+	b.WriteString(s[:start])
+	for i, r := range intPart {
+		if i > 0 && (len(intPart)-i)%3 == 0 {
+			b.WriteByte(',')
+		}
+		b.WriteRune(r)
+	}
+	b.WriteString(s[end:])
+	return b.String()
+}
+
+// rawValue is the exact stored form written into data-value.
+func rawValue(v any) string {
+	switch x := v.(type) {
+	case float64:
+		return strconv.FormatFloat(x, 'g', -1, 64)
+	case int64:
+		return strconv.FormatInt(x, 10)
+	case int:
+		return strconv.Itoa(x)
+	case string:
+		return x
+	}
+	return fmt.Sprint(v)
+}
+
+// numHTML marks up one number of the report: field is its readable name,
+// src where it comes from (see the package doc), kind its format.
+func numHTML(field, src string, v any, kind string) template.HTML {
+	cls := "num"
+	if f, ok := v.(float64); ok && f < 0 || strings.HasPrefix(rawValue(v), "-") {
+		cls += " neg"
+	}
+	return template.HTML(fmt.Sprintf(`<span class="%s" data-field="%s" data-src="%s" data-value="%s">%s</span>`,
+		cls, html.EscapeString(field), html.EscapeString(src), html.EscapeString(rawValue(v)), html.EscapeString(formatValue(v, kind))))
+}
+
+// escapePointer escapes one JSON-pointer reference token (RFC 6901).
+func escapePointer(tok string) string {
+	return strings.ReplaceAll(strings.ReplaceAll(tok, "~", "~0"), "/", "~1")
+}

@@ -1,0 +1,300 @@
+package report
+
+import (
+	"encoding/json"
+	"fmt"
+	"html/template"
+	"time"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/ranges"
+)
+
+// Caution is the sentence every report opens with.
+const Caution = "The results in this report are signals for follow-up, never proof of fraud or error. " +
+	"A flagged bin, range, limit, segment or duplicate group says where to look; " +
+	"whether anything is wrong is for the engagement team to judge under the auditing standards that apply to them."
+
+// Model is everything a report shows. FromWorkspace fills it from a
+// workspace; a caller holding results in memory may fill it directly.
+// A nil section is shown as "not run".
+type Model struct {
+	Title       string
+	GeneratedAt time.Time
+	ToolVersion string
+	DuckDB      string
+	Workspace   string
+	// Runs are the stored runs the report draws on, by run id.
+	Runs []Run
+	// Notes are remarks on the job as a whole (for instance a run made
+	// before the latest load).
+	Notes []string
+
+	Completeness *Completeness
+	Digits       *DigitSection
+	Segments     *SegmentSection
+	Limits       *LimitSection
+	Ranges       *RangeSection
+	Duplicates   *DuplicateSection
+	Drills       *DrillSection
+	Manifest     *GenericSection
+
+	// Others are runs of kinds the report has no section of its own for
+	// (or whose result it could not read), shown as generic tables.
+	Others []*GenericSection
+
+	// absent explains, per section key, why a section is not run.
+	absent map[string]string
+}
+
+// Run is one stored run.
+type Run struct {
+	ID          int64           `json:"run_id"`
+	Kind        string          `json:"kind"`
+	StartedAt   time.Time       `json:"started_at"`
+	FinishedAt  time.Time       `json:"finished_at"`
+	ToolVersion string          `json:"tool_version"`
+	Params      json.RawMessage `json:"params"`
+	Result      json.RawMessage `json:"result"`
+	// Stale is set when the run started before the latest load finished:
+	// its figures may not describe the ledger as it is now.
+	Stale bool `json:"stale"`
+}
+
+// ref addresses numbers in a run's stored JSON: the run id and a JSON
+// pointer, plus the readable field name prefix used in data-field.
+type ref struct {
+	Src   string // "run/12#/tests/2" or "files/3"
+	Field string // "first_two"
+}
+
+func runRef(id int64, ptr, field string) ref {
+	return ref{Src: fmt.Sprintf("run/%d#%s", id, ptr), Field: field}
+}
+
+// At descends into key (an object key or an array index).
+func (r ref) At(key any) ref {
+	k := fmt.Sprint(key)
+	sep := "/"
+	if len(r.Src) > 0 && r.Src[len(r.Src)-1] == '#' {
+		sep = ""
+		k = "/" + escapePointer(k)
+	} else {
+		k = escapePointer(k)
+	}
+	f := r.Field
+	if f != "" {
+		f += "."
+	}
+	return ref{Src: r.Src + sep + k, Field: f + fmt.Sprint(key)}
+}
+
+// AtField descends into key in the source but names the field label.
+func (r ref) AtField(key any, label any) ref {
+	n := r.At(key)
+	f := r.Field
+	if f != "" {
+		f += "."
+	}
+	n.Field = f + fmt.Sprint(label)
+	return n
+}
+
+// F marks up the number at key.
+func (r ref) F(key string, v any, kind string) template.HTML {
+	n := r.At(key)
+	return numHTML(n.Field, n.Src, v, kind)
+}
+
+// Completeness is what was loaded: files with their counts and control
+// totals, entity totals, reject reasons and the loads.
+type Completeness struct {
+	Files        []FileRow
+	Entities     []EntityRow
+	Reasons      []ReasonRow
+	Samples      []RejectSample
+	Loads        []LoadRow
+	LedgerRows   int64 // rows in the ledger table now
+	RowsRead     int64
+	RowsLoaded   int64
+	RowsRejected int64
+	Balanced     bool // every file: read = loaded + rejected, and the ledger holds the loaded rows
+}
+
+// FileRow is one loaded file.
+type FileRow struct {
+	FileID       int64
+	LoadID       int64
+	Name, Path   string
+	Format       string
+	SizeBytes    int64
+	SHA256       string
+	RowsRead     int64
+	RowsLoaded   int64
+	RowsRejected int64
+	InLedger     int64  // rows of the file in the ledger now
+	Positive     string // exact control totals of the rows in the ledger
+	Negative     string
+	Net          string
+	LoadedAt     time.Time
+	Balanced     bool
+}
+
+// R addresses the file's numbers.
+func (f FileRow) R() ref { return ref{Src: fmt.Sprintf("files/%d", f.FileID), Field: fmt.Sprintf("files.%d", f.FileID)} }
+
+// EntityRow is one entity's control totals over the ledger.
+type EntityRow struct {
+	Entity   string
+	Rows     int64
+	Positive string
+	Negative string
+	Net      string
+}
+
+// R addresses the entity's numbers.
+func (e EntityRow) R() ref {
+	return ref{Src: "entities/" + escapePointer(e.Entity), Field: "entities." + e.Entity}
+}
+
+// ReasonRow counts rejected rows of one file by reason.
+type ReasonRow struct {
+	FileID    int64
+	File      string
+	Reason    string
+	Rows      int64
+	FirstLine int64
+}
+
+// R addresses the row's numbers.
+func (r ReasonRow) R() ref {
+	return ref{Src: fmt.Sprintf("rejects/%d/%s", r.FileID, escapePointer(r.Reason)), Field: fmt.Sprintf("rejects.%d.%s", r.FileID, r.Reason)}
+}
+
+// RejectSample is one rejected row, shown as an example.
+type RejectSample struct {
+	File     string
+	Line     int64
+	Column   string
+	RawValue string
+	Reason   string
+}
+
+// LoadRow is one load.
+type LoadRow struct {
+	LoadID      int64
+	StartedAt   time.Time
+	FinishedAt  time.Time
+	ToolVersion string
+}
+
+// DigitSection holds the digit tests of one battery run.
+type DigitSection struct {
+	Run   *Run
+	Scope string // what population was tested, in words
+	Tests []DigitTest
+	// Meta are scalar facts of the scan (amounts tested, left out...).
+	Meta []Fact
+}
+
+// DigitTest is one digit test's result and where it sits in the run.
+type DigitTest struct {
+	Ref    ref
+	Result benford.Result
+	ID     string // element id prefix
+}
+
+// Fact is one labelled number or text of a section.
+type Fact struct {
+	Label string
+	Value template.HTML
+}
+
+// SegmentSection ranks segments (entity, account, user, month...) by how
+// far their digits stray from expectation.
+type SegmentSection struct {
+	Run  *Run
+	Test string // which digit test ranks them
+	By   string
+	Rows []SegmentRow
+	Meta []Fact
+	Note string
+}
+
+// SegmentRow is one segment.
+type SegmentRow struct {
+	Ref        ref
+	Column     string
+	Value      string
+	N          int64
+	MAD        float64
+	ExcessMAD  float64
+	Conformity string
+	Flagged    int
+	PValue     float64
+	HasP       bool
+}
+
+// LimitSection is the limit-clustering probe.
+type LimitSection struct {
+	Run    *Run
+	Ref    ref
+	Report limits.Report
+	Rows   []LimitRow // tested pairs by rank, at most maxLimitRows
+	Hidden int        // pairs not listed (untested, or beyond maxLimitRows)
+	Chart  template.HTML
+}
+
+// LimitRow is one (segment, limit) pair probed.
+type LimitRow struct {
+	Ref     ref
+	Segment string // "all" for the whole selection
+	Row     limits.Row
+}
+
+// RangeSection is the amount-range table and chart.
+type RangeSection struct {
+	Run     *Run
+	Ref     ref
+	Report  ranges.Report
+	Bands   []RangeRow
+	Flagged []RangeRow
+	Chart   template.HTML
+}
+
+// RangeRow is one band.
+type RangeRow struct {
+	Ref ref
+	Row ranges.Row
+}
+
+// DuplicateSection holds a duplicates run.
+type DuplicateSection struct {
+	Run    *Run
+	Ref    ref
+	Result duplicates.Result
+}
+
+// DrillSection holds the drill-down extracts.
+type DrillSection struct {
+	Extracts []*GenericSection
+}
+
+// GenericSection shows a stored JSON document as facts and tables, for
+// runs whose shape the report does not know in detail.
+type GenericSection struct {
+	Run    *Run
+	Title  string
+	Facts  []Fact
+	Tables []GenericTable
+}
+
+// GenericTable is one array of objects of a JSON document.
+type GenericTable struct {
+	Title   string
+	Columns []string
+	Rows    [][]template.HTML
+	More    int // rows not shown
+}
