@@ -1,0 +1,295 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"strings"
+
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/spf13/pflag"
+)
+
+func init() {
+	register(&command{
+		name:    "drill",
+		summary: "list the records behind a digit bin, amount, range, segment or duplicate group",
+		usage: `Usage: leadline drill [selection] [options]
+
+Lists the records behind a result: every ledger column (the canonical ones
+and every original column as the client sent it) plus the file each record
+came from. Every part of the selection narrows it further:
+
+  --test T --bin N     a bin of a digit test: first (1-9), second (0-9),
+                       first_two (10-99), first_three (100-999), last_two (0-99);
+                       digits come from the exact decimal (0.29 is first-two 29,
+                       0.5 is first-three 500, 1234.56 is last-two 56)
+  --amount X           one exact amount (a leading minus selects negative amounts)
+  --range FROM:TO      FROM <= |amount| < TO, e.g. a band just below a limit;
+                       either end may be left out (4500: or :5000)
+  --segment COL=VALUE  records whose column holds exactly VALUE (repeatable);
+                       COL= selects blanks; month=YYYY-MM selects a posted month
+  --dup RUN:TEST:GROUP a group of a stored duplicates run, as printed by
+                       leadline dups (TEST:GROUP for the latest run)
+  --where SQL          the same filter predicate as the scan (read-only)
+
+Amounts are compared by absolute value among the amounts kept by --signs
+and --min, the scan's population: positive amounts of at least 10 unless
+told otherwise. A duplicate group keeps the population of its run.
+
+--group COLUMN gives one row per value of any column (counterparty, user_id,
+account, entity, an original column, file_name or month) with its records,
+total, distinct amounts and the most repeated amounts ("1847.23×312"),
+most records first. --out FILE writes every record (or every group) to a
+.csv, .json or .parquet file; --limit only cuts what is shown.
+
+Examples:
+  leadline drill --test first_two --bin 47
+  leadline drill --test first_two --bin 47 --group counterparty
+  leadline drill --range 4500:5000 --segment user_id=wtennick --sort posted
+  leadline drill --amount 1847.23 --group user_id
+  leadline drill --amount -250 --group counterparty --limit 20
+  leadline drill --dup 7:same_amount:1
+  leadline drill --test last_two --bin 0 --where "entity = 'HAUL'" --out round.parquet`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var db dbFlags
+			var f formatFlag
+			var sel drill.Selection
+			var bin int
+			var dup, out string
+			var ro drill.RecordOptions
+			var gopt drill.GroupOptions
+			db.add(fs)
+			fs.StringVar(&sel.Test, "test", "", "digit test of the bin: first, second, first_two, first_three or last_two")
+			fs.IntVar(&bin, "bin", 0, "the bin, e.g. 47 for first_two")
+			fs.StringVar(&sel.Amount, "amount", "", "an exact amount, e.g. 1847.23")
+			fs.StringVar(&sel.Range, "range", "", "FROM:TO, records with FROM <= |amount| < TO")
+			fs.StringArrayVar(&sel.Segments, "segment", nil, "COLUMN=VALUE, e.g. counterparty=V00123 (repeatable)")
+			fs.StringVar(&dup, "dup", "", "a duplicate group RUN:TEST:GROUP from leadline dups, e.g. 7:same_amount:3")
+			fs.StringVar(&sel.Where, "where", "", `filter on the ledger's columns, e.g. "entity = 'KELP'" (read-only)`)
+			fs.StringVar(&sel.Signs, "signs", drill.DefaultSigns, "amounts kept: positive, negative (as absolute values) or both")
+			fs.StringVar(&sel.Min, "min", drill.DefaultMin, "smallest absolute amount kept")
+			fs.StringVar(&ro.Sort, "sort", "", "sort the records by a column (default: file order)")
+			fs.BoolVar(&ro.Desc, "desc", false, "sort in descending order")
+			fs.IntVar(&ro.Limit, "limit", drill.DefaultLimit, "records (or groups) shown")
+			fs.StringVar(&gopt.Column, "group", "", "one row per value of this column: counterparty, user_id, account, entity, any original column, file_name, month")
+			fs.IntVar(&gopt.Top, "top-amounts", drill.DefaultTopAmounts, "repeated amounts listed per group")
+			fs.StringVar(&out, "out", "", "write every record (or group) to a .csv, .json or .parquet file")
+			f.add(fs)
+			return func(ctx context.Context, args []string, e *env) error {
+				if err := f.check(); err != nil {
+					return err
+				}
+				if len(args) > 0 {
+					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
+				}
+				if fs.Changed("bin") {
+					sel.Bin = &bin
+				}
+				if ro.Limit <= 0 {
+					return fmt.Errorf("--limit %d: give 1 or more", ro.Limit)
+				}
+				if gopt.Top <= 0 {
+					return fmt.Errorf("--top-amounts %d: give 1 or more", gopt.Top)
+				}
+				if out != "" {
+					if _, err := drill.ExportFormat(out); err != nil {
+						return err
+					}
+				}
+				// Defaults apply unless the flag was given: a negative
+				// --amount then selects negative amounts by itself.
+				if !fs.Changed("signs") {
+					sel.Signs = ""
+				}
+				if !fs.Changed("min") {
+					sel.Min = ""
+				}
+				ws, err := db.open(ctx, true)
+				if err != nil {
+					return err
+				}
+				defer ws.Close()
+				if dup != "" {
+					if fs.Changed("signs") || fs.Changed("min") {
+						return fmt.Errorf("--dup: a duplicate group keeps the --signs and --min of its run; narrow it with --where or --segment instead")
+					}
+					ref, err := duplicates.ParseRef(dup)
+					if err != nil {
+						return err
+					}
+					g, _, err := duplicates.GroupSelection(ctx, ws, ref)
+					if err != nil {
+						return err
+					}
+					// The run's population and the group's key, narrowed by
+					// any further selection given here.
+					userWhere := strings.TrimSpace(sel.Where)
+					sel.Base = g.Base
+					if runWhere := strings.TrimSpace(g.Where); userWhere != "" && runWhere != "" {
+						sel.Where = "(" + runWhere + ") AND (" + userWhere + ")"
+					} else if userWhere != "" {
+						sel.Where = userWhere
+					}
+					sel.Extra = append(g.Extra, sel.Extra...)
+					sel.Described = append(g.Described, sel.Described...)
+				}
+				b, err := drill.Build(ctx, ws, sel)
+				if err != nil {
+					return err
+				}
+				sum, err := drill.Summarize(ctx, ws, b)
+				if err != nil {
+					return err
+				}
+				if sum.Records == 0 {
+					return drill.NoRecordsError(b)
+				}
+				if out != "" {
+					return drillExport(ctx, e.stdout, f.value, fs.Changed("limit"), b, sum, ro, gopt, out, ws)
+				}
+				if gopt.Column != "" {
+					gopt.Limit = ro.Limit
+					res, err := drill.Group(ctx, ws, b, gopt)
+					if err != nil {
+						return err
+					}
+					return printDrillGroups(e.stdout, f.value, b, sum, res)
+				}
+				t, more, err := drill.Records(ctx, ws, b, ro)
+				if err != nil {
+					return err
+				}
+				return printDrillRecords(e.stdout, f.value, b, sum, t, more)
+			}
+		},
+	})
+}
+
+// drillJSON is the document drill --format json prints (docs/json.md).
+type drillJSON struct {
+	Selection   []string         `json:"selection"`
+	Records     int64            `json:"records"`
+	Total       string           `json:"total"`
+	GroupBy     string           `json:"group_by,omitempty"`
+	GroupsTotal *int64           `json:"groups_total,omitempty"`
+	Shown       int              `json:"shown"`
+	More        bool             `json:"more"`
+	Columns     []string         `json:"columns"`
+	Rows        []map[string]any `json:"rows"`
+	Out         string           `json:"out,omitempty"`
+	OutFormat   string           `json:"out_format,omitempty"`
+}
+
+func printDrillRecords(w io.Writer, format string, b *drill.Built, sum drill.Summary, t *tabular.Table, more bool) error {
+	switch format {
+	case "json":
+		return drillWriteJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total,
+			Shown: len(t.Rows), More: more, Columns: t.Columns, Rows: t.Records()})
+	case "csv":
+		return t.WriteCSV(w)
+	}
+	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
+	fmt.Fprintf(w, "%s records, total %s", drillCount(sum.Records), sum.Total)
+	if more {
+		fmt.Fprintf(w, " (showing the first %d: --limit for more, --out FILE for all)", len(t.Rows))
+	}
+	fmt.Fprint(w, "\n\n")
+	dropped := drill.DropEmptyColumns(t)
+	if err := t.WriteText(w, 40); err != nil {
+		return err
+	}
+	if len(dropped) > 0 {
+		fmt.Fprintf(w, "\n(empty in every row shown, not printed: %s)\n", strings.Join(dropped, ", "))
+	}
+	return nil
+}
+
+func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summary, res *drill.GroupResult) error {
+	more := res.GroupsTotal > int64(len(res.Table.Rows))
+	switch format {
+	case "json":
+		g := res.GroupsTotal
+		return drillWriteJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total, GroupBy: res.Column,
+			GroupsTotal: &g, Shown: len(res.Table.Rows), More: more, Columns: res.Table.Columns, Rows: res.Rows})
+	case "csv":
+		return res.Table.WriteCSV(w)
+	}
+	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
+	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", drillCount(sum.Records), sum.Total, drillCount(res.GroupsTotal), res.Column)
+	if more {
+		fmt.Fprintf(w, " (showing the %d with most records: --limit for more, --out FILE for all)", len(res.Table.Rows))
+	}
+	fmt.Fprint(w, "\n\n")
+	for _, r := range res.Table.Rows {
+		if r[0] == nil {
+			r[0] = "(blank)"
+		}
+	}
+	return res.Table.WriteText(w, 60)
+}
+
+func drillExport(ctx context.Context, w io.Writer, format string, limitGiven bool, b *drill.Built, sum drill.Summary,
+	ro drill.RecordOptions, g drill.GroupOptions, out string, ws *workspace.Workspace) error {
+	outFormat, _ := drill.ExportFormat(out)
+	if !limitGiven {
+		ro.Limit = 0 // every record
+	}
+	what := "records"
+	n := sum.Records
+	var err error
+	if g.Column != "" {
+		what = "groups"
+		if limitGiven {
+			g.Limit = ro.Limit
+		}
+		err = drill.ExportGroups(ctx, ws, b, g, out)
+		n = -1
+	} else {
+		if limitGiven && int64(ro.Limit) < n {
+			n = int64(ro.Limit)
+		}
+		err = drill.Export(ctx, ws, b, ro, out)
+	}
+	if err != nil {
+		return err
+	}
+	if format == "json" {
+		return drillWriteJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total, GroupBy: g.Column,
+			Columns: []string{}, Rows: []map[string]any{}, Out: out, OutFormat: outFormat})
+	}
+	if n >= 0 {
+		fmt.Fprintf(w, "Wrote %s %s (of %s selected, total %s) to %s\n", drillCount(n), what, drillCount(sum.Records), sum.Total, out)
+	} else {
+		fmt.Fprintf(w, "Wrote the %s by %s of %s records (total %s) to %s\n", what, g.Column, drillCount(sum.Records), sum.Total, out)
+	}
+	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
+	return nil
+}
+
+// drillCount writes a count with thousands separators: 1234567 -> 1,234,567.
+func drillCount(n int64) string {
+	s := fmt.Sprint(n)
+	neg := strings.HasPrefix(s, "-")
+	s = strings.TrimPrefix(s, "-")
+	for i := len(s) - 3; i > 0; i -= 3 {
+		s = s[:i] + "," + s[i:]
+	}
+	if neg {
+		s = "-" + s
+	}
+	return s
+}
+
+// drillWriteJSON writes v indented, without escaping <, > and & (the
+// selection reads "|amount| >= 10").
+func drillWriteJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetEscapeHTML(false)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
