@@ -419,5 +419,3 @@ func dupCell(r ref, g duplicates.Group, key string) template.HTML {
 	}
 	return ""
 }
-
-

@@ -143,7 +143,9 @@ type FileRow struct {
 }
 
 // R addresses the file's numbers.
-func (f FileRow) R() ref { return ref{Src: fmt.Sprintf("files/%d", f.FileID), Field: fmt.Sprintf("files.%d", f.FileID)} }
+func (f FileRow) R() ref {
+	return ref{Src: fmt.Sprintf("files/%d", f.FileID), Field: fmt.Sprintf("files.%d", f.FileID)}
+}
 
 // EntityRow is one entity's control totals over the ledger.
 type EntityRow struct {

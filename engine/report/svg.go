@@ -711,7 +711,7 @@ func limitChart(id string, rows []LimitRow) string {
 		}
 		dr = append(dr, dotRow{Label: label, Value: obs, Ref: l.ExpectedRatio, Flagged: l.Flagged,
 			DataAttr: strconv.FormatFloat(l.Limit, 'f', -1, 64),
-			Title: fmt.Sprintf("limit %s (%s): %d below, %d above, ratio %.2f against %.3f expected, adjusted p %s", compactAmount(l.Limit), r.Segment, l.Below, l.Above, l.ObservedRatio, l.ExpectedRatio, formatFloat(l.PAdjusted, "p"))})
+			Title:    fmt.Sprintf("limit %s (%s): %d below, %d above, ratio %.2f against %.3f expected, adjusted p %s", compactAmount(l.Limit), r.Segment, l.Below, l.Above, l.ObservedRatio, l.ExpectedRatio, formatFloat(l.PAdjusted, "p"))})
 	}
 	desc := fmt.Sprintf("%d limits; per limit the ratio of amounts just below it to amounts just above it (dot) against the ratio expected (tick). %d limits flagged.", len(rows), flagged)
 	return dotChart(id, "Limit probe: below/above ratio per limit", desc, "amounts just below ÷ amounts just above", dr)
