@@ -142,8 +142,8 @@ func topFacts(root *node, r ref, skip ...string) []Fact {
 
 // addScan reads a battery run: the digit tests of the whole population
 // are the shallowest digit-test results in its document.
-func (m *Model) addScan(r *Run) error {
-	root, err := parseOrdered(r.Result)
+func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
+	root, err := parseOrdered(doc)
 	if err != nil {
 		return err
 	}
@@ -155,7 +155,7 @@ func (m *Model) addScan(r *Run) error {
 	}
 	sec := &DigitSection{Run: r}
 	for _, f := range top {
-		raw, err := resolvePointer(r.Result, f.ptr)
+		raw, err := resolvePointer(doc, f.ptr)
 		if err != nil {
 			return err
 		}
@@ -163,19 +163,19 @@ func (m *Model) addScan(r *Run) error {
 		if err := json.Unmarshal(raw, &res); err != nil {
 			return fmt.Errorf("digit test at %s: %w", f.ptr, err)
 		}
-		sec.Tests = append(sec.Tests, DigitTest{Ref: runRef(r.ID, f.ptr, string(res.Test)), Result: res, ID: fmt.Sprintf("r%d-%s", r.ID, res.Test)})
+		sec.Tests = append(sec.Tests, DigitTest{Ref: srcRef(base, f.ptr, string(res.Test)), Result: res, ID: fmt.Sprintf("r%d-%s", r.ID, res.Test)})
 	}
 	sort.SliceStable(sec.Tests, func(i, j int) bool { return testOrder(sec.Tests[i].Result.Test) < testOrder(sec.Tests[j].Result.Test) })
 	if root.kind == 'o' {
-		sec.Meta = topFacts(root, runRef(r.ID, "", "scan"), "tests", "results", "segments", "kind", "run_id", "note", "notes")
+		sec.Meta = topFacts(root, srcRef(base, "", "scan"), "tests", "results", "segments", "kind", "run_id", "note", "notes")
 	}
 	m.Digits = sec
 	if len(fs) > len(top) || root.get("segments") != nil {
 		// Segment results sit deeper in the same run.
 		if seg := root.get("segments"); seg != nil {
-			raw, err := resolvePointer(r.Result, "/segments")
+			raw, err := resolvePointer(doc, "/segments")
 			if err == nil {
-				_ = m.addSegments(r, raw, runRef(r.ID, "/segments", "segments"))
+				_ = m.addSegments(r, raw, base+"/segments")
 			}
 		}
 	}
@@ -198,7 +198,7 @@ func segmentLike(n *node) bool {
 
 // addSegments reads a segment ranking: objects with a segment name or
 // value, a MAD and an excess MAD.
-func (m *Model) addSegments(r *Run, raw json.RawMessage, base ref) error {
+func (m *Model) addSegments(r *Run, raw json.RawMessage, base string) error {
 	root, err := parseOrdered(raw)
 	if err != nil {
 		return err
@@ -244,7 +244,7 @@ func (m *Model) addSegments(r *Run, raw json.RawMessage, base ref) error {
 		if row.Test != "" {
 			sec.Test = row.Test
 		}
-		s.Ref = ref{Src: base.Src + f.ptr, Field: fmt.Sprintf("segments.%s=%s", s.Column, s.Value)}
+		s.Ref = ref{Src: base + f.ptr, Field: fmt.Sprintf("segments.%s=%s", s.Column, s.Value)}
 		sec.Rows = append(sec.Rows, s)
 	}
 	sort.SliceStable(sec.Rows, func(i, j int) bool { return sec.Rows[i].ExcessMAD > sec.Rows[j].ExcessMAD })
@@ -265,16 +265,16 @@ func firstNonEmpty(s ...string) string {
 const maxLimitRows = 30
 
 // addLimits reads a limit-probe run (limits.Report).
-func (m *Model) addLimits(r *Run) error {
+func (m *Model) addLimits(r *Run, doc json.RawMessage, base string) error {
 	var rep limits.Report
-	if err := json.Unmarshal(r.Result, &rep); err != nil {
+	if err := json.Unmarshal(doc, &rep); err != nil {
 		return err
 	}
-	sec := &LimitSection{Run: r, Ref: runRef(r.ID, "", "limits"), Report: rep}
+	sec := &LimitSection{Run: r, Ref: srcRef(base, "", "limits"), Report: rep}
 	var tested []LimitRow
 	for i, row := range rep.Rows {
 		seg := segmentLabel(row.Segment)
-		lr := LimitRow{Ref: runRef(r.ID, fmt.Sprintf("/rows/%d", i), fmt.Sprintf("limits.%s.%s", seg, strconv.FormatFloat(row.Limit, 'f', -1, 64))), Segment: seg, Row: row}
+		lr := LimitRow{Ref: srcRef(base, fmt.Sprintf("/rows/%d", i), fmt.Sprintf("limits.%s.%s", seg, strconv.FormatFloat(row.Limit, 'f', -1, 64))), Segment: seg, Row: row}
 		if row.Status == limits.StatusTested {
 			tested = append(tested, lr)
 		}
@@ -308,17 +308,17 @@ func segmentLabel(seg map[string]*string) string {
 }
 
 // addRanges reads an amount-range run (ranges.Report).
-func (m *Model) addRanges(r *Run) error {
+func (m *Model) addRanges(r *Run, doc json.RawMessage, base string) error {
 	var rep ranges.Report
-	if err := json.Unmarshal(r.Result, &rep); err != nil {
+	if err := json.Unmarshal(doc, &rep); err != nil {
 		return err
 	}
 	if len(rep.Bands) == 0 {
 		return fmt.Errorf("no bands in the run")
 	}
-	sec := &RangeSection{Run: r, Ref: runRef(r.ID, "", "ranges"), Report: rep}
+	sec := &RangeSection{Run: r, Ref: srcRef(base, "", "ranges"), Report: rep}
 	for i, b := range rep.Bands {
-		row := RangeRow{Ref: runRef(r.ID, fmt.Sprintf("/bands/%d", i), "ranges."+strconv.FormatFloat(b.From, 'f', -1, 64)), Row: b}
+		row := RangeRow{Ref: srcRef(base, fmt.Sprintf("/bands/%d", i), "ranges."+strconv.FormatFloat(b.From, 'f', -1, 64)), Row: b}
 		sec.Bands = append(sec.Bands, row)
 		if b.Flagged {
 			sec.Flagged = append(sec.Flagged, row)
@@ -330,21 +330,21 @@ func (m *Model) addRanges(r *Run) error {
 }
 
 // addDuplicates reads a duplicates run.
-func (m *Model) addDuplicates(r *Run) error {
+func (m *Model) addDuplicates(r *Run, doc json.RawMessage, base string) error {
 	var res duplicates.Result
-	if err := json.Unmarshal(r.Result, &res); err != nil {
+	if err := json.Unmarshal(doc, &res); err != nil {
 		return err
 	}
 	if len(res.Tests) == 0 {
 		return fmt.Errorf("no duplicate tests in the run")
 	}
-	m.Duplicates = &DuplicateSection{Run: r, Ref: runRef(r.ID, "", "duplicates"), Result: res}
+	m.Duplicates = &DuplicateSection{Run: r, Ref: srcRef(base, "", "duplicates"), Result: res}
 	return nil
 }
 
 // addDrill adds a drill-down extract, shown as stored.
-func (m *Model) addDrill(r *Run) error {
-	g, err := genericFrom(r, fmt.Sprintf("Extract (run %d)", r.ID), r.Result, runRef(r.ID, "", fmt.Sprintf("drill.%d", r.ID)))
+func (m *Model) addDrill(r *Run, doc json.RawMessage, base, title string) error {
+	g, err := genericFrom(r, title, doc, srcRef(base, "", fmt.Sprintf("drill.%d", r.ID)))
 	if err != nil {
 		return err
 	}
@@ -352,28 +352,5 @@ func (m *Model) addDrill(r *Run) error {
 		m.Drills = &DrillSection{}
 	}
 	m.Drills.Extracts = append(m.Drills.Extracts, g)
-	return nil
-}
-
-// addPack takes the manifest from a pack run: its "manifest" member when
-// there is one, else the whole document.
-func (m *Model) addPack(r *Run) error {
-	root, err := parseOrdered(r.Result)
-	if err != nil {
-		return err
-	}
-	ptr := ""
-	if root.get("manifest") != nil {
-		ptr = "/manifest"
-	}
-	raw, err := resolvePointer(r.Result, ptr)
-	if err != nil {
-		return err
-	}
-	g, err := genericFrom(r, "Manifest", raw, runRef(r.ID, ptr, "manifest"))
-	if err != nil {
-		return err
-	}
-	m.Manifest = g
 	return nil
 }

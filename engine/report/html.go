@@ -181,9 +181,9 @@ func (m *Model) glance() []glance {
 		}
 		g = append(g, glance{What: "Completeness", Anchor: "completeness", Section: 2, Flagged: !c.Balanced,
 			Result: template.HTML(fmt.Sprintf("%s: %s rows loaded from %d files, %s rejected", status,
-				numHTML("total.rows_loaded", "files/*/rows_loaded", c.RowsLoaded, "int"), len(c.Files),
-				numHTML("total.rows_rejected", "files/*/rows_rejected", c.RowsRejected, "int"))),
-			Flags: numHTML("total.rows_rejected", "files/*/rows_rejected", c.RowsRejected, "int")})
+				c.TotalRef().F("rows_loaded", c.RowsLoaded, "int"), len(c.Files),
+				c.TotalRef().F("rows_rejected", c.RowsRejected, "int"))),
+			Flags: c.TotalRef().F("rows_rejected", c.RowsRejected, "int")})
 	}
 	if d := m.Digits; d != nil {
 		for _, t := range d.Tests {

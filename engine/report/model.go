@@ -31,6 +31,10 @@ type Model struct {
 	// Notes are remarks on the job as a whole (for instance a run made
 	// before the latest load).
 	Notes []string
+	// Pack names the pack run the report shows (name, client, period,
+	// file, SHA-256), and Findings are its key findings in sentences.
+	Pack     []Fact
+	Findings []string
 
 	Completeness *Completeness
 	Digits       *DigitSection
@@ -68,11 +72,21 @@ type Run struct {
 type ref struct {
 	Src   string // "run/12#/tests/2" or "files/3"
 	Field string // "first_two"
+	// cell, when set, gives the source of each key instead of Src/key
+	// (the cells of a table row, the totals over the files).
+	cell func(key string) string
 }
 
-func runRef(id int64, ptr, field string) ref {
-	return ref{Src: fmt.Sprintf("run/%d#%s", id, ptr), Field: field}
+// srcRef addresses the value at ptr (a JSON pointer) under base, the
+// source of a document: "run/12#" for a stored run's result,
+// "run/12#/results/limits" or "results.json#/results/limits" for one step
+// of a pack run.
+func srcRef(base, ptr, field string) ref {
+	return ref{Src: base + ptr, Field: field}
 }
+
+// runBase is the source of a stored run's result document.
+func runBase(id int64) string { return fmt.Sprintf("run/%d#", id) }
 
 // At descends into key (an object key or an array index).
 func (r ref) At(key any) ref {
@@ -105,6 +119,9 @@ func (r ref) AtField(key any, label any) ref {
 // F marks up the number at key.
 func (r ref) F(key string, v any, kind string) template.HTML {
 	n := r.At(key)
+	if r.cell != nil {
+		n.Src = r.cell(key)
+	}
 	return numHTML(n.Field, n.Src, v, kind)
 }
 
@@ -121,11 +138,24 @@ type Completeness struct {
 	RowsLoaded   int64
 	RowsRejected int64
 	Balanced     bool // every file: read = loaded + rejected, and the ledger holds the loaded rows
+	// LedgerKnown is set when the ledger's row count was read from the
+	// workspace (not for a pack run's own report, built from its tables).
+	LedgerKnown bool
+	totals      ref
+}
+
+// TotalRef addresses the totals over the files.
+func (c *Completeness) TotalRef() ref {
+	if c.totals.Src != "" || c.totals.cell != nil {
+		return c.totals
+	}
+	return ref{Field: "total", cell: func(k string) string { return "files/*/" + k }}
 }
 
 // FileRow is one loaded file.
 type FileRow struct {
 	FileID       int64
+	Source       string // the pack's source name (pack runs)
 	LoadID       int64
 	Name, Path   string
 	Format       string
@@ -140,10 +170,14 @@ type FileRow struct {
 	Net          string
 	LoadedAt     time.Time
 	Balanced     bool
+	src          func(col string) string
 }
 
 // R addresses the file's numbers.
 func (f FileRow) R() ref {
+	if f.src != nil {
+		return ref{Field: "files." + f.Name, cell: f.src}
+	}
 	return ref{Src: fmt.Sprintf("files/%d", f.FileID), Field: fmt.Sprintf("files.%d", f.FileID)}
 }
 
@@ -154,10 +188,14 @@ type EntityRow struct {
 	Positive string
 	Negative string
 	Net      string
+	src      func(col string) string
 }
 
 // R addresses the entity's numbers.
 func (e EntityRow) R() ref {
+	if e.src != nil {
+		return ref{Field: "entities." + e.Entity, cell: e.src}
+	}
 	return ref{Src: "entities/" + escapePointer(e.Entity), Field: "entities." + e.Entity}
 }
 
@@ -168,10 +206,14 @@ type ReasonRow struct {
 	Reason    string
 	Rows      int64
 	FirstLine int64
+	src       func(col string) string
 }
 
 // R addresses the row's numbers.
 func (r ReasonRow) R() ref {
+	if r.src != nil {
+		return ref{Field: "rejects." + r.File + "." + r.Reason, cell: r.src}
+	}
 	return ref{Src: fmt.Sprintf("rejects/%d/%s", r.FileID, escapePointer(r.Reason)), Field: fmt.Sprintf("rejects.%d.%s", r.FileID, r.Reason)}
 }
 

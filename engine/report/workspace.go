@@ -204,6 +204,7 @@ func readCompleteness(ctx context.Context, ws *workspace.Workspace, samples int)
 		return nil, err
 	}
 	if hasLedger {
+		c.LedgerKnown = true
 		if err := ws.Conn.QueryRowContext(ctx, stmt("report_ledger_rows")).Scan(&c.LedgerRows); err != nil {
 			return nil, err
 		}
@@ -273,21 +274,22 @@ func readCompleteness(ctx context.Context, ws *workspace.Workspace, samples int)
 func (m *Model) addRuns(runs []*Run) error {
 	for _, r := range runs {
 		var err error
+		base := runBase(r.ID)
 		switch r.Kind {
 		case KindScan:
-			err = m.addScan(r)
+			err = m.addScan(r, r.Result, base)
 		case KindSegments:
-			err = m.addSegments(r, r.Result, runRef(r.ID, "", "segments"))
+			err = m.addSegments(r, r.Result, base)
 		case KindLimits:
-			err = m.addLimits(r)
+			err = m.addLimits(r, r.Result, base)
 		case KindRanges:
-			err = m.addRanges(r)
+			err = m.addRanges(r, r.Result, base)
 		case KindDuplicates:
-			err = m.addDuplicates(r)
+			err = m.addDuplicates(r, r.Result, base)
 		case KindDrill:
-			err = m.addDrill(r)
+			err = m.addDrill(r, r.Result, base, fmt.Sprintf("Extract (run %d)", r.ID))
 		case KindPack:
-			err = m.addPack(r)
+			err = m.addPackDoc(r, r.Result, base)
 		default:
 			err = m.addOther(r, fmt.Sprintf("Run %d: %s", r.ID, r.Kind))
 		}
@@ -302,7 +304,7 @@ func (m *Model) addRuns(runs []*Run) error {
 }
 
 func (m *Model) addOther(r *Run, title string) error {
-	g, err := genericFrom(r, title, r.Result, runRef(r.ID, "", r.Kind))
+	g, err := genericFrom(r, title, r.Result, srcRef(runBase(r.ID), "", r.Kind))
 	if err != nil {
 		return err
 	}
