@@ -20,8 +20,8 @@ func init() {
 		usage: `Usage: leadline limits [options]
 
 For each limit T, compares the count of amounts just below it, in
-[T - w, T), with the count just above it, in [T, T + w), w a fraction of
-T (--width, 10% by default). Where amounts spread smoothly over several
+[T(1 - w), T), with the count just above it, in [T, T(1 + w)), w a
+fraction (--width, 10% by default: 4,500 to 5,000 against 5,000 to 5,500). Where amounts spread smoothly over several
 orders of magnitude (a density falling like 1/amount, as with Benford's
 law) the two counts stand in a fixed ratio, 1.105 for a width of 10%; a
 split tilted towards the amounts below the limit is tested with an exact
