@@ -3,6 +3,7 @@ package limits
 import (
 	"context"
 	"fmt"
+	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
@@ -69,14 +70,6 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err != nil {
 		return nil, err
 	}
-	sum, err := pop.Summary(ctx, ws)
-	if err != nil {
-		return nil, err
-	}
-	if sum.Tested == 0 {
-		return nil, fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
-			sum.Rows, sum.Zero, sum.OtherSign, sum.BelowMin, pop.Base.Min)
-	}
 	rep := &Report{
 		Kind: "limits", Population: pop.Base, AmountType: pop.AmountType.SQL(),
 		Width: o.Width, ExpectedRatio: benford.ExpectedBelowAboveRatio(o.Width),
@@ -86,6 +79,14 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		rep.By = append(rep.By, s.Name)
 	}
 	if len(o.Limits) == 0 {
+		// The round limits depend on the amounts' range: one cheap scan first.
+		sum, err := pop.Summary(ctx, ws)
+		if err != nil {
+			return nil, err
+		}
+		if sum.Tested == 0 {
+			return nil, noAmounts(sum, pop.Base.Min)
+		}
 		rep.LimitSource = "round values"
 		rep.Limits = ScanLimits(sum.Min, sum.Max, o.Width)
 		if len(rep.Limits) == 0 {
@@ -106,17 +107,22 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 			return nil, err
 		}
 		rep.Segments = len(groups)
+		if len(groups) > MaxSegments {
+			return nil, fmt.Errorf("--by %s makes %d segments, more than %d: choose a coarser column or narrow the selection with --where",
+				strings.Join(rep.By, " --by "), len(groups), MaxSegments)
+		}
 	}
 	rep.Counts = all.Counts
+	if all.Tested == 0 {
+		return nil, noAmounts(all.Counts, pop.Base.Min)
+	}
 	rows, err := Probe(all, groups, segs, rep.Limits, o.Width, o.MinCount)
 	if err != nil {
 		return nil, err
 	}
 	scale := pop.AmountType.Scale
-	for i := range rows {
-		r := &rows[i]
-		r.Range = ranges.DrillRange(r.From, r.Limit, scale)
-		r.Drill = ranges.DrillCommand(ws.Path, r.Range, pop.Base, r.key.DrillSegments(segs))
+	rep.Rows = rows[:0]
+	for _, r := range rows {
 		switch r.Status {
 		case StatusTested:
 			rep.Tested++
@@ -128,7 +134,22 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		case StatusOutRange:
 			rep.OutsideRange++
 		}
+		// Pairs not tested are listed for the whole selection only; per
+		// segment they are counted (there may be many thousands).
+		if r.Status != StatusTested && r.key != nil {
+			continue
+		}
+		r.Range = ranges.DrillRange(r.From, r.Limit, scale)
+		r.Drill = ranges.DrillCommand(ws.Path, r.Range, pop.Base, r.key.DrillSegments(segs))
+		rep.Rows = append(rep.Rows, r)
 	}
-	rep.Rows = rows
 	return rep, nil
+}
+
+// MaxSegments bounds the segments of one probe run.
+const MaxSegments = 100000
+
+func noAmounts(c ranges.Counts, min string) error {
+	return fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
+		c.Rows, c.Zero, c.OtherSign, c.BelowMin, min)
 }
