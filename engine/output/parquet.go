@@ -3,6 +3,7 @@ package output
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"fmt"
 	"strings"
 
@@ -98,52 +99,54 @@ func (p *ParquetWriter) columnType(t *Table, i int) string {
 	return "VARCHAR"
 }
 
-func bindValue(v any, typ string) any {
-	switch x := v.(type) {
-	case nil:
-		return nil
-	case Decimal:
-		return x.Text
-	}
-	if typ == "VARCHAR" {
-		return FormatValue(v)
-	}
-	return v
-}
-
-// Write writes one table to path.
+// Write writes one table to path. The rows go into a table of text
+// columns through DuckDB's appender, and out with COPY, each column cast
+// to its type: decimals, dates and integers from their exact text, floats
+// from the shortest text that reads back to the same float.
 func (p *ParquetWriter) Write(ctx context.Context, path string, t *Table) error {
 	if len(t.Columns) == 0 {
 		return fmt.Errorf("table %s has no columns", t.Name)
 	}
-	types := make([]string, len(t.Columns))
 	defs := make([]string, len(t.Columns))
+	casts := make([]string, len(t.Columns))
 	for i, c := range t.Columns {
-		types[i] = p.columnType(t, i)
-		defs[i] = queries.QuoteIdent(c.Name) + " " + types[i]
+		q := queries.QuoteIdent(c.Name)
+		defs[i] = q + " VARCHAR"
+		casts[i] = "CAST(" + q + " AS " + p.columnType(t, i) + ") AS " + q
 	}
-	if _, err := p.conn.ExecContext(ctx, "CREATE OR REPLACE TEMP TABLE ll_out ("+strings.Join(defs, ", ")+")"); err != nil {
+	if _, err := p.conn.ExecContext(ctx, "CREATE OR REPLACE TABLE ll_out ("+strings.Join(defs, ", ")+")"); err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
 	defer p.conn.ExecContext(context.WithoutCancel(ctx), "DROP TABLE IF EXISTS ll_out")
-	// Batches of bound rows, a few thousand values per statement.
-	per := max(1, 2000/len(t.Columns))
-	ph := "(" + strings.TrimSuffix(strings.Repeat("?, ", len(t.Columns)), ", ") + ")"
-	for start := 0; start < len(t.Rows); start += per {
-		end := min(start+per, len(t.Rows))
-		args := make([]any, 0, (end-start)*len(t.Columns))
-		phs := make([]string, 0, end-start)
-		for _, r := range t.Rows[start:end] {
-			for i := range t.Columns {
-				args = append(args, bindValue(r[i], types[i]))
+	err := p.conn.Raw(func(dc any) error {
+		conn, ok := dc.(driver.Conn)
+		if !ok {
+			return fmt.Errorf("unexpected driver connection %T", dc)
+		}
+		a, err := duckdb.NewAppenderFromConn(conn, "", "ll_out")
+		if err != nil {
+			return err
+		}
+		vals := make([]driver.Value, len(t.Columns))
+		for _, r := range t.Rows {
+			for i := range vals {
+				vals[i] = nil
+				if i < len(r) && r[i] != nil {
+					vals[i] = FormatValue(r[i])
+				}
 			}
-			phs = append(phs, ph)
+			if err := a.AppendRow(vals...); err != nil {
+				a.Close()
+				return err
+			}
 		}
-		if _, err := p.conn.ExecContext(ctx, "INSERT INTO ll_out VALUES "+strings.Join(phs, ", "), args...); err != nil {
-			return fmt.Errorf("parquet %s: %w", t.Name, err)
-		}
+		return a.Close()
+	})
+	if err != nil {
+		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
-	if _, err := p.conn.ExecContext(ctx, "COPY (SELECT * FROM ll_out) TO "+queries.QuoteString(path)+" (FORMAT parquet, COMPRESSION zstd)"); err != nil {
+	q := "COPY (SELECT " + strings.Join(casts, ", ") + " FROM ll_out) TO " + queries.QuoteString(path) + " (FORMAT parquet, COMPRESSION zstd)"
+	if _, err := p.conn.ExecContext(ctx, q); err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
 	return nil

@@ -44,7 +44,11 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	if o.Out == "" {
 		return nil, fmt.Errorf("give the output folder (--out DIR)")
 	}
+	t0 := time.Now()
 	pl, probs := Check(ctx, p)
+	if o.Log != nil {
+		fmt.Fprintf(o.Log, "  %-28s done in %.1fs\n", "checking the pack", time.Since(t0).Seconds())
+	}
 	if len(probs.Errors()) > 0 {
 		return nil, probs
 	}
@@ -61,13 +65,14 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
+	t0 = time.Now()
 	ws, action, reason, err := openWorkspace(ctx, pl, inputs, o.Fresh, o.Log)
 	if err != nil {
 		return nil, err
 	}
 	defer ws.Close()
 	if o.Log != nil {
-		fmt.Fprintf(o.Log, "Workspace %s: %s (%s)\n", pl.Workspace, action, reason)
+		fmt.Fprintf(o.Log, "Workspace %s: %s (%s) in %.1fs\n", pl.Workspace, action, reason, time.Since(t0).Seconds())
 	}
 	runID, err := ws.NextRunID(ctx)
 	if err != nil {
@@ -80,18 +85,28 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	run := &output.Run{Format: output.FormatVersion, Pack: info, Results: map[string]any{},
 		Summary: output.Summary{Caution: output.Caution, Findings: []output.Finding{}, Notes: []string{}}}
 	r := &runner{pl: pl, ws: ws, inputs: inputs, run: run, scale: pl.Scale, stepRuns: map[string]int64{}}
+	step0 := time.Now()
 	if err := r.completeness(ctx); err != nil {
 		return nil, fmt.Errorf("completeness: %w", err)
+	}
+	if o.Log != nil {
+		fmt.Fprintf(o.Log, "  %-28s done in %.1fs\n", "completeness", time.Since(step0).Seconds())
 	}
 	step := func(name string, fn func(context.Context) error) {
 		if ctx.Err() != nil {
 			return
 		}
-		if o.Log != nil {
-			fmt.Fprintf(o.Log, "Running %s\n", name)
-		}
-		if err := fn(ctx); err != nil {
+		t0 := time.Now()
+		err := fn(ctx)
+		if err != nil {
 			r.stepFailed(name, err)
+		}
+		if o.Log != nil {
+			status := "done"
+			if err != nil {
+				status = "not completed"
+			}
+			fmt.Fprintf(o.Log, "  %-28s %s in %.1fs\n", name, status, time.Since(t0).Seconds())
 		}
 	}
 	if pl.Battery != nil {
@@ -143,9 +158,13 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		Run: output.RunInfo{StartedAt: started, RunID: runID, WorkspaceAction: action, WorkspaceReason: reason, StepRuns: r.stepRuns},
 	}
 	run.Manifest.Run.FinishedAt = now().UTC()
+	t0 = time.Now()
 	outs, err := output.WriteAll(ctx, out, run, o.Output)
 	if err != nil {
 		return nil, err
+	}
+	if o.Log != nil {
+		fmt.Fprintf(o.Log, "  %-28s done in %.1fs\n", "writing the output folder", time.Since(t0).Seconds())
 	}
 	run.Manifest.Outputs = outs
 	res.Run, res.Outputs, res.StepErrors = run, outs, r.errs
