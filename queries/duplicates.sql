@@ -36,7 +36,7 @@ r AS (
 )
 SELECT CAST(amount AS VARCHAR), counterparty, CAST(posted AS VARCHAR), doc_id, records,
        CAST(excess AS VARCHAR), CAST(total AS VARCHAR),
-       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+       count(*) OVER () AS groups_total, CAST(sum(records) OVER () AS BIGINT) AS records_total
 FROM r
 ORDER BY excess DESC, records DESC, amount DESC, counterparty, posted, doc_id
 LIMIT ?;
@@ -44,25 +44,39 @@ LIMIT ?;
 -- name: dup_same_amount
 -- Same amount and counterparty under two or more documents (possible
 -- double payments). Ranked by the excess amount, |amount| x (documents - 1).
+-- Two steps, both plain aggregates (no DISTINCT): the keys with two
+-- documents or more (min <> max), then their documents.
 WITH base AS (
     SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
 ),
-g AS (
-    SELECT amount, counterparty, count(*) AS records, count(DISTINCT doc_id) AS documents,
-           min(posted) AS first_posted, max(posted) AS last_posted,
-           sum(CAST(amount AS {{wide}})) AS total
+k AS (
+    SELECT amount, counterparty
     FROM base
     WHERE counterparty <> '' AND doc_id <> ''
     GROUP BY amount, counterparty
-    HAVING count(DISTINCT doc_id) >= 2
+    HAVING min(doc_id) <> max(doc_id)
+),
+d AS (
+    SELECT amount, counterparty, doc_id, count(*) AS n, min(posted) AS first_posted, max(posted) AS last_posted
+    FROM base SEMI JOIN k USING (amount, counterparty)
+    WHERE doc_id <> ''
+    GROUP BY amount, counterparty, doc_id
+),
+g AS (
+    SELECT amount, counterparty, sum(n) AS records, count(*) AS documents,
+           min(first_posted) AS first_posted, max(last_posted) AS last_posted
+    FROM d
+    GROUP BY amount, counterparty
 ),
 r AS (
-    SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess FROM g
+    SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess,
+           CAST(amount AS {{wide}}) * records AS total
+    FROM g
 )
-SELECT CAST(amount AS VARCHAR), counterparty, records, documents,
+SELECT CAST(amount AS VARCHAR), counterparty, CAST(records AS BIGINT), documents,
        CAST(first_posted AS VARCHAR), CAST(last_posted AS VARCHAR),
        CAST(excess AS VARCHAR), CAST(total AS VARCHAR),
-       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+       count(*) OVER () AS groups_total, CAST(sum(records) OVER () AS BIGINT) AS records_total
 FROM r
 ORDER BY excess DESC, records DESC, amount DESC, counterparty
 LIMIT ?;
@@ -83,7 +97,7 @@ b AS (
 k AS (
     SELECT amount, counterparty FROM b
     GROUP BY amount, counterparty
-    HAVING count(DISTINCT doc_id) >= 2
+    HAVING min(doc_id) <> max(doc_id)
 ),
 s AS (
     SELECT b.*,
@@ -95,67 +109,90 @@ c AS (
     -- together, so records of one date always share a cluster.
     SELECT *, sum(brk) OVER (PARTITION BY amount, counterparty ORDER BY posted) AS cluster FROM s
 ),
-g AS (
-    SELECT amount, counterparty, cluster, count(*) AS records, count(DISTINCT doc_id) AS documents,
-           min(posted) AS first_posted, max(posted) AS last_posted,
-           sum(CAST(amount AS {{wide}})) AS total
+d AS (
+    SELECT amount, counterparty, cluster, doc_id, count(*) AS n, min(posted) AS first_posted, max(posted) AS last_posted
     FROM c
+    GROUP BY amount, counterparty, cluster, doc_id
+),
+g AS (
+    SELECT amount, counterparty, cluster, sum(n) AS records, count(*) AS documents,
+           min(first_posted) AS first_posted, max(last_posted) AS last_posted
+    FROM d
     GROUP BY amount, counterparty, cluster
-    HAVING count(DISTINCT doc_id) >= 2
+    HAVING count(*) >= 2
 ),
 r AS (
-    SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess FROM g
+    SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess,
+           CAST(amount AS {{wide}}) * records AS total
+    FROM g
 )
-SELECT CAST(amount AS VARCHAR), counterparty, records, documents,
+SELECT CAST(amount AS VARCHAR), counterparty, CAST(records AS BIGINT), documents,
        CAST(first_posted AS VARCHAR), CAST(last_posted AS VARCHAR),
        CAST(excess AS VARCHAR), CAST(total AS VARCHAR),
-       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+       count(*) OVER () AS groups_total, CAST(sum(records) OVER () AS BIGINT) AS records_total
 FROM r
 ORDER BY excess DESC, records DESC, amount DESC, counterparty, first_posted
 LIMIT ?;
 
 -- name: dup_same_doc
 -- Same document and counterparty with two or more different amounts.
--- Ranked by the sum of absolute amounts.
+-- Ranked by the sum of absolute amounts. Two steps as above: the keys with
+-- two amounts or more (min <> max), then their amounts.
 WITH base AS (
     SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
 ),
-g AS (
-    SELECT doc_id, counterparty, count(*) AS records, count(DISTINCT amount) AS amounts,
-           min(amount) AS min_amount, max(amount) AS max_amount,
-           min(posted) AS first_posted, max(posted) AS last_posted,
-           sum(CAST(amount AS {{wide}})) AS total,
-           sum(abs(CAST(amount AS {{wide}}))) AS abs_total
+k AS (
+    SELECT doc_id, counterparty
     FROM base
     WHERE counterparty <> '' AND doc_id <> ''
     GROUP BY doc_id, counterparty
-    HAVING count(DISTINCT amount) >= 2
+    HAVING min(amount) <> max(amount)
+),
+d AS (
+    SELECT doc_id, counterparty, amount, count(*) AS n, min(posted) AS first_posted, max(posted) AS last_posted
+    FROM base SEMI JOIN k USING (doc_id, counterparty)
+    GROUP BY doc_id, counterparty, amount
+),
+g AS (
+    SELECT doc_id, counterparty, sum(n) AS records, count(*) AS amounts,
+           min(amount) AS min_amount, max(amount) AS max_amount,
+           min(first_posted) AS first_posted, max(last_posted) AS last_posted,
+           sum(CAST(amount AS {{wide}}) * n) AS total,
+           sum(CAST(abs(amount) AS {{wide}}) * n) AS abs_total
+    FROM d
+    GROUP BY doc_id, counterparty
 )
-SELECT doc_id, counterparty, records, amounts,
+SELECT doc_id, counterparty, CAST(records AS BIGINT), amounts,
        CAST(min_amount AS VARCHAR), CAST(max_amount AS VARCHAR),
        CAST(first_posted AS VARCHAR), CAST(last_posted AS VARCHAR),
        CAST(total AS VARCHAR),
-       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+       count(*) OVER () AS groups_total, CAST(sum(records) OVER () AS BIGINT) AS records_total
 FROM g
 ORDER BY abs_total DESC, amounts DESC, doc_id, counterparty
 LIMIT ?;
 
 -- name: dup_spread
 -- One amount spread across many counterparties (at least ? of them).
--- Ranked by the number of counterparties, then records.
+-- Ranked by the number of counterparties, then records. Counterparties are
+-- counted by a first aggregate per (amount, counterparty), not DISTINCT.
 WITH base AS (
     SELECT amount, counterparty FROM ledger WHERE {{base}}
 ),
-g AS (
-    SELECT amount, count(DISTINCT counterparty) AS counterparties, count(*) AS records,
-           sum(CAST(amount AS {{wide}})) AS total
+p AS (
+    SELECT amount, counterparty, count(*) AS n
     FROM base
     WHERE counterparty <> ''
+    GROUP BY amount, counterparty
+),
+g AS (
+    SELECT amount, count(*) AS counterparties, sum(n) AS records
+    FROM p
     GROUP BY amount
-    HAVING count(DISTINCT counterparty) >= ?
+    HAVING count(*) >= ?
 )
-SELECT CAST(amount AS VARCHAR), counterparties, records, CAST(total AS VARCHAR),
-       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+SELECT CAST(amount AS VARCHAR), counterparties, CAST(records AS BIGINT),
+       CAST(CAST(amount AS {{wide}}) * records AS VARCHAR),
+       count(*) OVER () AS groups_total, CAST(sum(records) OVER () AS BIGINT) AS records_total
 FROM g
 ORDER BY counterparties DESC, records DESC, abs(amount) DESC, amount DESC
 LIMIT ?;
@@ -183,7 +220,7 @@ h AS (
     WHERE top2[2] > 0
 )
 SELECT counterparty, records, CAST(largest AS VARCHAR), CAST(second AS VARCHAR), rsf, CAST(total AS VARCHAR),
-       count(*) OVER () AS groups_total, sum(records) OVER () AS records_total
+       count(*) OVER () AS groups_total, CAST(sum(records) OVER () AS BIGINT) AS records_total
 FROM h
 ORDER BY rsf DESC, largest DESC, counterparty
 LIMIT ?;

@@ -1,0 +1,255 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"runtime"
+	"time"
+
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/fixtures"
+	"github.com/spf13/pflag"
+)
+
+func init() {
+	register(&command{
+		name:    "bench-dups",
+		summary: "time the duplicate tests and a grouped drill on a generated ledger",
+		usage: `Usage: leadline bench-dups [options]
+
+Generates a synthetic ledger (the demo's generator, Parquet), loads it into
+a fresh workspace and times, on the same workspace:
+
+  1. the five duplicate tests together (leadline dups, default options);
+  2. the same with --window-days 7;
+  3. a drill of one first-two digits bin grouped by counterparty
+     (leadline drill --test first_two --bin 47 --group counterparty);
+  4. a drill of the same bin listing 50 records sorted by amount.
+
+Each step runs --repeat times; the table gives the fastest and the slowest.
+Generation and loading are timed too but are not the benchmark. Nothing is
+held in Go memory beyond the groups and rows printed.
+
+Examples:
+  leadline bench-dups                       # 20,000,000 rows in a temporary folder
+  leadline bench-dups --rows 2000000 --repeat 3
+  leadline bench-dups --dir /data/bench --keep   # keep the Parquet file and workspace`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var o benchDupsOptions
+			var f formatFlag
+			fs.Int64Var(&o.rows, "rows", 20_000_000, "rows to generate")
+			fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
+			fs.StringVar(&o.dir, "dir", "", "work folder (default: a temporary folder, removed afterwards)")
+			fs.BoolVar(&o.keep, "keep", false, "keep the work folder's Parquet file and workspace, and reuse them when present")
+			fs.IntVar(&o.repeat, "repeat", 1, "runs of each timed step")
+			fs.IntVar(&o.bin, "bin", 47, "first-two digits bin drilled")
+			fs.IntVar(&o.threads, "threads", 0, "DuckDB worker threads (default: one per core)")
+			fs.StringVar(&o.memory, "memory-limit", "", "DuckDB memory limit, e.g. 4GB")
+			f.add(fs)
+			return func(ctx context.Context, args []string, e *env) error {
+				if err := f.check(); err != nil {
+					return err
+				}
+				if len(args) > 0 {
+					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
+				}
+				if o.rows < 10_000 || o.repeat < 1 {
+					return fmt.Errorf("give --rows 10000 or more and --repeat 1 or more")
+				}
+				return benchDups(ctx, e, o, f.value)
+			}
+		},
+	})
+}
+
+type benchDupsOptions struct {
+	rows        int64
+	seed        uint64
+	dir         string
+	keep        bool
+	repeat, bin int
+	threads     int
+	memory      string
+}
+
+type benchStep struct {
+	Step    string    `json:"step"`
+	Command string    `json:"command"`
+	Runs    []float64 `json:"seconds"`
+	Result  string    `json:"result"`
+}
+
+func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) error {
+	dir := o.dir
+	if dir == "" {
+		d, err := os.MkdirTemp("", "leadline-bench-dups-")
+		if err != nil {
+			return err
+		}
+		dir = d
+		if !o.keep {
+			defer os.RemoveAll(d)
+		}
+	} else if err := os.MkdirAll(dir, 0o755); err != nil {
+		return err
+	}
+	pq := filepath.Join(dir, fmt.Sprintf("ledger_%d_%d.parquet", o.rows, o.seed))
+	dbPath := filepath.Join(dir, fmt.Sprintf("bench_%d_%d.duckdb", o.rows, o.seed))
+	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
+	var steps []benchStep
+	reuse := o.keep && benchFileExists(pq) && benchFileExists(dbPath)
+	if !reuse {
+		os.Remove(dbPath)
+		say("generating %d rows to %s ...\n", o.rows, pq)
+		t0 := time.Now()
+		if _, err := fixtures.WriteParquet(pq, fixtures.Config{Rows: o.rows, Seed: o.seed, Plants: true}); err != nil {
+			return err
+		}
+		steps = append(steps, benchStep{Step: "generate (not timed as benchmark)", Command: "fixtures.WriteParquet", Runs: []float64{time.Since(t0).Seconds()}})
+	}
+	ws, err := workspace.Open(ctx, dbPath, workspace.Options{Threads: o.threads, MemoryLimit: o.memory})
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	if !reuse {
+		say("loading ...\n")
+		t0 := time.Now()
+		rep, err := load.Load(ctx, ws, []string{pq}, load.Options{})
+		if err != nil {
+			return err
+		}
+		steps = append(steps, benchStep{Step: "load (not timed as benchmark)", Command: "leadline load " + filepath.Base(pq),
+			Runs: []float64{time.Since(t0).Seconds()}, Result: fmt.Sprintf("%s rows loaded", drillCount(rep.RowsLoaded))})
+	}
+	var n int64
+	if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ledger").Scan(&n); err != nil {
+		return err
+	}
+	time1 := func(name, cmd string, fn func() (string, error)) error {
+		st := benchStep{Step: name, Command: cmd}
+		for i := 0; i < o.repeat; i++ {
+			say("%s (run %d of %d) ...\n", name, i+1, o.repeat)
+			t0 := time.Now()
+			res, err := fn()
+			if err != nil {
+				return fmt.Errorf("%s: %w", name, err)
+			}
+			st.Runs = append(st.Runs, time.Since(t0).Seconds())
+			st.Result = res
+		}
+		steps = append(steps, st)
+		return nil
+	}
+	dupsResult := func(r *duplicates.Result) string {
+		s := ""
+		for _, t := range r.Tests {
+			if s != "" {
+				s += ", "
+			}
+			s += fmt.Sprintf("%s %s", t.Test, drillCount(t.GroupsTotal))
+		}
+		return s + " groups"
+	}
+	if err := time1("duplicate tests, all five", "leadline dups", func() (string, error) {
+		r, err := duplicates.Run(ctx, ws, duplicates.Options{})
+		if err != nil {
+			return "", err
+		}
+		return dupsResult(r), nil
+	}); err != nil {
+		return err
+	}
+	if err := time1("duplicate tests, all five, 7-day window", "leadline dups --window-days 7", func() (string, error) {
+		r, err := duplicates.Run(ctx, ws, duplicates.Options{WindowDays: 7})
+		if err != nil {
+			return "", err
+		}
+		return dupsResult(r), nil
+	}); err != nil {
+		return err
+	}
+	bin := o.bin
+	sel := drill.Selection{Test: "first_two", Bin: &bin}
+	if err := time1(fmt.Sprintf("drill first-two bin %d by counterparty", bin), fmt.Sprintf("leadline drill --test first_two --bin %d --group counterparty", bin), func() (string, error) {
+		b, err := drill.Build(ctx, ws, sel)
+		if err != nil {
+			return "", err
+		}
+		s, err := drill.Summarize(ctx, ws, b)
+		if err != nil {
+			return "", err
+		}
+		g, err := drill.Group(ctx, ws, b, drill.GroupOptions{Column: "counterparty"})
+		if err != nil {
+			return "", err
+		}
+		return fmt.Sprintf("%s records in %s groups", drillCount(s.Records), drillCount(g.GroupsTotal)), nil
+	}); err != nil {
+		return err
+	}
+	if err := time1(fmt.Sprintf("drill first-two bin %d, 50 records by amount", bin), fmt.Sprintf("leadline drill --test first_two --bin %d --sort amount --desc", bin), func() (string, error) {
+		b, err := drill.Build(ctx, ws, sel)
+		if err != nil {
+			return "", err
+		}
+		s, err := drill.Summarize(ctx, ws, b)
+		if err != nil {
+			return "", err
+		}
+		t, _, err := drill.Records(ctx, ws, b, drill.RecordOptions{Sort: "amount", Desc: true})
+		if err != nil {
+			return "", err
+		}
+		return fmt.Sprintf("%s records, %d shown", drillCount(s.Records), len(t.Rows)), nil
+	}); err != nil {
+		return err
+	}
+	ver, _ := ws.DuckDBVersion(ctx)
+	return printBenchDups(e.stdout, format, o, n, ver, steps, dir)
+}
+
+func printBenchDups(w io.Writer, format string, o benchDupsOptions, rows int64, duckdbVersion string, steps []benchStep, dir string) error {
+	threads := o.threads
+	if threads == 0 {
+		threads = runtime.NumCPU()
+	}
+	if format == "json" {
+		return drillWriteJSON(w, map[string]any{
+			"rows": rows, "seed": o.seed, "repeat": o.repeat, "threads": threads, "cpus": runtime.NumCPU(),
+			"duckdb": duckdbVersion, "leadline": version(), "steps": steps,
+		})
+	}
+	t := &tabular.Table{Columns: []string{"step", "fastest_s", "slowest_s", "result", "command"}}
+	for _, s := range steps {
+		lo, hi := s.Runs[0], s.Runs[0]
+		for _, r := range s.Runs {
+			lo, hi = min(lo, r), max(hi, r)
+		}
+		t.Add(s.Step, fmt.Sprintf("%.2f", lo), fmt.Sprintf("%.2f", hi), s.Result, s.Command)
+	}
+	if format == "csv" {
+		return t.WriteCSV(w)
+	}
+	fmt.Fprintf(w, "Duplicate tests and drill on %s generated rows (seed %d), %d run(s) each, %d DuckDB threads on %d CPUs, DuckDB %s\n\n",
+		drillCount(rows), o.seed, o.repeat, threads, runtime.NumCPU(), duckdbVersion)
+	if err := t.WriteText(w, 0); err != nil {
+		return err
+	}
+	if o.keep {
+		fmt.Fprintf(w, "\nKept in %s (rerun with the same --dir --keep to skip generating and loading)\n", dir)
+	}
+	return nil
+}
+
+func benchFileExists(p string) bool {
+	_, err := os.Stat(p)
+	return err == nil
+}
