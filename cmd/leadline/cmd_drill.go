@@ -61,6 +61,8 @@ Examples:
 			var sel drill.Selection
 			var bin int
 			var dup, out string
+			var dupRecords int64
+			var dupNarrowed bool
 			var ro drill.RecordOptions
 			var gopt drill.GroupOptions
 			db.add(fs)
@@ -122,7 +124,7 @@ Examples:
 					if err != nil {
 						return err
 					}
-					g, _, err := duplicates.GroupSelection(ctx, ws, ref)
+					g, grp, err := duplicates.GroupSelection(ctx, ws, ref)
 					if err != nil {
 						return err
 					}
@@ -135,6 +137,8 @@ Examples:
 					} else if userWhere != "" {
 						sel.Where = userWhere
 					}
+					dupRecords = grp.Records
+					dupNarrowed = userWhere != "" || len(sel.Segments) > 0 || sel.Amount != "" || sel.Range != "" || sel.Bin != nil
 					sel.Extra = append(g.Extra, sel.Extra...)
 					sel.Described = append(g.Described, sel.Described...)
 				}
@@ -145,6 +149,9 @@ Examples:
 				sum, err := drill.Summarize(ctx, ws, b)
 				if err != nil {
 					return err
+				}
+				if dup != "" && !dupNarrowed && sum.Records != dupRecords {
+					fmt.Fprintf(e.stderr, "note: the duplicates run counted %d records in this group; the ledger now holds %d (files loaded or replaced since the run?)\n", dupRecords, sum.Records)
 				}
 				if sum.Records == 0 {
 					return drill.NoRecordsError(b)
