@@ -124,6 +124,17 @@ func keyOf(test string, g duplicates.Group) (string, string) {
 
 // expected computes every group of a test over the population in Go.
 func expected(test string, pop []drilltest.Row, windowDays int) map[string]expectation {
+	return expectedWith(test, pop, windowDays, duplicates.DefaultMinCounterparties, duplicates.DefaultMinRecords)
+}
+
+func absC(c int64) int64 {
+	if c < 0 {
+		return -c
+	}
+	return c
+}
+
+func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecords int) map[string]expectation {
 	out := map[string]expectation{}
 	ct := drilltest.CentsText
 	switch test {
@@ -137,7 +148,7 @@ func expected(test string, pop []drilltest.Row, windowDays int) map[string]expec
 		}
 		for k, c := range n {
 			if c >= 2 {
-				out[k] = expectation{key: k, records: c, extra: ct(cents[k] * (c - 1))}
+				out[k] = expectation{key: k, records: c, extra: ct(absC(cents[k]) * (c - 1))}
 			}
 		}
 	case duplicates.SameAmount:
@@ -201,20 +212,23 @@ func expected(test string, pop []drilltest.Row, windowDays int) map[string]expec
 			n[r.Cents]++
 		}
 		for c, s := range cps {
-			if len(s) >= duplicates.DefaultMinCounterparties {
+			if len(s) >= minCPs {
 				out[ct(c)] = expectation{key: ct(c), records: n[c], extra: fmt.Sprintf("cps=%d", len(s))}
 			}
 		}
 	case duplicates.RSF:
 		by := map[string][]int64{}
 		for _, r := range pop {
-			by[r.Counterparty] = append(by[r.Counterparty], r.Cents)
+			by[r.Counterparty] = append(by[r.Counterparty], absC(r.Cents))
 		}
 		for cp, as := range by {
-			if len(as) < duplicates.DefaultMinRecords {
+			if len(as) < minRecords {
 				continue
 			}
 			sort.Slice(as, func(i, j int) bool { return as[i] > as[j] })
+			if as[1] == 0 {
+				continue
+			}
 			rsf := (float64(as[0]) / 100) / (float64(as[1]) / 100)
 			out[cp] = expectation{key: cp, records: int64(len(as)), extra: fmt.Sprintf("largest=%s second=%s rsf=%.6f", ct(as[0]), ct(as[1]), rsf)}
 		}
@@ -328,6 +342,35 @@ func TestPlantedAndCoincidences(t *testing.T) {
 			t.Logf("window %d, %-11s: %4d groups (%5d records), %d planted, %d of them found; %d coincidences of the generated rows",
 				window, tr.Test, len(tr.Groups), records, planted, found, len(tr.Groups)-found)
 		}
+	}
+}
+
+// TestOtherPopulation: with both signs, no minimum, a filter and other
+// options, every test still equals the Go computation over the same rows.
+func TestOtherPopulation(t *testing.T) {
+	ws, l := setup(t)
+	var pop []drilltest.Row
+	for _, r := range l.Rows {
+		if r.Entity != "WEST" && r.Cents != 0 {
+			pop = append(pop, r)
+		}
+	}
+	o := duplicates.Options{Base: drill.Base{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1}
+	res := runAll(t, ws, o)
+	for _, tr := range res.Tests {
+		want := expectedWith(tr.Test, pop, 3, 4, 5)
+		n := 0
+		for _, g := range tr.Groups {
+			k, extra := keyOf(tr.Test, g)
+			if e, ok := want[k]; !ok || e.records != g.Records || e.extra != extra {
+				t.Errorf("%s: group %s %d records %s; Go: %+v (found %v)", tr.Test, k, g.Records, extra, e, ok)
+			}
+			n++
+		}
+		if n != len(want) {
+			t.Errorf("%s: %d groups, Go finds %d", tr.Test, n, len(want))
+		}
+		t.Logf("signs both, min 0, entity <> 'WEST', window 3: %-11s %d groups equal to Go", tr.Test, n)
 	}
 }
 
