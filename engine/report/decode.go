@@ -275,6 +275,10 @@ func (m *Model) addLimits(r *Run, doc json.RawMessage, base string) error {
 	for i, row := range rep.Rows {
 		seg := segmentLabel(row.Segment)
 		lr := LimitRow{Ref: srcRef(base, fmt.Sprintf("/rows/%d", i), fmt.Sprintf("limits.%s.%s", seg, strconv.FormatFloat(row.Limit, 'f', -1, 64))), Segment: seg, Row: row}
+		lr.Drill = row.Drill
+		if lr.Drill == "" && row.Range != "" {
+			lr.Drill = ranges.DrillCommand(m.Workspace, row.Range, rep.Population, segmentArgs(row.Segment))
+		}
 		if row.Status == limits.StatusTested {
 			tested = append(tested, lr)
 		}
@@ -307,6 +311,20 @@ func segmentLabel(seg map[string]*string) string {
 	return strings.Join(parts, ", ")
 }
 
+// segmentArgs writes a segment as the drill command's COLUMN=VALUE
+// arguments (a blank value as COLUMN=).
+func segmentArgs(seg map[string]*string) []string {
+	var out []string
+	for _, k := range sortedKeys(seg) {
+		v := ""
+		if seg[k] != nil {
+			v = *seg[k]
+		}
+		out = append(out, k+"="+v)
+	}
+	return out
+}
+
 // addRanges reads an amount-range run (ranges.Report).
 func (m *Model) addRanges(r *Run, doc json.RawMessage, base string) error {
 	var rep ranges.Report
@@ -323,6 +341,13 @@ func (m *Model) addRanges(r *Run, doc json.RawMessage, base string) error {
 		if b.Flagged {
 			sec.Flagged = append(sec.Flagged, row)
 		}
+	}
+	for _, st := range rep.Stretches {
+		d := st.Drill
+		if d == "" && st.Range != "" {
+			d = ranges.DrillCommand(m.Workspace, st.Range, rep.Population, nil)
+		}
+		sec.Drills = append(sec.Drills, d)
 	}
 	sec.Chart = template.HTML(rangeChart(fmt.Sprintf("r%d-ranges", r.ID), sec.Bands))
 	m.Ranges = sec

@@ -296,6 +296,7 @@ type LimitRow struct {
 	Ref     ref
 	Segment string // "all" for the whole selection
 	Row     limits.Row
+	Drill   string // the drill command listing the amounts below the limit
 }
 
 // RangeSection is the amount-range table and chart.
@@ -306,6 +307,7 @@ type RangeSection struct {
 	Bands   []RangeRow
 	Flagged []RangeRow
 	Chart   template.HTML
+	Drills  []string // per stretch, the drill command listing its amounts
 }
 
 // RangeRow is one band.

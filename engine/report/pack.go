@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/leadline/leadline/engine/output"
@@ -133,6 +134,21 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 			for _, it := range n.items {
 				if it.kind == 's' {
 					m.Notes = append(m.Notes, it.str)
+				}
+			}
+		}
+	}
+	if strings.HasPrefix(base, "run/") && m.Manifest == nil {
+		// A stored pack run: its manifest is in the output folder.
+		var params struct {
+			Out string `json:"out"`
+		}
+		if json.Unmarshal(r.Params, &params) == nil && params.Out != "" {
+			if b, err := os.ReadFile(filepath.Join(params.Out, output.ManifestFile)); err == nil {
+				g, err := genericFrom(r, "Manifest", b, srcRef(output.ManifestFile+"#", "", "manifest"))
+				if err == nil {
+					g.Facts = append([]Fact{{Label: "read from", Value: template.HTML("<code>" + template.HTMLEscapeString(filepath.Join(params.Out, output.ManifestFile)) + "</code>")}}, g.Facts...)
+					m.Manifest = g
 				}
 			}
 		}

@@ -154,11 +154,9 @@ func parseShown(s string) (v, tol float64, err error) {
 	return v * scale, tol * scale * (1 + 1e-9), nil
 }
 
-// checkNumbers checks every marked number against its source: data-value
-// must equal the stored value exactly, and the text shown must be that
-// value rounded as displayed.
-func checkNumbers(t *testing.T, d *demo, nums []marked) (checked int) {
-	t.Helper()
+// demoSource resolves the sources of a report made from the shared
+// workspace: stored runs, and the load report for the completeness tables.
+func demoSource(t *testing.T, d *demo) func(src string) (any, error) {
 	ctx := context.Background()
 	runDocs := map[int64]any{}
 	files := map[string]map[string]any{}
@@ -182,52 +180,64 @@ func checkNumbers(t *testing.T, d *demo, nums []marked) (checked int) {
 			rejects[fmt.Sprintf("%d/%s", f.FileID, r.Reason)] = map[string]any{"rows": r.Rows, "first_line": first}
 		}
 	}
-	for _, n := range nums {
-		var want any
-		var err error
+	unesc := func(s string) string { return strings.ReplaceAll(strings.ReplaceAll(s, "~1", "/"), "~0", "~") }
+	return func(src string) (any, error) {
 		switch {
-		case strings.HasPrefix(n.src, "run/"):
-			idText, ptr, _ := strings.Cut(strings.TrimPrefix(n.src, "run/"), "#")
+		case strings.HasPrefix(src, "run/"):
+			idText, ptr, _ := strings.Cut(strings.TrimPrefix(src, "run/"), "#")
 			id, _ := strconv.ParseInt(idText, 10, 64)
 			doc, ok := runDocs[id]
 			if !ok {
 				var result string
 				if err := d.ws.Conn.QueryRowContext(ctx, "SELECT result FROM runs WHERE run_id = ?", id).Scan(&result); err != nil {
-					t.Fatalf("%s: %v", n.src, err)
+					return nil, err
 				}
-				dec := json.NewDecoder(strings.NewReader(result))
-				dec.UseNumber()
-				if err := dec.Decode(&doc); err != nil {
-					t.Fatal(err)
+				var err error
+				if doc, err = decodeNumbers([]byte(result)); err != nil {
+					return nil, err
 				}
 				runDocs[id] = doc
 			}
-			want, err = pointer(doc, ptr)
-		case strings.HasPrefix(n.src, "files/*/"):
-			col := strings.TrimPrefix(n.src, "files/*/")
+			return pointer(doc, ptr)
+		case strings.HasPrefix(src, "files/*/"):
+			col := strings.TrimPrefix(src, "files/*/")
 			var sum int64
 			for _, f := range files {
 				sum += f[col].(int64)
 			}
-			want = sum
-		case n.src == "ledger/rows":
-			want = d.load.RowsLoaded
-		case strings.HasPrefix(n.src, "files/"):
-			p := strings.Split(n.src, "/")
-			want = files[p[1]][p[2]]
-		case strings.HasPrefix(n.src, "entities/"):
-			p := strings.Split(n.src, "/")
-			name := strings.ReplaceAll(strings.ReplaceAll(p[1], "~1", "/"), "~0", "~")
-			want = ents[name][p[2]]
-		case strings.HasPrefix(n.src, "rejects/"):
-			rest := strings.TrimPrefix(n.src, "rejects/")
+			return sum, nil
+		case src == "ledger/rows":
+			return d.load.RowsLoaded, nil
+		case strings.HasPrefix(src, "files/"):
+			p := strings.Split(src, "/")
+			return files[p[1]][p[2]], nil
+		case strings.HasPrefix(src, "entities/"):
+			p := strings.Split(src, "/")
+			return ents[unesc(p[1])][p[2]], nil
+		case strings.HasPrefix(src, "rejects/"):
+			rest := strings.TrimPrefix(src, "rejects/")
 			i := strings.LastIndexByte(rest, '/')
-			key := strings.ReplaceAll(strings.ReplaceAll(rest[:i], "~1", "/"), "~0", "~")
-			want = rejects[key][rest[i+1:]]
-		default:
-			t.Errorf("%s (%s): unknown source", n.field, n.src)
-			continue
+			return rejects[unesc(rest[:i])][rest[i+1:]], nil
 		}
+		return nil, fmt.Errorf("unknown source")
+	}
+}
+
+func decodeNumbers(b []byte) (any, error) {
+	var doc any
+	dec := json.NewDecoder(bytes.NewReader(b))
+	dec.UseNumber()
+	err := dec.Decode(&doc)
+	return doc, err
+}
+
+// checkNumbers checks every marked number against its source: data-value
+// must equal the stored value exactly, and the text shown must be that
+// value rounded as displayed.
+func checkNumbers(t *testing.T, nums []marked, resolve func(src string) (any, error)) (checked int) {
+	t.Helper()
+	for _, n := range nums {
+		want, err := resolve(n.src)
 		if err != nil || want == nil {
 			t.Errorf("%s: source %s not found: %v", n.field, n.src, err)
 			continue
@@ -285,7 +295,7 @@ func TestReportNumbersMatchStoredResults(t *testing.T) {
 		os.WriteFile(filepath.Join(dir, "report-test.html"), buf.Bytes(), 0o644)
 	}
 	nums, sections, _ := parsePage(t, buf.Bytes())
-	checked := checkNumbers(t, d, nums)
+	checked := checkNumbers(t, nums, demoSource(t, d))
 	// Not vacuous: the page shows hundreds of numbers, and the key ones.
 	if checked < 300 {
 		t.Errorf("only %d numbers checked", checked)

@@ -138,6 +138,21 @@ func labelEvery(k int) int {
 	}
 }
 
+// nextEvery is the next label spacing after e in 1, 2, 5, 10, 20, 50...
+func nextEvery(e int) int {
+	p := 1
+	for p*10 <= e {
+		p *= 10
+	}
+	switch m := e / p; {
+	case m < 2:
+		return 2 * p
+	case m < 5:
+		return 5 * p
+	}
+	return 10 * p
+}
+
 // svgOpen writes the <svg> element with its accessible name and
 // description, and the patterns used for hatching and shading.
 func svgOpen(w *svgWriter, id, class, title, desc string, height float64) {
@@ -328,8 +343,15 @@ func (c *binChart) render() string {
 			esc(c.Labels[i]), markerPath(xc(i), y(base)-3, upDir), colVermil, colInk)
 	}
 	w.printf(`</g>`)
-	// X axis.
+	// X axis: labels far enough apart not to overlap.
 	every := labelEvery(k)
+	longest := 0
+	for _, l := range c.Labels {
+		longest = max(longest, len([]rune(l)))
+	}
+	for float64(every)*slot < 6.6*float64(longest)+6 && every < k {
+		every = nextEvery(every)
+	}
 	w.printf(`<g class="axis x-axis"><line x1="%s" x2="%s" y1="%s" y2="%s" stroke="%s" stroke-width="1"/>`, num(marginL), num(chartW-marginR), num(y(0)), num(y(0)), colInk)
 	for i := 0; i < k; i++ {
 		if i%every != 0 && !(every > 1 && i == k-1 && k <= 100) {

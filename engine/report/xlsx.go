@@ -78,6 +78,7 @@ func AddDigitChart(f *excelize.File, sheet string, r *benford.Result) (string, e
 		return excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{hex}}
 	}
 	overlap := 100
+	vary := false
 	gap := uint(40)
 	width := 640 + 6*len(r.Bins)
 	bars := &excelize.Chart{
@@ -87,6 +88,7 @@ func AddDigitChart(f *excelize.File, sheet string, r *benford.Result) (string, e
 			{Name: q + "!$D$1", Categories: cats, Values: col("D"), Fill: solid(colOrange)},
 		},
 		Overlap:      &overlap,
+		VaryColors:   &vary,
 		GapWidth:     &gap,
 		Format:       excelize.GraphicOptions{OffsetX: 10, OffsetY: 10},
 		Dimension:    excelize.ChartDimension{Width: uint(width), Height: 380},
@@ -107,11 +109,11 @@ func AddDigitChart(f *excelize.File, sheet string, r *benford.Result) (string, e
 				Marker: excelize.ChartMarker{Symbol: "none"}},
 		},
 	}
-	if err := f.AddChart(name, "J2", bars, lines); err != nil {
+	if err := f.AddChart(name, "J3", bars, lines); err != nil {
 		return "", fmt.Errorf("chart of the %s: %w", r.Test.Name(), err)
 	}
 	note := "Results are signals for follow-up, never proof of fraud or error. Flagged: the observed proportion lies outside the bin's 95% bounds."
-	if err := f.SetCellValue(name, fmt.Sprintf("J%d", 2+22), note); err != nil {
+	if err := f.SetCellValue(name, "J1", note); err != nil {
 		return "", err
 	}
 	return name, nil
