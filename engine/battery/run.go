@@ -1,0 +1,233 @@
+package battery
+
+import (
+	"context"
+	"sort"
+	"time"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/workspace"
+)
+
+// Report is the result of a battery run: the document `leadline scan
+// --format json` prints and the workspace stores with the run (see
+// docs/json.md, section scan).
+type Report struct {
+	Kind        string           `json:"kind"` // "scan"
+	RunID       int64            `json:"run_id"`
+	Params      Options          `json:"params"`
+	AmountType  string           `json:"amount_type"`
+	Rows        int64            `json:"rows"`       // rows in the ledger
+	Tested      int64            `json:"tested"`     // amounts tested (N of the count-based tests)
+	Exclusions  Left             `json:"exclusions"` // rows = tested + the sum of these
+	Tests       []benford.Result `json:"tests"`      // the whole selection, in canonical test order
+	Duplication *Duplication     `json:"duplication,omitempty"`
+	Segments    *Segments        `json:"segments,omitempty"`
+	Seconds     Timing           `json:"seconds"`
+
+	// Counts is the bin-count table of the whole selection, and
+	// SegmentResults each segment's table and test results (for the CSV
+	// long format); neither is part of the JSON document.
+	Counts         *Counts         `json:"-"`
+	SegmentResults []SegmentResult `json:"-"`
+}
+
+// Timing records where the time went, in seconds.
+type Timing struct {
+	Scan        float64 `json:"scan"`         // the one aggregate scan
+	SecondOrder float64 `json:"second_order"` // the second-order test's query (0 when not run)
+	Duplication float64 `json:"duplication"`  // the number duplication query (0 when not run)
+	Statistics  float64 `json:"statistics"`   // every test of every segment, in Go
+	Total       float64 `json:"total"`
+}
+
+// Segments is the segment part of a report.
+type Segments struct {
+	By       []string      `json:"by"`
+	MinRows  int64         `json:"min_rows"` // fewest tested amounts ranked
+	Count    int           `json:"count"`    // segments found
+	Ranked   int           `json:"ranked"`   // segments with at least MinRows amounts
+	Rankings []Ranking     `json:"rankings"` // one per test run
+	TooSmall []SegmentInfo `json:"too_small"`
+	All      []SegmentInfo `json:"populations"` // every segment: tested amounts and what was left out
+}
+
+// SegmentInfo says how many amounts of a segment were tested and why the
+// others were left out.
+type SegmentInfo struct {
+	Segment string             `json:"segment"` // values joined with " / ", blanks as (blank)
+	Values  map[string]*string `json:"values"`  // column -> value, null for blank
+	Tested  int64              `json:"tested"`
+	Left
+}
+
+// Ranking ranks the segments on one test, most distorted first: by excess
+// MAD (MAD less the MAD expected from sampling alone for the segment's N),
+// so that segments of different sizes compare fairly. The summation test
+// has no expected MAD and ranks by MAD.
+type Ranking struct {
+	Test   benford.Test `json:"test"`
+	SortBy string       `json:"sort_by"` // "excess_mad" or "mad"
+	Rows   []SegmentRow `json:"rows"`
+}
+
+// SegmentRow is one segment's line in a ranking.
+type SegmentRow struct {
+	Rank           int                `json:"rank"`
+	Segment        string             `json:"segment"`
+	Values         map[string]*string `json:"values"`
+	Test           benford.Test       `json:"test"`
+	N              int64              `json:"n"`
+	MAD            float64            `json:"mad"`
+	Conformity     string             `json:"conformity"`
+	ExpectedMAD    float64            `json:"expected_mad"`
+	ExcessMAD      float64            `json:"excess_mad"`
+	Chi2           float64            `json:"chi2"`
+	DF             int                `json:"df"`
+	PValue         float64            `json:"p_value"`
+	Flagged        int                `json:"flagged"`
+	OutsideGoodman int                `json:"outside_goodman"`
+	TopFlagged     []int              `json:"top_flagged"`
+	Runs           *int               `json:"runs,omitempty"`   // runs test (first-two, first-three, second-order)
+	RunsP          *float64           `json:"runs_p,omitempty"` // its one-sided p
+}
+
+// SegmentResult is one segment's bin-count table and test results.
+type SegmentResult struct {
+	Key     Key
+	Counts  *Counts
+	Results []benford.Result // nil when the segment is too small
+}
+
+// Run runs the battery: Prepare, the one aggregate scan, the second-order
+// and number duplication queries when asked for, and the statistics of the
+// whole selection and of every segment large enough to rank.
+func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, error) {
+	start := time.Now()
+	p, err := Prepare(ctx, ws, o)
+	if err != nil {
+		return nil, err
+	}
+	o = p.Options
+	rep := &Report{Kind: "scan", Params: o, AmountType: p.AmountType.SQL(), Tests: []benford.Result{}}
+
+	t := time.Now()
+	all, segs, err := p.Scan(ctx, ws)
+	if err != nil {
+		return nil, err
+	}
+	rep.Seconds.Scan = time.Since(t).Seconds()
+	if o.Has(benford.SecondOrder) {
+		t = time.Now()
+		if err := p.SecondOrder(ctx, ws, all, segs); err != nil {
+			return nil, err
+		}
+		rep.Seconds.SecondOrder = time.Since(t).Seconds()
+	}
+	rep.Counts = all
+	rep.Tested = all.N()
+	rep.Exclusions = all.Left
+	rep.Rows = rep.Tested + all.Left.Total()
+	if o.Duplication {
+		t = time.Now()
+		if rep.Duplication, err = p.Duplicates(ctx, ws, rep.Tested, o.Top); err != nil {
+			return nil, err
+		}
+		rep.Seconds.Duplication = time.Since(t).Seconds()
+	}
+
+	t = time.Now()
+	if rep.Tests, err = AnalyzeAll(all, o.Tests); err != nil {
+		return nil, err
+	}
+	if len(p.Segments) > 0 {
+		rep.Segments, rep.SegmentResults, err = rankSegments(p, segs)
+		if err != nil {
+			return nil, err
+		}
+	}
+	rep.Seconds.Statistics = time.Since(t).Seconds()
+	rep.Seconds.Total = time.Since(start).Seconds()
+	return rep, nil
+}
+
+// AnalyzeAll runs the tests on one bin-count table, in canonical order.
+func AnalyzeAll(c *Counts, tests []benford.Test) ([]benford.Result, error) {
+	out := []benford.Result{}
+	for _, t := range benford.AllTests() {
+		if !contains(tests, t) {
+			continue
+		}
+		r, err := c.Analyze(t)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, r)
+	}
+	return out, nil
+}
+
+func contains(ts []benford.Test, t benford.Test) bool {
+	for _, x := range ts {
+		if x == t {
+			return true
+		}
+	}
+	return false
+}
+
+func rankSegments(p *Plan, segs []SegmentCounts) (*Segments, []SegmentResult, error) {
+	o := p.Options
+	out := &Segments{By: make([]string, len(p.Segments)), MinRows: o.MinSegmentRows, Count: len(segs),
+		Rankings: []Ranking{}, TooSmall: []SegmentInfo{}, All: []SegmentInfo{}}
+	for i, s := range p.Segments {
+		out.By[i] = s.Name
+	}
+	results := make([]SegmentResult, len(segs))
+	rows := map[benford.Test][]SegmentRow{}
+	for i, sc := range segs {
+		info := SegmentInfo{Segment: sc.Key.Label(), Values: sc.Key.Values(p.Segments), Tested: sc.Counts.N(), Left: sc.Counts.Left}
+		out.All = append(out.All, info)
+		results[i] = SegmentResult{Key: sc.Key, Counts: sc.Counts}
+		if info.Tested < o.MinSegmentRows {
+			out.TooSmall = append(out.TooSmall, info)
+			continue
+		}
+		out.Ranked++
+		res, err := AnalyzeAll(sc.Counts, o.Tests)
+		if err != nil {
+			return nil, nil, err
+		}
+		results[i].Results = res
+		for _, r := range res {
+			row := SegmentRow{Segment: info.Segment, Values: info.Values, Test: r.Test, N: r.N, MAD: r.MAD,
+				Conformity: r.Conformity, ExpectedMAD: r.ExpectedMAD, ExcessMAD: r.ExcessMAD, Chi2: r.Chi2, DF: r.DF,
+				PValue: r.PValue, Flagged: r.Flagged, OutsideGoodman: r.OutsideGoodman, TopFlagged: r.TopFlagged}
+			if r.Runs != nil {
+				n, pv := r.Runs.Runs, r.Runs.P
+				row.Runs, row.RunsP = &n, &pv
+			}
+			rows[r.Test] = append(rows[r.Test], row)
+		}
+	}
+	for _, t := range benford.AllTests() {
+		if !o.Has(t) {
+			continue
+		}
+		rk := Ranking{Test: t, SortBy: "excess_mad", Rows: rows[t]}
+		if rk.Rows == nil {
+			rk.Rows = []SegmentRow{}
+		}
+		key := func(r SegmentRow) float64 { return r.ExcessMAD }
+		if t == benford.Summation {
+			rk.SortBy = "mad"
+			key = func(r SegmentRow) float64 { return r.MAD }
+		}
+		sort.SliceStable(rk.Rows, func(i, j int) bool { return key(rk.Rows[i]) > key(rk.Rows[j]) })
+		for i := range rk.Rows {
+			rk.Rows[i].Rank = i + 1
+		}
+		out.Rankings = append(out.Rankings, rk)
+	}
+	return out, results, nil
+}

@@ -1,0 +1,381 @@
+package battery
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"math"
+	"math/big"
+	"sort"
+	"strings"
+
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/sqlguard"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
+)
+
+// Last-two digits readings (Options.LastTwo).
+const (
+	// LastTwoScale reads the two rightmost digits of the amount written at
+	// the ledger's scale: 1234.56 -> 56, 1200.00 -> 00, and at scale 0
+	// 1234 -> 34. This is the default.
+	LastTwoScale = "scale"
+	// LastTwoUnits reads the two rightmost digits of the whole-currency
+	// part: 1234.56 -> 34, 1200.00 -> 00. Practitioners often apply the
+	// last-two digits test to whole amounts, where invented numbers end in
+	// round figures.
+	LastTwoUnits = "units"
+)
+
+// Plan is a checked battery, its SQL built, ready to scan.
+type Plan struct {
+	Options    Options
+	AmountType drill.AmountType
+	Segments   []Segment
+	MinUnits   int64 // Options.Min in units of the ledger's scale (ceiling)
+
+	filter   string // checked --where, ready to paste after WHERE
+	units    string // SQL: the signed amount in whole units
+	first3   string // SQL macro: first three significant digits of units
+	signOK   string // SQL over ll_u: the row is of a sign tested
+	last2    string // SQL over ll_a: the last-two bin
+	wide     bool   // units are HUGEINT (precision > 18)
+	prepared bool
+}
+
+// Prepare checks the options against the workspace (amount type, filter,
+// signs, minimum, segment columns) and builds the battery's SQL.
+func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, error) {
+	o = o.WithDefaults()
+	if err := o.Check(); err != nil {
+		return nil, err
+	}
+	at, err := drill.LedgerAmountType(ctx, ws)
+	if err != nil {
+		return nil, err
+	}
+	p := &Plan{Options: o, AmountType: at}
+	p.MinUnits, err = minUnits(o.Min, at)
+	if err != nil {
+		return nil, err
+	}
+	p.filter, err = sqlguard.Filter(ctx, ws.Conn, o.Where)
+	if err != nil {
+		return nil, err
+	}
+	p.Segments, err = ResolveSegments(ctx, ws, o.By)
+	if err != nil {
+		return nil, err
+	}
+	p.wide = at.Precision > 18
+	p.units = unitsSQL(at)
+	p.first3 = "ll_first3_i64"
+	if p.wide {
+		p.first3 = "ll_first3_i128"
+	}
+	switch o.Signs {
+	case "positive":
+		p.signOK = "ll_u > 0"
+	case "negative":
+		p.signOK = "ll_u < 0"
+	default:
+		p.signOK = "TRUE"
+	}
+	p.last2 = "ll_a % 100"
+	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
+		p.last2 = fmt.Sprintf("(ll_a // %s) %% 100", pow10Text(at.Scale))
+	}
+	return p, nil
+}
+
+// unitsSQL returns the SQL of the signed amount as a whole number of units
+// of 10^-scale, exactly. DuckDB keeps amount * 10^s in the amount's own
+// width, so the plain product is used only below the amount where it would
+// overflow; above it the integer and fractional parts are scaled apart
+// (both exact, and both fit: |trunc(amount)| < 10^(p-s)).
+func unitsSQL(at drill.AmountType) string {
+	s := at.Scale
+	it := "BIGINT"
+	if at.Precision > 18 {
+		it = "HUGEINT"
+	}
+	if s == 0 {
+		return "CAST(amount AS " + it + ")"
+	}
+	m := pow10Text(s)
+	split := fmt.Sprintf("CAST(trunc(amount) AS %[1]s) * %[2]s + CAST((amount - trunc(amount)) * %[2]s AS %[1]s)", it, m)
+	safe := at.Precision - 2*s // |amount| < 10^safe: amount * 10^s stays within the width
+	if at.Precision > 18 || safe < 1 {
+		return "(" + split + ")"
+	}
+	t := pow10Text(safe)
+	return fmt.Sprintf("(CASE WHEN amount < %[1]s AND amount > -%[1]s THEN CAST(amount * %[2]s AS BIGINT) ELSE %[3]s END)", t, m, split)
+}
+
+func pow10Text(n int) string { return "1" + strings.Repeat("0", n) }
+
+// minUnits is the smallest |amount| tested, in units: ceil(min * 10^s).
+func minUnits(min string, at drill.AmountType) (int64, error) {
+	r, ok := new(big.Rat).SetString(strings.TrimSpace(min))
+	if !ok || strings.ContainsAny(min, "/eE") {
+		return 0, fmt.Errorf("--min %q: give a plain decimal number such as 10 or 0.01", min)
+	}
+	if r.Sign() < 0 {
+		return 0, fmt.Errorf("--min %s: the minimum is on absolute amounts; give 0 or more (choose the sign with --signs)", min)
+	}
+	v := new(big.Rat).Mul(r, new(big.Rat).SetInt(new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(at.Scale)), nil)))
+	q, m := new(big.Int).DivMod(v.Num(), v.Denom(), new(big.Int))
+	if m.Sign() != 0 {
+		q.Add(q, big.NewInt(1))
+	}
+	if !q.IsInt64() {
+		return 0, fmt.Errorf("--min %s is above the largest amount a %s can hold", min, at.SQL())
+	}
+	return q.Int64(), nil
+}
+
+// segmentSQL returns the select list (raw values as ll_s1...), the names
+// list and the normalising list, each ending in ", " when not empty.
+func (p *Plan) segmentSQL(perRow bool) (sel, names, normal string) {
+	var a, b, c []string
+	for i, s := range p.Segments {
+		n := fmt.Sprintf("ll_s%d", i+1)
+		expr := s.raw
+		if perRow {
+			expr = s.row
+		}
+		a = append(a, expr+" AS "+n)
+		b = append(b, n)
+		c = append(c, fmt.Sprintf(s.normal, n)+" AS "+n)
+	}
+	j := func(x []string) string {
+		if len(x) == 0 {
+			return ""
+		}
+		return strings.Join(x, ", ") + ", "
+	}
+	return j(a), j(b), j(c)
+}
+
+// ScanSQL returns the one aggregate scan of the battery (shown by the
+// benchmark and --explain); its single parameter is MinUnits.
+func (p *Plan) ScanSQL() string {
+	sel, names, normal := p.segmentSQL(false)
+	q := queries.Render("battery_scan", map[string]string{
+		"segment_select": sel, "segment_names": names, "units": p.units, "filter": p.filter,
+		"sign_ok": p.signOK, "first3": p.first3, "last2": p.last2,
+	})
+	if len(p.Segments) == 0 {
+		return q
+	}
+	return queries.Render("battery_scan_segments", map[string]string{"segment_normal": normal, "scan": q})
+}
+
+func (p *Plan) macros(ctx context.Context, ws *workspace.Workspace) error {
+	if p.prepared {
+		return nil
+	}
+	if _, err := ws.Conn.ExecContext(ctx, queries.Get("battery_macros")); err != nil {
+		return fmt.Errorf("creating the battery's macros: %w", err)
+	}
+	p.prepared = true
+	return nil
+}
+
+// SegmentCounts is the bin-count table of one segment.
+type SegmentCounts struct {
+	Key    Key
+	Counts *Counts
+}
+
+// Scan runs the one aggregate scan and returns the bin-count table of the
+// whole selection and, with segments, of each segment (sorted by key). The
+// whole selection's table is the sum of the segments' tables; its
+// Left.Filtered counts the rows the filter left out.
+func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []SegmentCounts, error) {
+	if err := p.macros(ctx, ws); err != nil {
+		return nil, nil, err
+	}
+	rows, err := ws.Conn.QueryContext(ctx, p.ScanSQL(), p.MinUnits)
+	if err != nil {
+		return nil, nil, fmt.Errorf("the battery's scan: %s", firstLine(err.Error()))
+	}
+	defer rows.Close()
+	nseg := len(p.Segments)
+	bySeg := map[string]*SegmentCounts{}
+	var order []*SegmentCounts
+	dest := make([]any, nseg+4)
+	key := make([]sql.NullString, nseg)
+	for i := range key {
+		dest[i] = &key[i]
+	}
+	var f3, l2 sql.NullInt64
+	var n int64
+	var sum sql.NullFloat64
+	dest[nseg], dest[nseg+1], dest[nseg+2], dest[nseg+3] = &f3, &l2, &n, &sum
+	for rows.Next() {
+		if err := rows.Scan(dest...); err != nil {
+			return nil, nil, fmt.Errorf("the battery's scan: %w", err)
+		}
+		k := Key(key)
+		ks := k.String()
+		sc := bySeg[ks]
+		if sc == nil {
+			sc = &SegmentCounts{Key: append(Key(nil), key...), Counts: NewCounts()}
+			bySeg[ks] = sc
+			order = append(order, sc)
+		}
+		c := sc.Counts
+		switch {
+		case f3.Valid && f3.Int64 >= 100 && f3.Int64 <= 999:
+			c.FirstThree[f3.Int64-100] += n
+			if sum.Valid {
+				c.FirstThreeSum[f3.Int64-100] += sum.Float64 / math.Pow10(p.AmountType.Scale)
+			}
+		case f3.Valid:
+			switch f3.Int64 {
+			case -1:
+				c.Left.Zero += n
+			case -2:
+				c.Left.OtherSign += n
+			case -3:
+				c.Left.BelowMin += n
+			case -5:
+				c.Left.NoAmount += n
+			default:
+				return nil, nil, fmt.Errorf("the battery's scan returned first-three digits %d: an internal error, please report it", f3.Int64)
+			}
+		case l2.Valid && l2.Int64 >= 0 && l2.Int64 <= 99:
+			c.LastTwo[l2.Int64] += n
+		case l2.Valid && l2.Int64 < 0:
+			// rows left out, already counted in the first-three set
+		default:
+			return nil, nil, fmt.Errorf("the battery's scan returned a group with neither digits nor a reason: an internal error, please report it")
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return nil, nil, fmt.Errorf("the battery's scan: %s", firstLine(err.Error()))
+	}
+	all := NewCounts()
+	for _, sc := range order {
+		all.Add(sc.Counts)
+	}
+	var total int64
+	if err := ws.Conn.QueryRowContext(ctx, queries.Get("battery_rows")).Scan(&total); err != nil {
+		return nil, nil, err
+	}
+	all.Left.Filtered = total - all.N() - all.Left.Total()
+	if nseg == 0 {
+		return all, nil, nil
+	}
+	segs := make([]SegmentCounts, len(order))
+	for i, sc := range order {
+		segs[i] = *sc
+	}
+	sort.Slice(segs, func(i, j int) bool { return segs[i].Key.Less(segs[j].Key) })
+	return all, segs, nil
+}
+
+// SecondOrder runs the second-order test's query and stores its counts in
+// all and in each segment's table (segments as returned by Scan).
+func (p *Plan) SecondOrder(ctx context.Context, ws *workspace.Workspace, all *Counts, segs []SegmentCounts) error {
+	if err := p.macros(ctx, ws); err != nil {
+		return err
+	}
+	sel, names, _ := p.segmentSQL(true)
+	partition := ""
+	if names != "" {
+		partition = "PARTITION BY " + strings.TrimSuffix(names, ", ") + " "
+	}
+	q := queries.Render("battery_second_order", map[string]string{
+		"segment_select": sel, "segment_names": names, "units": p.units, "filter": p.filter,
+		"sign_ok": p.signOK, "first3": p.first3, "partition": partition,
+	})
+	rows, err := ws.Conn.QueryContext(ctx, q, p.MinUnits)
+	if err != nil {
+		return fmt.Errorf("the second-order test: %s", firstLine(err.Error()))
+	}
+	defer rows.Close()
+	idx := map[string]*Counts{}
+	for i := range segs {
+		segs[i].Counts.SecondOrder = make([]int64, 90)
+		idx[segs[i].Key.String()] = segs[i].Counts
+	}
+	all.SecondOrder = make([]int64, 90)
+	nseg := len(p.Segments)
+	key := make([]sql.NullString, nseg)
+	dest := make([]any, nseg+2)
+	for i := range key {
+		dest[i] = &key[i]
+	}
+	var f2, n int64
+	dest[nseg], dest[nseg+1] = &f2, &n
+	for rows.Next() {
+		if err := rows.Scan(dest...); err != nil {
+			return fmt.Errorf("the second-order test: %w", err)
+		}
+		if f2 < 10 || f2 > 99 {
+			return fmt.Errorf("the second-order test returned first-two digits %d: an internal error, please report it", f2)
+		}
+		all.SecondOrder[f2-10] += n
+		if nseg > 0 {
+			c := idx[Key(key).String()]
+			if c == nil {
+				return fmt.Errorf("the second-order test found segment %q that the scan did not: an internal error, please report it", Key(key).Label())
+			}
+			c.SecondOrder[f2-10] += n
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return fmt.Errorf("the second-order test: %s", firstLine(err.Error()))
+	}
+	return nil
+}
+
+// Duplicate is one exact amount of the number duplication test.
+type Duplicate struct {
+	Rank   int     `json:"rank"`
+	Amount string  `json:"amount"` // exact, as the ledger holds it
+	Count  int64   `json:"count"`
+	Share  float64 `json:"share"` // count / N
+}
+
+// Duplication is the number duplication test: the most frequent exact
+// amounts among those tested.
+type Duplication struct {
+	N        int64       `json:"n"`        // amounts tested
+	Distinct int64       `json:"distinct"` // distinct amounts among them
+	Top      []Duplicate `json:"top"`
+}
+
+// Duplicates runs the number duplication query: the top most frequent
+// amounts, n being the number of amounts tested.
+func (p *Plan) Duplicates(ctx context.Context, ws *workspace.Workspace, n int64, top int) (*Duplication, error) {
+	q := queries.Render("battery_duplicates", map[string]string{"units": p.units, "filter": p.filter, "sign_ok": p.signOK})
+	rows, err := ws.Conn.QueryContext(ctx, q, p.MinUnits, top)
+	if err != nil {
+		return nil, fmt.Errorf("number duplication: %s", firstLine(err.Error()))
+	}
+	defer rows.Close()
+	d := &Duplication{N: n, Top: []Duplicate{}}
+	for rows.Next() {
+		var x Duplicate
+		if err := rows.Scan(&x.Amount, &x.Count, &d.Distinct); err != nil {
+			return nil, err
+		}
+		x.Rank = len(d.Top) + 1
+		if n > 0 {
+			x.Share = float64(x.Count) / float64(n)
+		}
+		d.Top = append(d.Top, x)
+	}
+	return d, rows.Err()
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i]
+	}
+	return s
+}

@@ -1,0 +1,189 @@
+-- The digit battery. Every count-based test (first, second, first-two,
+-- first-three and last-two digits, and the summation test) is fed by ONE
+-- aggregate scan, battery_scan; the second-order test and number
+-- duplication need their own queries (a sort and a GROUP BY amount).
+--
+-- Digits come from the exact DECIMAL, never from a float: {{units}} is the
+-- amount as a whole number of units of 10^-scale (1234.56 at scale 2 ->
+-- 123456), built by engine/battery from the ledger's type, and the digits
+-- are taken from that integer by integer comparisons and division:
+--
+--   first three significant digits of u >= 1 with k decimal digits:
+--     u * 100 (k = 1), u * 10 (k = 2), u // 10^(k-3) (k >= 3)
+--   so 10.00 -> 100, 99.99 -> 999, 0.29 -> 290, 0.10 -> 100, 5.00 -> 500.
+--
+-- The number of digits is found by a balanced tree of comparisons with
+-- powers of ten (five comparisons for a BIGINT), which on DuckDB is faster
+-- than log10 on a double and, unlike it, exact at 999999999999999999.
+
+-- name: battery_macros
+-- ll_first3_i64(u): first three significant digits (100..999) of a BIGINT
+-- u >= 1 (all amounts of a DECIMAL(p,s) with p <= 18 in units).
+-- ll_first3_i128(u): the same for a HUGEINT u >= 1 (DECIMAL(p,s), p > 18).
+-- Pass a column, not an expression: a macro repeats its argument.
+CREATE OR REPLACE TEMP MACRO ll_first3_i64(u) AS
+CASE WHEN u < 1000000000
+    THEN CASE WHEN u < 100000
+        THEN CASE WHEN u < 1000
+            THEN CASE WHEN u < 100
+                THEN CASE WHEN u < 10
+                    THEN u * 100
+                    ELSE u * 10 END
+                ELSE u END
+            ELSE CASE WHEN u < 10000
+                THEN u // 10
+                ELSE u // 100 END END
+        ELSE CASE WHEN u < 10000000
+            THEN CASE WHEN u < 1000000
+                THEN u // 1000
+                ELSE u // 10000 END
+            ELSE CASE WHEN u < 100000000
+                THEN u // 100000
+                ELSE u // 1000000 END END END
+    ELSE CASE WHEN u < 100000000000000
+        THEN CASE WHEN u < 1000000000000
+            THEN CASE WHEN u < 100000000000
+                THEN CASE WHEN u < 10000000000
+                    THEN u // 10000000
+                    ELSE u // 100000000 END
+                ELSE u // 1000000000 END
+            ELSE CASE WHEN u < 10000000000000
+                THEN u // 10000000000
+                ELSE u // 100000000000 END END
+        ELSE CASE WHEN u < 10000000000000000
+            THEN CASE WHEN u < 1000000000000000
+                THEN u // 1000000000000
+                ELSE u // 10000000000000 END
+            ELSE CASE WHEN u < 100000000000000000
+                THEN u // 100000000000000
+                ELSE u // 1000000000000000 END END END END;
+CREATE OR REPLACE TEMP MACRO ll_first3_i128(u) AS
+CASE WHEN u < 1000000000000000000
+    THEN ll_first3_i64(CAST(u AS BIGINT))
+    ELSE CASE WHEN u < 10000000000000000000000000000::HUGEINT
+        THEN CASE WHEN u < 100000000000000000000000::HUGEINT
+            THEN CASE WHEN u < 1000000000000000000000::HUGEINT
+                THEN CASE WHEN u < 100000000000000000000::HUGEINT
+                    THEN CASE WHEN u < 10000000000000000000::HUGEINT
+                        THEN u // 10000000000000000
+                        ELSE u // 100000000000000000 END
+                    ELSE u // 1000000000000000000 END
+                ELSE CASE WHEN u < 10000000000000000000000::HUGEINT
+                    THEN u // 10000000000000000000::HUGEINT
+                    ELSE u // 100000000000000000000::HUGEINT END END
+            ELSE CASE WHEN u < 100000000000000000000000000::HUGEINT
+                THEN CASE WHEN u < 10000000000000000000000000::HUGEINT
+                    THEN CASE WHEN u < 1000000000000000000000000::HUGEINT
+                        THEN u // 1000000000000000000000::HUGEINT
+                        ELSE u // 10000000000000000000000::HUGEINT END
+                    ELSE u // 100000000000000000000000::HUGEINT END
+                ELSE CASE WHEN u < 1000000000000000000000000000::HUGEINT
+                    THEN u // 1000000000000000000000000::HUGEINT
+                    ELSE u // 10000000000000000000000000::HUGEINT END END END
+        ELSE CASE WHEN u < 1000000000000000000000000000000000::HUGEINT
+            THEN CASE WHEN u < 10000000000000000000000000000000::HUGEINT
+                THEN CASE WHEN u < 1000000000000000000000000000000::HUGEINT
+                    THEN CASE WHEN u < 100000000000000000000000000000::HUGEINT
+                        THEN u // 100000000000000000000000000::HUGEINT
+                        ELSE u // 1000000000000000000000000000::HUGEINT END
+                    ELSE u // 10000000000000000000000000000::HUGEINT END
+                ELSE CASE WHEN u < 100000000000000000000000000000000::HUGEINT
+                    THEN u // 100000000000000000000000000000::HUGEINT
+                    ELSE u // 1000000000000000000000000000000::HUGEINT END END
+            ELSE CASE WHEN u < 1000000000000000000000000000000000000::HUGEINT
+                THEN CASE WHEN u < 100000000000000000000000000000000000::HUGEINT
+                    THEN CASE WHEN u < 10000000000000000000000000000000000::HUGEINT
+                        THEN u // 10000000000000000000000000000000::HUGEINT
+                        ELSE u // 100000000000000000000000000000000::HUGEINT END
+                    ELSE u // 1000000000000000000000000000000000::HUGEINT END
+                ELSE CASE WHEN u < 10000000000000000000000000000000000000::HUGEINT
+                    THEN u // 10000000000000000000000000000000000::HUGEINT
+                    ELSE u // 100000000000000000000000000000000000::HUGEINT END END END END END;
+
+-- name: battery_scan
+-- One pass over the ledger. Each row gets a code: its first three
+-- significant digits (100..999) when it is tested, or why it was left out:
+--   -1 zero, -2 of the sign not kept, -3 |amount| below the minimum,
+--   -5 no amount (never in a committed ledger; counted, not hidden).
+-- Two grouping sets share the pass: (segment..., first three digits) and
+-- (segment..., last two digits); ll_l2 repeats the exclusion code for rows
+-- left out, so they stay apart. Counts and sums of |amount| (in units) per
+-- group are additive: segments, files and partitions merge by addition.
+-- Sums are exact integers in the aggregate, returned as DOUBLE (the
+-- summation test works on shares of the total).
+-- Parameter: the minimum |amount| in units.
+SELECT {{segment_names}}ll_f3, ll_l2, count(*) AS ll_n, CAST(sum(ll_a) AS DOUBLE) AS ll_sum
+FROM (
+    SELECT {{segment_names}}ll_a, ll_f3,
+           CASE WHEN ll_f3 > 0 THEN {{last2}} ELSE ll_f3 END AS ll_l2
+    FROM (
+        SELECT {{segment_names}}ll_a,
+               CASE WHEN ll_u IS NULL THEN -5
+                    WHEN ll_u = 0 THEN -1
+                    WHEN NOT ({{sign_ok}}) THEN -2
+                    WHEN ll_a < ? THEN -3
+                    ELSE {{first3}}(ll_a) END AS ll_f3
+        FROM (
+            SELECT {{segment_names}}ll_u, abs(ll_u) AS ll_a
+            FROM (
+                SELECT {{segment_select}}{{units}} AS ll_u
+                FROM ledger
+                WHERE {{filter}}
+            )
+        )
+    )
+)
+GROUP BY GROUPING SETS (({{segment_names}}ll_f3), ({{segment_names}}ll_l2));
+
+-- name: battery_scan_segments
+-- battery_scan grouped on the segment columns as stored (cheap to hash);
+-- this folds the groups into segments as the drill-down reads them:
+-- blank text (NULL, empty, spaces) is one segment, months are YYYY-MM.
+SELECT {{segment_normal}}ll_f3, ll_l2, CAST(sum(ll_n) AS BIGINT) AS ll_n, sum(ll_sum) AS ll_sum
+FROM (
+{{scan}}
+)
+GROUP BY ALL;
+
+-- name: battery_rows
+-- Rows of the ledger (a count DuckDB answers from its metadata): with the
+-- scan's total it gives the rows the filter left out.
+SELECT count(*) FROM ledger;
+
+-- name: battery_second_order
+-- Second-order test (Nigrini and Miller 2009): sort the tested amounts
+-- (|amount|, per segment), take the differences between neighbours, drop
+-- zeros, and count the first two significant digits of the differences.
+-- Parameter: the minimum |amount| in units.
+SELECT {{segment_names}}{{first3}}(ll_d) // 10 AS ll_f2, count(*) AS ll_n
+FROM (
+    SELECT {{segment_names}}ll_a - lag(ll_a) OVER ({{partition}}ORDER BY ll_a) AS ll_d
+    FROM (
+        SELECT {{segment_names}}ll_u, abs(ll_u) AS ll_a
+        FROM (
+            SELECT {{segment_select}}{{units}} AS ll_u
+            FROM ledger
+            WHERE {{filter}}
+        )
+    )
+    WHERE ll_u <> 0 AND ({{sign_ok}}) AND ll_a >= ?
+)
+WHERE ll_d > 0
+GROUP BY ALL;
+
+-- name: battery_duplicates
+-- Number duplication: the most frequent exact amounts among those tested,
+-- with the number of distinct amounts. Parameters: the minimum |amount| in
+-- units, the number of amounts listed.
+SELECT CAST(amount AS VARCHAR) AS amount, ll_n, count(*) OVER () AS ll_distinct
+FROM (
+    SELECT amount, count(*) AS ll_n
+    FROM (
+        SELECT amount, ll_u, abs(ll_u) AS ll_a
+        FROM (SELECT amount, {{units}} AS ll_u FROM ledger WHERE {{filter}})
+    )
+    WHERE ll_u <> 0 AND ({{sign_ok}}) AND ll_a >= ?
+    GROUP BY amount
+)
+ORDER BY ll_n DESC, amount
+LIMIT ?;
