@@ -2,6 +2,7 @@ package pack
 
 import (
 	"context"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -77,6 +78,51 @@ func examplePack(keepBattery bool) string {
 		s = strings.Replace(s, "[battery]\n", "[battery]\nenabled = false\n", 1)
 	}
 	return s
+}
+
+// The example pack's first run, shared by the tests that read its outputs.
+var (
+	exOnce sync.Once
+	exPath string
+	exOut  string
+	exRes  *Result
+	exErr  error
+)
+
+func exampleRun(t *testing.T) (path, out string, res *Result) {
+	t.Helper()
+	generated(t)
+	exOnce.Do(func() {
+		dir, err := os.MkdirTemp(genDir, "example-")
+		if err != nil {
+			exErr = err
+			return
+		}
+		for _, f := range []string{genCSV, genParquet} {
+			if err := os.Symlink(filepath.Join(genDir, f), filepath.Join(dir, f)); err != nil {
+				exErr = err
+				return
+			}
+		}
+		exPath = filepath.Join(dir, "pack.toml")
+		if exErr = os.WriteFile(exPath, []byte(examplePack(false)), 0o644); exErr != nil {
+			return
+		}
+		p, err := Read(exPath)
+		if err != nil {
+			exErr = err
+			return
+		}
+		exOut = filepath.Join(dir, "out1")
+		exRes, exErr = Run(context.Background(), p, RunOptions{Out: exOut})
+		if exErr == nil && len(exRes.StepErrors) > 0 {
+			exErr = fmt.Errorf("step errors: %v", exRes.StepErrors)
+		}
+	})
+	if exErr != nil {
+		t.Fatal(exErr)
+	}
+	return exPath, exOut, exRes
 }
 
 func mustRead(t *testing.T, path string) *Pack {

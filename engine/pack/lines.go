@@ -44,7 +44,8 @@ func (ix *lineIndex) Line(path string) int {
 func (ix *lineIndex) Match(path string) []string {
 	var out []string
 	for _, p := range ix.order {
-		if stripIndices(p) == path {
+		// A path ending in an index is an array element, never a key.
+		if !strings.HasSuffix(p, "]") && stripIndices(p) == path {
 			out = append(out, p)
 		}
 	}

@@ -22,11 +22,8 @@ import (
 // only in their run section (times, run ids, loaded or reused) and in the
 // hash of the workbook, whose summary sheet shows the times.
 func TestRunTwiceGivesIdenticalOutputs(t *testing.T) {
-	path := packDir(t, examplePack(false))
-	p := mustRead(t, path)
-	dir := filepath.Dir(path)
-	out1, out2 := filepath.Join(dir, "out1"), filepath.Join(dir, "out2")
-	r1 := mustRun(t, p, out1, false)
+	path, out1, r1 := exampleRun(t)
+	out2 := filepath.Join(filepath.Dir(path), "out2")
 	r2 := mustRun(t, mustRead(t, path), out2, false)
 
 	if a, b := r1.Run.Manifest.Run.WorkspaceAction, r2.Run.Manifest.Run.WorkspaceAction; a != "loaded" || b != "reused" {
@@ -86,9 +83,7 @@ func readManifest(t *testing.T, dir string) map[string]any {
 // SHA-256, every input with its size, SHA-256 and row counts, every
 // parameter, the start and end times, and every output with its hash.
 func TestManifest(t *testing.T) {
-	path := packDir(t, examplePack(false))
-	out := filepath.Join(filepath.Dir(path), "out")
-	res := mustRun(t, mustRead(t, path), out, false)
+	path, out, res := exampleRun(t)
 	m := res.Run.Manifest
 	if m.ToolVersion != workspace.Version || !strings.HasPrefix(m.DuckDBVersion, "v1.") {
 		t.Errorf("versions: tool %q, DuckDB %q", m.ToolVersion, m.DuckDBVersion)
@@ -111,7 +106,7 @@ func TestManifest(t *testing.T) {
 	}
 	params, _ := json.Marshal(m.Parameters)
 	for _, want := range []string{`"limits":[1000,5000,10000,25000]`, `"width":0.1`, `"per_decade":20`, `"window_days":8`,
-		`"round_to":1000`, `"max_documents":50`, `"decimal_comma":false`, `"amount_type":"DECIMAL(18,2)"`} {
+		`"round_to":1000`, `"max_share":0.01`, `"decimal_comma":false`, `"amount_type":"DECIMAL(18,2)"`} {
 		if !strings.Contains(string(params), want) {
 			t.Errorf("parameters lack %s: %s", want, params)
 		}
@@ -163,7 +158,7 @@ func hashOf(path string) (int64, string, error) {
 func TestReloadWhenInputsChange(t *testing.T) {
 	dir := t.TempDir()
 	csv := filepath.Join(dir, "gl.csv")
-	cfg := fixtures.Config{Rows: 12_000, Seed: 5}
+	cfg := fixtures.Config{Rows: 8_000, Seed: 5}
 	if _, err := fixtures.WriteCSV(csv, cfg); err != nil {
 		t.Fatal(err)
 	}
@@ -185,7 +180,7 @@ values = [5000]
 		t.Errorf("actions %q, %q", r1.Run.Manifest.Run.WorkspaceAction, r2.Run.Manifest.Run.WorkspaceAction)
 	}
 	// A second file appears: the glob picks it up, the workspace reloads.
-	if _, err := fixtures.WriteCSV(filepath.Join(dir, "gl2.csv"), fixtures.Config{Rows: 10_000, Seed: 6}); err != nil {
+	if _, err := fixtures.WriteCSV(filepath.Join(dir, "gl2.csv"), fixtures.Config{Rows: 5_000, Seed: 6}); err != nil {
 		t.Fatal(err)
 	}
 	r3 := mustRun(t, mustRead(t, path), filepath.Join(dir, "o1"), false)
@@ -193,7 +188,7 @@ values = [5000]
 	if m.Run.WorkspaceAction != "reloaded" || !strings.Contains(m.Run.WorkspaceReason, "gl2.csv is new or changed") {
 		t.Errorf("after a new file: %q (%s)", m.Run.WorkspaceAction, m.Run.WorkspaceReason)
 	}
-	if r3.Run.Summary.Completeness.RowsLoaded != 22_000 || len(m.Inputs) != 2 {
+	if r3.Run.Summary.Completeness.RowsLoaded != 13_000 || len(m.Inputs) != 2 {
 		t.Errorf("after reload: %+v", r3.Run.Summary.Completeness)
 	}
 	if _, err := os.Stat(filepath.Join(dir, "reload.duckdb.previous")); err != nil {

@@ -189,6 +189,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("[[extract]]")
 	w("name = \"limit_bands\"")
 	w("from = \"limits\"           # battery, limits, ranges or duplicates")
+	w("# test = \"first_two\"      # for extracts from battery (a digit test) or duplicates (a duplicate test)")
 	w("top = 1                   # the top flagged results")
 	if group != "" {
 		w("group_by = %s      # also a table of the records grouped by this column", q(group))

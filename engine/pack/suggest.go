@@ -49,7 +49,7 @@ func closest(s string, candidates []string) string {
 		} else if strings.HasPrefix(nc, ns) && len(ns) >= 4 || strings.HasPrefix(ns, nc) && len(nc) >= 4 {
 			d = min(d, 2)
 		}
-		if d < bestD {
+		if d < bestD || d == bestD && commonPrefix(nc, ns) > commonPrefix(norm(best), ns) {
 			best, bestD = c, d
 		}
 	}
@@ -121,4 +121,12 @@ func fieldByTag(t reflect.Type, key string) (reflect.StructField, bool) {
 		}
 	}
 	return reflect.StructField{}, false
+}
+
+func commonPrefix(a, b string) int {
+	n := 0
+	for n < len(a) && n < len(b) && a[n] == b[n] {
+		n++
+	}
+	return n
 }

@@ -3,6 +3,7 @@ package pack
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
 	"fmt"
 	"os"
@@ -12,6 +13,7 @@ import (
 	"strconv"
 	"strings"
 
+	duckdb "github.com/duckdb/duckdb-go/v2"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
@@ -90,20 +92,50 @@ type CheckPlan struct {
 	Kinds   map[string]output.Kind `json:"formats,omitempty"`
 	MaxRows int                    `json:"max_rows"`
 	Finding string                 `json:"finding"`
+	// Order is the order of the parameters in the prepared statement.
+	Order []string `json:"-"`
 }
 
-// Args returns the check's parameters as named arguments for DuckDB.
+// Args returns the check's parameter values in the prepared statement's
+// order. They are bound by position in that order, because the driver
+// binds a $name it was not given by position without a word: Check has
+// made sure that the names in the SQL and in the pack are the same.
 func (c CheckPlan) Args() []any {
-	names := make([]string, 0, len(c.Params))
-	for n := range c.Params {
-		names = append(names, n)
-	}
-	sort.Strings(names)
-	out := make([]any, 0, len(names))
-	for _, n := range names {
-		out = append(out, sql.Named(n, c.Params[n]))
+	out := make([]any, 0, len(c.Order))
+	for _, n := range c.Order {
+		out = append(out, c.Params[n])
 	}
 	return out
+}
+
+// paramNames prepares the query and returns its parameters' names in
+// order ("" or digits for positional ? and $1 parameters).
+func paramNames(ctx context.Context, conn *sql.Conn, q string) ([]string, error) {
+	var names []string
+	err := conn.Raw(func(dc any) error {
+		pc, ok := dc.(driver.ConnPrepareContext)
+		if !ok {
+			return fmt.Errorf("the database driver cannot prepare statements")
+		}
+		st, err := pc.PrepareContext(ctx, q)
+		if err != nil {
+			return err
+		}
+		defer st.Close()
+		ds, ok := st.(*duckdb.Stmt)
+		if !ok {
+			return fmt.Errorf("unexpected statement type %T", st)
+		}
+		for i := 1; i <= ds.NumInput(); i++ {
+			n, err := ds.ParamName(i)
+			if err != nil {
+				return err
+			}
+			names = append(names, n)
+		}
+		return nil
+	})
+	return names, err
 }
 
 // Parameters returns every parameter of the plan, defaults filled in, for
@@ -155,11 +187,22 @@ func displayKey(path string) string {
 }
 
 func (c *checker) errf(path, format string, args ...any) {
-	c.out.List = append(c.out.List, Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: fmt.Sprintf(format, args...)})
+	c.add(Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: fmt.Sprintf(format, args...)})
 }
 
 func (c *checker) warnf(path, format string, args ...any) {
-	c.out.List = append(c.out.List, Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: fmt.Sprintf(format, args...), Warning: true})
+	c.add(Problem{File: c.p.File, Line: c.p.lines.Line(path), Key: displayKey(path), Message: fmt.Sprintf(format, args...), Warning: true})
+}
+
+// add records a problem once (a default shared by several steps is
+// checked for each of them).
+func (c *checker) add(p Problem) {
+	for _, q := range c.out.List {
+		if q == p {
+			return
+		}
+	}
+	c.out.List = append(c.out.List, p)
 }
 
 // Check validates the whole pack before anything runs: unknown keys (with
@@ -475,36 +518,43 @@ func firstLine(s string) string {
 // columns a load of the sources would give (the canonical columns and
 // every original column kept as text, renamed as the loader renames them),
 // so that filters, segments and checks are checked against the real shape
-// before anything is loaded. It reports false when the sources could not
-// be read.
+// before anything is loaded. It reports false when some source's files
+// could not all be read: the shape is then incomplete, and only what does
+// not depend on it (SQL that does not parse or would write) is checked.
 func (c *checker) mockLedger(ctx context.Context, mem *workspace.Workspace, pl *Plan) bool {
-	if len(c.out.Errors()) > 0 {
-		for _, e := range c.out.Errors() {
-			if strings.HasPrefix(e.Key, "source") || e.Key == "" {
-				return false
-			}
-		}
-	}
 	if _, err := mem.Conn.ExecContext(ctx, queries.Render("create_ledger", map[string]string{"amount_type": pl.AmountType})); err != nil {
 		c.errf("pack", "building the ledger's shape: %v", err)
 		return false
 	}
+	complete := len(pl.Sources) > 0
 	used := map[string]bool{"row_id": true, "file_id": true, "line": true}
 	for _, k := range load.Canonical {
 		used[k] = true
 	}
 	added := map[string]bool{}
 	for _, s := range pl.Sources {
+		if len(s.Files) == 0 {
+			complete = false
+		}
 		for _, f := range s.Files {
-			cols := s.Columns[f]
-			m, err := load.Resolve(f, cols, s.Options.Map, s.Options.Debit, s.Options.Credit)
-			if err != nil {
-				return false
+			cols, ok := s.Columns[f]
+			if !ok {
+				complete = false
+				continue
+			}
+			// The columns a load keeps as text beside the canonical ones:
+			// every column but those mapped to a text canonical column
+			// (amount and posted keep their original text too).
+			have := map[string]string{}
+			for _, n := range cols {
+				have[strings.ToLower(n)] = n
 			}
 			direct := map[string]bool{}
-			for canon, n := range m.Columns {
+			for canon, n := range s.Options.Map {
 				if canon != "amount" && canon != "posted" {
-					direct[n] = true
+					if real, ok := have[strings.ToLower(n)]; ok {
+						direct[real] = true
+					}
 				}
 			}
 			local := map[string]bool{}
@@ -534,7 +584,7 @@ func (c *checker) mockLedger(ctx context.Context, mem *workspace.Workspace, pl *
 			}
 		}
 	}
-	return true
+	return complete
 }
 
 func (c *checker) filters(ctx context.Context, mem *workspace.Workspace, pl *Plan, schemaOK bool) {
@@ -912,7 +962,7 @@ func (c *checker) checks(ctx context.Context, mem *workspace.Workspace, pl *Plan
 			c.errf(sqlKey, "no SQL: write one SELECT over the workspace's tables (ledger, files, rejects)")
 		}
 		pl.Checks = append(pl.Checks, cp)
-		if cp.SQL == "" || !schemaOK {
+		if cp.SQL == "" {
 			continue
 		}
 		at := func(err error) (string, string) {
@@ -928,9 +978,44 @@ func (c *checker) checks(ctx context.Context, mem *workspace.Workspace, pl *Plan
 			c.errf(k, "refused: %s", msg)
 			continue
 		}
-		if !paramsOK {
+		if !paramsOK || !schemaOK {
 			continue
 		}
+		order, err := paramNames(ctx, mem.Conn, cp.SQL)
+		if err != nil {
+			k, msg := at(err)
+			c.errf(k, "%s", msg)
+			continue
+		}
+		namesOK := true
+		used := map[string]bool{}
+		for _, n := range order {
+			used[n] = true
+			if n == "" || strings.Trim(n, "0123456789") == "" {
+				c.errf(sqlKey, "positional parameters (? or $1) are not allowed: name each value, e.g. $min_amount, and give it under [check.params]")
+				namesOK = false
+				break
+			}
+			if _, ok := cp.Params[n]; !ok {
+				msg := fmt.Sprintf("the SQL uses $%s but [check.params] gives no %s", n, n)
+				if sug := closest(n, pnames); sug != "" {
+					msg += fmt.Sprintf("; did you mean %q?", sug)
+				}
+				c.errf(sqlKey, "%s", msg)
+				namesOK = false
+			}
+		}
+		for _, n := range pnames {
+			if !used[n] {
+				c.errf(key+".params."+n, "parameter %s is not used by the SQL (no $%s in it)", n, n)
+				namesOK = false
+			}
+		}
+		if !namesOK {
+			continue
+		}
+		cp.Order = order
+		pl.Checks[len(pl.Checks)-1] = cp
 		// Run it on the empty ledger: this binds every column and parameter.
 		rows, err := mem.Conn.QueryContext(ctx, cp.SQL, cp.Args()...)
 		if err != nil {

@@ -1,0 +1,85 @@
+package pack
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/leadline/leadline/engine/load"
+)
+
+// A starter pack from the generated ledger: the suggested mapping, every
+// option present, and valid as written.
+func TestStarterFromGeneratedLedger(t *testing.T) {
+	src := generated(t)
+	dir := t.TempDir()
+	packPath := filepath.Join(dir, "client.toml")
+	text, err := Starter(context.Background(), filepath.Join(src, genCSV), packPath, StarterOptions{Client: "Skerrimoor Kelp Group", Period: "FY2025"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	os.WriteFile(packPath, text, 0o644)
+	p := mustRead(t, packPath)
+	pl, probs := Check(context.Background(), p)
+	if len(probs.List) > 0 {
+		t.Fatalf("starter pack:\n%s\n%s", probs.Error(), text)
+	}
+	for _, c := range load.Canonical {
+		if p.Sources[0].Columns[c] != c {
+			t.Errorf("mapping of %s: %q", c, p.Sources[0].Columns[c])
+		}
+	}
+	if pl.Battery == nil || pl.Limits == nil || pl.Ranges == nil || pl.Duplicates == nil || len(pl.Checks) != 2 || len(pl.Extracts) != 1 {
+		t.Errorf("starter plan lacks a step: %+v", pl)
+	}
+	// Every key a pack knows appears in the starter, set or commented.
+	for _, path := range [][]string{{"pack"}, {"source"}, {"population"}, {"battery"}, {"limits"}, {"ranges"}, {"duplicates"}, {"extract"}, {"check"}} {
+		keys, _ := keysAt(path)
+		for _, k := range keys {
+			if !strings.Contains(string(text), k+" =") && !strings.Contains(string(text), "["+path[0]+"."+k+"]") {
+				t.Errorf("starter lacks [%s] %s", path[0], k)
+			}
+		}
+	}
+}
+
+// A starter from a semicolon-delimited file with a decimal comma, day-first
+// dates and non-English column names.
+func TestStarterFromAnotherShape(t *testing.T) {
+	dir := t.TempDir()
+	csv := filepath.Join(dir, "buchungen.csv")
+	var b strings.Builder
+	b.WriteString("Buchungsdatum;Betrag;Konto;Firma;Belegnummer\n")
+	for i := 0; i < 40; i++ {
+		b.WriteString(strings.Join([]string{"2" + string(rune('0'+i%8)) + "/03/2025", "1.234,5" + string(rune('0'+i%10)), "4000", "A1", "B" + string(rune('0'+i%10))}, ";") + "\n")
+	}
+	os.WriteFile(csv, []byte(b.String()), 0o644)
+	packPath := filepath.Join(dir, "buchungen.toml")
+	text, err := Starter(context.Background(), csv, packPath, StarterOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := string(text)
+	for _, want := range []string{`delimiter = ";"`, `decimal_comma = true`, `date_format = "%d/%m/%Y"`, `amount = "Betrag"`, `posted = "Buchungsdatum"`,
+		`entity = "Firma"`, `account = "Konto"`, `files = ["buchungen.csv"]`, `# counterparty = ""`, `# doc_id = ""`} {
+		if !strings.Contains(s, want) {
+			t.Errorf("starter lacks %s:\n%s", want, s)
+		}
+	}
+	os.WriteFile(packPath, text, 0o644)
+	_, probs := Check(context.Background(), mustRead(t, packPath))
+	if len(probs.Errors()) > 0 {
+		t.Fatalf("%s\n%s", probs.Error(), s)
+	}
+	// It runs: the amounts parse with the decimal comma, the dates day first.
+	res, err := Run(context.Background(), mustRead(t, packPath), RunOptions{Out: filepath.Join(dir, "out")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := res.Run.Summary.Completeness
+	if c.RowsLoaded != 40 || c.RowsRejected != 0 || c.SumPositive != "49381.80" {
+		t.Errorf("completeness %+v", c)
+	}
+}

@@ -1,0 +1,140 @@
+package pack
+
+import (
+	"encoding/csv"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/leadline/leadline/engine/output"
+	"github.com/xuri/excelize/v2"
+)
+
+// The workbook read back with excelize: the summary sheet first, then one
+// sheet per table in order, each with a frozen header row, the CSV's
+// header and the CSV's values (numbers as numbers, equal to 15 significant
+// digits, which is what a spreadsheet keeps), and number formats by column
+// kind.
+func TestWorkbookMatchesCSV(t *testing.T) {
+	_, out, res := exampleRun(t)
+	f, err := excelize.OpenFile(filepath.Join(out, output.WorkbookFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	sheets := f.GetSheetList()
+	sheetOf := output.SheetNames(res.Run.Tables)
+	want := []string{output.SummarySheet}
+	for _, tb := range res.Run.Tables {
+		want = append(want, sheetOf[tb.Name])
+	}
+	if strings.Join(sheets, ",") != strings.Join(want, ",") {
+		t.Fatalf("sheets %v, want %v", sheets, want)
+	}
+	// The summary names the pack and carries the caution.
+	summary, _ := f.GetRows(output.SummarySheet)
+	var text strings.Builder
+	for _, r := range summary {
+		text.WriteString(strings.Join(r, " | ") + "\n")
+	}
+	for _, s := range []string{"skerrimoor-fy2025", "Skerrimoor Kelp Group", "1 January to 31 December 2025", "not proof", "Key findings", "Rows read", "Limit clustering"} {
+		if !strings.Contains(text.String(), s) {
+			t.Errorf("summary sheet lacks %q:\n%s", s, text.String())
+		}
+	}
+	cells := 0
+	for _, tb := range res.Run.Tables {
+		sheet := sheetOf[tb.Name]
+		fh, err := os.Open(filepath.Join(out, "tables", tb.Name+".csv"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		recs, err := csv.NewReader(fh).ReadAll()
+		fh.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		rows, err := f.GetRows(sheet, excelize.Options{RawCellValue: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(rows) != len(recs) {
+			t.Errorf("%s: %d sheet rows, %d CSV rows", sheet, len(rows), len(recs))
+			continue
+		}
+		if strings.Join(rows[0], ",") != strings.Join(recs[0], ",") {
+			t.Errorf("%s: header %v, CSV %v", sheet, rows[0], recs[0])
+		}
+		panes, err := f.GetPanes(sheet)
+		if err != nil || !panes.Freeze || panes.YSplit != 1 {
+			t.Errorf("%s: header not frozen: %+v %v", sheet, panes, err)
+		}
+		for r := 1; r < len(recs); r++ {
+			for c, want := range recs[r] {
+				got := ""
+				if c < len(rows[r]) {
+					got = rows[r][c]
+				}
+				if !sameCell(tb.Columns[c].Kind, got, want) {
+					t.Errorf("%s row %d column %s: sheet %q, CSV %q", sheet, r, tb.Columns[c].Name, got, want)
+				}
+				cells++
+			}
+		}
+		// Number formats by kind, read from the first data row's styles.
+		if len(recs) > 1 {
+			for c, col := range tb.Columns {
+				cell, _ := excelize.CoordinatesToCellName(c+1, 2)
+				if recs[1][c] == "" {
+					continue
+				}
+				style, _ := f.GetCellStyle(sheet, cell)
+				st, _ := f.GetStyle(style)
+				code := ""
+				if st != nil && st.CustomNumFmt != nil {
+					code = *st.CustomNumFmt
+				}
+				wantCode := map[output.Kind]string{output.Count: "#,##0", output.Money: "#,##0.00", output.Proportion: "0.0000", output.Number: "0.0000", output.Date: "yyyy-mm-dd"}[col.Kind]
+				if code != wantCode {
+					t.Errorf("%s column %s (%s): format %q, want %q", sheet, col.Name, col.Kind, code, wantCode)
+				}
+			}
+		}
+	}
+	if cells < 5_000 {
+		t.Errorf("only %d cells compared", cells)
+	}
+}
+
+// sameCell compares a raw spreadsheet value with the CSV text.
+func sameCell(k output.Kind, got, want string) bool {
+	if got == want {
+		return true
+	}
+	switch k {
+	case output.Count, output.Money, output.Number, output.Proportion, output.Percent:
+		g, err1 := strconv.ParseFloat(got, 64)
+		w, err2 := strconv.ParseFloat(want, 64)
+		if err1 != nil || err2 != nil {
+			return false
+		}
+		// A spreadsheet keeps 15 significant digits; the CSV keeps the
+		// shortest text that reads back to the same float.
+		return g == w || math.Abs(g-w) <= 1e-14*math.Abs(w)
+	case output.Date:
+		g, err1 := strconv.ParseFloat(got, 64)
+		w, err2 := time.Parse("2006-01-02", want)
+		if err1 != nil || err2 != nil {
+			return false
+		}
+		d, err := excelize.ExcelDateToTime(g, false)
+		return err == nil && d.Equal(w)
+	case output.Bool:
+		return (got == "1") == (want == "true") && (got == "1" || got == "0")
+	}
+	return false
+}
