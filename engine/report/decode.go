@@ -364,6 +364,9 @@ func (m *Model) addDuplicates(r *Run, doc json.RawMessage, base string) error {
 		return fmt.Errorf("no duplicate tests in the run")
 	}
 	m.Duplicates = &DuplicateSection{Run: r, Ref: srcRef(base, "", "duplicates"), Result: res}
+	if m.Workspace != "" && m.Workspace != ranges.DefaultWorkspace {
+		m.Duplicates.DB = "--db " + ranges.ShellQuote(m.Workspace) + " "
+	}
 	return nil
 }
 

@@ -321,6 +321,7 @@ type DuplicateSection struct {
 	Run    *Run
 	Ref    ref
 	Result duplicates.Result
+	DB     string // "--db PATH " for the drill commands, when not the default workspace
 }
 
 // DrillSection holds the drill-down extracts.

@@ -357,6 +357,9 @@ func (c *binChart) render() string {
 		if i%every != 0 && !(every > 1 && i == k-1 && k <= 100) {
 			continue
 		}
+		if half := 3.3 * float64(len([]rune(c.Labels[i]))); xc(i)+half > chartW || xc(i)-half < 0 {
+			continue // would be cut off at the edge
+		}
 		w.printf(`<text x="%s" y="%s" text-anchor="middle" class="tick">%s</text>`, num(xc(i)), num(y(0)+15), esc(c.Labels[i]))
 	}
 	if c.XTitle != "" {
