@@ -169,6 +169,7 @@ func (p *Plan) ScanSQL() string {
 	if len(p.Segments) == 0 {
 		return q
 	}
+	q = strings.TrimSuffix(strings.TrimSpace(q), ";")
 	return queries.Render("battery_scan_segments", map[string]string{"segment_normal": normal, "scan": q})
 }
 
