@@ -98,7 +98,7 @@ func TestWorkbookMatchesCSV(t *testing.T) {
 				if st != nil && st.CustomNumFmt != nil {
 					code = *st.CustomNumFmt
 				}
-				wantCode := map[output.Kind]string{output.Count: "#,##0", output.Money: "#,##0.00", output.Proportion: "0.0000", output.Number: "0.0000", output.Date: "yyyy-mm-dd"}[col.Kind]
+				wantCode := map[output.Kind]string{output.Count: "#,##0", output.Money: "#,##0.00", output.Proportion: "0.0000", output.Number: "0.0000", output.Percent: "0.00%", output.Date: "yyyy-mm-dd"}[col.Kind]
 				if code != wantCode {
 					t.Errorf("%s column %s (%s): format %q, want %q", sheet, col.Name, col.Kind, code, wantCode)
 				}
