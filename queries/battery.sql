@@ -175,9 +175,9 @@ GROUP BY ALL;
 -- Number duplication: the most frequent exact amounts among those tested,
 -- with the number of distinct amounts. Parameters: the minimum |amount| in
 -- units, the number of amounts listed.
-SELECT CAST(amount AS VARCHAR) AS amount, ll_n, count(*) OVER () AS ll_distinct
+SELECT CAST(ll_amount AS VARCHAR) AS amount, ll_n, count(*) OVER () AS ll_distinct
 FROM (
-    SELECT amount, count(*) AS ll_n
+    SELECT amount AS ll_amount, count(*) AS ll_n
     FROM (
         SELECT amount, ll_u, abs(ll_u) AS ll_a
         FROM (SELECT amount, {{units}} AS ll_u FROM ledger WHERE {{filter}})
@@ -185,5 +185,5 @@ FROM (
     WHERE ll_u <> 0 AND ({{sign_ok}}) AND ll_a >= ?
     GROUP BY amount
 )
-ORDER BY ll_n DESC, amount
+ORDER BY ll_n DESC, ll_amount
 LIMIT ?;
