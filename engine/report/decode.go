@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
@@ -140,9 +141,43 @@ func topFacts(root *node, r ref, skip ...string) []Fact {
 	return facts
 }
 
-// addScan reads a battery run: the digit tests of the whole population
-// are the shallowest digit-test results in its document.
+// addScan reads a battery run (battery.Report). A document of another
+// shape still shows its digit tests: the shallowest digit-test results in it.
 func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
+	var rep battery.Report
+	if err := json.Unmarshal(doc, &rep); err == nil && len(rep.Tests) > 0 {
+		sec := &DigitSection{Run: r}
+		for i, res := range rep.Tests {
+			sec.Tests = append(sec.Tests, DigitTest{Ref: srcRef(base, fmt.Sprintf("/tests/%d", i), string(res.Test)), Result: res, ID: fmt.Sprintf("r%d-%s", r.ID, res.Test)})
+		}
+		R := srcRef(base, "", "scan")
+		X := R.At("exclusions")
+		P := rep.Params.Base.WithDefaults()
+		pop := "signs " + P.Signs + ", |amount| ≥ " + P.Min
+		if strings.TrimSpace(P.Where) != "" {
+			pop += ", where " + P.Where
+		}
+		sec.Meta = []Fact{
+			{"population tested", template.HTML(template.HTMLEscapeString(pop))},
+			{"rows in the ledger", R.F("rows", rep.Rows, "int")},
+			{"amounts tested", R.F("tested", rep.Tested, "int")},
+			{"left out: zero", X.F("zero", rep.Exclusions.Zero, "int")},
+			{"left out: of the other sign", X.F("other_sign", rep.Exclusions.OtherSign, "int")},
+			{"left out: below the minimum", X.F("below_min", rep.Exclusions.BelowMin, "int")},
+		}
+		if rep.Exclusions.Filtered > 0 {
+			sec.Meta = append(sec.Meta, Fact{"left out by the filter", X.F("filtered", rep.Exclusions.Filtered, "int")})
+		}
+		if rep.Duplication != nil {
+			sec.Duplication = rep.Duplication
+			sec.DupRef = R.At("duplication")
+		}
+		m.Digits = sec
+		if rep.Segments != nil && len(rep.Segments.Rankings) > 0 {
+			m.addSegments(r, rep.Segments, R.At("segments"))
+		}
+		return nil
+	}
 	root, err := parseOrdered(doc)
 	if err != nil {
 		return err
@@ -166,19 +201,7 @@ func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
 		sec.Tests = append(sec.Tests, DigitTest{Ref: srcRef(base, f.ptr, string(res.Test)), Result: res, ID: fmt.Sprintf("r%d-%s", r.ID, res.Test)})
 	}
 	sort.SliceStable(sec.Tests, func(i, j int) bool { return testOrder(sec.Tests[i].Result.Test) < testOrder(sec.Tests[j].Result.Test) })
-	if root.kind == 'o' {
-		sec.Meta = topFacts(root, srcRef(base, "", "scan"), "tests", "results", "segments", "kind", "run_id", "note", "notes")
-	}
 	m.Digits = sec
-	if len(fs) > len(top) || root.get("segments") != nil {
-		// Segment results sit deeper in the same run.
-		if seg := root.get("segments"); seg != nil {
-			raw, err := resolvePointer(doc, "/segments")
-			if err == nil {
-				_ = m.addSegments(r, raw, base+"/segments")
-			}
-		}
-	}
 	return nil
 }
 
@@ -191,74 +214,34 @@ func testOrder(t benford.Test) int {
 	return len(benford.AllTests())
 }
 
-// segmentLike is an object that describes one segment's digit result.
-func segmentLike(n *node) bool {
-	return hasKeys(n, "mad", "excess_mad") && (n.get("value") != nil || n.get("segment") != nil || n.get("name") != nil)
-}
+// maxSegmentRows bounds the segment ranking shown.
+const maxSegmentRows = 40
 
-// addSegments reads a segment ranking: objects with a segment name or
-// value, a MAD and an excess MAD.
-func (m *Model) addSegments(r *Run, raw json.RawMessage, base string) error {
-	root, err := parseOrdered(raw)
-	if err != nil {
-		return err
+// addSegments takes the segment ranking of a battery run: the first-two
+// digits ranking when it was run, else the first.
+func (m *Model) addSegments(r *Run, segs *battery.Segments, R ref) {
+	pick := 0
+	for i, rk := range segs.Rankings {
+		if rk.Test == benford.FirstTwo {
+			pick = i
+		}
 	}
-	var fs []found
-	findObjects(root, "", 0, segmentLike, &fs)
-	if len(fs) == 0 {
-		return fmt.Errorf("no segment results")
+	rk := segs.Rankings[pick]
+	sec := &SegmentSection{Run: r, Ref: R, Segments: *segs, Ranking: rk}
+	rr := R.At("rankings").AtField(pick, rk.Test).At("rows")
+	for i, row := range rk.Rows {
+		if i == maxSegmentRows {
+			sec.Hidden = len(rk.Rows) - i
+			break
+		}
+		sec.Rows = append(sec.Rows, SegmentRow{Ref: ref{Src: rr.At(i).Src, Field: fmt.Sprintf("segments.%s.%s", rk.Test, row.Segment)}, Row: row})
 	}
-	sec := &SegmentSection{Run: r}
-	for _, f := range fs {
-		var row struct {
-			Column     string   `json:"column"`
-			By         string   `json:"by"`
-			Value      *string  `json:"value"`
-			Segment    *string  `json:"segment"`
-			Name       *string  `json:"name"`
-			Test       string   `json:"test"`
-			N          int64    `json:"n"`
-			MAD        float64  `json:"mad"`
-			ExcessMAD  float64  `json:"excess_mad"`
-			Conformity string   `json:"conformity"`
-			Flagged    int      `json:"flagged"`
-			PValue     *float64 `json:"p_value"`
+	for i, o := range segs.Rankings {
+		if i != pick {
+			sec.Others = append(sec.Others, o.Test.Name())
 		}
-		sub, err := resolvePointer(raw, f.ptr)
-		if err != nil {
-			return err
-		}
-		if err := json.Unmarshal(sub, &row); err != nil {
-			return err
-		}
-		s := SegmentRow{Column: firstNonEmpty(row.Column, row.By), N: row.N, MAD: row.MAD, ExcessMAD: row.ExcessMAD, Conformity: row.Conformity, Flagged: row.Flagged}
-		for _, v := range []*string{row.Value, row.Segment, row.Name} {
-			if v != nil {
-				s.Value = *v
-				break
-			}
-		}
-		if row.PValue != nil {
-			s.PValue, s.HasP = *row.PValue, true
-		}
-		if row.Test != "" {
-			sec.Test = row.Test
-		}
-		s.Ref = ref{Src: base + f.ptr, Field: fmt.Sprintf("segments.%s=%s", s.Column, s.Value)}
-		sec.Rows = append(sec.Rows, s)
 	}
-	sort.SliceStable(sec.Rows, func(i, j int) bool { return sec.Rows[i].ExcessMAD > sec.Rows[j].ExcessMAD })
 	m.Segments = sec
-	return nil
-}
-
-func firstNonEmpty(s ...string) string {
-	for _, x := range s {
-		if x != "" {
-			return x
-		}
-	}
-	return ""
 }
 
 // maxLimitRows bounds the limit table.

@@ -207,8 +207,9 @@ func (m *Model) glance() []glance {
 	}
 	if s := m.Segments; s != nil && len(s.Rows) > 0 {
 		top := s.Rows[0]
-		g = append(g, glance{What: "Segment ranking", Anchor: "segments", Section: 5,
-			Result: template.HTML(fmt.Sprintf("%d segments; largest excess MAD: %s %s", len(s.Rows), template.HTMLEscapeString(top.Column+" = "+top.Value), top.Ref.F("excess_mad", top.ExcessMAD, "f:5")))})
+		g = append(g, glance{What: "Segment ranking, " + s.Ranking.Test.Name(), Anchor: "segments", Section: 5,
+			Result: template.HTML(fmt.Sprintf("%s segments ranked; first: %s (excess MAD %s)", s.Ref.F("ranked", s.Segments.Ranked, "int"),
+				template.HTMLEscapeString(top.Row.Segment), top.Ref.F("excess_mad", top.Row.ExcessMAD, madFormat(s.Ranking.Test))))})
 	}
 	if l := m.Limits; l != nil {
 		rep := l.Report

@@ -6,6 +6,7 @@ import (
 	"html/template"
 	"time"
 
+	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
@@ -237,12 +238,13 @@ type LoadRow struct {
 // DigitSection holds the digit tests of one battery run.
 type DigitSection struct {
 	Run   *Run
-	Scope string // what population was tested, in words
 	Tests []DigitTest
-	// Meta are scalar facts of the scan (amounts tested, left out...).
+	// Meta are facts of the scan (amounts tested, left out...).
 	Meta []Fact
+	// Duplication is the number duplication test, when run.
+	Duplication *battery.Duplication
+	DupRef      ref
 }
-
 // DigitTest is one digit test's result and where it sits in the run.
 type DigitTest struct {
 	Ref    ref
@@ -257,28 +259,47 @@ type Fact struct {
 }
 
 // SegmentSection ranks segments (entity, account, user, month...) by how
-// far their digits stray from expectation.
+// far their digits stray from expectation: one ranking of a battery run.
 type SegmentSection struct {
-	Run  *Run
-	Test string // which digit test ranks them
-	By   string
-	Rows []SegmentRow
-	Meta []Fact
-	Note string
+	Run      *Run
+	Ref      ref // the run's segments object
+	Segments battery.Segments
+	Ranking  battery.Ranking // the ranking shown (first-two digits when run)
+	Rows     []SegmentRow
+	Hidden   int      // rows of the ranking not listed
+	Others   []string // the other tests ranked in the run (in its JSON)
 }
 
-// SegmentRow is one segment.
+// HasRuns reports whether the ranking carries the runs test.
+func (s *SegmentSection) HasRuns() bool {
+	for _, r := range s.Rows {
+		if r.Row.Runs != nil {
+			return true
+		}
+	}
+	return false
+}
+
+// SegmentRow is one ranked segment.
 type SegmentRow struct {
-	Ref        ref
-	Column     string
-	Value      string
-	N          int64
-	MAD        float64
-	ExcessMAD  float64
-	Conformity string
-	Flagged    int
-	PValue     float64
-	HasP       bool
+	Ref ref
+	Row battery.SegmentRow
+}
+
+// RunsValue is the segment's number of runs (0 when not run).
+func (s SegmentRow) RunsValue() int {
+	if s.Row.Runs == nil {
+		return 0
+	}
+	return *s.Row.Runs
+}
+
+// RunsP is the runs test's p (1 when not run).
+func (s SegmentRow) RunsP() float64 {
+	if s.Row.RunsP == nil {
+		return 1
+	}
+	return *s.Row.RunsP
 }
 
 // LimitSection is the limit-clustering probe.

@@ -301,20 +301,28 @@ func TestReportNumbersMatchStoredResults(t *testing.T) {
 		t.Errorf("only %d numbers checked", checked)
 	}
 	fields := map[string]bool{}
+	segmentRows := map[string]bool{}
 	for _, n := range nums {
 		fields[n.field] = true
+		if strings.HasPrefix(n.field, "segments.first_two.") && strings.HasSuffix(n.field, ".excess_mad") {
+			segmentRows[n.field] = true
+		}
+	}
+	if len(segmentRows) != 5 {
+		t.Errorf("%d entities ranked in the report, want the 5 of the ledger", len(segmentRows))
 	}
 	for _, f := range []string{
 		"first.mad", "first.n", "first.chi2", "first.p_value", "first.ks_d", "first.excess_mad",
 		"first_two.mad", "first_two.runs.runs", "first_two.runs.expected", "first_three.mad",
 		"summation.mad", "files.1.rows_read", "files.1.rows_rejected", "files.1.net", "total.rows_loaded",
 		"limits.flagged", "ranges.flagged", "duplicates.records_tested",
+		"scan.tested", "scan.duplication.distinct", "scan.segments.ranked", "second_order.mad",
 	} {
 		if !fields[f] {
 			t.Errorf("no number marked %q", f)
 		}
 	}
-	for _, id := range []string{"summary", "completeness", "digits", "runs", "limits", "ranges", "duplicates"} {
+	for _, id := range []string{"summary", "completeness", "digits", "runs", "segments", "limits", "ranges", "duplicates"} {
 		s := sections[id]
 		if s == nil {
 			t.Errorf("section %s missing", id)
@@ -324,8 +332,8 @@ func TestReportNumbersMatchStoredResults(t *testing.T) {
 			t.Errorf("section %s: status %q, want shown", id, attr(s, "data-status"))
 		}
 	}
-	// No scan with segments, no drill run, no pack run: said plainly.
-	for _, id := range []string{"segments", "drill", "manifest"} {
+	// No drill run, no pack run: said plainly.
+	for _, id := range []string{"drill", "manifest"} {
 		s := sections[id]
 		if s == nil {
 			t.Errorf("section %s missing", id)

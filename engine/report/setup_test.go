@@ -6,11 +6,11 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
-	"strconv"
 	"sync"
 	"testing"
 	"time"
 
+	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
@@ -77,15 +77,14 @@ func buildDemo() (*demo, error) {
 	if d.load, err = load.Load(ctx, d.ws, []string{csvPath}, load.Options{}); err != nil {
 		return nil, err
 	}
-	// The scan: digit tests from the generated amounts (positive amounts
-	// of 10 or more, digits of the exact cents).
-	tests, err := digitResults(cfg)
+	// The scan: the digit battery over the whole population and per
+	// entity, stored as the scan command stores it.
+	bat, err := battery.Run(ctx, d.ws, battery.Options{By: []string{"entity"}, MinSegmentRows: 1000})
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("battery: %w", err)
 	}
-	d.tests = tests
-	scanDoc := map[string]any{"kind": "scan", "population": map[string]any{"signs": "positive", "min": "10"}, "tests": tests}
-	if d.scanID, err = saveRun(ctx, d.ws, "scan", scanDoc); err != nil {
+	d.tests = bat.Tests
+	if d.scanID, err = saveRun(ctx, d.ws, "scan", bat); err != nil {
 		return nil, err
 	}
 	d.runIDs["scan"] = d.scanID
@@ -122,46 +121,3 @@ func saveRun(ctx context.Context, ws *workspace.Workspace, kind string, doc any)
 	return ws.SaveRun(ctx, kind, time.Now(), []byte(`{}`), b)
 }
 
-// digitResults computes the digit tests of the generated positive amounts
-// of 10 or more straight from the generator's exact cents.
-func digitResults(cfg fixtures.Config) ([]benford.Result, error) {
-	first := make([]int64, 9)
-	second := make([]int64, 10)
-	firstTwo := make([]int64, 90)
-	firstThree := make([]int64, 900)
-	lastTwo := make([]int64, 100)
-	sums := make([]float64, 90)
-	err := fixtures.Generate(cfg, func(r fixtures.Row) error {
-		if r.Cents < 1000 {
-			return nil
-		}
-		s := strconv.FormatInt(r.Cents, 10) // at least four digits
-		d3, _ := strconv.Atoi(s[:3])
-		first[d3/100-1]++
-		second[(d3/10)%10]++
-		firstTwo[d3/10-10]++
-		firstThree[d3-100]++
-		lastTwo[(r.Cents/100)%100]++
-		sums[d3/10-10] += float64(r.Cents) / 100
-		return nil
-	})
-	if err != nil {
-		return nil, err
-	}
-	var out []benford.Result
-	for _, c := range []struct {
-		t benford.Test
-		n []int64
-	}{{benford.FirstDigit, first}, {benford.SecondDigit, second}, {benford.FirstTwo, firstTwo}, {benford.FirstThree, firstThree}, {benford.LastTwo, lastTwo}} {
-		r, err := benford.Analyze(c.t, c.n)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, r)
-	}
-	s, err := benford.AnalyzeSummation(sums, firstTwo)
-	if err != nil {
-		return nil, err
-	}
-	return append(out, s), nil
-}

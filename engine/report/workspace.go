@@ -16,7 +16,6 @@ import (
 // Run kinds the report has sections for.
 const (
 	KindScan       = "scan"
-	KindSegments   = "segments"
 	KindLimits     = "limits"
 	KindRanges     = "ranges"
 	KindDuplicates = "duplicates"
@@ -278,8 +277,6 @@ func (m *Model) addRuns(runs []*Run) error {
 		switch r.Kind {
 		case KindScan:
 			err = m.addScan(r, r.Result, base)
-		case KindSegments:
-			err = m.addSegments(r, r.Result, base)
 		case KindLimits:
 			err = m.addLimits(r, r.Result, base)
 		case KindRanges:
