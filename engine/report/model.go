@@ -245,6 +245,7 @@ type DigitSection struct {
 	Duplication *battery.Duplication
 	DupRef      ref
 }
+
 // DigitTest is one digit test's result and where it sits in the run.
 type DigitTest struct {
 	Ref    ref

@@ -120,4 +120,3 @@ func saveRun(ctx context.Context, ws *workspace.Workspace, kind string, doc any)
 	}
 	return ws.SaveRun(ctx, kind, time.Now(), []byte(`{}`), b)
 }
-
