@@ -15,6 +15,7 @@ import (
 	"sort"
 	"strings"
 	"sync"
+	"time"
 )
 
 // File names inside an output folder.
@@ -86,6 +87,7 @@ type Options struct {
 // extra writers' files, and manifest.json last, listing every file written
 // with its size and SHA-256. It returns that list.
 func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]OutputFile, error) {
+	t0 := time.Now()
 	if err := os.MkdirAll(filepath.Join(dir, TablesDir), 0o755); err != nil {
 		return nil, err
 	}
@@ -117,6 +119,7 @@ func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]Output
 			written = append(written, rel)
 		}
 	}
+	trace("tables (CSV, Parquet)", t0)
 	writers, hooks := registeredWriters()
 	if opts.NoRegistered {
 		writers, hooks = nil, nil
@@ -126,6 +129,7 @@ func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]Output
 		return nil, fmt.Errorf("writing the workbook: %w", err)
 	}
 	written = append(written, WorkbookFile)
+	trace("workbook", t0)
 	if err := writeFile(filepath.Join(dir, ResultsFile), func(w io.Writer) error { return WriteJSON(w, run) }); err != nil {
 		return nil, err
 	}
@@ -138,6 +142,7 @@ func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]Output
 		for _, f := range files {
 			written = append(written, filepath.ToSlash(f))
 		}
+		trace(w.Name(), t0)
 	}
 	var outs []OutputFile
 	for _, rel := range written {
@@ -157,6 +162,13 @@ func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]Output
 		return nil, err
 	}
 	return outs, nil
+}
+
+// trace prints how long writing has taken so far when LEADLINE_TRACE is set.
+func trace(step string, since time.Time) {
+	if os.Getenv("LEADLINE_TRACE") != "" {
+		fmt.Fprintf(os.Stderr, "trace: output %-22s %6.2fs\n", step, time.Since(since).Seconds())
+	}
 }
 
 // WriteJSON writes the run as one indented JSON document. Maps are written

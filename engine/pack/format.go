@@ -94,9 +94,11 @@ type Scope struct {
 // Battery is the [battery] table: the digit tests.
 type Battery struct {
 	Enabled        *bool    `toml:"enabled" json:"enabled"`
-	Tests          []string `toml:"tests" json:"tests"`
-	Segments       []string `toml:"segments" json:"segments"`                 // columns to segment by, each on its own
-	MinSegmentRows Number   `toml:"min_segment_rows" json:"min_segment_rows"` // smallest segment tested
+	Tests          []string `toml:"tests" json:"tests"`                       // digit tests, and "duplication" for number duplication
+	Segments       []string `toml:"segments" json:"segments"`                 // segmentations: a column, or columns joined with + for their combination
+	MinSegmentRows Number   `toml:"min_segment_rows" json:"min_segment_rows"` // smallest segment ranked
+	DuplicationTop Number   `toml:"duplication_top" json:"duplication_top"`   // exact amounts listed by number duplication
+	LastTwo        string   `toml:"last_two" json:"last_two,omitempty"`       // scale (default) or units
 	Scope
 }
 

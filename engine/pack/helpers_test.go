@@ -18,7 +18,7 @@ var (
 	genOnce sync.Once
 	genDir  string
 	genErr  error
-	genCfg  = fixtures.Config{Rows: 30_000, Seed: 11, Plants: true}
+	genCfg  = fixtures.Config{Rows: 20_000, Seed: 11, Plants: true}
 )
 
 const (
@@ -105,7 +105,7 @@ func exampleRun(t *testing.T) (path, out string, res *Result) {
 			}
 		}
 		exPath = filepath.Join(dir, "pack.toml")
-		if exErr = os.WriteFile(exPath, []byte(examplePack(false)), 0o644); exErr != nil {
+		if exErr = os.WriteFile(exPath, []byte(examplePack(true)), 0o644); exErr != nil {
 			return
 		}
 		p, err := Read(exPath)

@@ -158,7 +158,7 @@ func hashOf(path string) (int64, string, error) {
 func TestReloadWhenInputsChange(t *testing.T) {
 	dir := t.TempDir()
 	csv := filepath.Join(dir, "gl.csv")
-	cfg := fixtures.Config{Rows: 8_000, Seed: 5}
+	cfg := fixtures.Config{Rows: 3_000, Seed: 5}
 	if _, err := fixtures.WriteCSV(csv, cfg); err != nil {
 		t.Fatal(err)
 	}
@@ -180,7 +180,7 @@ values = [5000]
 		t.Errorf("actions %q, %q", r1.Run.Manifest.Run.WorkspaceAction, r2.Run.Manifest.Run.WorkspaceAction)
 	}
 	// A second file appears: the glob picks it up, the workspace reloads.
-	if _, err := fixtures.WriteCSV(filepath.Join(dir, "gl2.csv"), fixtures.Config{Rows: 5_000, Seed: 6}); err != nil {
+	if _, err := fixtures.WriteCSV(filepath.Join(dir, "gl2.csv"), fixtures.Config{Rows: 2_000, Seed: 6}); err != nil {
 		t.Fatal(err)
 	}
 	r3 := mustRun(t, mustRead(t, path), filepath.Join(dir, "o1"), false)
@@ -188,7 +188,7 @@ values = [5000]
 	if m.Run.WorkspaceAction != "reloaded" || !strings.Contains(m.Run.WorkspaceReason, "gl2.csv is new or changed") {
 		t.Errorf("after a new file: %q (%s)", m.Run.WorkspaceAction, m.Run.WorkspaceReason)
 	}
-	if r3.Run.Summary.Completeness.RowsLoaded != 13_000 || len(m.Inputs) != 2 {
+	if r3.Run.Summary.Completeness.RowsLoaded != 5_000 || len(m.Inputs) != 2 {
 		t.Errorf("after reload: %+v", r3.Run.Summary.Completeness)
 	}
 	if _, err := os.Stat(filepath.Join(dir, "reload.duckdb.previous")); err != nil {

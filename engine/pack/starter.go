@@ -145,9 +145,11 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("# The digit battery (Benford's law).")
 	w("[battery]")
 	w("enabled = true")
-	w("tests = [\"first\", \"second\", \"first_two\", \"first_three\", \"last_two\", \"summation\", \"second_order\"]")
-	w("segments = [%s]  # each column on its own; also \"month\" (of the posting date) or any original column", strings.Join(segs, ", "))
-	w("min_segment_rows = 1000   # smaller segments are not tested")
+	w("tests = [\"first\", \"second\", \"first_two\", \"first_three\", \"last_two\", \"summation\", \"second_order\", \"duplication\"]")
+	w("segments = [%s]  # each on its own; \"entity+user_id\" for a combination; also \"month\" or any original column", strings.Join(segs, ", "))
+	w("min_segment_rows = 1000   # smaller segments are listed, not ranked")
+	w("duplication_top = 20      # number duplication: the most frequent exact amounts listed")
+	w("last_two = \"scale\"        # last-two digits as written (1234.56 -> 56); \"units\" for the whole-currency part")
 	w("# filter = \"\"  signs = \"\"  min_amount = 10   # override [population] for this step")
 	w("")
 	w("# Amounts piled up just below approval limits.")
@@ -186,6 +188,16 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 		}
 	}
 	w("# Drill-down extracts: the records behind the top results of a step.")
+	w("[[extract]]")
+	w("name = \"first_two_bins\"")
+	w("from = \"battery\"")
+	w("test = \"first_two\"        # the top flagged bins of this digit test")
+	w("top = 4")
+	if group != "" {
+		w("group_by = %s", q(group))
+	}
+	w("max_rows = 1000")
+	w("")
 	w("[[extract]]")
 	w("name = \"limit_bands\"")
 	w("from = \"limits\"           # battery, limits, ranges or duplicates")

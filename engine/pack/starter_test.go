@@ -31,7 +31,7 @@ func TestStarterFromGeneratedLedger(t *testing.T) {
 			t.Errorf("mapping of %s: %q", c, p.Sources[0].Columns[c])
 		}
 	}
-	if pl.Battery == nil || pl.Limits == nil || pl.Ranges == nil || pl.Duplicates == nil || len(pl.Checks) != 2 || len(pl.Extracts) != 1 {
+	if pl.Battery == nil || pl.Limits == nil || pl.Ranges == nil || pl.Duplicates == nil || len(pl.Checks) != 2 || len(pl.Extracts) != 2 {
 		t.Errorf("starter plan lacks a step: %+v", pl)
 	}
 	// Every key a pack knows appears in the starter, set or commented.

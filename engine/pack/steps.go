@@ -10,6 +10,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
@@ -30,6 +31,7 @@ type runner struct {
 	stepRuns map[string]int64
 	errs     []string // steps that failed: noted, the others still run
 
+	battery    *battery.Report
 	limits     *limits.Report
 	ranges     *ranges.Report
 	duplicates *duplicates.Result
@@ -277,11 +279,12 @@ func (r *runner) limitsStep(ctx context.Context) error {
 	var top []string
 	for _, row := range rep.Rows {
 		if row.Flagged && len(top) < 3 {
-			top = append(top, fmt.Sprintf("%s below %s in %s (%s below vs %s above; expected ratio %.3f)",
-				thousands(row.Below), r.amountDec(row.Limit).Text, segmentText(row.Segment), thousands(row.Below), thousands(row.Above), row.ExpectedRatio))
+			top = append(top, fmt.Sprintf("limit %s in %s: %s just below against %s just above",
+				r.amountDec(row.Limit).Text, segmentText(row.Segment), thousands(row.Below), thousands(row.Above)))
 		}
 	}
-	r.finding("limits", "limits", "Limit clustering: %d of %d (segment, limit) pairs flagged; strongest: %s.", rep.Flagged, rep.Tested, strings.Join(top, "; "))
+	r.finding("limits", "limits", "Limit clustering: %d of %d (segment, limit) pairs flagged (expected ratio below/above %.3f at width %.0f%%); strongest: %s.",
+		rep.Flagged, rep.Tested, rep.ExpectedRatio, rep.Width*100, strings.Join(top, "; "))
 	return nil
 }
 
@@ -486,6 +489,11 @@ type extractItem struct {
 func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	var items []extractItem
 	switch e.From {
+	case "battery":
+		var err error
+		if items, err = r.batteryItems(e); err != nil {
+			return err
+		}
 	case "limits":
 		if r.limits == nil {
 			return fmt.Errorf("the limits step did not complete")
@@ -607,4 +615,11 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, thousands(total), len(items), e.From)
 	}
 	return nil
+}
+
+// selectionForBin selects the records of one bin of a digit test within
+// the battery's population.
+func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
+	b := bin
+	return drill.Selection{Base: o.Base, Test: test, Bin: &b}
 }

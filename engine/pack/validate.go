@@ -14,6 +14,7 @@ import (
 	"strings"
 
 	duckdb "github.com/duckdb/duckdb-go/v2"
+	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
@@ -64,12 +65,12 @@ type PlannedSource struct {
 	Columns map[string][]string
 }
 
-// BatteryPlan holds the digit battery's parameters.
+// BatteryPlan holds the digit battery's parameters: the options (By is
+// the first segmentation) and every segmentation, each run with the same
+// options on its own columns.
 type BatteryPlan struct {
-	drill.Base
-	Tests          []benford.Test `json:"tests"`
-	Segments       []string       `json:"segments"`
-	MinSegmentRows int64          `json:"min_segment_rows"`
+	Options       battery.Options `json:"options"`
+	Segmentations [][]string      `json:"segmentations"`
 }
 
 // ExtractPlan is one drill-down extract.
@@ -703,18 +704,14 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 	// The population is checked once even when no step uses it.
 	c.scope(pl, "population", Scope{})
 	if b := c.p.Battery; b != nil && enabled(b.Enabled) {
-		bp := &BatteryPlan{Base: c.scope(pl, "battery", b.Scope)}
-		tests := b.Tests
-		if len(tests) == 0 {
-			for _, t := range benford.AllTests() {
-				tests = append(tests, string(t))
-			}
+		o := battery.Options{Base: c.scope(pl, "battery", b.Scope)}
+		if len(b.Tests) == 0 {
+			o.Tests, o.Duplication = benford.AllTests(), true
 		}
-		seen := map[benford.Test]bool{}
-		for i, t := range tests {
-			bt, err := benford.ParseTest(t)
-			if err != nil {
-				names := []string{}
+		for i, t := range b.Tests {
+			tests, dup, err := battery.ParseTests([]string{t})
+			if err != nil || strings.Contains(t, ",") {
+				names := []string{"duplication"}
 				for _, a := range benford.AllTests() {
 					names = append(names, string(a))
 				}
@@ -725,14 +722,49 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 				c.errf(fmt.Sprintf("battery.tests[%d]", i), "%s", msg)
 				continue
 			}
-			if !seen[bt] {
-				seen[bt] = true
-				bp.Tests = append(bp.Tests, bt)
+			for _, x := range tests {
+				if !o.Has(x) {
+					o.Tests = append(o.Tests, x)
+				}
 			}
+			o.Duplication = o.Duplication || dup
 		}
-		bp.Segments = b.Segments
-		segments("battery.segments", b.Segments)
-		bp.MinSegmentRows = c.intParam("battery.min_segment_rows", b.MinSegmentRows, DefaultMinSegmentRows, 1, "min_segment_rows")
+		o.MinSegmentRows = c.intParam("battery.min_segment_rows", b.MinSegmentRows, battery.DefaultMinSegmentRows, 1, "min_segment_rows")
+		o.Top = int(c.intParam("battery.duplication_top", b.DuplicationTop, battery.DefaultTop, 1, "duplication_top"))
+		switch b.LastTwo {
+		case "":
+		case battery.LastTwoScale, battery.LastTwoUnits:
+			o.LastTwo = b.LastTwo
+		default:
+			c.errf("battery.last_two", "last_two %q: give %q (the two rightmost digits as the ledger writes the amount, 1234.56 -> 56) or %q (of the whole-currency part, 1234.56 -> 34)", b.LastTwo, battery.LastTwoScale, battery.LastTwoUnits)
+		}
+		bp := &BatteryPlan{}
+		seen := map[string]bool{}
+		for i, seg := range b.Segments {
+			k := fmt.Sprintf("battery.segments[%d]", i)
+			var cols []string
+			for _, part := range strings.Split(seg, "+") {
+				if p := strings.TrimSpace(part); p != "" {
+					cols = append(cols, p)
+				}
+			}
+			if len(cols) == 0 {
+				c.errf(k, "an empty segmentation: name a column, e.g. \"entity\", or columns joined with +, e.g. \"entity+user_id\"")
+				continue
+			}
+			name := strings.ToLower(strings.Join(cols, "+"))
+			if seen[name] {
+				c.errf(k, "segmentation %q is given twice", seg)
+				continue
+			}
+			seen[name] = true
+			segments(k, cols)
+			bp.Segmentations = append(bp.Segmentations, cols)
+		}
+		if len(bp.Segmentations) > 0 {
+			o.By = bp.Segmentations[0]
+		}
+		bp.Options = o.WithDefaults()
 		pl.Battery = bp
 	}
 	if l := c.p.Limits; l != nil && enabled(l.Enabled) {

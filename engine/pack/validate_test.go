@@ -261,7 +261,7 @@ func TestExamplePackIsValid(t *testing.T) {
 	if len(probs.List) > 0 {
 		t.Fatal(probs.Error())
 	}
-	if pl.Battery == nil || pl.Limits == nil || pl.Ranges == nil || pl.Duplicates == nil || len(pl.Checks) != 3 || len(pl.Extracts) != 2 {
+	if pl.Battery == nil || pl.Limits == nil || pl.Ranges == nil || pl.Duplicates == nil || len(pl.Checks) != 3 || len(pl.Extracts) != 3 {
 		t.Errorf("plan: %+v", pl)
 	}
 }
