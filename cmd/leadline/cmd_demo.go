@@ -7,40 +7,40 @@ import (
 	"path/filepath"
 	"time"
 
-	"github.com/leadline/leadline/engine/load"
-	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
+	"github.com/leadline/leadline/queries/packs"
 	"github.com/spf13/pflag"
 )
 
 func init() {
 	register(&command{
 		name:    "demo",
-		summary: "generate a synthetic group ledger, load it and show what leadline finds",
+		summary: "generate a synthetic group ledger, run the demo pack on it and write the results and report",
 		usage: `Usage: leadline demo [options]
 
-Generates a synthetic whole-year ledger for an invented group of companies
-(see fixtures/README.md for the scenario and the answer key of what was
-planted), loads it into a fresh workspace in the output folder and prints
-the completeness summary. Everything is deterministic from --seed.
+Generates a whole-year ledger for an invented group of five companies (the
+Skerrimoor Kelp Group; fixtures/README.md has the scenario and the answer key
+of what was planted), writes the demo pack beside it, and runs that pack:
+load with completeness checks, the digit battery per entity, source and
+user, the limit probe, the range table, the duplicate tests, drill-down
+extracts and three journal-entry checks. The output folder gets the
+workbook, CSV and Parquet tables, results.json, manifest.json and
+report.html. Everything is deterministic from --seed.
 
 Examples:
-  leadline demo
+  leadline demo                                # 1,000,000 rows into ./leadline-demo
   leadline demo --rows 200000 --out demo-small`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var rows int64
-			var seed uint64
-			var out string
-			var bad float64
-			fs.Int64Var(&rows, "rows", 1_000_000, "ledger rows to generate")
-			fs.Uint64Var(&seed, "seed", 2025, "random seed of the generated ledger")
-			fs.StringVar(&out, "out", "leadline-demo", "output folder (created; its workspace is replaced)")
-			fs.Float64Var(&bad, "bad-rate", 0.001, "share of CSV rows written with a malformed amount, to show rejects")
+			var o demoOptions
+			fs.Int64Var(&o.rows, "rows", 1_000_000, "ledger rows to generate")
+			fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
+			fs.StringVar(&o.out, "out", "leadline-demo", "output folder (created; an earlier demo there is replaced)")
+			fs.Float64Var(&o.badRate, "bad-rate", 0.001, "share of CSV rows written with a malformed amount, to show rejects")
 			return func(ctx context.Context, args []string, e *env) error {
 				if len(args) > 0 {
 					return fmt.Errorf("demo takes no arguments (see --help)")
 				}
-				return runDemo(ctx, e, demoOptions{rows: rows, seed: seed, out: out, badRate: bad})
+				return runDemo(ctx, e, o)
 			}
 		},
 	})
@@ -53,38 +53,57 @@ type demoOptions struct {
 	badRate float64
 }
 
+// The demo pack names this file and this workspace (queries/packs/example.toml).
+const (
+	demoLedger = "skerrimoor_ledger_2025.csv"
+	demoPack   = "skerrimoor-fy2025.toml"
+)
+
 func runDemo(ctx context.Context, e *env, o demoOptions) error {
 	start := time.Now()
+	if o.rows < 10_000 {
+		return fmt.Errorf("--rows %d: the demo needs at least 10,000 rows to plant its anomalies", o.rows)
+	}
 	if err := os.MkdirAll(o.out, 0o755); err != nil {
 		return err
 	}
-	csvPath := filepath.Join(o.out, "skerrimoor_ledger_2025.csv")
-	dbPath := filepath.Join(o.out, "demo.duckdb")
-	for _, p := range []string{dbPath, dbPath + ".wal"} {
-		if err := os.Remove(p); err != nil && !os.IsNotExist(err) {
-			return err
-		}
-	}
-	fmt.Fprintf(e.stdout, "Generating %d ledger rows (seed %d) into %s ...\n", o.rows, o.seed, csvPath)
+	csvPath := filepath.Join(o.out, demoLedger)
+	fmt.Fprintf(e.stdout, "Generating %d ledger rows of the Skerrimoor Kelp Group, 2025 (seed %d) ...\n", o.rows, o.seed)
 	cfg := fixtures.Config{Rows: o.rows, Seed: o.seed, Plants: true, BadAmountRate: o.badRate, MessyAmounts: true}
 	sum, err := fixtures.WriteCSV(csvPath, cfg)
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(e.stdout, "  %d rows written (%d with a deliberately malformed amount) in %.1fs\n\n", sum.Rows, sum.BadRows, time.Since(start).Seconds())
-	ws, err := workspace.Open(ctx, dbPath, workspace.Options{})
-	if err != nil {
+	fmt.Fprintf(e.stdout, "  %s: %d rows, %d of them with a deliberately malformed amount (%.1fs)\n", csvPath, sum.Rows, sum.BadRows, time.Since(start).Seconds())
+	packPath := filepath.Join(o.out, demoPack)
+	if err := os.WriteFile(packPath, packs.Example(), 0o644); err != nil {
 		return err
 	}
-	defer ws.Close()
-	rep, err := load.Load(ctx, ws, []string{csvPath}, load.Options{})
-	if err != nil {
+	fmt.Fprintf(e.stdout, "  demo pack: %s\n\n", packPath)
+	results := filepath.Join(o.out, "results")
+	if err := os.RemoveAll(results); err != nil {
 		return err
 	}
-	if err := printLoad(e.stdout, "text", rep); err != nil {
+	if err := runPack(ctx, e, runCmdOptions{pack: packPath, out: results, fresh: true, format: "text"}); err != nil {
 		return err
 	}
-	fmt.Fprintf(e.stdout, "\nDemo finished in %.1fs. Workspace: %s\n", time.Since(start).Seconds(), dbPath)
-	fmt.Fprintf(e.stdout, "Try: go run ./cmd/leadline sql --db %s \"SELECT entity, count(*) FROM ledger GROUP BY ALL ORDER BY 1\"\n", dbPath)
+	abs, _ := filepath.Abs(results)
+	fmt.Fprintf(e.stdout, `
+What was planted, and where leadline shows it (answer key: fixtures/README.md):
+  - user wtennick in HAUL posts supplier invoices just under a 5,000 limit:
+      limit probe by entity (HAUL at 5,000) and the first-two digits test by user_id (wtennick, bins 45-49)
+  - Varrowick Net Mending is invoiced 1,847.23 again and again:
+      duplicates, same amount and counterparty (the top group), and number duplication
+  - gwrenby refunds 250.00 to many different customers:
+      duplicates, one amount spread across many counterparties
+  - the ALGN payment run pays some suppliers twice within days:
+      duplicates, same amount and counterparty within the day window
+  - GILD's fee billing (source FEE) charges five fixed prices:
+      the digit battery by source: FEE is nonconforming with more than ten flagged bins,
+      a population that should not follow Benford's law at all
+
+Open %s in a browser for the report, or %s for the workbook.
+Demo finished in %.1fs. Results are signals for follow-up, never proof.
+`, filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
 	return nil
 }
