@@ -217,9 +217,12 @@ func testOrder(t benford.Test) int {
 // maxSegmentRows bounds the segment ranking shown.
 const maxSegmentRows = 40
 
-// addSegments takes the segment ranking of a battery run: the first-two
-// digits ranking when it was run, else the first.
+// addSegments adds the segment ranking of one segmentation of a battery
+// run: the first-two digits ranking when it was run, else the first.
 func (m *Model) addSegments(r *Run, segs *battery.Segments, R ref) {
+	if len(segs.Rankings) == 0 {
+		return
+	}
 	pick := 0
 	for i, rk := range segs.Rankings {
 		if rk.Test == benford.FirstTwo {
@@ -227,21 +230,45 @@ func (m *Model) addSegments(r *Run, segs *battery.Segments, R ref) {
 		}
 	}
 	rk := segs.Rankings[pick]
-	sec := &SegmentSection{Run: r, Ref: R, Segments: *segs, Ranking: rk}
+	g := &SegmentGroup{Ref: R, Segments: *segs, Ranking: rk}
+	by := strings.Join(segs.By, "+")
 	rr := R.At("rankings").AtField(pick, rk.Test).At("rows")
 	for i, row := range rk.Rows {
 		if i == maxSegmentRows {
-			sec.Hidden = len(rk.Rows) - i
+			g.Hidden = len(rk.Rows) - i
 			break
 		}
-		sec.Rows = append(sec.Rows, SegmentRow{Ref: ref{Src: rr.At(i).Src, Field: fmt.Sprintf("segments.%s.%s", rk.Test, row.Segment)}, Row: row})
+		g.Rows = append(g.Rows, SegmentRow{Ref: ref{Src: rr.At(i).Src, Field: fmt.Sprintf("segments.%s.%s.%s", by, rk.Test, row.Segment)}, Row: row})
 	}
 	for i, o := range segs.Rankings {
 		if i != pick {
-			sec.Others = append(sec.Others, o.Test.Name())
+			g.Others = append(g.Others, o.Test.Name())
 		}
 	}
-	m.Segments = sec
+	if m.Segments == nil || m.Segments.Run != r {
+		m.Segments = &SegmentSection{Run: r}
+	}
+	for _, old := range m.Segments.Groups {
+		if strings.Join(old.Segments.By, "+") == by {
+			return // already shown (a pack's first segmentation is in both documents)
+		}
+	}
+	m.Segments.Groups = append(m.Segments.Groups, g)
+}
+
+// addSegmentations adds the rankings of a pack's further segmentations
+// (its battery_segments result: segmentation name -> battery.Segments).
+func (m *Model) addSegmentations(r *Run, doc json.RawMessage, base string) error {
+	var all map[string]*battery.Segments
+	if err := json.Unmarshal(doc, &all); err != nil {
+		return err
+	}
+	for _, k := range sortedKeys(all) {
+		if all[k] != nil {
+			m.addSegments(r, all[k], srcRef(base, "/"+escapePointer(k), "segments"))
+		}
+	}
+	return nil
 }
 
 // maxLimitRows bounds the limit table.

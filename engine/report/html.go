@@ -11,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
+	"strings"
 	"time"
 
 	"github.com/leadline/leadline/engine/benford"
@@ -205,11 +206,16 @@ func (m *Model) glance() []glance {
 			}
 		}
 	}
-	if s := m.Segments; s != nil && len(s.Rows) > 0 {
-		top := s.Rows[0]
-		g = append(g, glance{What: "Segment ranking, " + s.Ranking.Test.Name(), Anchor: "segments", Section: 5,
-			Result: template.HTML(fmt.Sprintf("%s segments ranked; first: %s (excess MAD %s)", s.Ref.F("ranked", s.Segments.Ranked, "int"),
-				template.HTMLEscapeString(top.Row.Segment), top.Ref.F("excess_mad", top.Row.ExcessMAD, madFormat(s.Ranking.Test))))})
+	if s := m.Segments; s != nil {
+		for _, sg := range s.Groups {
+			if len(sg.Rows) == 0 {
+				continue
+			}
+			top := sg.Rows[0]
+			g = append(g, glance{What: "Segments by " + strings.Join(sg.Segments.By, "+") + ", " + sg.Ranking.Test.Name(), Anchor: "segments", Section: 5,
+				Result: template.HTML(fmt.Sprintf("%s segments ranked; first: %s (excess MAD %s)", sg.Ref.F("ranked", sg.Segments.Ranked, "int"),
+					template.HTMLEscapeString(top.Row.Segment), top.Ref.F("excess_mad", top.Row.ExcessMAD, madFormat(sg.Ranking.Test))))})
+		}
 	}
 	if l := m.Limits; l != nil {
 		rep := l.Report

@@ -260,10 +260,15 @@ type Fact struct {
 }
 
 // SegmentSection ranks segments (entity, account, user, month...) by how
-// far their digits stray from expectation: one ranking of a battery run.
+// far their digits stray from expectation, one group per segmentation.
 type SegmentSection struct {
-	Run      *Run
-	Ref      ref // the run's segments object
+	Run    *Run
+	Groups []*SegmentGroup
+}
+
+// SegmentGroup is the ranking of one segmentation of a battery run.
+type SegmentGroup struct {
+	Ref      ref // the segments object
 	Segments battery.Segments
 	Ranking  battery.Ranking // the ranking shown (first-two digits when run)
 	Rows     []SegmentRow
@@ -272,7 +277,7 @@ type SegmentSection struct {
 }
 
 // HasRuns reports whether the ranking carries the runs test.
-func (s *SegmentSection) HasRuns() bool {
+func (s *SegmentGroup) HasRuns() bool {
 	for _, r := range s.Rows {
 		if r.Row.Runs != nil {
 			return true

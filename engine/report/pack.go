@@ -176,6 +176,8 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 				stepErr = m.addRanges(r, raw, kb)
 			case "duplicates":
 				stepErr = m.addDuplicates(r, raw, kb)
+			case "battery_segments":
+				stepErr = m.addSegmentations(r, raw, kb)
 			default:
 				var fs []found
 				findObjects(v, "", 0, isDigitResult, &fs)

@@ -41,6 +41,11 @@ doc_id = "doc_id"
 posted = "posted"
 user_id = "user_id"
 
+[battery]
+tests = ["first", "second", "first_two", "summation"]
+segments = ["entity", "user_id"]
+min_segment_rows = 1000
+
 [limits]
 values = [1000, 5000, 10000]
 width = 0.10
@@ -89,15 +94,32 @@ sql = "SELECT doc_id, entity, amount FROM ledger WHERE abs(amount) >= 100000 ORD
 		t.Fatal(err)
 	}
 	nums, sections, _ := parsePage(t, doc)
-	for _, id := range []string{"summary", "completeness", "limits", "ranges", "duplicates", "drill", "manifest", "other"} {
+	for _, id := range []string{"summary", "completeness", "digits", "runs", "segments", "limits", "ranges", "duplicates", "drill", "manifest", "other"} {
 		if s := sections[id]; s == nil || attr(s, "data-status") != "shown" {
 			t.Errorf("section %s not shown", id)
 		}
 	}
-	for _, id := range []string{"digits", "segments"} {
-		if s := sections[id]; s == nil || attr(s, "data-status") != "not-run" {
-			t.Errorf("section %s: want not run", id)
+	// Both segmentations of the pack are ranked.
+	for _, by := range []string{"By entity:", "By user_id:"} {
+		if !strings.Contains(textOf(sections["segments"]), by) {
+			t.Errorf("segment ranking %q missing", by)
 		}
+	}
+	// The workbook has the native charts of the first-digit and first-two
+	// digits tests, on sheets of their own, reading those sheets' cells.
+	parts := zipParts(t, filepath.Join(out, output.WorkbookFile))
+	charts := 0
+	for name, x := range parts {
+		if strings.HasPrefix(name, "xl/charts/chart") {
+			charts++
+			if !strings.Contains(x, "<barChart>") || !strings.Contains(x, "<lineChart>") {
+				t.Errorf("%s is not a column chart with lines", name)
+			}
+		}
+	}
+	wb := parts["xl/workbook.xml"]
+	if charts != 2 || !strings.Contains(wb, `name="chart_first"`) || !strings.Contains(wb, `name="chart_first_two"`) {
+		t.Errorf("workbook: %d charts; chart sheets in workbook.xml: %v %v", charts, strings.Contains(wb, `name="chart_first"`), strings.Contains(wb, `name="chart_first_two"`))
 	}
 	if !strings.Contains(textOf(sections["summary"]), "Key findings of the pack run") {
 		t.Error("the pack's key findings are missing")

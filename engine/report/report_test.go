@@ -304,7 +304,7 @@ func TestReportNumbersMatchStoredResults(t *testing.T) {
 	segmentRows := map[string]bool{}
 	for _, n := range nums {
 		fields[n.field] = true
-		if strings.HasPrefix(n.field, "segments.first_two.") && strings.HasSuffix(n.field, ".excess_mad") {
+		if strings.HasPrefix(n.field, "segments.entity.first_two.") && strings.HasSuffix(n.field, ".excess_mad") {
 			segmentRows[n.field] = true
 		}
 	}
