@@ -251,22 +251,16 @@ func (c *binChart) render() string {
 		w.printf(`<text class="axis-title" transform="translate(14 %s) rotate(-90)" text-anchor="middle">%s</text>`, num(marginT+plotH/2), esc(c.YTitle))
 	}
 	w.printf(`</g>`)
-	// Bounds: a light band between lower and upper, edges dashed.
+	// Bounds: per bin a light band between lower and upper, its edges
+	// dashed (one path each, a subpath per bin, no joins between bins).
 	if c.Lower != nil && c.Upper != nil {
 		var up, lo, band strings.Builder
 		for i := 0; i < k; i++ {
-			cmd := "L"
-			if i == 0 {
-				cmd = "M"
-			}
-			fmt.Fprintf(&up, "%s%s %sH%s", cmd, num(x0(i)), num(y(c.Upper[i])), num(x0(i)+slot))
-			fmt.Fprintf(&lo, "%s%s %sH%s", cmd, num(x0(i)), num(y(math.Max(c.Lower[i], 0))), num(x0(i)+slot))
+			yu, yl := y(c.Upper[i]), y(math.Max(c.Lower[i], 0))
+			fmt.Fprintf(&up, "M%s %sH%s", num(x0(i)), num(yu), num(x0(i)+slot))
+			fmt.Fprintf(&lo, "M%s %sH%s", num(x0(i)), num(yl), num(x0(i)+slot))
+			fmt.Fprintf(&band, "M%s %sH%sV%sH%sZ", num(x0(i)), num(yu), num(x0(i)+slot), num(yl), num(x0(i)))
 		}
-		band.WriteString(up.String())
-		for i := k - 1; i >= 0; i-- {
-			fmt.Fprintf(&band, "L%s %sH%s", num(x0(i)+slot), num(y(math.Max(c.Lower[i], 0))), num(x0(i)))
-		}
-		band.WriteString("Z")
 		w.printf(`<path class="bounds-band" d="%s" fill="%s" fill-opacity="0.13" stroke="none"/>`, band.String(), colGrey)
 		w.printf(`<path class="bound bound-upper" d="%s" fill="none" stroke="%s" stroke-width="1.1" stroke-dasharray="4 3"/>`, up.String(), colGrey)
 		w.printf(`<path class="bound bound-lower" d="%s" fill="none" stroke="%s" stroke-width="1.1" stroke-dasharray="4 3"/>`, lo.String(), colGrey)

@@ -135,6 +135,12 @@ func TestDigitChartMarks(t *testing.T) {
 				t.Errorf("%s: want one %s", tc.test, c)
 			}
 		}
+		// One bound segment per bin, above and below.
+		for _, e := range es {
+			if (e.class("bound-upper") || e.class("bound-lower") || e.class("bounds-band")) && strings.Count(e.attrs["d"], "M") != k {
+				t.Errorf("%s: %s has %d segments, want %d", tc.test, e.attrs["class"], strings.Count(e.attrs["d"], "M"), k)
+			}
+		}
 		if got := count(es, func(e svgElem) bool { return e.class("stretch") }); got != len(stretches) {
 			t.Errorf("%s: %d stretches shaded, want %d", tc.test, got, len(stretches))
 		}
