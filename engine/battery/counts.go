@@ -25,10 +25,11 @@ type Counts struct {
 }
 
 // Left counts the rows of a population that were not tested, by reason,
-// so that N is always explained: rows = Tested + Zero + OtherSign +
-// BelowMin + NoAmount (plus Filtered for the whole selection).
+// so that N is always explained: rows = tested + Filtered + Zero +
+// OtherSign + BelowMin + NoAmount. Filtered and OtherSign are counted for
+// the whole selection only (the scan does not read those rows).
 type Left struct {
-	Filtered  int64 `json:"filtered"`   // left out by the --where filter (whole selection only)
+	Filtered  int64 `json:"filtered"`   // left out by the --where filter
 	Zero      int64 `json:"zero"`       // amount zero: no significant digits
 	OtherSign int64 `json:"other_sign"` // of the sign not tested
 	BelowMin  int64 `json:"below_min"`  // |amount| below the minimum

@@ -39,6 +39,7 @@ type Plan struct {
 	units    string // SQL: the signed amount in whole units
 	first3   string // SQL macro: first three significant digits of units
 	signOK   string // SQL over ll_u: the row is of a sign tested
+	signMay  string // SQL over amount: the row is of a sign tested, or zero
 	last2    string // SQL over ll_a: the last-two bin
 	wide     bool   // units are HUGEINT (precision > 18)
 	prepared bool
@@ -76,11 +77,11 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	}
 	switch o.Signs {
 	case "positive":
-		p.signOK = "ll_u > 0"
+		p.signOK, p.signMay = "ll_u > 0", "amount >= 0"
 	case "negative":
-		p.signOK = "ll_u < 0"
+		p.signOK, p.signMay = "ll_u < 0", "amount <= 0"
 	default:
-		p.signOK = "TRUE"
+		p.signOK, p.signMay = "TRUE", "TRUE"
 	}
 	p.last2 = "ll_a % 100"
 	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
@@ -164,7 +165,7 @@ func (p *Plan) ScanSQL() string {
 	sel, names, normal := p.segmentSQL(false)
 	q := queries.Render("battery_scan", map[string]string{
 		"segment_select": sel, "segment_names": names, "units": p.units, "filter": p.filter,
-		"sign_ok": p.signOK, "first3": p.first3, "last2": p.last2,
+		"sign_where": p.signMay, "first3": p.first3, "last2": p.last2,
 	})
 	if len(p.Segments) == 0 {
 		return q
@@ -177,10 +178,19 @@ func (p *Plan) macros(ctx context.Context, ws *workspace.Workspace) error {
 	if p.prepared {
 		return nil
 	}
+	if err := CreateMacros(ctx, ws); err != nil {
+		return err
+	}
+	p.prepared = true
+	return nil
+}
+
+// CreateMacros creates the battery's SQL macros (ll_first3_i64,
+// ll_first3_i128) on the workspace's connection.
+func CreateMacros(ctx context.Context, ws *workspace.Workspace) error {
 	if _, err := ws.Conn.ExecContext(ctx, queries.Get("battery_macros")); err != nil {
 		return fmt.Errorf("creating the battery's macros: %w", err)
 	}
-	p.prepared = true
 	return nil
 }
 
@@ -192,8 +202,11 @@ type SegmentCounts struct {
 
 // Scan runs the one aggregate scan and returns the bin-count table of the
 // whole selection and, with segments, of each segment (sorted by key). The
-// whole selection's table is the sum of the segments' tables; its
-// Left.Filtered counts the rows the filter left out.
+// whole selection's table is the sum of the segments' tables, and its Left
+// also counts the rows the filter left out and those of the other sign
+// (from the ledger's row count and, with a filter, the rows it keeps; the
+// scan itself does not read them). A segment's Left counts its zeros and
+// amounts below the minimum.
 func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []SegmentCounts, error) {
 	if err := p.macros(ctx, ws); err != nil {
 		return nil, nil, err
@@ -238,8 +251,6 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 			switch f3.Int64 {
 			case -1:
 				c.Left.Zero += n
-			case -2:
-				c.Left.OtherSign += n
 			case -3:
 				c.Left.BelowMin += n
 			case -5:
@@ -262,11 +273,20 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 	for _, sc := range order {
 		all.Add(sc.Counts)
 	}
+	// The rows the scan did not read: of the other sign, or dropped by the
+	// filter.
 	var total int64
 	if err := ws.Conn.QueryRowContext(ctx, queries.Get("battery_rows")).Scan(&total); err != nil {
 		return nil, nil, err
 	}
-	all.Left.Filtered = total - all.N() - all.Left.Total()
+	kept := total
+	if p.filter != "TRUE" {
+		if err := ws.Conn.QueryRowContext(ctx, queries.Render("battery_filtered_rows", map[string]string{"filter": p.filter})).Scan(&kept); err != nil {
+			return nil, nil, fmt.Errorf("counting the rows the filter keeps: %s", firstLine(err.Error()))
+		}
+	}
+	all.Left.OtherSign = kept - all.N() - all.Left.Total()
+	all.Left.Filtered = total - kept
 	if nseg == 0 {
 		return all, nil, nil
 	}
