@@ -53,7 +53,7 @@ type demoOptions struct {
 	badRate float64
 }
 
-// The demo pack names this file and this workspace (queries/packs/example.toml).
+// The demo pack names this file and this workspace (queries/packs/demo.toml).
 const (
 	demoLedger = "skerrimoor_ledger_2025.csv"
 	demoPack   = "skerrimoor-fy2025.toml"
@@ -76,7 +76,7 @@ func runDemo(ctx context.Context, e *env, o demoOptions) error {
 	}
 	fmt.Fprintf(e.stdout, "  %s: %d rows, %d of them with a deliberately malformed amount (%.1fs)\n", csvPath, sum.Rows, sum.BadRows, time.Since(start).Seconds())
 	packPath := filepath.Join(o.out, demoPack)
-	if err := os.WriteFile(packPath, packs.Example(), 0o644); err != nil {
+	if err := os.WriteFile(packPath, packs.Demo(), 0o644); err != nil {
 		return err
 	}
 	fmt.Fprintf(e.stdout, "  demo pack: %s\n\n", packPath)

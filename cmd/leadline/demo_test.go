@@ -1,0 +1,179 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"testing"
+
+	"github.com/leadline/leadline/fixtures"
+)
+
+// TestDemoAnswerKey runs the demo as a user would and checks that every
+// anomaly the generator planted (fixtures/README.md, answer key) surfaces
+// among the top findings of the test meant to find it.
+func TestDemoAnswerKey(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the whole demo")
+	}
+	dir := t.TempDir()
+	const rows, seed = 200_000, 2025
+	var out, errs bytes.Buffer
+	code := run(context.Background(), []string{"demo", "--rows", strconv.Itoa(rows), "--seed", strconv.Itoa(seed), "--out", dir}, &env{stdout: &out, stderr: &errs})
+	if code != 0 {
+		t.Fatalf("demo exited %d: %s\n%s", code, errs.String(), out.String())
+	}
+	for _, f := range []string{"report.html", "results.xlsx", "results.json", "manifest.json"} {
+		if _, err := os.Stat(filepath.Join(dir, "results", f)); err != nil {
+			t.Errorf("demo output lacks %s", f)
+		}
+	}
+	raw, err := os.ReadFile(filepath.Join(dir, "results", "results.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Results struct {
+			Battery struct {
+				Duplication struct {
+					Top []struct {
+						Rank   int    `json:"rank"`
+						Amount string `json:"amount"`
+					} `json:"top"`
+				} `json:"duplication"`
+			} `json:"battery"`
+			// One segment ranking per column the pack segments by.
+			BatterySegments map[string]struct {
+				Rankings []struct {
+					Test string `json:"test"`
+					Rows []struct {
+						Rank       int               `json:"rank"`
+						Values     map[string]string `json:"values"`
+						Conformity string            `json:"conformity"`
+						Flagged    int               `json:"flagged"`
+					} `json:"rows"`
+				} `json:"rankings"`
+			} `json:"battery_segments"`
+			Limits struct {
+				Rows []struct {
+					Rank    int               `json:"rank"`
+					Segment map[string]string `json:"segment"`
+					Limit   float64           `json:"limit"`
+					Flagged bool              `json:"flagged"`
+				} `json:"rows"`
+			} `json:"limits"`
+			Duplicates struct {
+				Tests []struct {
+					Test   string `json:"test"`
+					Groups []struct {
+						ID           int    `json:"id"`
+						Amount       string `json:"amount"`
+						Counterparty string `json:"counterparty"`
+					} `json:"groups"`
+				} `json:"tests"`
+			} `json:"duplicates"`
+			Checks []struct {
+				Name string `json:"name"`
+				Rows int    `json:"rows"`
+			} `json:"checks"`
+		} `json:"results"`
+	}
+	if err := json.Unmarshal(raw, &doc); err != nil {
+		t.Fatal(err)
+	}
+	r := doc.Results
+	key := fixtures.AnswerKey(fixtures.Config{Rows: rows, Seed: seed, Plants: true})
+
+	// 1. wtennick in HAUL under the 5,000 limit: the limit probe by entity
+	// ranks HAUL at 5,000 among its top three, and the first-two digits
+	// test by user ranks wtennick among the three most distorted users.
+	found := false
+	for _, l := range r.Limits.Rows {
+		if l.Segment["entity"] == "HAUL" && l.Limit == 5000 && l.Flagged && l.Rank >= 1 && l.Rank <= 3 {
+			found = true
+		}
+	}
+	if !found {
+		t.Error("limit probe: HAUL at 5,000 is not among the top three flagged limits")
+	}
+	segRank := func(col, value string) (int, string, int) {
+		for _, rk := range r.BatterySegments[col].Rankings {
+			if rk.Test != "first_two" {
+				continue
+			}
+			for _, row := range rk.Rows {
+				if v, ok := row.Values[col]; ok && v == value && len(row.Values) == 1 {
+					return row.Rank, row.Conformity, row.Flagged
+				}
+			}
+		}
+		return 0, "", 0
+	}
+	if rank, conf, _ := segRank("user_id", "wtennick"); rank < 1 || rank > 3 || conf != "nonconforming" {
+		t.Errorf("first-two digits by user: wtennick ranks %d (%s), want top three and nonconforming", rank, conf)
+	}
+	// 5. The fee schedule: source FEE ranks first, nonconforming, with more
+	// than ten flagged first-two bins (the "should this conform?" note).
+	if rank, conf, flagged := segRank("source", "FEE"); rank != 1 || conf != "nonconforming" || flagged <= 10 {
+		t.Errorf("first-two digits by source: FEE ranks %d (%s, %d flagged bins), want first, nonconforming, more than ten", rank, conf, flagged)
+	}
+
+	groups := map[string][]struct {
+		ID           int    `json:"id"`
+		Amount       string `json:"amount"`
+		Counterparty string `json:"counterparty"`
+	}{}
+	for _, tst := range r.Duplicates.Tests {
+		groups[tst.Test] = tst.Groups
+	}
+	// 2. Varrowick Net Mending's 1,847.23: the top same-amount group.
+	if g := groups["same_amount"]; len(g) == 0 || g[0].Counterparty != "Varrowick Net Mending" || g[0].Amount != "-1847.23" {
+		t.Errorf("same amount and counterparty: top group is %+v, want Varrowick Net Mending at -1847.23", g)
+	}
+	// 3. The 250.00 refunds: among the ten most frequent amounts.
+	top := map[string]int{}
+	for _, d := range r.Battery.Duplication.Top {
+		top[d.Amount] = d.Rank
+	}
+	if rk, ok := top["250.00"]; !ok || rk > 10 {
+		t.Errorf("number duplication: 250.00 ranks %d, want among the top ten", rk)
+	}
+	// 4a. Every planted double payment is a same-amount group.
+	pairs := 0
+	for _, p := range key {
+		if p.Kind != "duplicate-payment" {
+			continue
+		}
+		pairs++
+		want := strconv.FormatFloat(float64(p.AmountCents)/100, 'f', 2, 64)
+		ok := false
+		for _, g := range groups["same_amount"] {
+			a, _ := strconv.ParseFloat(g.Amount, 64)
+			if g.Counterparty == p.Counterparty && math.Abs(math.Abs(a)-float64(p.AmountCents)/100) < 0.005 {
+				ok = true
+			}
+		}
+		if !ok {
+			t.Errorf("double payment of %s to %s not among the same-amount groups", want, p.Counterparty)
+		}
+	}
+	if pairs == 0 {
+		t.Error("the answer key lists no double payments")
+	}
+	// 4b. The exact duplicate lines: the identical-lines check finds each.
+	exact := 0
+	for _, p := range key {
+		if p.Kind == "exact-duplicate-line" {
+			exact++
+		}
+	}
+	for _, c := range r.Checks {
+		if c.Name == "identical_lines" && c.Rows != exact {
+			t.Errorf("identical lines: %d rows, the answer key plants %d", c.Rows, exact)
+		}
+	}
+}
