@@ -78,10 +78,11 @@ var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 	"diffChart": func(t DigitTest) template.HTML {
 		return template.HTML(diffChart(t.ID+"-runs", &t.Result, stretchesOf(&t.Result)))
 	},
-	"inc":        func(i int) int { return i + 1 },
-	"len64":      func(g []duplicates.Group) int64 { return int64(len(g)) },
-	"dupColumns": dupColumns,
-	"dupCell":    dupCell,
+	"inc":           func(i int) int { return i + 1 },
+	"compactAmount": compactAmount,
+	"len64":         func(g []duplicates.Group) int64 { return int64(len(g)) },
+	"dupColumns":    dupColumns,
+	"dupCell":       dupCell,
 }).Parse(pageTemplate))
 
 // Write renders the model as one self-contained HTML page.
