@@ -24,7 +24,7 @@ func formatValue(v any, kind string) string {
 	switch x := v.(type) {
 	case string:
 		if kind == "money" {
-			return groupThousands(x)
+			return typoMinus(groupThousands(x))
 		}
 		return x
 	case int:
