@@ -1,0 +1,269 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"syscall"
+	"time"
+
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/fixtures"
+	"github.com/leadline/leadline/queries"
+	"github.com/spf13/pflag"
+)
+
+func init() {
+	register(&command{
+		name:    "bench",
+		summary: "measure loads, the battery, segments, duplicates and a drill side by side, with peak memory",
+		usage: `Usage: leadline bench [options]
+
+Generates one synthetic ledger as CSV and as Parquet, then runs each step
+as a separate leadline process on the same files, in one run, and reports
+its wall time and peak resident memory (from the operating system's
+accounting of that process):
+
+  bare CSV read       SELECT count(*), sum(amount) FROM read_csv(...)   (DuckDB's floor)
+  load CSV            leadline load
+  bare Parquet read   SELECT count(*), sum(amount) FROM read_parquet(...)
+  load Parquet        leadline load
+  first-two GROUP BY  one hand-written first-two digits query on the workspace (the floor)
+  scan                leadline scan (the whole battery, one aggregate scan)
+  scan by segments    leadline scan --by entity --by account --by month (about 1,400 segments)
+  duplicates          leadline dups (all duplicate tests)
+  drill               leadline drill of one first-two bin, grouped by counterparty
+
+and the ratios the sizing goals are stated in: load throughput against the
+bare read, battery against the single query, segments against the battery.
+--memory-limit, --threads and --temp-dir pass on to every step.
+
+Examples:
+  leadline bench --rows 5000000
+  leadline bench --rows 50000000 --dir /data/bench --keep`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var o benchOptions
+			fs.Int64Var(&o.rows, "rows", 5_000_000, "ledger rows to generate")
+			fs.StringVar(&o.dir, "dir", "", "work folder (default: a temporary folder, removed afterwards)")
+			fs.BoolVar(&o.keep, "keep", false, "keep the work folder and reuse its generated files")
+			fs.StringVar(&o.memory, "memory-limit", "", "DuckDB memory limit for every step, e.g. 2GB")
+			fs.IntVar(&o.threads, "threads", 0, "DuckDB threads for every step")
+			fs.StringVar(&o.tempDir, "temp-dir", "", "DuckDB spill folder for every step")
+			return func(ctx context.Context, args []string, e *env) error {
+				return runBench(ctx, e, o)
+			}
+		},
+	})
+	register(&command{
+		name:    "bench-step",
+		summary: "(used by bench) run one bare DuckDB step: gen, bare-csv, bare-parquet or first-two",
+		usage:   "Usage: leadline bench-step STEP ARGS... (see leadline bench)",
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var db dbFlags
+			db.add(fs)
+			var rows int64
+			fs.Int64Var(&rows, "rows", 0, "gen: rows")
+			return func(ctx context.Context, args []string, e *env) error {
+				if len(args) < 2 {
+					return fmt.Errorf("usage: bench-step gen|bare-csv|bare-parquet|first-two PATH")
+				}
+				return benchOneStep(ctx, e, &db, args[0], args[1], rows)
+			}
+		},
+	})
+}
+
+type benchOptions struct {
+	rows                 int64
+	dir, memory, tempDir string
+	threads              int
+	keep                 bool
+}
+
+type benchResult struct {
+	name    string
+	command string
+	seconds float64
+	peakMB  float64
+	output  string
+}
+
+func runBench(ctx context.Context, e *env, o benchOptions) error {
+	self, err := os.Executable()
+	if err != nil {
+		return err
+	}
+	dir := o.dir
+	if dir == "" {
+		if dir, err = os.MkdirTemp("", "leadline-bench-"); err != nil {
+			return err
+		}
+	}
+	if !o.keep && o.dir == "" {
+		defer os.RemoveAll(dir)
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return err
+	}
+	csvPath := filepath.Join(dir, "ledger.csv")
+	pqPath := filepath.Join(dir, "ledger.parquet")
+	csvDB := filepath.Join(dir, "csv.duckdb")
+	pqDB := filepath.Join(dir, "parquet.duckdb")
+	dbArgs := func(db string) []string {
+		a := []string{"--db", db}
+		if o.memory != "" {
+			a = append(a, "--memory-limit", o.memory)
+		}
+		if o.threads > 0 {
+			a = append(a, "--threads", strconv.Itoa(o.threads))
+		}
+		if o.tempDir != "" {
+			a = append(a, "--temp-dir", o.tempDir)
+		}
+		return a
+	}
+	step := func(name string, args ...string) (benchResult, error) {
+		cmd := exec.CommandContext(ctx, self, args...)
+		cmd.Env = append(os.Environ(), "LEADLINE_NO_PROGRESS=1")
+		var out, errb bytes.Buffer
+		cmd.Stdout, cmd.Stderr = &out, &errb
+		t0 := time.Now()
+		err := cmd.Run()
+		r := benchResult{name: name, command: "leadline " + joinArgs(args), seconds: time.Since(t0).Seconds(), output: out.String()}
+		if ru, ok := cmd.ProcessState.SysUsage().(*syscall.Rusage); ok {
+			r.peakMB = float64(ru.Maxrss) / 1024 // Linux reports kilobytes
+		}
+		if err != nil {
+			return r, fmt.Errorf("%s: %v\n%s", name, err, errb.String())
+		}
+		fmt.Fprintf(e.stderr, "  %-20s %8.2fs  peak %7.0f MB\n", name, r.seconds, r.peakMB)
+		return r, nil
+	}
+	fmt.Fprintf(e.stderr, "Benchmark in %s: %d rows\n", dir, o.rows)
+	var results []benchResult
+	add := func(r benchResult, err error) error {
+		if err != nil {
+			return err
+		}
+		results = append(results, r)
+		return nil
+	}
+	if _, err := os.Stat(pqPath); err != nil || !o.keep {
+		for _, p := range []string{csvDB, pqDB, csvDB + ".wal", pqDB + ".wal"} {
+			os.Remove(p)
+		}
+		if err := add(step("generate files", "bench-step", "gen", dir, "--rows", strconv.FormatInt(o.rows, 10))); err != nil {
+			return err
+		}
+	}
+	for _, p := range []string{csvDB, pqDB, csvDB + ".wal", pqDB + ".wal"} {
+		os.Remove(p)
+	}
+	if err := add(step("bare CSV read", append([]string{"bench-step", "bare-csv", csvPath}, dbArgs(":memory:")...)...)); err != nil {
+		return err
+	}
+	if err := add(step("load CSV", append(append([]string{"load"}, dbArgs(csvDB)...), csvPath)...)); err != nil {
+		return err
+	}
+	if err := add(step("bare Parquet read", append([]string{"bench-step", "bare-parquet", pqPath}, dbArgs(":memory:")...)...)); err != nil {
+		return err
+	}
+	if err := add(step("load Parquet", append(append([]string{"load"}, dbArgs(pqDB)...), pqPath)...)); err != nil {
+		return err
+	}
+	if err := add(step("first-two GROUP BY", append([]string{"bench-step", "first-two", pqDB}, dbArgs(pqDB)[2:]...)...)); err != nil {
+		return err
+	}
+	if err := add(step("scan", append(append([]string{"scan"}, dbArgs(pqDB)...), "--format", "json")...)); err != nil {
+		return err
+	}
+	if err := add(step("scan by segments", append(append([]string{"scan"}, dbArgs(pqDB)...), "--by", "entity", "--by", "account", "--by", "month", "--format", "json")...)); err != nil {
+		return err
+	}
+	if err := add(step("duplicates", append(append([]string{"dups"}, dbArgs(pqDB)...), "--format", "json")...)); err != nil {
+		return err
+	}
+	if err := add(step("drill", append(append([]string{"drill"}, dbArgs(pqDB)...), "--test", "first_two", "--bin", "18", "--group", "counterparty", "--format", "csv")...)); err != nil {
+		return err
+	}
+	t := &tabular.Table{Columns: []string{"step", "seconds", "peak_mb", "rows_per_s", "command"}}
+	by := map[string]benchResult{}
+	for _, r := range results {
+		by[r.name] = r
+		rate := ""
+		if r.name != "generate files" {
+			rate = fmt.Sprintf("%.0f", float64(o.rows)/r.seconds)
+		}
+		t.Add(r.name, fmt.Sprintf("%.2f", r.seconds), fmt.Sprintf("%.0f", r.peakMB), rate, r.command)
+	}
+	fmt.Fprintf(e.stdout, "leadline bench: %d rows, %s\n\n", o.rows, dir)
+	t.WriteText(e.stdout, 0)
+	ratio := func(a, b string) float64 { return by[a].seconds / by[b].seconds }
+	fmt.Fprintf(e.stdout, "\nRatios (goals from the sizing issue):\n")
+	fmt.Fprintf(e.stdout, "  load CSV throughput / bare CSV read:         %.2f   (goal at least 0.8)\n", 1/ratio("load CSV", "bare CSV read"))
+	fmt.Fprintf(e.stdout, "  load Parquet throughput / bare Parquet read: %.2f   (goal at least 0.8)\n", 1/ratio("load Parquet", "bare Parquet read"))
+	fmt.Fprintf(e.stdout, "  scan / first-two GROUP BY:                   %.2f   (goal at most 1.3)\n", ratio("scan", "first-two GROUP BY"))
+	fmt.Fprintf(e.stdout, "  scan by segments / scan:                     %.2f   (goal at most 1.5)\n", ratio("scan by segments", "scan"))
+	peak := 0.0
+	for _, r := range results {
+		if r.peakMB > peak && r.name != "generate files" {
+			peak = r.peakMB
+		}
+	}
+	fmt.Fprintf(e.stdout, "  peak resident memory of any step:            %.0f MB (goal at most 2048 MB at 50,000,000 rows)\n", peak)
+	fmt.Fprintln(e.stdout, "\nEach step is a whole process: its time includes starting and opening the workspace (about 0.1 s).")
+	return nil
+}
+
+func joinArgs(a []string) string {
+	var b bytes.Buffer
+	for i, s := range a {
+		if i > 0 {
+			b.WriteByte(' ')
+		}
+		b.WriteString(s)
+	}
+	return b.String()
+}
+
+func benchOneStep(ctx context.Context, e *env, db *dbFlags, stepName, path string, rows int64) error {
+	if stepName == "gen" {
+		cfg := fixtures.Config{Rows: rows, Seed: 2025, Plants: rows >= 10_000}
+		if _, err := fixtures.WriteCSV(filepath.Join(path, "ledger.csv"), cfg); err != nil {
+			return err
+		}
+		_, err := fixtures.WriteParquet(filepath.Join(path, "ledger.parquet"), cfg)
+		return err
+	}
+	if stepName == "first-two" {
+		db.path = path
+	}
+	ws, err := workspace.Open(ctx, db.path, workspace.Options{ReadOnly: stepName == "first-two", MemoryLimit: db.memory, Threads: db.threads, TempDir: db.tempDir})
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	var q string
+	switch stepName {
+	case "bare-csv":
+		q = "SELECT count(*), sum(amount) FROM read_csv(" + queries.QuoteString(path) + ")"
+	case "bare-parquet":
+		q = "SELECT count(*), sum(amount) FROM read_parquet(" + queries.QuoteString(path) + ")"
+	case "first-two":
+		q = queries.Get("bench_first_two")
+	default:
+		return fmt.Errorf("unknown step %q", stepName)
+	}
+	var n int64
+	var s any
+	if err := ws.Conn.QueryRowContext(ctx, q).Scan(&n, &s); err != nil {
+		return err
+	}
+	fmt.Fprintln(e.stdout, n, s)
+	return nil
+}
