@@ -102,11 +102,11 @@ CASE WHEN u < 1000000000000000000
 
 -- name: battery_scan
 -- One pass over the ledger. The filter and the sign tested are pushed into
--- the scan ({{sign_where}} keeps zeros, so that they are counted); each
--- row read gets a code: its first three significant digits (100..999)
--- when it is tested, or why it was left out:
---   -1 zero, -3 |amount| below the minimum, -5 no amount (never in a
---   committed ledger; counted, not hidden).
+-- the scan ({{sign_where}} keeps zeros, so that they are counted, and drops
+-- NULL amounts, which a committed ledger never holds); {{abs}} is |amount|
+-- in units for the signs read. Each row read gets a code: its first three
+-- significant digits (100..999) when it is tested, or why it was left out:
+--   -1 zero, -3 |amount| below the minimum.
 -- Rows of the other sign and rows the filter drops are not read here;
 -- engine/battery counts them from the ledger's row count (and, with a
 -- filter, the rows it keeps: battery_filtered_rows).
@@ -116,19 +116,18 @@ CASE WHEN u < 1000000000000000000
 -- group are additive: segments, files and partitions merge by addition.
 -- Sums are exact integers in the aggregate, returned as DOUBLE (the
 -- summation test works on shares of the total).
--- Parameter: the minimum |amount| in units.
+-- Parameter: the minimum |amount| in units, at least 1 (so that zero is
+-- below it).
 SELECT {{segment_names}}ll_f3, ll_l2, count(*) AS ll_n, CAST(sum(ll_a) AS DOUBLE) AS ll_sum
 FROM (
     SELECT {{segment_names}}ll_a, ll_f3,
            CASE WHEN ll_f3 > 0 THEN {{last2}} ELSE ll_f3 END AS ll_l2
     FROM (
         SELECT {{segment_names}}ll_a,
-               CASE WHEN ll_u IS NULL THEN -5
-                    WHEN ll_u = 0 THEN -1
-                    WHEN ll_a < ? THEN -3
+               CASE WHEN ll_a < ? THEN (CASE WHEN ll_a = 0 THEN -1 ELSE -3 END)
                     ELSE {{first3}}(ll_a) END AS ll_f3
         FROM (
-            SELECT {{segment_names}}ll_u, abs(ll_u) AS ll_a
+            SELECT {{segment_names}}{{abs}} AS ll_a
             FROM (
                 SELECT {{segment_select}}{{units}} AS ll_u
                 FROM ledger

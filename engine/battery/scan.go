@@ -40,6 +40,7 @@ type Plan struct {
 	first3   string // SQL macro: first three significant digits of units
 	signOK   string // SQL over ll_u: the row is of a sign tested
 	signMay  string // SQL over amount: the row is of a sign tested, or zero
+	absU     string // SQL over ll_u: |ll_u| for the rows signMay keeps
 	last2    string // SQL over ll_a: the last-two bin
 	wide     bool   // units are HUGEINT (precision > 18)
 	prepared bool
@@ -77,11 +78,11 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	}
 	switch o.Signs {
 	case "positive":
-		p.signOK, p.signMay = "ll_u > 0", "amount >= 0"
+		p.signOK, p.signMay, p.absU = "ll_u > 0", "amount >= 0", "ll_u"
 	case "negative":
-		p.signOK, p.signMay = "ll_u < 0", "amount <= 0"
+		p.signOK, p.signMay, p.absU = "ll_u < 0", "amount <= 0", "-ll_u"
 	default:
-		p.signOK, p.signMay = "TRUE", "TRUE"
+		p.signOK, p.signMay, p.absU = "TRUE", "amount IS NOT NULL", "abs(ll_u)"
 	}
 	p.last2 = "ll_a % 100"
 	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
@@ -165,7 +166,7 @@ func (p *Plan) ScanSQL() string {
 	sel, names, normal := p.segmentSQL(false)
 	q := queries.Render("battery_scan", map[string]string{
 		"segment_select": sel, "segment_names": names, "units": p.units, "filter": p.filter,
-		"sign_where": p.signMay, "first3": p.first3, "last2": p.last2,
+		"sign_where": p.signMay, "abs": p.absU, "first3": p.first3, "last2": p.last2,
 	})
 	if len(p.Segments) == 0 {
 		return q
@@ -211,7 +212,7 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 	if err := p.macros(ctx, ws); err != nil {
 		return nil, nil, err
 	}
-	rows, err := ws.Conn.QueryContext(ctx, p.ScanSQL(), p.MinUnits)
+	rows, err := ws.Conn.QueryContext(ctx, p.ScanSQL(), max(p.MinUnits, 1))
 	if err != nil {
 		return nil, nil, fmt.Errorf("the battery's scan: %s", firstLine(err.Error()))
 	}
@@ -253,8 +254,6 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 				c.Left.Zero += n
 			case -3:
 				c.Left.BelowMin += n
-			case -5:
-				c.Left.NoAmount += n
 			default:
 				return nil, nil, fmt.Errorf("the battery's scan returned first-three digits %d: an internal error, please report it", f3.Int64)
 			}
@@ -285,7 +284,12 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 			return nil, nil, fmt.Errorf("counting the rows the filter keeps: %s", firstLine(err.Error()))
 		}
 	}
-	all.Left.OtherSign = kept - all.N() - all.Left.Total()
+	unread := kept - all.N() - all.Left.Total()
+	if p.Options.Signs == "both" {
+		all.Left.NoAmount = unread // NULL amounts: none in a committed ledger
+	} else {
+		all.Left.OtherSign = unread // and NULL amounts, of which there are none
+	}
 	all.Left.Filtered = total - kept
 	if nseg == 0 {
 		return all, nil, nil
