@@ -83,6 +83,14 @@ var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 	"len64":         func(g []duplicates.Group) int64 { return int64(len(g)) },
 	"dupColumns":    dupColumns,
 	"dupCell":       dupCell,
+	"dupRefs": func(t duplicates.TestResult) bool {
+		for _, g := range t.Groups {
+			if g.Ref != "" {
+				return true
+			}
+		}
+		return false
+	},
 }).Parse(pageTemplate))
 
 // Write renders the model as one self-contained HTML page.
