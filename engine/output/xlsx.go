@@ -154,7 +154,8 @@ func WriteXLSX(path string, run *Run, hooks ...XLSXHook) error {
 			return err
 		}
 	}
-	f.SetActiveSheet(0)
+	// The summary sheet is the first and the active one already: calling
+	// SetActiveSheet would read every streamed sheet back in.
 	title := "leadline results"
 	if run.Pack.Name != "" {
 		title += ": " + run.Pack.Name

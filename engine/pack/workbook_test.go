@@ -35,6 +35,9 @@ func TestWorkbookMatchesCSV(t *testing.T) {
 	if strings.Join(sheets, ",") != strings.Join(want, ",") {
 		t.Fatalf("sheets %v, want %v", sheets, want)
 	}
+	if f.GetActiveSheetIndex() != 0 {
+		t.Errorf("the workbook opens on sheet %d, not the summary", f.GetActiveSheetIndex())
+	}
 	// The summary names the pack and carries the caution.
 	summary, _ := f.GetRows(output.SummarySheet)
 	var text strings.Builder
