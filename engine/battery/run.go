@@ -52,13 +52,16 @@ type Segments struct {
 	All      []SegmentInfo `json:"populations"` // every segment: tested amounts and what was left out
 }
 
-// SegmentInfo says how many amounts of a segment were tested and why the
-// others were left out.
+// SegmentInfo says how many amounts of a segment were tested and how many
+// of the rows read were left out (zero, below the minimum). Rows of the
+// other sign and rows the filter drops are not read by the scan and are
+// counted for the whole selection only.
 type SegmentInfo struct {
-	Segment string             `json:"segment"` // values joined with " / ", blanks as (blank)
-	Values  map[string]*string `json:"values"`  // column -> value, null for blank
-	Tested  int64              `json:"tested"`
-	Left
+	Segment  string             `json:"segment"` // values joined with " / ", blanks as (blank)
+	Values   map[string]*string `json:"values"`  // column -> value, null for blank
+	Tested   int64              `json:"tested"`
+	Zero     int64              `json:"zero"`
+	BelowMin int64              `json:"below_min"`
 }
 
 // Ranking ranks the segments on one test, most distorted first: by excess
@@ -186,7 +189,8 @@ func rankSegments(p *Plan, segs []SegmentCounts) (*Segments, []SegmentResult, er
 	results := make([]SegmentResult, len(segs))
 	rows := map[benford.Test][]SegmentRow{}
 	for i, sc := range segs {
-		info := SegmentInfo{Segment: sc.Key.Label(), Values: sc.Key.Values(p.Segments), Tested: sc.Counts.N(), Left: sc.Counts.Left}
+		info := SegmentInfo{Segment: sc.Key.Label(), Values: sc.Key.Values(p.Segments), Tested: sc.Counts.N(),
+			Zero: sc.Counts.Left.Zero, BelowMin: sc.Counts.Left.BelowMin}
 		out.All = append(out.All, info)
 		results[i] = SegmentResult{Key: sc.Key, Counts: sc.Counts}
 		if info.Tested < o.MinSegmentRows {

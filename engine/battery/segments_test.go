@@ -268,7 +268,7 @@ func TestDuplicationFilterAndBlanks(t *testing.T) {
 	m := run(t, ws, Options{By: []string{"month"}, Tests: []benford.Test{benford.FirstDigit}, MinSegmentRows: 1})
 	months := map[string]int64{}
 	for _, p := range m.Segments.All {
-		months[p.Segment] = p.Tested + p.Left.Total()
+		months[p.Segment] = p.Tested + p.Zero + p.BelowMin
 	}
 	// Rows read per month (the negative amount of 2025-01-16 is counted
 	// for the whole selection only, as of the other sign).

@@ -1,0 +1,393 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/tabular"
+	"github.com/spf13/pflag"
+)
+
+func init() {
+	register(&command{
+		name:    "scan",
+		summary: "run the digit battery (Benford's law) on the ledger, whole and per segment",
+		usage: `Usage: leadline scan [options]
+
+Runs the digit-frequency battery built on Benford's law on the workspace's
+amounts: the first-digit, second-digit, first-two digits, first-three
+digits, last-two digits and summation tests from ONE aggregate scan, the
+second-order test (first two digits of the differences between sorted
+amounts) and number duplication (the most frequent exact amounts) from a
+query each. Digits come from the exact decimal amount, never from a float:
+0.29 has first three digits 290, 10.00 has 100, 99.99 has 999. The last
+two digits are the two rightmost digits of the amount as the ledger writes
+it (1234.56 -> 56); --last-two units reads them from the whole-currency
+part (1234.56 -> 34), as is often done for whole-number amounts.
+
+Which amounts: positive amounts by default (--signs), because debits and
+credits (invoices and credit notes, payments and refunds) are different
+populations with different drivers, and the trade analyses them apart
+(Nigrini 2012); run --signs negative for the other side, or both (absolute
+values) when the sign carries no meaning. Amounts below --min (10 by
+default, common practice: smaller amounts carry too few significant digits
+of their own for the first-two digits test) are left out, and so is zero.
+--where narrows the rows with a read-only predicate over the ledger's
+columns. Every row left out is counted, by reason, so N is explained.
+
+With --by, every test also runs per segment (entity, account,
+counterparty, user_id, source, month, or any original column; several
+--by columns make segments of their combinations), all from the same one
+scan, and a ranking per test orders the segments by excess MAD (MAD less
+the MAD expected from sampling alone at the segment's N), so that segments
+of different sizes compare fairly. Segments with fewer than --min-segment
+tested amounts (1,000 by default: below that the smallest first-two bins
+expect fewer than about four amounts each) are listed as too small to
+judge, not ranked.
+
+A flagged bin, test or segment is a signal for follow-up, never proof of
+fraud. Drill into a bin with: leadline drill --test first_two --bin 47.
+
+Every run is stored in the workspace (table runs, kind scan) with its
+parameters and the JSON document --format json prints (docs/json.md).
+--format csv prints the bins in long format: test, segment, bin, ...
+
+Examples:
+  leadline scan
+  leadline scan --tests first,first_two,summation --signs negative
+  leadline scan --by entity --by month
+  leadline scan --where "source = 'AP'" --min 100 --format json > ap.json
+  leadline scan --by user_id --format csv > bins.csv`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var db dbFlags
+			var f formatFlag
+			var pop bandPopulation
+			var tests []string
+			var rankRows int
+			var allBins bool
+			o := battery.Options{}
+			db.add(fs)
+			fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
+			pop.add(fs)
+			fs.StringSliceVar(&o.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+			fs.Int64Var(&o.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
+			fs.StringVar(&o.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
+			fs.IntVar(&o.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
+			fs.IntVar(&rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
+			fs.BoolVar(&allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
+			f.add(fs)
+			return func(ctx context.Context, args []string, e *env) error {
+				if err := f.check(); err != nil {
+					return err
+				}
+				if len(args) > 0 {
+					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
+				}
+				var err error
+				if o.Tests, o.Duplication, err = battery.ParseTests(tests); err != nil {
+					return err
+				}
+				o.Base = pop.base()
+				started := time.Now()
+				ws, err := db.open(ctx, false)
+				if err != nil {
+					return err
+				}
+				defer ws.Close()
+				rep, err := battery.Run(ctx, ws, o)
+				if err != nil {
+					return err
+				}
+				if rep.RunID, err = ws.NextRunID(ctx); err != nil {
+					return fmt.Errorf("saving the run: %w", err)
+				}
+				params, err := json.Marshal(rep.Params)
+				if err != nil {
+					return err
+				}
+				doc, err := json.Marshal(rep)
+				if err != nil {
+					return err
+				}
+				if err := ws.SaveRunWithID(ctx, rep.RunID, "scan", started, params, doc); err != nil {
+					return err
+				}
+				return printScan(e.stdout, f.value, rep, scanPrint{rankRows: rankRows, allBins: allBins})
+			}
+		},
+	})
+}
+
+type scanPrint struct {
+	rankRows int
+	allBins  bool
+}
+
+func printScan(w io.Writer, format string, rep *battery.Report, sp scanPrint) error {
+	switch format {
+	case "json":
+		return writeJSON(w, rep)
+	case "csv":
+		return scanBinsTable(rep).WriteCSV(w)
+	}
+	return printScanText(w, rep, sp)
+}
+
+// scanBinsTable is the long format: one row per bin of every test, for the
+// whole selection (segment empty) and every ranked segment; number
+// duplication adds one row per amount listed (bin = rank).
+func scanBinsTable(rep *battery.Report) *tabular.Table {
+	t := &tabular.Table{Name: "bins", Columns: []string{"run_id", "test", "segment", "bin", "label", "count", "amount", "actual", "expected", "z", "lower", "upper", "flagged", "outside_goodman"}}
+	add := func(seg string, r benford.Result) {
+		for _, b := range r.Bins {
+			var amount any
+			if r.Test == benford.Summation {
+				amount = b.Amount
+			}
+			t.Add(rep.RunID, string(r.Test), seg, b.Bin, b.Label, b.Count, amount, b.Actual, b.Expected, b.Z, b.Lower, b.Upper, b.Flagged, b.OutsideGoodman)
+		}
+	}
+	for _, r := range rep.Tests {
+		add("", r)
+	}
+	for _, s := range rep.SegmentResults {
+		for _, r := range s.Results {
+			add(s.Key.Label(), r)
+		}
+	}
+	if d := rep.Duplication; d != nil {
+		for _, x := range d.Top {
+			t.Add(rep.RunID, "duplication", "", x.Rank, x.Amount, x.Count, nil, x.Share, nil, nil, nil, nil, nil, nil)
+		}
+	}
+	return t
+}
+
+func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
+	p := rep.Params
+	x := rep.Exclusions
+	fmt.Fprintf(w, "Digit battery (run %d): %s amounts tested (%s, |amount| >= %s", rep.RunID, bf.count(rep.Tested), p.Signs, p.Min)
+	if strings.TrimSpace(p.Where) != "" {
+		fmt.Fprintf(w, ", where %s", strings.TrimSpace(p.Where))
+	}
+	fmt.Fprintf(w, ") of %s rows\n", bf.count(rep.Rows))
+	var left []string
+	if x.Filtered > 0 {
+		left = append(left, bf.count(x.Filtered)+" by the filter")
+	}
+	left = append(left, bf.count(x.Zero)+" zero")
+	if p.Signs != "both" {
+		other := map[string]string{"positive": "negative", "negative": "positive"}[p.Signs]
+		left = append(left, bf.count(x.OtherSign)+" "+other)
+	}
+	left = append(left, bf.count(x.BelowMin)+" below "+p.Min)
+	if x.NoAmount > 0 {
+		left = append(left, bf.count(x.NoAmount)+" without an amount")
+	}
+	fmt.Fprintf(w, "Left out: %s. Amounts as %s; last two digits %s.\n", strings.Join(left, ", "), rep.AmountType,
+		map[string]string{battery.LastTwoScale: "at the ledger's scale", battery.LastTwoUnits: "of the whole-currency part"}[p.LastTwo])
+	fmt.Fprintf(w, "Time: %.2fs (one scan %.2fs", rep.Seconds.Total, rep.Seconds.Scan)
+	if rep.Seconds.SecondOrder > 0 {
+		fmt.Fprintf(w, ", second-order %.2fs", rep.Seconds.SecondOrder)
+	}
+	if rep.Seconds.Duplication > 0 {
+		fmt.Fprintf(w, ", duplication %.2fs", rep.Seconds.Duplication)
+	}
+	fmt.Fprintln(w, ")")
+
+	for _, r := range rep.Tests {
+		fmt.Fprintln(w)
+		if err := printTestText(w, r, sp.allBins); err != nil {
+			return err
+		}
+	}
+	if d := rep.Duplication; d != nil {
+		fmt.Fprintf(w, "\nNumber duplication: the %d most frequent of %s distinct amounts (N %s)\n", len(d.Top), bf.count(d.Distinct), bf.count(d.N))
+		t := &tabular.Table{Columns: []string{"rank", "amount", "count", "share_%"}}
+		for _, x := range d.Top {
+			t.Add(x.Rank, x.Amount, bf.count(x.Count), pct(x.Share))
+		}
+		if err := t.WriteText(w, 0); err != nil {
+			return err
+		}
+	}
+	if s := rep.Segments; s != nil {
+		fmt.Fprintf(w, "\nSegments by %s: %s found, %s with at least %s amounts ranked\n", strings.Join(s.By, ", "),
+			bf.count(int64(s.Count)), bf.count(int64(s.Ranked)), bf.count(s.MinRows))
+		for _, rk := range s.Rankings {
+			fmt.Fprintf(w, "\n%s by segment, most distorted first (sorted by %s)\n", capitalize(rk.Test.Name()), strings.ReplaceAll(rk.SortBy, "_", " "))
+			t := &tabular.Table{Columns: []string{"rank", "segment", "n", "mad", "conformity", "excess_mad", "chi2_p", "flagged", "runs", "runs_p"}}
+			for i, r := range rk.Rows {
+				if sp.rankRows > 0 && i >= sp.rankRows {
+					break
+				}
+				var runs, runsP any
+				if r.Runs != nil {
+					runs, runsP = *r.Runs, fmt.Sprintf("%.3g", *r.RunsP)
+				}
+				chi := any(fmt.Sprintf("%.3g", r.PValue))
+				excess := any(fmt.Sprintf("%.5f", r.ExcessMAD))
+				if rk.Test == benford.Summation {
+					chi, excess = nil, nil
+				}
+				t.Add(r.Rank, r.Segment, bf.count(r.N), fmt.Sprintf("%.5f", r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
+			}
+			if err := t.WriteText(w, 40); err != nil {
+				return err
+			}
+			if sp.rankRows > 0 && len(rk.Rows) > sp.rankRows {
+				fmt.Fprintf(w, "(%d more; --rank-rows 0 shows all, --format json or csv has every segment)\n", len(rk.Rows)-sp.rankRows)
+			}
+		}
+		if len(s.TooSmall) > 0 {
+			names := make([]string, 0, 10)
+			for i, ts := range s.TooSmall {
+				if i == 10 {
+					names = append(names, "...")
+					break
+				}
+				names = append(names, fmt.Sprintf("%s (%s)", ts.Segment, bf.count(ts.Tested)))
+			}
+			fmt.Fprintf(w, "\nToo small to judge (fewer than %s amounts), not ranked: %d segments: %s\n", bf.count(s.MinRows), len(s.TooSmall), strings.Join(names, ", "))
+		}
+	}
+	fmt.Fprintln(w, "\nFlags are signals for follow-up, never proof of fraud.")
+	return nil
+}
+
+func printTestText(w io.Writer, r benford.Result, allBins bool) error {
+	fmt.Fprintf(w, "%s (N %s)\n", capitalize(r.Test.Name()), bf.count(r.N))
+	if r.N == 0 && r.Test != benford.Summation {
+		fmt.Fprintln(w, "  no amounts")
+		return nil
+	}
+	summation := r.Test == benford.Summation
+	cols := []string{"bin", "count", "actual_%", "expected_%", "z", "flag", ""}
+	if summation {
+		cols = []string{"bin", "count", "amount", "share_%", "expected_%", "flag", ""}
+	}
+	t := &tabular.Table{Columns: cols}
+	maxP := 0.0
+	for _, b := range r.Bins {
+		maxP = math.Max(maxP, math.Max(b.Actual, b.Expected))
+	}
+	bins := r.Bins
+	if r.Test == benford.FirstThree && !allBins {
+		bins = nil
+		for _, b := range r.Bins {
+			if b.Flagged {
+				bins = append(bins, b)
+			}
+		}
+		sort.SliceStable(bins, func(i, j int) bool { return bins[i].Z > bins[j].Z })
+		if len(bins) > 30 {
+			bins = bins[:30]
+		}
+		sort.SliceStable(bins, func(i, j int) bool { return bins[i].Bin < bins[j].Bin })
+	}
+	for _, b := range bins {
+		flag := ""
+		if b.Flagged {
+			flag = "over"
+			if b.Diff < 0 {
+				flag = "under"
+			}
+		}
+		bar := scanBar(b.Actual, b.Expected, maxP, 30)
+		if summation {
+			t.Add(b.Label, bf.count(b.Count), strconv.FormatFloat(b.Amount, 'f', 2, 64), pct(b.Actual), pct(b.Expected), flag, bar)
+		} else {
+			t.Add(b.Label, bf.count(b.Count), pct(b.Actual), pct(b.Expected), fmt.Sprintf("%.2f", b.Z), flag, bar)
+		}
+	}
+	if r.Test == benford.FirstThree && !allBins {
+		fmt.Fprintf(w, "  (flagged bins only, largest Z first, at most 30: --all-bins prints all 900)\n")
+	}
+	if len(bins) > 0 {
+		if err := t.WriteText(w, 0); err != nil {
+			return err
+		}
+	}
+	// Summary statistics.
+	fmt.Fprintf(w, "MAD %.5f: %s", r.MAD, r.Conformity)
+	if !summation {
+		fmt.Fprintf(w, "; expected MAD at this N %.5f, excess %.5f", r.ExpectedMAD, r.ExcessMAD)
+	}
+	fmt.Fprintln(w)
+	if r.DF > 0 {
+		fmt.Fprintf(w, "Chi-square %.2f, %d df, p %.3g; Kolmogorov-Smirnov D %.5f (5%% critical value %.5f)\n", r.Chi2, r.DF, r.PValue, r.KSD, r.KSCritical)
+	}
+	lo, hi := r.Test.Bins()
+	fmt.Fprintf(w, "Flagged bins: %d of %d", r.Flagged, hi-lo+1)
+	if !summation {
+		fmt.Fprintf(w, "; outside Goodman's simultaneous 95%% intervals: %d", r.OutsideGoodman)
+	}
+	if len(r.TopFlagged) > 0 {
+		s := make([]string, len(r.TopFlagged))
+		for i, b := range r.TopFlagged {
+			s[i] = r.Test.Label(b)
+		}
+		fmt.Fprintf(w, "; follow up first: %s", strings.Join(s, ", "))
+	}
+	fmt.Fprintln(w)
+	if rr := r.Runs; rr != nil {
+		fmt.Fprintf(w, "Runs test: %d runs (expected %.1f, sd %.2f, z %.2f, one-sided p %.3g)\n", rr.Runs, rr.Expected, rr.SD, rr.Z, rr.P)
+		var parts []string
+		for i, s := range rr.Stretches {
+			if i == 3 || s.Kind != benford.Surplus {
+				break
+			}
+			parts = append(parts, fmt.Sprintf("%s to %s (%d bins, %+.2f%% of N)", r.Test.Label(s.From), r.Test.Label(s.To), s.Bins, 100*s.Excess))
+		}
+		if len(parts) > 0 {
+			fmt.Fprintf(w, "Largest surplus stretches: %s\n", strings.Join(parts, "; "))
+		}
+	}
+	for _, n := range r.Notes {
+		fmt.Fprintf(w, "Note: %s\n", n)
+	}
+	return nil
+}
+
+// scanBar draws actual as a bar of '#' scaled to max, with '|' where the
+// expected proportion falls.
+func scanBar(actual, expected, max float64, width int) string {
+	if max <= 0 {
+		return ""
+	}
+	n := int(math.Round(actual / max * float64(width)))
+	e := int(math.Round(expected / max * float64(width)))
+	b := []byte(strings.Repeat("#", n) + strings.Repeat(" ", max0(width-n)))
+	if e >= 0 && e <= width {
+		if e == width {
+			e = width - 1
+		}
+		b[e] = '|'
+	}
+	return strings.TrimRight(string(b), " ")
+}
+
+func max0(n int) int {
+	if n < 0 {
+		return 0
+	}
+	return n
+}
+
+func pct(x float64) string { return fmt.Sprintf("%.3f", 100*x) }
+
+func capitalize(s string) string {
+	if s == "" {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
+}
