@@ -4,14 +4,22 @@
 -- top groups (LIMIT ?) with, on every row, the number of groups and of
 -- records in all groups. Records whose key columns are blank (NULL or '')
 -- take no part in a test that needs those columns.
+--
+-- Speed: grouping tens of millions of rows by text columns is the cost, so
+-- most tests first group by 64-bit hashes of the text columns (DuckDB's
+-- hash()) to find candidate keys, then count the candidates' records on
+-- the text itself. Where that first step can only let through too much
+-- (two names with one hash fall into one candidate, which the second step
+-- splits again), the result is exact. Only the spread test counts distinct
+-- counterparties by hash; two names of one amount sharing a 64-bit hash
+-- would count once (for n names, a chance below n^2 / 2^65).
 
 -- name: dup_columns
 -- Which key columns the ledger has at all (a column that is never filled
--- was not mapped).
-SELECT count(*) FILTER (WHERE counterparty <> '') AS counterparty,
-       count(*) FILTER (WHERE doc_id <> '')       AS doc_id,
-       count(posted)                              AS posted
-FROM ledger;
+-- was not mapped). Each scan stops at the first filled value.
+SELECT EXISTS (SELECT 1 FROM ledger WHERE counterparty <> '') AS counterparty,
+       EXISTS (SELECT 1 FROM ledger WHERE doc_id <> '')       AS doc_id,
+       EXISTS (SELECT 1 FROM ledger WHERE posted IS NOT NULL) AS posted;
 
 -- name: dup_records_tested
 SELECT count(*) FROM ledger WHERE {{base}};
@@ -20,13 +28,20 @@ SELECT count(*) FROM ledger WHERE {{base}};
 -- Exact duplicates: same amount, counterparty, posted date and document,
 -- two records or more. Ranked by the excess amount, |amount| x (records - 1).
 WITH base AS (
-    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+    SELECT amount, counterparty, posted, doc_id FROM ledger
+    WHERE {{base}} AND counterparty <> '' AND doc_id <> '' AND posted IS NOT NULL
+),
+k AS (
+    SELECT amount, hash(counterparty) AS hc, hash(doc_id) AS hd, posted
+    FROM base
+    GROUP BY ALL
+    HAVING count(*) >= 2
 ),
 g AS (
-    SELECT amount, counterparty, posted, doc_id, count(*) AS records
-    FROM base
-    WHERE counterparty <> '' AND doc_id <> '' AND posted IS NOT NULL
-    GROUP BY amount, counterparty, posted, doc_id
+    SELECT b.amount, b.counterparty, b.posted, b.doc_id, count(*) AS records
+    FROM base b JOIN k
+      ON b.amount = k.amount AND b.posted = k.posted AND hash(b.counterparty) = k.hc AND hash(b.doc_id) = k.hd
+    GROUP BY ALL
     HAVING count(*) >= 2
 ),
 r AS (
@@ -44,29 +59,29 @@ LIMIT ?;
 -- name: dup_same_amount
 -- Same amount and counterparty under two or more documents (possible
 -- double payments). Ranked by the excess amount, |amount| x (documents - 1).
--- Two steps, both plain aggregates (no DISTINCT): the keys with two
--- documents or more (min <> max), then their documents.
+-- Candidates: (amount, counterparty) seen twice or more; then their
+-- documents, counted without DISTINCT.
 WITH base AS (
-    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+    SELECT amount, counterparty, posted, doc_id FROM ledger
+    WHERE {{base}} AND counterparty <> '' AND doc_id <> ''
 ),
 k AS (
-    SELECT amount, counterparty
+    SELECT amount, hash(counterparty) AS hc
     FROM base
-    WHERE counterparty <> '' AND doc_id <> ''
-    GROUP BY amount, counterparty
-    HAVING min(doc_id) <> max(doc_id)
+    GROUP BY ALL
+    HAVING count(*) >= 2
 ),
 d AS (
-    SELECT amount, counterparty, doc_id, count(*) AS n, min(posted) AS first_posted, max(posted) AS last_posted
-    FROM base SEMI JOIN k USING (amount, counterparty)
-    WHERE doc_id <> ''
-    GROUP BY amount, counterparty, doc_id
+    SELECT b.amount, b.counterparty, b.doc_id, count(*) AS n, min(b.posted) AS first_posted, max(b.posted) AS last_posted
+    FROM base b JOIN k ON b.amount = k.amount AND hash(b.counterparty) = k.hc
+    GROUP BY ALL
 ),
 g AS (
     SELECT amount, counterparty, sum(n) AS records, count(*) AS documents,
            min(first_posted) AS first_posted, max(last_posted) AS last_posted
     FROM d
     GROUP BY amount, counterparty
+    HAVING count(*) >= 2
 ),
 r AS (
     SELECT *, CAST(abs(amount) AS {{wide}}) * (documents - 1) AS excess,
@@ -88,21 +103,19 @@ LIMIT ?;
 -- documents is a group. Every pair of records of different documents
 -- within the window lies in one group, and each group holds such a pair.
 WITH base AS (
-    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
-),
-b AS (
-    SELECT amount, counterparty, posted, doc_id FROM base
-    WHERE counterparty <> '' AND doc_id <> '' AND posted IS NOT NULL
+    SELECT amount, counterparty, posted, doc_id FROM ledger
+    WHERE {{base}} AND counterparty <> '' AND doc_id <> '' AND posted IS NOT NULL
 ),
 k AS (
-    SELECT amount, counterparty FROM b
-    GROUP BY amount, counterparty
-    HAVING min(doc_id) <> max(doc_id)
+    SELECT amount, hash(counterparty) AS hc
+    FROM base
+    GROUP BY ALL
+    HAVING count(*) >= 2
 ),
 s AS (
     SELECT b.*,
-           CASE WHEN posted - lag(posted) OVER (PARTITION BY amount, counterparty ORDER BY posted) > ? THEN 1 ELSE 0 END AS brk
-    FROM b SEMI JOIN k USING (amount, counterparty)
+           CASE WHEN b.posted - lag(b.posted) OVER (PARTITION BY b.amount, b.counterparty ORDER BY b.posted) > ? THEN 1 ELSE 0 END AS brk
+    FROM base b JOIN k ON b.amount = k.amount AND hash(b.counterparty) = k.hc
 ),
 c AS (
     -- RANGE framing (the default) counts every record of the same date
@@ -112,7 +125,7 @@ c AS (
 d AS (
     SELECT amount, counterparty, cluster, doc_id, count(*) AS n, min(posted) AS first_posted, max(posted) AS last_posted
     FROM c
-    GROUP BY amount, counterparty, cluster, doc_id
+    GROUP BY ALL
 ),
 g AS (
     SELECT amount, counterparty, cluster, sum(n) AS records, count(*) AS documents,
@@ -136,22 +149,23 @@ LIMIT ?;
 
 -- name: dup_same_doc
 -- Same document and counterparty with two or more different amounts.
--- Ranked by the sum of absolute amounts. Two steps as above: the keys with
--- two amounts or more (min <> max), then their amounts.
+-- Ranked by the sum of absolute amounts. Candidates: (document,
+-- counterparty) whose smallest and largest amounts differ; then their
+-- amounts, counted without DISTINCT.
 WITH base AS (
-    SELECT amount, counterparty, posted, doc_id FROM ledger WHERE {{base}}
+    SELECT amount, counterparty, posted, doc_id FROM ledger
+    WHERE {{base}} AND counterparty <> '' AND doc_id <> ''
 ),
 k AS (
-    SELECT doc_id, counterparty
+    SELECT hash(doc_id) AS hd, hash(counterparty) AS hc
     FROM base
-    WHERE counterparty <> '' AND doc_id <> ''
-    GROUP BY doc_id, counterparty
+    GROUP BY ALL
     HAVING min(amount) <> max(amount)
 ),
 d AS (
-    SELECT doc_id, counterparty, amount, count(*) AS n, min(posted) AS first_posted, max(posted) AS last_posted
-    FROM base SEMI JOIN k USING (doc_id, counterparty)
-    GROUP BY doc_id, counterparty, amount
+    SELECT b.doc_id, b.counterparty, b.amount, count(*) AS n, min(b.posted) AS first_posted, max(b.posted) AS last_posted
+    FROM base b JOIN k ON hash(b.doc_id) = k.hd AND hash(b.counterparty) = k.hc
+    GROUP BY ALL
 ),
 g AS (
     SELECT doc_id, counterparty, sum(n) AS records, count(*) AS amounts,
@@ -161,6 +175,7 @@ g AS (
            sum(CAST(abs(amount) AS {{wide}}) * n) AS abs_total
     FROM d
     GROUP BY doc_id, counterparty
+    HAVING count(*) >= 2
 )
 SELECT doc_id, counterparty, CAST(records AS BIGINT), amounts,
        CAST(min_amount AS VARCHAR), CAST(max_amount AS VARCHAR),
@@ -174,15 +189,12 @@ LIMIT ?;
 -- name: dup_spread
 -- One amount spread across many counterparties (at least ? of them).
 -- Ranked by the number of counterparties, then records. Counterparties are
--- counted by a first aggregate per (amount, counterparty), not DISTINCT.
-WITH base AS (
-    SELECT amount, counterparty FROM ledger WHERE {{base}}
-),
-p AS (
-    SELECT amount, counterparty, count(*) AS n
-    FROM base
-    WHERE counterparty <> ''
-    GROUP BY amount, counterparty
+-- told apart by the hash of their name (see the note at the top).
+WITH p AS (
+    SELECT amount, hash(counterparty) AS hc, count(*) AS n
+    FROM ledger
+    WHERE {{base}} AND counterparty <> ''
+    GROUP BY ALL
 ),
 g AS (
     SELECT amount, count(*) AS counterparties, sum(n) AS records

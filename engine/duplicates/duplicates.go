@@ -222,11 +222,11 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, erro
 		return nil, fmt.Errorf("duplicates: %w", err)
 	}
 	have := map[string]bool{}
-	var cp, doc, posted int64
+	var cp, doc, posted bool
 	if err := ws.Conn.QueryRowContext(ctx, queries.Get("dup_columns")).Scan(&cp, &doc, &posted); err != nil {
 		return nil, fmt.Errorf("duplicates: %w", err)
 	}
-	have["counterparty"], have["doc_id"], have["posted"] = cp > 0, doc > 0, posted > 0
+	have["counterparty"], have["doc_id"], have["posted"] = cp, doc, posted
 	repl := map[string]string{"base": base.SQL, "wide": fmt.Sprintf("DECIMAL(38,%d)", at.Scale)}
 	limit := int64(o.Top)
 	if limit < 0 {
