@@ -523,7 +523,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			return fmt.Errorf("the duplicates step did not complete")
 		}
 		for _, tr := range r.duplicates.Tests {
-			if tr.Test != e.Test || tr.Status != "ok" {
+			if e.Test != "" && tr.Test != e.Test || tr.Status != "ok" {
 				continue
 			}
 			for i := range tr.Groups {

@@ -899,17 +899,17 @@ func (c *checker) extracts(ctx context.Context, mem *workspace.Workspace, pl *Pl
 			if err == nil {
 				_, err = drill.CheckBin(string(bt), firstBin(bt))
 			}
-			if err != nil {
+			switch {
+			case err != nil:
 				c.errf(key+".test", "test %q: %v", e.Test, err)
-			} else {
+			case pl.Battery != nil && !pl.Battery.Options.Has(bt):
+				c.errf(key+".test", "test %q is not among [battery] tests", e.Test)
+			default:
 				ep.Test = string(bt)
-				if bt == benford.Summation {
-					ep.Test = string(benford.Summation)
-				}
 			}
 		case "duplicates":
 			if e.Test == "" {
-				c.errf(key+".test", "name the duplicate test whose top groups to extract (%s)", strings.Join(duplicates.Tests, ", "))
+				// Every duplicate test the pack runs: the top groups of each.
 			} else if !contains(duplicates.Tests, e.Test) {
 				c.errf(key+".test", "unknown duplicate test %q (tests: %s)", e.Test, strings.Join(duplicates.Tests, ", "))
 			} else if pl.Duplicates != nil && len(pl.Duplicates.Tests) > 0 && !contains(pl.Duplicates.Tests, e.Test) {

@@ -193,6 +193,8 @@ files = ["skerrimoor_ledger_2025.parquet"]
 		{"segment column missing", "[battery]\nsegments = [\"vendor\"]\n", "segments", `no column "vendor"`},
 		{"extract from a step not run", "[[extract]]\nname = \"e\"\nfrom = \"limits\"\n", "from =", "the pack does not run [limits]"},
 		{"extract group_by missing", "[limits]\n[[extract]]\nname = \"e\"\nfrom = \"limits\"\ngroup_by = \"vendor\"\n", "group_by", `no column "vendor"`},
+		{"extract of a digit test not run", "[battery]\ntests = [\"first\"]\n[[extract]]\nname = \"e\"\nfrom = \"battery\"\ntest = \"first_two\"\n", "test = \"first_two\"", "not among [battery] tests"},
+		{"extract of the second-order test", "[battery]\n[[extract]]\nname = \"e\"\nfrom = \"battery\"\ntest = \"second_order\"\n", "test = \"second_order\"", "not records"},
 		{"signs", "[population]\nsigns = \"positives\"\n", "signs", `signs "positives": give positive, negative or both`},
 		{"negative minimum", "[population]\nmin_amount = -5\n", "min_amount", "the minimum is on absolute amounts"},
 	}

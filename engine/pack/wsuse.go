@@ -88,7 +88,6 @@ func fingerprint(pl *Plan, inputs []inputFile) string {
 //     that two clients' data never meet in one workspace.
 func openWorkspace(ctx context.Context, pl *Plan, inputs []inputFile, fresh bool, log io.Writer) (ws *workspace.Workspace, action, reason string, err error) {
 	fp := fingerprint(pl, inputs)
-	p := pl.Pack
 	if pl.Workspace == ":memory:" {
 		ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
 		if err != nil {
@@ -142,7 +141,6 @@ func openWorkspace(ctx context.Context, pl *Plan, inputs []inputFile, fresh bool
 	if err != nil {
 		return nil, "", "", err
 	}
-	_ = p
 	return ws, "loaded", "new workspace", nil
 }
 
