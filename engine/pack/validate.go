@@ -663,7 +663,7 @@ func (c *checker) scope(pl *Plan, key string, s Scope) drill.Base {
 		t, err := min.Text()
 		switch {
 		case err != nil:
-			c.errf(minKey, "min_amount: %v", err)
+			c.errf(minKey, "%v", err)
 		case strings.HasPrefix(t, "-"):
 			c.errf(minKey, "min_amount %s: the minimum is on absolute amounts; give 0 or more (choose the sign with signs)", t)
 		default:
@@ -681,7 +681,7 @@ func (c *checker) intParam(key string, n Number, def, lo int64, what string) int
 	}
 	v, err := n.Int()
 	if err != nil {
-		c.errf(key, "%s: %v", what, err)
+		c.errf(key, "%v", err)
 		return def
 	}
 	if v < lo {
@@ -773,7 +773,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		if l.Width.Set() {
 			w, err := l.Width.Float()
 			if err != nil {
-				c.errf("limits.width", "width: %v", err)
+				c.errf("limits.width", "%v", err)
 			} else if err := limits.CheckWidth(w); err != nil {
 				c.errf("limits.width", "width %v: the band is a fraction of the limit, strictly between 0 and 1 (0.10 for 10%%)", w)
 			} else {
