@@ -7,6 +7,8 @@ import (
 	"path/filepath"
 	"time"
 
+	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
 	"github.com/leadline/leadline/queries/packs"
 	"github.com/spf13/pflag"
@@ -27,30 +29,46 @@ extracts and three journal-entry checks. The output folder gets the
 workbook, CSV and Parquet tables, results.json, manifest.json and
 report.html. Everything is deterministic from --seed.
 
+--scenario threshold instead writes the worked example of the limit probe:
+500,000 amounts from a scale-invariant population (log-uniform from 10 to
+1,000,000) over 50 cost centres, plus 10% more amounts uniform in
+[2,000, 5,000) in cost centre CC07, as if entries were kept under a 5,000
+approval limit; it loads them into a workspace and prints the commands
+that find the injection.
+
 Examples:
   leadline demo                                # 1,000,000 rows into ./leadline-demo
-  leadline demo --rows 200000 --out demo-small`,
+  leadline demo --rows 200000 --out demo-small
+  leadline demo --scenario threshold --out threshold`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var o demoOptions
 			fs.Int64Var(&o.rows, "rows", 1_000_000, "ledger rows to generate")
 			fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
 			fs.StringVar(&o.out, "out", "leadline-demo", "output folder (created; an earlier demo there is replaced)")
 			fs.Float64Var(&o.badRate, "bad-rate", 0.001, "share of CSV rows written with a malformed amount, to show rejects")
+			fs.StringVar(&o.scenario, "scenario", "", "threshold: the limit probe's worked example instead of the group ledger")
 			return func(ctx context.Context, args []string, e *env) error {
 				if len(args) > 0 {
 					return fmt.Errorf("demo takes no arguments (see --help)")
 				}
-				return runDemo(ctx, e, o)
+				switch o.scenario {
+				case "":
+					return runDemo(ctx, e, o)
+				case "threshold":
+					return runThresholdDemo(ctx, e, o)
+				}
+				return fmt.Errorf("--scenario %q: the only scenario is threshold", o.scenario)
 			}
 		},
 	})
 }
 
 type demoOptions struct {
-	rows    int64
-	seed    uint64
-	out     string
-	badRate float64
+	rows     int64
+	seed     uint64
+	out      string
+	badRate  float64
+	scenario string
 }
 
 // The demo pack names this file and this workspace (queries/packs/demo.toml).
@@ -105,5 +123,43 @@ What was planted, and where leadline shows it (answer key: fixtures/README.md):
 Open %s in a browser for the report, or %s for the workbook.
 Demo finished in %.1fs. Results are signals for follow-up, never proof.
 `, filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
+	return nil
+}
+
+// runThresholdDemo writes and loads the limit probe's worked example.
+func runThresholdDemo(ctx context.Context, e *env, o demoOptions) error {
+	if err := os.MkdirAll(o.out, 0o755); err != nil {
+		return err
+	}
+	csvPath := filepath.Join(o.out, "threshold.csv")
+	injected, err := fixtures.WriteThresholdCSV(csvPath, fixtures.ThresholdScenario{Base: 500_000, Share: 0.10, Seed: o.seed, Segments: 50})
+	if err != nil {
+		return err
+	}
+	db := filepath.Join(o.out, "threshold.duckdb")
+	for _, p := range []string{db, db + ".wal"} {
+		os.Remove(p)
+	}
+	fmt.Fprintf(e.stdout, "Wrote %s: 500,000 log-uniform amounts over 50 cost centres, plus %d uniform in [2000, 5000) in %s.\n\n", csvPath, injected, fixtures.InjectedSegment)
+	ws, err := workspace.Open(ctx, db, workspace.Options{})
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	rep, err := load.Load(ctx, ws, []string{csvPath}, load.Options{})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stdout, "Loaded %d rows into %s. Now try:\n", rep.RowsLoaded, db)
+	for _, c := range []string{
+		"scan --tests first_two",
+		"limits",
+		"ranges --width 500 --from 0 --to 20000",
+		"scan --tests first_two --by cost_centre",
+		"limits --by cost_centre",
+		"drill --range 2000:5000 --group cost_centre",
+	} {
+		fmt.Fprintf(e.stdout, "  leadline %s --db %s\n", c, db)
+	}
 	return nil
 }
