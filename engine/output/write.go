@@ -213,35 +213,46 @@ func hashFile(path string) (int64, string, error) {
 	return n, hex.EncodeToString(h.Sum(nil)), nil
 }
 
-// PrepareDir makes dir ready for a run of the pack: it creates it when
-// missing; accepts it empty; and when it holds an earlier run's
-// manifest.json of the same pack (same name and client), removes the files
-// that run wrote (and any stray tables/*.csv and *.parquet), so that no
-// stale table survives. It refuses a folder that holds another pack's
-// results, or files that are not a leadline output, so that two clients'
-// results never mix.
-func PrepareDir(dir string, pack PackInfo) error {
+// CheckDir says whether dir may take a run of the pack, without changing
+// anything: a missing or empty folder may, and so may an earlier output
+// folder of the same pack (same name and client in its manifest.json). A
+// folder that holds another pack's results, or files that are not a
+// leadline output, may not, so that two clients' results never mix. It
+// returns the earlier run's manifest, if any.
+func CheckDir(dir string, pack PackInfo) (*Manifest, error) {
 	entries, err := os.ReadDir(dir)
-	if errors.Is(err, fs.ErrNotExist) {
-		return os.MkdirAll(dir, 0o755)
+	if errors.Is(err, fs.ErrNotExist) || err == nil && len(entries) == 0 {
+		return nil, nil
 	}
 	if err != nil {
-		return err
-	}
-	if len(entries) == 0 {
-		return nil
+		return nil, err
 	}
 	data, err := os.ReadFile(filepath.Join(dir, ManifestFile))
 	if err != nil {
-		return fmt.Errorf("output folder %s is not empty and holds no %s: give an empty or new folder (leadline never mixes its results with other files)", dir, ManifestFile)
+		return nil, fmt.Errorf("output folder %s is not empty and holds no %s: give an empty or new folder (leadline never mixes its results with other files)", dir, ManifestFile)
 	}
 	var old Manifest
 	if err := json.Unmarshal(data, &old); err != nil {
-		return fmt.Errorf("output folder %s: %s is not a leadline manifest (%v); give another folder", dir, ManifestFile, err)
+		return nil, fmt.Errorf("output folder %s: %s is not a leadline manifest (%v); give another folder", dir, ManifestFile, err)
 	}
 	if old.Pack.Name != pack.Name || old.Pack.Client != pack.Client {
-		return fmt.Errorf("output folder %s holds the results of pack %q (client %q); this pack is %q (client %q): give another --out so that the two never mix",
+		return nil, fmt.Errorf("output folder %s holds the results of pack %q (client %q); this pack is %q (client %q): give another --out so that the two never mix",
 			dir, old.Pack.Name, old.Pack.Client, pack.Name, pack.Client)
+	}
+	return &old, nil
+}
+
+// PrepareDir makes dir ready for a run of the pack (see CheckDir): it
+// creates it when missing, and when it holds an earlier run of the same
+// pack removes the files that run wrote (and any stray tables/*.csv and
+// *.parquet), so that no stale table survives.
+func PrepareDir(dir string, pack PackInfo) error {
+	old, err := CheckDir(dir, pack)
+	if err != nil {
+		return err
+	}
+	if old == nil {
+		return os.MkdirAll(dir, 0o755)
 	}
 	for _, o := range old.Outputs {
 		p := filepath.Join(dir, filepath.FromSlash(o.Path))

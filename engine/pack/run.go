@@ -32,8 +32,9 @@ type Result struct {
 	StepErrors []string
 }
 
-// Run checks the pack, prepares the output folder, loads the sources or
-// reuses the workspace, runs every step and writes the output folder. A
+// Run checks the pack and the output folder, loads the sources or reuses
+// the workspace, runs every step and writes the output folder (replacing
+// an earlier run's files only once every result is in hand). A
 // pack with problems returns *Problems and runs nothing.
 func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	now := o.Now
@@ -58,7 +59,7 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		return nil, err
 	}
 	info := output.PackInfo{Name: p.Pack.Name, Client: p.Pack.Client, Period: p.Pack.Period, File: p.File, SHA256: p.SHA256}
-	if err := output.PrepareDir(out, info); err != nil {
+	if _, err := output.CheckDir(out, info); err != nil {
 		return nil, err
 	}
 	inputs, err := hashInputs(pl)
@@ -159,6 +160,10 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	}
 	run.Manifest.Run.FinishedAt = now().UTC()
 	t0 = time.Now()
+	// Only now, with every result in hand, the earlier run's files go.
+	if err := output.PrepareDir(out, info); err != nil {
+		return nil, err
+	}
 	outs, err := output.WriteAll(ctx, out, run, o.Output)
 	if err != nil {
 		return nil, err
