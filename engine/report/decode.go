@@ -13,6 +13,7 @@ import (
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sensitivity"
 )
 
 // resolvePointer returns the JSON value at an RFC 6901 pointer.
@@ -377,6 +378,31 @@ func (m *Model) addDuplicates(r *Run, doc json.RawMessage, base string) error {
 	if m.Workspace != "" && m.Workspace != ranges.DefaultWorkspace {
 		m.Duplicates.DB = "--db " + ranges.ShellQuote(m.Workspace) + " "
 	}
+	return nil
+}
+
+// addSensitivity reads a sensitivity study (sensitivity.Result).
+func (m *Model) addSensitivity(r *Run, doc json.RawMessage, base string) error {
+	var res sensitivity.Result
+	if err := json.Unmarshal(doc, &res); err != nil {
+		return err
+	}
+	if len(res.Rows) == 0 || len(res.Rates) == 0 {
+		return fmt.Errorf("no signals in the study")
+	}
+	o := res.Options
+	what := o.Kind
+	switch o.Kind {
+	case sensitivity.Uniform:
+		what = fmt.Sprintf("amounts uniform between %s and %s", compactAmount(o.From), compactAmount(o.To))
+	case sensitivity.BelowLimit:
+		what = fmt.Sprintf("amounts uniform just below %s (within %s%%)", compactAmount(o.Limit), trimZeros(fmt.Sprintf("%.2f", o.Width*100)))
+	case sensitivity.Repeated:
+		what = fmt.Sprintf("the amount %s again and again", compactAmount(o.Amount))
+	case sensitivity.Rounded:
+		what = "amounts rounded to whole hundreds"
+	}
+	m.Sensitivity = append(m.Sensitivity, &SensitivitySection{Run: r, Ref: srcRef(base, "", "sensitivity"), Result: res, What: what})
 	return nil
 }
 

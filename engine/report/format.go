@@ -15,6 +15,7 @@ import (
 //
 //	int     whole number with thousands separators: 1,234,567
 //	pct:N   a proportion as a percentage with N decimals: 4.52%
+//	pct:~   a proportion as a percentage, as few decimals as needed: 0.5%
 //	f:N     N decimals: 0.00123
 //	sf      four significant digits, plain or exponent: 12.35, 3.142e-05
 //	p       a p-value: four decimals, or an exponent below 0.001
@@ -53,6 +54,10 @@ func formatFloat(x float64, kind string) string {
 	case "int":
 		s = groupThousands(strconv.FormatFloat(math.Round(x), 'f', 0, 64))
 	case "pct":
+		if arg == "~" { // as few decimals as the value needs, up to four
+			s = groupThousands(trimZeros(strconv.FormatFloat(x*100, 'f', 4, 64))) + "%"
+			break
+		}
 		s = groupThousands(strconv.FormatFloat(x*100, 'f', dec, 64)) + "%"
 	case "f":
 		s = groupThousands(strconv.FormatFloat(x, 'f', dec, 64))

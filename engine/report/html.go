@@ -16,6 +16,7 @@ import (
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/sensitivity"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -78,7 +79,13 @@ var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 	"diffChart": func(t DigitTest) template.HTML {
 		return template.HTML(diffChart(t.ID+"-runs", &t.Result, stretchesOf(&t.Result)))
 	},
-	"inc":           func(i int) int { return i + 1 },
+	"inc": func(i int) int { return i + 1 },
+	"detectionAt": func(r sensitivity.Row, j int) float64 {
+		if j < len(r.Detection) {
+			return r.Detection[j]
+		}
+		return 0
+	},
 	"compactAmount": compactAmount,
 	"len64":         func(g []duplicates.Group) int64 { return int64(len(g)) },
 	"dupColumns":    dupColumns,
@@ -118,6 +125,9 @@ func Write(w io.Writer, m *Model) error {
 	add("ranges", "Amount ranges", m.absent["ranges"], m.Ranges)
 	add("duplicates", "Duplicate groups", m.absent["duplicates"], m.Duplicates)
 	add("drill", "Drill-down extracts", m.absent["drill"], m.Drills)
+	if len(m.Sensitivity) > 0 {
+		add("sensitivity", "Sensitivity: what the tests would have detected", "", m.Sensitivity)
+	}
 	add("manifest", "Manifest", m.absent["manifest"], m.Manifest)
 	if len(m.Others) > 0 {
 		add("other", "Other stored runs", "", m.Others)

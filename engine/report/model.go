@@ -11,6 +11,7 @@ import (
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sensitivity"
 )
 
 // Caution is the sentence every report opens with.
@@ -44,6 +45,7 @@ type Model struct {
 	Ranges       *RangeSection
 	Duplicates   *DuplicateSection
 	Drills       *DrillSection
+	Sensitivity  []*SensitivitySection
 	Manifest     *GenericSection
 
 	// Others are runs of kinds the report has no section of its own for
@@ -349,6 +351,15 @@ type DuplicateSection struct {
 	Ref    ref
 	Result duplicates.Result
 	DB     string // "--db PATH " for the drill commands, when not the default workspace
+}
+
+// SensitivitySection is one sensitivity study: per signal, the share of
+// seeds in which it fired, per injection rate.
+type SensitivitySection struct {
+	Run    *Run
+	Ref    ref
+	Result sensitivity.Result
+	What   string // the injection in words
 }
 
 // DrillSection holds the drill-down extracts.

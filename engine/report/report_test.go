@@ -317,12 +317,13 @@ func TestReportNumbersMatchStoredResults(t *testing.T) {
 		"summation.mad", "files.1.rows_read", "files.1.rows_rejected", "files.1.net", "total.rows_loaded",
 		"limits.flagged", "ranges.flagged", "duplicates.records_tested",
 		"scan.tested", "scan.duplication.distinct", "scan.segments.ranked", "second_order.mad",
+		"sensitivity.n", "sensitivity.rows.limit probe flags the limit.detection.2",
 	} {
 		if !fields[f] {
 			t.Errorf("no number marked %q", f)
 		}
 	}
-	for _, id := range []string{"summary", "completeness", "digits", "runs", "segments", "limits", "ranges", "duplicates"} {
+	for _, id := range []string{"summary", "completeness", "digits", "runs", "segments", "limits", "ranges", "duplicates", "sensitivity"} {
 		s := sections[id]
 		if s == nil {
 			t.Errorf("section %s missing", id)

@@ -12,10 +12,12 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sensitivity"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
 )
@@ -100,6 +102,21 @@ func buildDemo() (*demo, error) {
 		return nil, fmt.Errorf("ranges: %w", err)
 	}
 	if d.runIDs["ranges"], err = saveRun(ctx, d.ws, "ranges", rng); err != nil {
+		return nil, err
+	}
+	so := sensitivity.Options{Kind: sensitivity.BelowLimit, Limit: 5000, Seeds: 5, Rates: []float64{0, 0.01, 0.05}}
+	if err := so.Validate(); err != nil {
+		return nil, err
+	}
+	pop, err := sensitivity.FromWorkspace(ctx, d.ws, drill.Base{}.WithDefaults(), so)
+	if err != nil {
+		return nil, fmt.Errorf("sensitivity: %w", err)
+	}
+	sens, err := sensitivity.Run(pop, so)
+	if err != nil {
+		return nil, fmt.Errorf("sensitivity: %w", err)
+	}
+	if d.runIDs["sensitivity"], err = saveRun(ctx, d.ws, "sensitivity", sens); err != nil {
 		return nil, err
 	}
 	dup, err := duplicates.Run(ctx, d.ws, duplicates.Options{})

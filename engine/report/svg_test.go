@@ -249,6 +249,8 @@ func TestFormats(t *testing.T) {
 		{"-1234567.89", "money", "−1,234,567.89"},
 		{"12.50", "money", "12.50"},
 		{12.3456, "sf", "12.35"},
+		{0.005, "pct:~", "0.5%"},
+		{0.07, "pct:~", "7%"},
 		{math.NaN(), "f:2", "n/a"},
 	} {
 		if got := formatValue(c.v, c.kind); got != c.want {

@@ -15,12 +15,13 @@ import (
 
 // Run kinds the report has sections for.
 const (
-	KindScan       = "scan"
-	KindLimits     = "limits"
-	KindRanges     = "ranges"
-	KindDuplicates = "duplicates"
-	KindDrill      = "drill"
-	KindPack       = "pack"
+	KindScan        = "scan"
+	KindLimits      = "limits"
+	KindRanges      = "ranges"
+	KindDuplicates  = "duplicates"
+	KindDrill       = "drill"
+	KindPack        = "pack"
+	KindSensitivity = "sensitivity"
 )
 
 // Options say what a report covers.
@@ -35,8 +36,8 @@ type Options struct {
 	// manifest section; when empty, the latest pack run's stored result
 	// is used, if any.
 	Manifest json.RawMessage
-	// MaxDrills bounds the drill runs shown when RunIDs is empty
-	// (default 5).
+	// MaxDrills bounds the drill runs and the sensitivity studies shown
+	// when RunIDs is empty (default 5 of each).
 	MaxDrills int
 	// RejectSamples is the number of rejected rows shown per file as
 	// examples (default 5).
@@ -81,9 +82,11 @@ func FromWorkspace(ctx context.Context, ws *workspace.Workspace, opts Options) (
 		return nil, fmt.Errorf("report: reading the loads: %w", err)
 	}
 	for _, r := range runs {
-		if latestLoad.Valid && r.StartedAt.Before(latestLoad.Time) {
+		// A run is stale when a load finished after it did (a pack run
+		// loads inside itself, so its start precedes its own load).
+		if latestLoad.Valid && r.FinishedAt.Before(latestLoad.Time) {
 			r.Stale = true
-			m.Notes = append(m.Notes, fmt.Sprintf("Run %d (%s) started before the latest load finished (%s): its figures may not describe the ledger as it is now; rerun it.",
+			m.Notes = append(m.Notes, fmt.Sprintf("Run %d (%s) was made before the latest load finished (%s): its figures may not describe the ledger as it is now; rerun it.",
 				r.ID, r.Kind, latestLoad.Time.UTC().Format("2006-01-02 15:04:05 UTC")))
 		}
 		m.Runs = append(m.Runs, *r)
@@ -139,11 +142,14 @@ func pickRuns(ctx context.Context, ws *workspace.Workspace, opts Options) ([]*Ru
 			}
 		}
 	} else {
+		// The latest run of each kind; of drill-downs and sensitivity
+		// studies (several of which make sense side by side) the latest
+		// MaxDrills.
 		latest := map[string]*Run{}
-		var drills []*Run
+		several := map[string][]*Run{}
 		for _, r := range all {
-			if r.Kind == KindDrill {
-				drills = append(drills, r)
+			if r.Kind == KindDrill || r.Kind == KindSensitivity {
+				several[r.Kind] = append(several[r.Kind], r)
 				continue
 			}
 			latest[r.Kind] = r
@@ -151,10 +157,13 @@ func pickRuns(ctx context.Context, ws *workspace.Workspace, opts Options) ([]*Ru
 		for _, k := range sortedKeys(latest) {
 			picked = append(picked, latest[k])
 		}
-		if len(drills) > opts.MaxDrills {
-			drills = drills[len(drills)-opts.MaxDrills:]
+		for _, k := range sortedKeys(several) {
+			rs := several[k]
+			if len(rs) > opts.MaxDrills {
+				rs = rs[len(rs)-opts.MaxDrills:]
+			}
+			picked = append(picked, rs...)
 		}
-		picked = append(picked, drills...)
 	}
 	sort.SliceStable(picked, func(i, j int) bool { return picked[i].ID < picked[j].ID })
 	for _, r := range picked {
@@ -287,6 +296,8 @@ func (m *Model) addRuns(runs []*Run) error {
 			err = m.addDrill(r, r.Result, base, fmt.Sprintf("Extract (run %d)", r.ID))
 		case KindPack:
 			err = m.addPackDoc(r, r.Result, base)
+		case KindSensitivity:
+			err = m.addSensitivity(r, r.Result, base)
 		default:
 			err = m.addOther(r, fmt.Sprintf("Run %d: %s", r.ID, r.Kind))
 		}
