@@ -164,6 +164,11 @@ sql = "SELECT doc_id, entity, amount FROM ledger WHERE abs(amount) >= 100000 ORD
 		t.Errorf("report from the workspace after a pack run: limits %v ranges %v duplicates %v extracts %v manifest %v findings %d",
 			m.Limits != nil, m.Ranges != nil, m.Duplicates != nil, m.Drills != nil, m.Manifest != nil, len(m.Findings))
 	}
+	for _, r := range m.Runs {
+		if r.Stale {
+			t.Errorf("run %d (%s) marked stale: a pack run loads inside itself", r.ID, r.Kind)
+		}
+	}
 	var buf bytes.Buffer
 	if err := Write(&buf, m); err != nil {
 		t.Fatal(err)
