@@ -22,6 +22,39 @@ FROM sel LEFT JOIN files f ON f.file_id = sel.file_id
 ORDER BY {{order}}
 {{limit}};
 
+-- name: drill_records_first
+-- The first records in file order. No ORDER BY inside: the scan stops as
+-- soon as LIMIT records are found (DuckDB keeps insertion order, which is
+-- row_id order).
+WITH sel AS (
+    SELECT * FROM ledger
+    WHERE {{where}}
+    LIMIT ?
+)
+SELECT sel.*, f.name AS {{file_col}}
+FROM sel LEFT JOIN files f ON f.file_id = sel.file_id
+ORDER BY sel.row_id;
+
+-- name: drill_record_ids
+-- Sorted records, first step: the row_ids of the first LIMIT records in
+-- the order asked, reading only the columns the predicate and the order
+-- need (the second step fetches the rows: reading every column of every
+-- row to sort them would cost far more).
+SELECT row_id FROM ledger
+WHERE {{where}}
+ORDER BY {{order}}
+LIMIT ?;
+
+-- name: drill_records_by_id
+-- Sorted records, second step: the rows of the row_ids found.
+WITH sel AS (
+    SELECT * FROM ledger
+    WHERE row_id IN ({{ids}})
+)
+SELECT sel.*, f.name AS {{file_col}}
+FROM sel LEFT JOIN files f ON f.file_id = sel.file_id
+ORDER BY {{order}};
+
 -- name: drill_groups
 -- Per group: records, total amount, distinct amounts and the most repeated
 -- amounts ("1847.23×312; 250.00×40"), only amounts seen at least twice.

@@ -533,3 +533,43 @@ func TestBadInput(t *testing.T) {
 		t.Errorf("empty result message: %v", e)
 	}
 }
+
+// TestFileOrder: without --sort the records come in file order (the first
+// N lines of the selection), with --desc the last N; sorting by file_name
+// keeps file order within the file.
+func TestFileOrder(t *testing.T) {
+	ws, l := setup(t)
+	ctx := context.Background()
+	b, err := drill.Build(ctx, ws, drill.Selection{Test: "first", Bin: bin(7)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var want []int64
+	for _, r := range l.Rows {
+		d, _ := drill.DigitsOf(big.NewInt(r.Cents))
+		if r.Cents >= 1000 && d[benford.FirstDigit] == 7 {
+			want = append(want, r.Line)
+		}
+	}
+	sort.Slice(want, func(i, j int) bool { return want[i] < want[j] })
+	for _, o := range []drill.RecordOptions{{Limit: 25}, {Limit: 25, Desc: true}, {Limit: 25, Sort: "file_name"}} {
+		tab, more, err := drill.Records(ctx, ws, b, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !more || len(tab.Rows) != 25 {
+			t.Fatalf("%+v: %d rows, more %v", o, len(tab.Rows), more)
+		}
+		li := colIndex(t, tab.Columns, "line")
+		for i, r := range tab.Rows {
+			w := want[i]
+			if o.Desc {
+				w = want[len(want)-1-i]
+			}
+			if r[li].(int64) != w {
+				t.Errorf("%+v: row %d is line %d, want %d", o, i, r[li], w)
+				break
+			}
+		}
+	}
+}

@@ -51,33 +51,56 @@ type RecordOptions struct {
 	Limit int // rows to return; 0 = every row (exports only)
 }
 
-// recordsQuery returns the records query and its arguments.
-func recordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOptions) (string, []any, []string, error) {
-	cols, err := ws.LedgerColumns(ctx)
-	if err != nil {
-		return "", nil, nil, err
-	}
+// fileColumn is the name of the file-name column added to the records:
+// file_name, unless the ledger has a column of that name.
+func fileColumn(cols []workspace.Column) string {
 	fileCol := "file_name"
 	for k := 2; hasColumn(cols, fileCol); k++ {
 		fileCol = fmt.Sprintf("file_name_%d", k)
 	}
+	return fileCol
+}
+
+// orderBy returns the ORDER BY of the records with columns qualified by
+// prefix ("" inside a query over ledger alone, "sel." over the drill CTE),
+// and whether it is the plain file order.
+func orderBy(ctx context.Context, ws *workspace.Workspace, o RecordOptions, fileCol, prefix string) (string, bool, error) {
 	dir := " ASC NULLS LAST"
 	if o.Desc {
 		dir = " DESC NULLS LAST"
 	}
-	order := "sel.row_id"
-	if s := strings.TrimSpace(o.Sort); s != "" {
-		if strings.EqualFold(s, fileCol) || strings.EqualFold(s, "file_name") {
-			order = "f.name" + dir + ", sel.row_id"
-		} else {
-			name, _, err := ledgerColumn(ctx, ws, s)
-			if err != nil {
-				return "", nil, nil, fmt.Errorf("--sort: %w", err)
-			}
-			order = "sel." + quoteIdent(name) + dir + ", sel.row_id"
+	s := strings.TrimSpace(o.Sort)
+	if s == "" {
+		if o.Desc {
+			return prefix + "row_id DESC", false, nil
 		}
-	} else if o.Desc {
-		order = "sel.row_id DESC"
+		return prefix + "row_id", true, nil
+	}
+	if strings.EqualFold(s, fileCol) || strings.EqualFold(s, "file_name") {
+		t := "ledger"
+		if prefix != "" {
+			t = strings.TrimSuffix(prefix, ".")
+		}
+		return "(SELECT f2.name FROM files f2 WHERE f2.file_id = " + t + ".file_id)" + dir + ", " + prefix + "row_id", false, nil
+	}
+	name, _, err := ledgerColumn(ctx, ws, s)
+	if err != nil {
+		return "", false, fmt.Errorf("--sort: %w", err)
+	}
+	return prefix + quoteIdent(name) + dir + ", " + prefix + "row_id", false, nil
+}
+
+// recordsQuery returns the one-query form of the records (used by Export,
+// where DuckDB writes every row straight to the file) and its arguments.
+func recordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOptions) (string, []any, error) {
+	cols, err := ws.LedgerColumns(ctx)
+	if err != nil {
+		return "", nil, err
+	}
+	fileCol := fileColumn(cols)
+	order, _, err := orderBy(ctx, ws, o, fileCol, "sel.")
+	if err != nil {
+		return "", nil, err
 	}
 	args := append([]any(nil), b.Where.Args...)
 	limit := ""
@@ -88,38 +111,81 @@ func recordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o Reco
 	q := queries.Render("drill_records", map[string]string{
 		"where": b.Where.SQL, "file_col": quoteIdent(fileCol), "order": order, "limit": limit,
 	})
-	names := make([]string, 0, len(cols)+1)
-	for _, c := range cols {
-		names = append(names, c.Name)
-	}
-	return q, args, append(names, fileCol), nil
+	return q, args, nil
 }
 
 // Records returns up to o.Limit records of the selection, in order, with
 // every ledger column and the file name. more reports whether the
 // selection holds further records. Only the returned rows are held in
 // memory.
+//
+// In file order the scan stops once enough records are found. In another
+// order the records are found in two steps (their row_ids first, reading
+// only the columns the order needs, then their rows), because sorting
+// whole rows would read every column of every row the selection holds.
 func Records(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOptions) (t *tabular.Table, more bool, err error) {
 	if o.Limit <= 0 {
 		o.Limit = DefaultLimit
 	}
-	want := o.Limit
-	o.Limit++ // one more to learn whether there are more
-	q, args, _, err := recordsQuery(ctx, ws, b, o)
+	cols, err := ws.LedgerColumns(ctx)
 	if err != nil {
 		return nil, false, err
+	}
+	fileCol := fileColumn(cols)
+	inner, plain, err := orderBy(ctx, ws, o, fileCol, "")
+	if err != nil {
+		return nil, false, err
+	}
+	var q string
+	var args []any
+	if plain {
+		q = queries.Render("drill_records_first", map[string]string{"where": b.Where.SQL, "file_col": quoteIdent(fileCol)})
+		args = append(append(args, b.Where.Args...), o.Limit+1)
+	} else {
+		ids, err := recordIDs(ctx, ws, b, inner, o.Limit+1)
+		if err != nil {
+			return nil, false, err
+		}
+		outer, _, err := orderBy(ctx, ws, o, fileCol, "sel.")
+		if err != nil {
+			return nil, false, err
+		}
+		marks := "NULL"
+		if len(ids) > 0 {
+			marks = strings.TrimSuffix(strings.Repeat("?, ", len(ids)), ", ")
+		}
+		q = queries.Render("drill_records_by_id", map[string]string{"ids": marks, "file_col": quoteIdent(fileCol), "order": outer})
+		args = ids
 	}
 	rows, err := ws.Conn.QueryContext(ctx, q, args...)
 	if err != nil {
 		return nil, false, fmt.Errorf("drill: %w", err)
 	}
-	t, more, err = tabular.FromRows(rows, want)
+	t, more, err = tabular.FromRows(rows, o.Limit)
 	if err != nil {
 		return nil, false, fmt.Errorf("drill: %w", err)
 	}
 	t.Name = "records"
 	exactDecimals(t)
 	return t, more, nil
+}
+
+func recordIDs(ctx context.Context, ws *workspace.Workspace, b *Built, order string, limit int) ([]any, error) {
+	q := queries.Render("drill_record_ids", map[string]string{"where": b.Where.SQL, "order": order})
+	rows, err := ws.Conn.QueryContext(ctx, q, append(append([]any(nil), b.Where.Args...), limit)...)
+	if err != nil {
+		return nil, fmt.Errorf("drill: %w", err)
+	}
+	defer rows.Close()
+	var ids []any
+	for rows.Next() {
+		var id int64
+		if err := rows.Scan(&id); err != nil {
+			return nil, err
+		}
+		ids = append(ids, id)
+	}
+	return ids, rows.Err()
 }
 
 // GroupOptions say how to group a selection.
@@ -231,7 +297,7 @@ func Export(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOpti
 	if err != nil {
 		return err
 	}
-	q, args, _, err := recordsQuery(ctx, ws, b, o)
+	q, args, err := recordsQuery(ctx, ws, b, o)
 	if err != nil {
 		return err
 	}
