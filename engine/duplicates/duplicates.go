@@ -15,7 +15,11 @@
 // A test whose key columns the ledger lacks (never filled: not mapped at
 // load) is reported as skipped with the column it needs, not as an error.
 // The tests run in DuckDB over the population of drill.Base (filter, signs,
-// minimum, with the scan's defaults); only the top groups reach Go.
+// minimum, with the scan's defaults); only the top groups reach Go. To
+// keep tens of millions of rows fast, candidate keys are first found by
+// grouping on 64-bit hashes of the text columns and then counted on the
+// text itself, which is exact; only the spread test counts distinct
+// counterparties by hash (queries/duplicates.sql gives the odds).
 //
 // A stored run keeps each group's key, so that `leadline drill --dup
 // RUN:TEST:GROUP` lists its records again (GroupSelection).
