@@ -94,15 +94,19 @@ run_browser() {
   local name="$1"; shift
   local profile
   profile="$(mktemp -d)"
+  local rc=0
   timeout 180 "$browser" --headless --no-sandbox --disable-gpu --no-first-run \
     --disable-background-networking --disable-component-update --disable-sync --disable-quic \
     --disable-extensions --disable-default-apps --no-default-browser-check --metrics-recording-only \
     --host-resolver-rules="MAP * ~NOTFOUND" --proxy-server="127.0.0.1:9" --proxy-bypass-list="<-loopback>" \
     --user-data-dir="$profile" --enable-logging=stderr --v=0 --hide-scrollbars \
-    "$@" "$url" 2>"$out/$name.log"
-  local rc=$?
+    "$@" "$url" 2>"$out/$name.log" || rc=$?
   rm -rf "$profile"
-  return $rc
+  if [ "$rc" != 0 ]; then
+    echo "browser check FAILED: chromium ($name) exited with status $rc; the end of its log:" >&2
+    tail -5 "$out/$name.log" >&2
+    exit 1
+  fi
 }
 
 echo "browser check: rendering with $("$browser" --version 2>/dev/null | tail -1) ..."
