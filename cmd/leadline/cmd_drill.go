@@ -68,6 +68,7 @@ Examples:
 			db.add(fs)
 			fs.StringVar(&sel.Test, "test", "", "digit test of the bin: first, second, first_two, first_three or last_two")
 			fs.IntVar(&bin, "bin", 0, "the bin, e.g. 47 for first_two")
+			fs.StringVar(&sel.LastTwo, "last-two", drill.LastTwoScale, "reading of the last_two test, as in the scan: scale (1234.56 -> 56) or units (1234.56 -> 34)")
 			fs.StringVar(&sel.Amount, "amount", "", "an exact amount, e.g. 1847.23")
 			fs.StringVar(&sel.Range, "range", "", "FROM:TO, records with FROM <= |amount| < TO")
 			fs.StringArrayVar(&sel.Segments, "segment", nil, "COLUMN=VALUE, e.g. counterparty=V00123 (repeatable)")

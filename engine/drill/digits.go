@@ -21,11 +21,20 @@ import (
 //   - last_two: the two rightmost digits of |x| written at the ledger's
 //     scale, as a number (0..99): 1234.56 -> 56, 10.00 -> 0, 0.29 -> 29; at
 //     scale 0, 1234 -> 34.
+//     With the "units" reading (the battery's --last-two units), the two
+//     rightmost digits of the whole-currency part instead: 1234.56 -> 34,
+//     0.50 -> 0.
 //   - Zero has no significant digits and belongs to no bin of any test.
 //
 // The predicates below are ranges and remainders over the exact DECIMAL
 // column, so DuckDB compares integers and can use the column directly:
 // first_two bin 47 <=> |x| in [47*10^k, 48*10^k) for some integer k.
+
+// Readings of the last-two digits test (as in the digit battery).
+const (
+	LastTwoScale = "scale" // the two rightmost digits at the ledger's scale: 1234.56 -> 56
+	LastTwoUnits = "units" // the two rightmost digits of the whole-currency part: 1234.56 -> 34
+)
 
 // DrillTests are the tests whose bins hold records and can be drilled.
 var DrillTests = []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.FirstThree, benford.LastTwo}
@@ -59,6 +68,12 @@ func CheckBin(test string, bin int) (benford.Test, error) {
 // "amount" for positive amounts or "abs(amount)") is non-zero and falls in
 // the bin of the test. The bin must have been checked with CheckBin.
 func BinPredicate(test benford.Test, bin int, x string, at AmountType) (string, error) {
+	return BinPredicateReading(test, bin, x, at, LastTwoScale)
+}
+
+// BinPredicateReading is BinPredicate with a reading of the last-two
+// digits test: LastTwoScale or LastTwoUnits.
+func BinPredicateReading(test benford.Test, bin int, x string, at AmountType, lastTwo string) (string, error) {
 	if _, err := CheckBin(string(test), bin); err != nil {
 		return "", err
 	}
@@ -72,6 +87,14 @@ func BinPredicate(test benford.Test, bin int, x string, at AmountType) (string, 
 	case benford.SecondDigit:
 		return secondDigit(bin, x, at), nil
 	case benford.LastTwo:
+		if lastTwo == LastTwoUnits {
+			// The rightmost two digits of the whole part: x mod 100 in
+			// [bin, bin + 1) currency units.
+			one := pow10(at.Scale)
+			return fmt.Sprintf("(%s <> 0 AND %s %% %s >= %s AND %s %% %s < %s)", x,
+				x, at.Literal(new(big.Int).Mul(big.NewInt(100), one)), at.Literal(new(big.Int).Mul(big.NewInt(int64(bin)), one)),
+				x, at.Literal(new(big.Int).Mul(big.NewInt(100), one)), at.Literal(new(big.Int).Mul(big.NewInt(int64(bin+1)), one))), nil
+		}
 		// The rightmost two digits of units(x): x mod 100 units.
 		return fmt.Sprintf("(%s <> 0 AND %s %% %s = %s)", x, x, at.Literal(big.NewInt(100)), at.Literal(big.NewInt(int64(bin)))), nil
 	}

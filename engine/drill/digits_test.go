@@ -220,3 +220,37 @@ func TestCheckBin(t *testing.T) {
 		}
 	}
 }
+
+// TestLastTwoUnits: the battery's "units" reading of the last-two digits,
+// by hand: 1234.56 -> 34, 0.50 -> 0, 99.99 -> 99, 100.00 -> 0, -47.50 -> 47.
+func TestLastTwoUnits(t *testing.T) {
+	ctx := context.Background()
+	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ws.Close()
+	at := drill.AmountType{Precision: 18, Scale: 2}
+	for _, c := range []struct {
+		amount string
+		bin    int
+	}{{"1234.56", 34}, {"0.50", 0}, {"99.99", 99}, {"100.00", 0}, {"-47.50", 47}, {"5000.01", 0}} {
+		var hits []int
+		for b := 0; b <= 99; b++ {
+			p, err := drill.BinPredicateReading(benford.LastTwo, b, "abs(amount)", at, drill.LastTwoUnits)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var ok bool
+			if err := ws.Conn.QueryRowContext(ctx, "SELECT "+p+" FROM (SELECT CAST(? AS DECIMAL(18,2)) AS amount)", c.amount).Scan(&ok); err != nil {
+				t.Fatal(err)
+			}
+			if ok {
+				hits = append(hits, b)
+			}
+		}
+		if len(hits) != 1 || hits[0] != c.bin {
+			t.Errorf("%s: units last-two bins %v, want [%d]", c.amount, hits, c.bin)
+		}
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"math/big"
 	"strings"
 
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/workspace"
 )
@@ -127,6 +128,7 @@ type Selection struct {
 	Base
 	Test     string   `json:"test,omitempty"` // digit test: first, second, first_two, first_three, last_two
 	Bin      *int     `json:"bin,omitempty"`
+	LastTwo  string   `json:"last_two,omitempty"` // reading of the last_two test: scale (default) or units
 	Amount   string   `json:"amount,omitempty"`   // exact amount; compared with |amount| under Signs (a leading minus selects negative amounts)
 	Range    string   `json:"range,omitempty"`    // FROM:TO, |amount| in [FROM, TO)
 	Segments []string `json:"segments,omitempty"` // COLUMN=VALUE, exact text match; COLUMN= matches blanks; month=YYYY-MM uses posted
@@ -181,12 +183,24 @@ func Build(ctx context.Context, ws *workspace.Workspace, s Selection) (*Built, e
 		if err != nil {
 			return nil, err
 		}
-		p, err := BinPredicate(t, *s.Bin, x, at)
+		reading := s.LastTwo
+		switch reading {
+		case "":
+			reading = LastTwoScale
+		case LastTwoScale, LastTwoUnits:
+		default:
+			return nil, fmt.Errorf("--last-two %q: give scale (1234.56 -> 56) or units (of the whole-currency part, 1234.56 -> 34)", s.LastTwo)
+		}
+		p, err := BinPredicateReading(t, *s.Bin, x, at, reading)
 		if err != nil {
 			return nil, err
 		}
 		ps = append(ps, Predicate{SQL: p})
-		desc = append(desc, fmt.Sprintf("%s bin %d", t.Name(), *s.Bin))
+		d := fmt.Sprintf("%s bin %d", t.Name(), *s.Bin)
+		if t == benford.LastTwo && reading == LastTwoUnits {
+			d += " (whole-currency units)"
+		}
+		desc = append(desc, d)
 	}
 	if s.Amount != "" {
 		r, err := parseDecimal(s.Amount)
