@@ -160,8 +160,8 @@ func (p *Plan) segmentSQL(perRow bool) (sel, names, normal string) {
 	return j(a), j(b), j(c)
 }
 
-// ScanSQL returns the one aggregate scan of the battery (shown by the
-// benchmark and --explain); its single parameter is MinUnits.
+// ScanSQL returns the one aggregate scan of the battery; its single
+// parameter is max(MinUnits, 1).
 func (p *Plan) ScanSQL() string {
 	sel, names, normal := p.segmentSQL(false)
 	q := queries.Render("battery_scan", map[string]string{
