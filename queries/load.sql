@@ -22,8 +22,11 @@ SELECT
     {{amount_expr}} AS amount,
     {{columns}}
 FROM (
-    SELECT *, {{row_number}} AS ll_rn{{fast}}
-    FROM {{reader}}
+    SELECT *{{parts}}
+    FROM (
+        SELECT *, {{row_number}} AS ll_rn{{fast}}
+        FROM {{reader}}
+    )
 );
 
 -- name: load_reject_amounts
@@ -49,12 +52,24 @@ DELETE FROM ledger WHERE file_id = ? AND amount IS NULL;
 
 -- name: load_structural_rejects
 -- Records the CSV reader itself could not take (ragged rows, bad quoting,
--- bad encoding), one row per record with its errors joined.
-SELECT line, string_agg(DISTINCT error_type || coalesce(' (' || column_name || ')', ''), '; ' ORDER BY error_type || coalesce(' (' || column_name || ')', '')) AS reason,
-       any_value(csv_line) AS raw_line
+-- bad encoding), one row per record: its error types and the columns they
+-- name, the text the reader kept, whether a quote was left open, and the
+-- byte where the record starts.
+SELECT line,
+       string_agg(DISTINCT error_type, '; ' ORDER BY error_type) AS types,
+       string_agg(DISTINCT column_name, ', ' ORDER BY column_name) AS columns,
+       any_value(csv_line) AS raw_line,
+       bool_or(error_message ILIKE '%unterminated quote%') AS unterminated,
+       min(line_byte_position) AS byte_position
 FROM {{rejects_table}}
 GROUP BY line
 ORDER BY line;
+
+-- name: ledger_ddl
+-- DuckDB's own CREATE statement for the ledger, and its row count.
+SELECT sql, (SELECT count(*) FROM ledger)
+FROM duckdb_tables()
+WHERE table_name = 'ledger' AND schema_name = 'main' AND database_name = current_database();
 
 -- name: load_file_counts
 SELECT count(*) AS rows_in_ledger, coalesce(max(line), 0) FROM ledger WHERE file_id = ?;

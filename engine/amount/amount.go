@@ -4,16 +4,17 @@
 // the SQL against, and that Go code can use on single values.
 //
 // Grammar, after runs of spaces between two digits become a thousands mark
-// and all other white space is dropped:
+// and all other white space (Unicode White_Space) is dropped:
 //
 //	[ "(" ] [sign] [currency] [sign] number [exponent] [currency] ["-"] ["CR"|"DR"] [ ")" ]
 //
 // with at most one sign marker in all, at most one currency marker (three
 // capital letters or one of $ € £ ¥ ₹), parentheses only in pairs, and a
 // number whose thousands marks are in the right places: groups of three
-// (1,234,567), the Indian grouping (12,34,567), or apostrophes (1'234'567);
-// with a decimal comma, dots or apostrophes group and a comma marks the
-// decimals. CR means a credit (negative), DR a debit.
+// (1,234,567), the Indian grouping (12,34,567), or apostrophes (1'234'567),
+// the first group not starting with 0; with a decimal comma, dots or
+// apostrophes group and a comma marks the decimals. CR means a credit
+// (negative), DR a debit. An exponent (1.5E+03) is applied exactly.
 package amount
 
 import (
@@ -74,16 +75,27 @@ func Parse(s string, decimalComma bool, scale, maxDigits int) (*big.Rat, string)
 	if !ok {
 		return nil, NotANumber
 	}
-	if p.ex != "" {
+	if p.ex != "" && v.Sign() != 0 {
+		// The exact value, found without raising 10 to an exponent of any
+		// size: beyond 10^40 nothing fits a DECIMAL(38); below 10^-40
+		// everything rounds to zero at the six places allowed at most.
 		e, ok := new(big.Int).SetString(strings.TrimPrefix(p.ex[1:], "+"), 10)
-		if !ok || e.CmpAbs(big.NewInt(400)) > 0 {
-			return nil, OutOfRange
+		if !ok {
+			return nil, NotANumber
 		}
-		pow := new(big.Int).Exp(big.NewInt(10), new(big.Int).Abs(e), nil)
-		if e.Sign() < 0 {
-			v.Quo(v, new(big.Rat).SetInt(pow))
-		} else {
-			v.Mul(v, new(big.Rat).SetInt(pow))
+		bound := big.NewInt(int64(len(digits)) + 40)
+		switch {
+		case e.Cmp(bound) > 0:
+			return nil, OutOfRange
+		case e.Cmp(new(big.Int).Neg(bound)) < 0:
+			v.SetInt64(0)
+		default:
+			pow := new(big.Int).Exp(big.NewInt(10), new(big.Int).Abs(e), nil)
+			if e.Sign() < 0 {
+				v.Quo(v, new(big.Rat).SetInt(pow))
+			} else {
+				v.Mul(v, new(big.Rat).SetInt(pow))
+			}
 		}
 	}
 	if p.s1 == "-" || p.s2 == "-" || p.s3 == "-" || p.lp != "" || strings.EqualFold(p.cd, "CR") {
@@ -117,9 +129,10 @@ func Round(v *big.Rat, scale int) *big.Rat {
 // Format writes r with exactly scale decimal places.
 func Format(r *big.Rat, scale int) string { return r.FloatString(scale) }
 
-func isSpace(r rune) bool {
-	return unicode.IsSpace(r) || r == '\u00A0' || r == '\u202F' || r == '\u2007' || r == '\u2009'
-}
+// isSpace is Unicode White_Space (unicode.IsSpace): tab, line breaks,
+// the space, no-break spaces, the typographic spaces U+2000 to U+200A, the
+// ideographic space; the SQL macros list the same characters.
+func isSpace(r rune) bool { return unicode.IsSpace(r) }
 
 func isDigit(r rune) bool { return r >= '0' && r <= '9' }
 
@@ -331,6 +344,11 @@ func groupedOK(s string, decimalComma bool) bool {
 		return true
 	}
 	first := groups[0]
+	if first[0] == '0' {
+		// 0,001 is no thousands-grouped number (a decimal comma read
+		// without --decimal-comma, most likely): reject it, never read 1.
+		return false
+	}
 	if decimalComma {
 		return len(first) >= 1 && len(first) <= 3 && threes(groups[1:])
 	}

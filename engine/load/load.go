@@ -5,11 +5,14 @@
 package load
 
 import (
+	"bufio"
+	"bytes"
 	"context"
 	"database/sql"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"sort"
 	"strings"
@@ -99,9 +102,27 @@ type Report struct {
 }
 
 // Load loads the files (paths or glob patterns) into the workspace in one
-// transaction.
+// transaction. When it returns an error nothing was written: the workspace
+// is exactly as before (an interrupted context included).
 func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Options) (*Report, error) {
 	started := time.Now()
+	rep, err := loadFiles(ctx, ws, args, opts, started)
+	if err != nil {
+		return nil, interrupted(ctx, err)
+	}
+	// Committed: what follows only reports, and an interruption now must
+	// not make a load that happened look as if it had not.
+	rep.Workspace = ws.Path
+	rep.Entities, err = EntityTotals(context.WithoutCancel(ctx), ws)
+	if err != nil {
+		return nil, fmt.Errorf("load %d is committed, but reading the control totals failed: %w (see leadline sql \"SELECT * FROM files\")", rep.LoadID, err)
+	}
+	rep.Seconds = time.Since(started).Seconds()
+	return rep, nil
+}
+
+// loadFiles does the load up to and including its commit.
+func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts Options, started time.Time) (*Report, error) {
 	opts.defaults()
 	if opts.Scale < 0 || opts.Scale > 6 {
 		return nil, fmt.Errorf("--scale %d: give 0 to 6 decimal places", opts.Scale)
@@ -113,7 +134,7 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 	if err != nil {
 		return nil, err
 	}
-	amountType, err := settleAmountType(ctx, ws, opts)
+	amountType, isNew, err := settleAmountType(ctx, ws, opts)
 	if err != nil {
 		return nil, err
 	}
@@ -126,6 +147,16 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 		if err != nil {
 			return nil, err
 		}
+		src.mapping, err = Resolve(src.Path, src.Columns, opts.Map, opts.Debit, opts.Credit)
+		if err != nil {
+			if src.oneColumnHint != "" {
+				return nil, fmt.Errorf("%s: %s", src.Path, src.oneColumnHint)
+			}
+			return nil, err
+		}
+		if err := checkAmountTypes(src); err != nil {
+			return nil, err
+		}
 		if other, dup := bySHA[src.SHA256]; dup {
 			return nil, fmt.Errorf("%s: same content (SHA-256 %s) as %s in this load; give each file once", p, src.SHA256[:12], other)
 		}
@@ -133,6 +164,11 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 		sources = append(sources, src)
 	}
 
+	trace("examine", started)
+	hadLedger, err := ws.HasLedger(ctx)
+	if err != nil {
+		return nil, err
+	}
 	tx, err := ws.Conn.BeginTx(ctx, nil)
 	if err != nil {
 		return nil, err
@@ -143,14 +179,66 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 			tx.Rollback()
 		}
 	}()
+	if isNew {
+		if _, err := tx.ExecContext(ctx, queries.Get("meta_set"), "amount_type", amountType); err != nil {
+			return nil, err
+		}
+	}
+	rep, err := loadAll(ctx, tx, sources, opts, amountType, hadLedger, started)
+	if err != nil {
+		return nil, err
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	if err := tx.Commit(); err != nil {
+		return nil, fmt.Errorf("committing the load: %w", err)
+	}
+	committed = true
+	trace("commit", started)
+	return rep, nil
+}
+
+// interrupted turns an error that follows a cancelled context into the
+// plain message the analyst needs: nothing was loaded.
+func interrupted(ctx context.Context, err error) error {
+	if ctx.Err() == nil {
+		return explainResources(err)
+	}
+	return fmt.Errorf("load interrupted (%v); nothing was loaded and the workspace is as it was before", ctx.Err())
+}
+
+// explainResources adds what to do to DuckDB's messages about memory and
+// the temporary folder running out.
+func explainResources(err error) error {
+	msg := err.Error()
+	low := strings.ToLower(msg)
+	switch {
+	case strings.Contains(low, "max_temp_directory_size") || strings.Contains(low, "no space left on device") ||
+		strings.Contains(low, "failed to offload") || strings.Contains(low, "could not write") && strings.Contains(low, "tmp"):
+		return fmt.Errorf("the temporary folder where DuckDB spills data ran out of room; nothing was loaded. Point --temp-dir at a folder with more free space, or give more memory with --memory-limit (DuckDB: %s)", oneLine(err))
+	case strings.Contains(low, "out of memory"):
+		return fmt.Errorf("DuckDB ran out of memory; nothing was loaded. Give a larger --memory-limit, or a --temp-dir with free space so that DuckDB can spill to disk (DuckDB: %s)", oneLine(err))
+	}
+	return err
+}
+
+// loadAll runs every file of a load inside tx.
+func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, amountType string, hadLedger bool, started time.Time) (*Report, error) {
 	if _, err := tx.ExecContext(ctx, queries.Render("create_ledger", map[string]string{"amount_type": amountType})); err != nil {
 		return nil, fmt.Errorf("creating the ledger table: %w", err)
 	}
+	if !hadLedger {
+		if err := widenNewLedger(ctx, tx, sources); err != nil {
+			return nil, err
+		}
+	}
+	trace("create", started)
 	var loadID int64
 	if err := tx.QueryRowContext(ctx, "SELECT nextval('load_seq')").Scan(&loadID); err != nil {
 		return nil, err
 	}
-	rep := &Report{LoadID: loadID, Workspace: ws.Path, AmountType: amountType}
+	rep := &Report{LoadID: loadID, AmountType: amountType}
 	for _, src := range sources {
 		fr, err := loadOne(ctx, tx, src, opts, amountType, loadID)
 		if err != nil {
@@ -165,39 +253,88 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_load"), loadID, started.UTC(), time.Now().UTC(), workspace.Version, string(optsJSON)); err != nil {
 		return nil, err
 	}
-	if err := ctx.Err(); err != nil {
-		return nil, fmt.Errorf("load interrupted; the workspace is unchanged: %w", err)
-	}
-	if err := tx.Commit(); err != nil {
-		return nil, fmt.Errorf("committing the load: %w", err)
-	}
-	committed = true
-	rep.Entities, err = EntityTotals(ctx, ws)
-	if err != nil {
-		return nil, err
-	}
-	rep.Seconds = time.Since(started).Seconds()
 	return rep, nil
 }
 
-// settleAmountType fixes the workspace's amount type at its first load and
-// refuses a later load that asks for another scale.
-func settleAmountType(ctx context.Context, ws *workspace.Workspace, opts Options) (string, error) {
+// widenNewLedger gives a ledger created by this load every column its files
+// will add, in one statement: adding columns one ALTER at a time costs time
+// that grows with the square of their number (minutes for a 5,000-column
+// extract). It rebuilds the new, still empty table from DuckDB's own DDL for
+// it; should that DDL have an unexpected shape, ensureColumns adds the
+// columns one by one as before.
+func widenNewLedger(ctx context.Context, tx *sql.Tx, sources []*Source) error {
+	seen := map[string]bool{}
+	var extra []string
+	for _, src := range sources {
+		for _, c := range plan(src, src.mapping) {
+			if c.stored != "" && !seen[strings.ToLower(c.stored)] {
+				seen[strings.ToLower(c.stored)] = true
+				extra = append(extra, queries.QuoteIdent(c.stored)+" VARCHAR")
+			}
+		}
+	}
+	if len(extra) < 32 {
+		return nil
+	}
+	var ddl string
+	var n int64
+	if err := tx.QueryRowContext(ctx, queries.Get("ledger_ddl")).Scan(&ddl, &n); err != nil {
+		return err
+	}
+	ddl = strings.TrimSpace(ddl)
+	if n != 0 || !strings.HasSuffix(ddl, ");") {
+		return nil
+	}
+	if _, err := tx.ExecContext(ctx, "DROP TABLE ledger"); err != nil {
+		return err
+	}
+	wide := strings.TrimSuffix(ddl, ");") + ", " + strings.Join(extra, ", ") + ");"
+	if _, err := tx.ExecContext(ctx, wide); err != nil {
+		return fmt.Errorf("creating the ledger with %d columns: %w", len(extra), err)
+	}
+	return nil
+}
+
+// checkAmountTypes refuses, before anything is written, an amount (or debit
+// or credit) column whose Parquet type holds no single number or text.
+func checkAmountTypes(src *Source) error {
+	if src.Format != "parquet" {
+		return nil
+	}
+	for _, col := range []string{src.mapping.Columns["amount"], src.mapping.Debit, src.mapping.Credit} {
+		if col == "" {
+			continue
+		}
+		for i, n := range src.Columns {
+			if n != col || i >= len(src.types) {
+				continue
+			}
+			t := strings.ToUpper(src.types[i])
+			if strings.HasPrefix(t, "STRUCT") || strings.HasPrefix(t, "MAP") || strings.HasPrefix(t, "UNION") ||
+				strings.HasSuffix(t, "]") || t == "BLOB" || t == "BOOLEAN" {
+				return fmt.Errorf("%s: column %q holds %s, not amounts; map the amount to a numeric or text column with --map amount=COLUMN", src.Path, col, src.types[i])
+			}
+		}
+	}
+	return nil
+}
+
+// settleAmountType reads the workspace's amount type, fixed by its first
+// load, and refuses a later load that asks for another scale. isNew says
+// the type is to be stored (inside the load's transaction).
+func settleAmountType(ctx context.Context, ws *workspace.Workspace, opts Options) (amountType string, isNew bool, err error) {
 	want := opts.AmountType()
 	have, ok, err := ws.Meta(ctx, "amount_type")
 	if err != nil {
-		return "", err
+		return "", false, err
 	}
 	if ok {
 		if have != want && (opts.Scale != 2 || opts.Precision != 18) {
-			return "", fmt.Errorf("this workspace holds amounts as %s; --scale/--precision ask for %s (use another --db)", have, want)
+			return "", false, fmt.Errorf("this workspace holds amounts as %s; --scale/--precision ask for %s (use another --db)", have, want)
 		}
-		return have, nil
+		return have, false, nil
 	}
-	if err := ws.SetMeta(ctx, "amount_type", want); err != nil {
-		return "", err
-	}
-	return want, nil
+	return want, true, nil
 }
 
 func examine(ctx context.Context, ws *workspace.Workspace, path string, opts Options) (*Source, error) {
@@ -324,10 +461,7 @@ func plan(src *Source, m Mapping) []storage {
 }
 
 func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountType string, loadID int64) (*FileReport, error) {
-	m, err := Resolve(src.Path, src.Columns, opts.Map, opts.Debit, opts.Credit)
-	if err != nil {
-		return nil, err
-	}
+	m := src.mapping
 	fr := &FileReport{Path: src.Path, Name: src.Name, Format: src.Format, SizeBytes: src.Size, SHA256: src.SHA256,
 		Mapping: m, Delimiter: src.Delimiter, Encoding: src.Encoding, Warnings: src.Warnings}
 	if opts.Replace {
@@ -389,23 +523,36 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	parse := func(text string) string {
 		return "TRY_CAST(ll_amount_canonical(" + text + ", " + dc + ") AS " + amountType + ")"
 	}
-	var amountExpr, fast, rawExpr, reasonExpr, amountColName string
+	var amountExpr, fast, parts, rawExpr, reasonExpr, amountColName string
 	if m.Debit != "" {
 		d, c := queries.QuoteIdent(m.Debit), queries.QuoteIdent(m.Credit)
-		one := func(x string) string {
-			if isNumeric(storedOf[strings.Trim(x, `"`)].typ) {
-				return "CASE WHEN " + x + " IS NULL THEN 0 ELSE TRY_CAST(" + x + " AS " + amountType + ") END"
+		// Each side: a typed number as it is; text through the fast cast
+		// and the grammar (projections ll_fast_d, ll_parts_d and so on);
+		// a blank side counts as zero unless both are blank.
+		one := func(x, name, suffix string) string {
+			if typ := storedOf[name].typ; isNumeric(typ) {
+				return "CASE WHEN " + x + " IS NULL THEN 0 ELSE " + numericAmount(x, typ, amountType) + " END"
 			}
 			t := "CAST(" + x + " AS VARCHAR)"
-			return "CASE WHEN nullif(trim(" + t + "), '') IS NULL THEN 0 ELSE " + parse(t) + " END"
+			f, p, e := textAmountSQLNamed(t, opts.DecimalComma, amountType, suffix)
+			fast += f
+			parts += p
+			return "CASE WHEN ll_amount_blank(" + t + ") THEN 0 ELSE " + e + " END"
 		}
-		blank := func(x string) string { return "nullif(trim(CAST(" + x + " AS VARCHAR)), '') IS NULL" }
-		amountExpr = "CASE WHEN " + blank(d) + " AND " + blank(c) + " THEN NULL ELSE (" + one(d) + ") - (" + one(c) + ") END"
+		blank := func(x string) string { return "ll_amount_blank(CAST(" + x + " AS VARCHAR))" }
+		// debit - credit overflows (an error, not a NULL, in DuckDB) only
+		// when the two have opposite signs and |debit| + |credit| exceeds
+		// the type's largest value: test that first.
+		dv, cv := "("+one(d, m.Debit, "_d")+")", "("+one(c, m.Credit, "_c")+")"
+		largest := "CAST('" + largestOf(opts) + "' AS " + amountType + ")"
+		amountExpr = "CASE WHEN " + blank(d) + " AND " + blank(c) + " THEN NULL " +
+			"WHEN abs(" + dv + ") <= " + largest + " - abs(" + cv + ") OR (" + dv + " >= 0) = (" + cv + " >= 0) THEN " + dv + " - " + cv + " END"
 		sd, sc := queries.QuoteIdent(storedOf[m.Debit].stored), queries.QuoteIdent(storedOf[m.Credit].stored)
 		rawExpr = "coalesce(" + sd + ", '') || ' | ' || coalesce(" + sc + ", '')"
-		reasonExpr = "CASE WHEN nullif(trim(" + sd + "), '') IS NULL AND nullif(trim(" + sc + "), '') IS NULL THEN 'blank debit and credit' " +
-			"WHEN nullif(trim(" + sd + "), '') IS NOT NULL AND TRY_CAST(ll_amount_canonical(" + sd + ", " + dc + ") AS " + amountType + ") IS NULL THEN 'debit: ' || ll_amount_reason(" + sd + ", " + dc + ") " +
-			"ELSE 'credit: ' || ll_amount_reason(" + sc + ", " + dc + ") END"
+		reasonExpr = "CASE WHEN ll_amount_blank(" + sd + ") AND ll_amount_blank(" + sc + ") THEN 'blank debit and credit' " +
+			"WHEN NOT ll_amount_blank(" + sd + ") AND " + parse(sd) + " IS NULL THEN 'debit: ' || ll_amount_reason(" + sd + ", " + dc + ") " +
+			"WHEN NOT ll_amount_blank(" + sc + ") AND " + parse(sc) + " IS NULL THEN 'credit: ' || ll_amount_reason(" + sc + ", " + dc + ") " +
+			"ELSE 'debit minus credit: out of range' END"
 		amountColName = m.Debit + " | " + m.Credit
 	} else {
 		a := m.Columns["amount"]
@@ -414,10 +561,10 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		rawExpr = queries.QuoteIdent(st.stored)
 		amountColName = a
 		if isNumeric(st.typ) {
-			amountExpr = "TRY_CAST(" + orig + " AS " + amountType + ")"
+			amountExpr = numericAmount(orig, st.typ, amountType)
 			reasonExpr = "CASE WHEN " + rawExpr + " IS NULL THEN 'blank amount' WHEN lower(" + rawExpr + ") IN ('nan', '-nan', 'inf', '-inf', 'infinity', '-infinity') THEN 'not a finite number' ELSE 'out of range' END"
 		} else {
-			fast, amountExpr = textAmountSQL("CAST("+orig+" AS VARCHAR)", opts.DecimalComma, amountType)
+			fast, parts, amountExpr = textAmountSQL("CAST("+orig+" AS VARCHAR)", opts.DecimalComma, amountType)
 			reasonExpr = "ll_amount_reason(" + rawExpr + ", " + dc + ")"
 		}
 	}
@@ -456,6 +603,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		"amount_expr": amountExpr,
 		"columns":     strings.Join(sel, ",\n    "),
 		"fast":        fast,
+		"parts":       parts,
 		"reader":      reader,
 	})
 	t0 := time.Now()
@@ -471,8 +619,9 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		return nil, err
 	}
 	var structural int64
+	var err error
 	if rejTable != "" {
-		structural, err = takeStructuralRejects(ctx, tx, rejTable, fr.FileID)
+		structural, err = takeStructuralRejects(ctx, tx, rejTable, fr.FileID, src, fromReader)
 		if err != nil {
 			return nil, fmt.Errorf("%s: %w", src.Path, err)
 		}
@@ -512,6 +661,9 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		return nil, err
 	}
 	if fr.RowsRead == 0 {
+		if src.Format == "parquet" {
+			return nil, fmt.Errorf("%s: the Parquet file has no rows", src.Path)
+		}
 		return nil, fmt.Errorf("%s: has a header but no data rows", src.Path)
 	}
 	if fr.RowsLoaded == 0 {
@@ -554,6 +706,29 @@ func isNumeric(t string) bool {
 	return false
 }
 
+// largestOf is the largest value of the options' amount type, as text.
+func largestOf(o Options) string {
+	o.defaults()
+	s := strings.Repeat("9", o.Precision-o.Scale)
+	if o.Scale > 0 {
+		s += "." + strings.Repeat("9", o.Scale)
+	}
+	return s
+}
+
+// numericAmount casts a typed numeric column to the amount type. A binary
+// float goes through its shortest decimal text, which is what the
+// exporting system meant: the double nearest 2.675 is 2.67499999..., whose
+// text 2.675 rounds half away from zero to 2.68, as the same amount written
+// in a CSV file does.
+func numericAmount(x, typ, amountType string) string {
+	switch t := strings.ToUpper(typ); {
+	case strings.HasPrefix(t, "DOUBLE"), strings.HasPrefix(t, "FLOAT"), strings.HasPrefix(t, "REAL"):
+		return "TRY_CAST(CAST(" + x + " AS VARCHAR) AS " + amountType + ")"
+	}
+	return "TRY_CAST(" + x + " AS " + amountType + ")"
+}
+
 func isDateLike(t string) bool {
 	t = strings.ToUpper(t)
 	return strings.HasPrefix(t, "DATE") || strings.HasPrefix(t, "TIMESTAMP")
@@ -581,6 +756,10 @@ func readerSQL(src *Source, fileID int64) (reader, rejTable string) {
 		"rejects_scan = " + queries.QuoteString(rejTable+"_scan"),
 		"encoding = " + queries.QuoteString(src.Encoding),
 		"max_line_size = 16777216",
+		// DuckDB sizes its read buffer at 16 times max_line_size unless
+		// told: 256 MiB per buffer, which fails any --memory-limit below
+		// that. 32 MiB is its buffer at the default line size.
+		"buffer_size = 33554432",
 	}
 	if src.Gzip {
 		opts = append(opts, "compression = 'gzip'")
@@ -599,20 +778,23 @@ func explainReadError(err error) string {
 // takeStructuralRejects moves the CSV reader's rejected records into
 // rejects, corrects the line numbers of the loaded rows for the records
 // skipped before them, and returns how many records were rejected.
-func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID int64) (int64, error) {
+func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID int64, src *Source, goodRows int64) (int64, error) {
 	rows, err := tx.QueryContext(ctx, queries.Render("load_structural_rejects", map[string]string{"rejects_table": queries.QuoteIdent(table)}))
 	if err != nil {
 		return 0, fmt.Errorf("reading the reader's rejects: %w", err)
 	}
 	type rej struct {
-		line   int64
-		reason string
-		raw    sql.NullString
+		line         int64
+		types        string
+		columns      sql.NullString
+		raw          sql.NullString
+		unterminated bool
+		bytePos      sql.NullInt64
 	}
 	var rejs []rej
 	for rows.Next() {
 		var r rej
-		if err := rows.Scan(&r.line, &r.reason, &r.raw); err != nil {
+		if err := rows.Scan(&r.line, &r.types, &r.columns, &r.raw, &r.unterminated, &r.bytePos); err != nil {
 			rows.Close()
 			return 0, err
 		}
@@ -631,17 +813,29 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		return 0, nil
 	}
 	sort.Slice(rejs, func(i, j int) bool { return rejs[i].line < rejs[j].line })
-	app, err := tx.PrepareContext(ctx, "INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line) VALUES (?, ?, NULL, NULL, ?, ?)")
+	// A quote that is never closed makes the reader take the rest of the
+	// file as one field of the last record. Rejecting that record would
+	// account for it as one row while every line after it vanishes from
+	// view, so the file is refused instead, with the place to fix. (The
+	// last record is the last reject with no good row after it: records
+	// are numbered from 2, so the i-th reject at record r has r - 1 - i good
+	// rows before it.)
+	swallowed := false
+	if last := rejs[len(rejs)-1]; last.unterminated && last.line-1-int64(len(rejs)) == goodRows {
+		if lines := linesFrom(src, last.bytePos, last.raw.String); lines > 1 {
+			return 0, fmt.Errorf("line %d: a quote opened in this record (field %s) is never closed, so the reader would take the %s as one field; fix the quoting there (a quote inside a quoted field is written \"\"), then load again; nothing was loaded",
+				last.line, last.columns.String, describeLines(lines))
+		}
+		swallowed = true
+	}
+	app, err := tx.PrepareContext(ctx, "INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line) VALUES (?, ?, ?, NULL, ?, ?)")
 	if err != nil {
 		return 0, err
 	}
 	defer app.Close()
-	for _, r := range rejs {
-		reason := "unreadable record: " + r.reason
-		if strings.Contains(r.reason, "INVALID ENCODING") {
-			reason += " (not UTF-8; if the file is Latin-1 give --encoding latin-1)"
-		}
-		if _, err := app.ExecContext(ctx, fileID, r.line, reason, r.raw); err != nil {
+	for i, r := range rejs {
+		reason := "unreadable record: " + readerReason(r.types, r.columns.String, len(src.Columns), swallowed && i == len(rejs)-1) + " [" + r.types + "]"
+		if _, err := app.ExecContext(ctx, fileID, r.line, r.columns, reason, r.raw); err != nil {
 			return 0, err
 		}
 	}
@@ -667,6 +861,67 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		}
 	}
 	return int64(len(rejs)), nil
+}
+
+// readerReason says in plain words why the CSV reader could not take a
+// record; DuckDB's own error types follow in brackets.
+func readerReason(types, columns string, width int, unterminated bool) string {
+	var parts []string
+	for _, t := range strings.Split(types, "; ") {
+		switch t {
+		case "MISSING COLUMNS":
+			parts = append(parts, fmt.Sprintf("too few fields (the header has %d; missing %s)", width, columns))
+		case "TOO MANY COLUMNS":
+			parts = append(parts, fmt.Sprintf("too many fields (the header has %d)", width))
+		case "UNQUOTED VALUE":
+			if unterminated {
+				parts = append(parts, "a quote is never closed (is the file cut short?)")
+			} else {
+				parts = append(parts, "bad quoting: a quote inside an unquoted field or after a closing quote (write a quote inside a quoted field as \"\")")
+			}
+		case "INVALID ENCODING":
+			parts = append(parts, "not valid UTF-8 (if the file is Latin-1 give --encoding latin-1)")
+		case "LINE SIZE OVER MAXIMUM":
+			parts = append(parts, "the record is longer than the reader's limit of 16 MiB")
+		default:
+			parts = append(parts, strings.ToLower(t))
+		}
+	}
+	return strings.Join(parts, "; ")
+}
+
+// linesFrom counts the non-blank physical lines from a record's first byte
+// to the end of the file, for a plain file whose byte positions the reader
+// reports; otherwise (gzip, UTF-16) it counts those in the record's text as
+// the reader kept it, which may be cut short (so a lower bound).
+func linesFrom(src *Source, pos sql.NullInt64, raw string) int64 {
+	count := func(r io.Reader) int64 {
+		sc := bufio.NewScanner(r)
+		sc.Buffer(make([]byte, 1<<20), 64<<20)
+		var n int64
+		for sc.Scan() {
+			if len(bytes.TrimSpace(sc.Bytes())) > 0 {
+				n++
+			}
+		}
+		return n
+	}
+	if pos.Valid && !src.Gzip && src.Encoding != "utf-16" {
+		if f, err := os.Open(src.Path); err == nil {
+			defer f.Close()
+			if _, err := f.Seek(pos.Int64, io.SeekStart); err == nil {
+				return count(f)
+			}
+		}
+	}
+	return count(strings.NewReader(raw))
+}
+
+func describeLines(n int64) string {
+	if n == 2 {
+		return "next line"
+	}
+	return fmt.Sprintf("remaining %d lines of the file", n)
 }
 
 func ensureColumns(ctx context.Context, tx *sql.Tx, cols []storage) error {
@@ -736,35 +991,75 @@ func EntityTotals(ctx context.Context, ws *workspace.Workspace) ([]EntityTotal, 
 	return out, rows.Err()
 }
 
-// textAmountSQL returns the projection that computes the fast-path value
-// (", ... AS ll_fast", evaluated once per row in the inner select) and the
-// amount expression over it, for an amount held as text. The fast path is a
-// plain DECIMAL cast, which takes the common shapes (1234.56, -5, 1e3);
-// everything else goes through the grammar of queries/amount.sql.
-func textAmountSQL(text string, decimalComma bool, amountType string) (fast, expr string) {
+// textAmountSQL returns, for an amount held as text, the projection that
+// computes the fast-path value (", ... AS ll_fast", in the inner select),
+// the projection that splits the text into the grammar's parts for the
+// rows the fast path does not take (", ... AS ll_parts", in the select
+// around it), and the amount expression over both. The fast path is a plain
+// DECIMAL cast, which takes the common shapes (1234.56, -5); everything
+// else goes through the grammar of queries/amount.sql. The parts get a
+// projection of their own because an expression inside a CASE branch is not
+// shared: the grammar's macros refer to the parts some twenty times, and
+// inline each would run its regular expressions twenty times a row (ten
+// times slower on a file of 1,234.56-style amounts).
+func textAmountSQL(text string, decimalComma bool, amountType string) (fast, parts, expr string) {
+	return textAmountSQLNamed(text, decimalComma, amountType, "")
+}
+
+// textAmountSQLNamed is textAmountSQL with its projections named
+// ll_fast<suffix> and ll_parts<suffix>, for more than one amount column.
+func textAmountSQLNamed(text string, decimalComma bool, amountType, suffix string) (fast, parts, expr string) {
 	dc := "false"
-	guard := "NOT contains(" + text + ", '_')"
+	// DuckDB's own cast rounds exponent text wrongly below the last kept
+	// place ('5e-4' gives 0.01), so exponents take the grammar's path.
+	guard := "NOT contains(" + text + ", '_') AND NOT contains(" + text + ", 'e') AND NOT contains(" + text + ", 'E')"
 	if decimalComma {
 		dc = "true"
 		guard += " AND NOT contains(" + text + ", '.')"
 	}
-	fast = ", CASE WHEN " + guard + " THEN TRY_CAST(" + text + " AS " + amountType + ") END AS ll_fast"
-	expr = "CASE WHEN ll_fast IS NOT NULL THEN ll_fast ELSE TRY_CAST(ll_amount_canonical(" + text + ", " + dc + ") AS " + amountType + ") END"
-	return fast, expr
+	f, p := "ll_fast"+suffix, "ll_parts"+suffix
+	fast = ", CASE WHEN " + guard + " THEN TRY_CAST(" + text + " AS " + amountType + ") END AS " + f
+	parts = ", CASE WHEN " + f + " IS NULL THEN ll_amount_parts(" + text + ") END AS " + p
+	expr = "CASE WHEN " + f + " IS NOT NULL THEN " + f + " ELSE TRY_CAST(ll_amount_canonical_parts(" + p + ", " + dc + ") AS " + amountType + ") END"
+	return fast, parts, expr
 }
 
 // ParseText parses one amount text exactly as a load would and returns the
 // value as text (with the type's scale) or the rejection reason. It exists
 // for tests and the fuzzer, which hold it against engine/amount.
 func ParseText(ctx context.Context, ws *workspace.Workspace, s string, decimalComma bool, amountType string) (value, reason string, err error) {
-	fast, expr := textAmountSQL("v", decimalComma, amountType)
+	p, err := NewAmountParser(ctx, ws, decimalComma, amountType)
+	if err != nil {
+		return "", "", err
+	}
+	defer p.Close()
+	return p.Parse(ctx, s)
+}
+
+// AmountParser is ParseText prepared once for many texts: the amount
+// expression is planned once, which makes each text about ten times
+// cheaper (the fuzzer's loop).
+type AmountParser struct{ stmt *sql.Stmt }
+
+// NewAmountParser prepares the load's amount expression on ws.
+func NewAmountParser(ctx context.Context, ws *workspace.Workspace, decimalComma bool, amountType string) (*AmountParser, error) {
+	fast, parts, expr := textAmountSQL("v", decimalComma, amountType)
 	dc := "false"
 	if decimalComma {
 		dc = "true"
 	}
-	q := "SELECT CAST(" + expr + " AS VARCHAR), replace(ll_amount_reason(v, " + dc + "), 'out of range', 'out of range') FROM (SELECT v" + fast + " FROM (SELECT CAST(? AS VARCHAR) AS v))"
+	q := "SELECT CAST(" + expr + " AS VARCHAR), ll_amount_reason(v, " + dc + ") FROM (SELECT *" + parts + " FROM (SELECT v" + fast + " FROM (SELECT CAST(? AS VARCHAR) AS v)))"
+	st, err := ws.Conn.PrepareContext(ctx, q)
+	if err != nil {
+		return nil, err
+	}
+	return &AmountParser{stmt: st}, nil
+}
+
+// Parse returns the value of s as text, or the reason it is rejected.
+func (p *AmountParser) Parse(ctx context.Context, s string) (value, reason string, err error) {
 	var val sql.NullString
-	if err := ws.Conn.QueryRowContext(ctx, q, s).Scan(&val, &reason); err != nil {
+	if err := p.stmt.QueryRowContext(ctx, s).Scan(&val, &reason); err != nil {
 		return "", "", err
 	}
 	if val.Valid {
@@ -772,6 +1067,9 @@ func ParseText(ctx context.Context, ws *workspace.Workspace, s string, decimalCo
 	}
 	return "", reason, nil
 }
+
+// Close releases the prepared statement.
+func (p *AmountParser) Close() error { return p.stmt.Close() }
 
 var tracing = os.Getenv("LEADLINE_TRACE") != ""
 

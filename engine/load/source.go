@@ -34,7 +34,9 @@ type Source struct {
 	Columns   []string // column names as stored (duplicates made unique)
 	Warnings  []string
 
-	types []string // Parquet: DuckDB type of each column
+	types         []string // Parquet: DuckDB type of each column
+	mapping       Mapping  // resolved before the load's transaction starts
+	oneColumnHint string   // CSV: the header is one column holding another delimiter
 }
 
 // ExpandPaths turns the command-line arguments (files and glob patterns)
@@ -144,19 +146,23 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 		s.Gzip = true
 		r = gz
 	}
-	head := make([]byte, 256<<10)
-	n, err := io.ReadFull(r, head)
-	if err != nil && !errors.Is(err, io.ErrUnexpectedEOF) && !errors.Is(err, io.EOF) {
+	head, err := readHead(r, 256<<10)
+	n := len(head)
+	if err != nil {
+		if s.Gzip {
+			return nil, fmt.Errorf("%s: not a readable gzip file: %v (is the file cut short?)", path, err)
+		}
 		return nil, fmt.Errorf("%s: reading: %v", path, err)
 	}
-	head = head[:n]
 	if len(bytes.TrimSpace(head)) == 0 {
 		return nil, fmt.Errorf("%s: the file is empty", path)
 	}
 	// Encoding: a byte-order mark decides; otherwise the option; otherwise UTF-8.
 	var text []byte
 	switch {
-	case bytes.HasPrefix(head, []byte{0xFF, 0xFE}) || bytes.HasPrefix(head, []byte{0xFE, 0xFF}):
+	case bytes.HasPrefix(head, []byte{0xFE, 0xFF}):
+		return nil, fmt.Errorf("%s: the file is UTF-16 big-endian (byte-order mark FE FF), which the reader does not take; convert it first, e.g. iconv -f UTF-16BE -t UTF-8 %s > %s", path, shellQuote(s.Name), shellQuote(strings.TrimSuffix(s.Name, filepath.Ext(s.Name))+"_utf8.csv"))
+	case bytes.HasPrefix(head, []byte{0xFF, 0xFE}):
 		s.Encoding = "utf-16"
 		dec := unicode.UTF16(unicode.LittleEndian, unicode.UseBOM).NewDecoder()
 		text, _, _ = transform.Bytes(dec, head[:len(head)&^1])
@@ -173,12 +179,18 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 	default:
 		return nil, fmt.Errorf("%s: unsupported --encoding %q (use utf-8, utf-16 or latin-1)", path, encoding)
 	}
-	if bytes.IndexByte(text, 0) >= 0 && s.Encoding == "utf-8" {
-		return nil, fmt.Errorf("%s: contains NUL bytes in its first %d bytes: not a text file, or UTF-16 without a byte-order mark (try --encoding utf-16)", path, n)
-	}
 	firstLine := text
 	if i := bytes.IndexAny(text, "\r\n"); i >= 0 {
 		firstLine = text[:i]
+	}
+	// A NUL byte in the header means a binary file or UTF-16 without a
+	// byte-order mark. A NUL further down is data: the reader keeps it as
+	// sent in text columns, and an amount holding one is rejected.
+	if bytes.IndexByte(firstLine, 0) >= 0 || bytes.Count(text, []byte{0}) > len(text)/8 {
+		return nil, fmt.Errorf("%s: line 1: NUL bytes in the header: not a text file, or UTF-16 without a byte-order mark (then give --encoding utf-16)", path)
+	}
+	if i := bytes.IndexByte(text, 0); i >= 0 {
+		s.Warnings = append(s.Warnings, fmt.Sprintf("physical line %d holds a NUL byte; kept as sent in text columns (an amount holding one is rejected)", bytes.Count(text[:i], []byte{'\n'})+1))
 	}
 	if s.Encoding == "utf-8" && !utf8.Valid(firstLine) {
 		return nil, fmt.Errorf("%s: line 1: the header is not valid UTF-8; if the file is Latin-1 (ISO-8859-1) give --encoding latin-1", path)
@@ -201,14 +213,65 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: line 1: cannot read the header: %v", path, err)
 	}
-	s.Columns, s.Warnings = cleanNames(rec)
+	var warns []string
+	s.Columns, warns = cleanNames(rec)
+	s.Warnings = append(s.Warnings, warns...)
 	if len(s.Columns) < 1 {
 		return nil, fmt.Errorf("%s: line 1: no columns in the header", path)
+	}
+	if len(s.Columns) == 1 {
+		if d := otherDelimiter(firstLine, s.Delimiter); d != "" {
+			s.oneColumnHint = fmt.Sprintf("the header reads as the single column %q with delimiter %s, but it holds %s: give --delimiter %s", s.Columns[0], showDelim(s.Delimiter), showDelim(d), shellQuote(flagDelim(d)))
+			s.Warnings = append(s.Warnings, s.oneColumnHint)
+		}
 	}
 	if n < len(head) && len(bytes.TrimSpace(text[len(firstLine):])) == 0 {
 		return nil, fmt.Errorf("%s: has a header but no data rows", path)
 	}
 	return s, nil
+}
+
+// readHead reads up to max bytes, telling a short file (no error) from a
+// stream that breaks off (a truncated gzip member: the error).
+func readHead(r io.Reader, max int) ([]byte, error) {
+	buf := make([]byte, max)
+	n := 0
+	for n < max {
+		k, err := r.Read(buf[n:])
+		n += k
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return buf[:n], err
+		}
+	}
+	return buf[:n], nil
+}
+
+// otherDelimiter returns a likely delimiter, other than the one in use,
+// that the header line holds outside quotes.
+func otherDelimiter(line []byte, used string) string {
+	for _, d := range []string{",", ";", "\t", "|"} {
+		if d != used && countOutsideQuotes(line, d[0]) > 0 {
+			return d
+		}
+	}
+	return ""
+}
+
+func showDelim(d string) string {
+	if d == "\t" {
+		return "tab"
+	}
+	return fmt.Sprintf("%q", d)
+}
+
+func flagDelim(d string) string {
+	if d == "\t" {
+		return `\t`
+	}
+	return d
 }
 
 func guessDelimiter(path string, line []byte) string {
