@@ -175,4 +175,3 @@ func FuzzExamineCSV(f *testing.F) {
 		}
 	})
 }
-
