@@ -152,6 +152,12 @@ GROUP BY ALL;
 -- Rows of the ledger (a count DuckDB answers from its metadata).
 SELECT count(*) FROM ledger;
 
+-- name: battery_amount_range
+-- The smallest and largest amount (DuckDB answers from its column
+-- statistics): when every amount is small enough for amount * 10^scale
+-- to stay within the amount's width, the scan uses the plain product.
+SELECT CAST(min(amount) AS VARCHAR), CAST(max(amount) AS VARCHAR) FROM ledger;
+
 -- name: battery_filtered_rows
 -- Rows the --where filter keeps (run only when there is a filter).
 SELECT count(*) FROM ledger WHERE {{filter}};

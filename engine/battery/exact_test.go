@@ -51,7 +51,10 @@ var boundaries = []boundary{
 // and checks that every one lands in its bin of every test, exactly.
 // Expected bins are worked out by hand from the definitions (doc.go) and
 // cross-checked against drill.DigitsOf, the drill-down's independent
-// string-based statement of the same definitions.
+// string-based statement of the same definitions. The amounts of 10^14
+// and above make the scan take the guarded units expression (plain
+// product below 10^14, integer and fraction scaled apart above); the other
+// tests' ledgers take the plain product.
 func TestBoundaryAmounts(t *testing.T) {
 	ws := openWS(t)
 	lines := []string{"amount"}

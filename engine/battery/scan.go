@@ -72,6 +72,15 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	}
 	p.wide = at.Precision > 18
 	p.units = unitsSQL(at)
+	if plain, ok := plainUnitsSQL(at); ok {
+		var lo, hi sql.NullString
+		if err := ws.Conn.QueryRowContext(ctx, queries.Get("battery_amount_range")).Scan(&lo, &hi); err != nil {
+			return nil, fmt.Errorf("reading the range of the amounts: %w", err)
+		}
+		if within(lo, at) && within(hi, at) {
+			p.units = plain
+		}
+	}
 	p.first3 = "ll_first3_i64"
 	if p.wide {
 		p.first3 = "ll_first3_i128"
@@ -113,6 +122,30 @@ func unitsSQL(at drill.AmountType) string {
 	}
 	t := pow10Text(safe)
 	return fmt.Sprintf("(CASE WHEN amount < %[1]s AND amount > -%[1]s THEN CAST(amount * %[2]s AS BIGINT) ELSE %[3]s END)", t, m, split)
+}
+
+// plainUnitsSQL returns the plain product amount * 10^s as BIGINT, exact
+// for |amount| < 10^(p-2s) (see unitsSQL), and whether it applies to the
+// type at all.
+func plainUnitsSQL(at drill.AmountType) (string, bool) {
+	if at.Precision > 18 || at.Scale == 0 || at.Precision-2*at.Scale < 1 {
+		return "", false
+	}
+	return fmt.Sprintf("CAST(amount * %s AS BIGINT)", pow10Text(at.Scale)), true
+}
+
+// within reports whether the decimal text v (an amount of type at) is
+// strictly between -10^(p-2s) and 10^(p-2s); a NULL (empty ledger) is.
+func within(v sql.NullString, at drill.AmountType) bool {
+	if !v.Valid {
+		return true
+	}
+	r, ok := new(big.Rat).SetString(v.String)
+	if !ok {
+		return false
+	}
+	t := new(big.Rat).SetInt(new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(at.Precision-2*at.Scale)), nil))
+	return r.Abs(r).Cmp(t) < 0
 }
 
 func pow10Text(n int) string { return "1" + strings.Repeat("0", n) }
