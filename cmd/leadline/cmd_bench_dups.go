@@ -154,9 +154,9 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 			if s != "" {
 				s += ", "
 			}
-			s += fmt.Sprintf("%s %s", t.Test, drillCount(t.GroupsTotal))
+			s += fmt.Sprintf("%s %s (%.1fs)", t.Test, drillCount(t.GroupsTotal), t.Seconds)
 		}
-		return s + " groups"
+		return s + " groups (seconds of the last run)"
 	}
 	if err := time1("duplicate tests, all five", "leadline dups", func() (string, error) {
 		r, err := duplicates.Run(ctx, ws, duplicates.Options{})
