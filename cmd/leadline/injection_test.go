@@ -264,7 +264,9 @@ func TestCommandsRefuseInjection(t *testing.T) {
 		{func(h string) []string { return []string{"drill", "--test", "first", "--bin", "1", "--where", h} }, "1=1", false},
 		{func(h string) []string { return []string{"drill", "--test", "first", "--bin", "1", "--group", h} }, "entity", false},
 		{func(h string) []string { return []string{"drill", "--test", "first", "--bin", "1", "--sort", h} }, "amount", false},
-		{func(h string) []string { return []string{"drill", "--test", "first", "--bin", "1", "--segment", h + "=x"} }, "", false},
+		{func(h string) []string {
+			return []string{"drill", "--test", "first", "--bin", "1", "--segment", h + "=x"}
+		}, "", false},
 		{func(h string) []string { return []string{"drill", "--segment", "entity=" + h} }, "", true},
 		{func(h string) []string { return []string{"dups", "--where", h} }, "1=1", false},
 		{func(h string) []string { return []string{"ranges", "--where", h} }, "1=1", false},
