@@ -58,6 +58,9 @@ func (o Options) WithDefaults() Options {
 		o.Tests = benford.AllTests()
 		o.Duplication = true
 	}
+	if o.Tests == nil {
+		o.Tests = []benford.Test{}
+	}
 	if o.Top == 0 {
 		o.Top = DefaultTop
 	}
