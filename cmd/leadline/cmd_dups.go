@@ -190,7 +190,8 @@ func printDups(w io.Writer, format string, res *duplicates.Result, dbPath string
 		return t.WriteCSV(w)
 	}
 	o := res.Options
-	pop := fmt.Sprintf("%s amounts, |amount| >= %s", o.Signs, o.Min)
+	signs := map[string]string{"positive": "positive amounts", "negative": "negative amounts", "both": "amounts of either sign"}[o.Signs]
+	pop := fmt.Sprintf("%s, |amount| >= %s", signs, o.Min)
 	if strings.TrimSpace(o.Where) != "" {
 		pop += ", where " + strings.TrimSpace(o.Where)
 	}
