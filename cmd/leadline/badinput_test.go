@@ -26,6 +26,9 @@ func TestLoadBadInputCorpus(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.Name, func(t *testing.T) {
 			t.Parallel()
+			if c.Heavy && testing.Short() {
+				t.Skip("a large generated input; skipped with -short")
+			}
 			path, err := c.Materialize(gen)
 			if err != nil {
 				t.Fatal(err)

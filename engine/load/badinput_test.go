@@ -27,6 +27,9 @@ func TestBadInputCorpus(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.Name, func(t *testing.T) {
 			t.Parallel()
+			if c.Heavy && testing.Short() {
+				t.Skip("a large generated input; skipped with -short")
+			}
 			ctx := context.Background()
 			path, err := c.Materialize(gen)
 			if err != nil {

@@ -38,6 +38,9 @@ type Case struct {
 	Warnings     []string `toml:"warnings"` // substrings, each found in some warning
 	Rejects      []Reject `toml:"reject"`   // every rejected row, in line order
 	Checks       []Check  `toml:"check"`    // queries on the workspace after the load
+
+	// Heavy marks a large generated input, skipped by go test -short.
+	Heavy bool `toml:"heavy"`
 }
 
 // Options are the load options a case gives, as the command's flags.
