@@ -1017,10 +1017,13 @@ func textAmountSQLNamed(text string, decimalComma bool, amountType, suffix strin
 		dc = "true"
 		guard += " AND NOT contains(" + text + ", '.')"
 	}
+	// DuckDB's cast also reads a lone sign followed by white space ('- ',
+	// as accounting formats write nil) as 0: a zero from the fast path
+	// counts only when the text holds a digit (found by FuzzAmount).
 	f, p := "ll_fast"+suffix, "ll_parts"+suffix
 	fast = ", CASE WHEN " + guard + " THEN TRY_CAST(" + text + " AS " + amountType + ") END AS " + f
-	parts = ", CASE WHEN " + f + " IS NULL THEN ll_amount_parts(" + text + ") END AS " + p
-	expr = "CASE WHEN " + f + " IS NOT NULL THEN " + f + " ELSE TRY_CAST(ll_amount_canonical_parts(" + p + ", " + dc + ") AS " + amountType + ") END"
+	parts = ", CASE WHEN " + f + " IS NULL OR " + f + " = 0 AND NOT regexp_matches(" + text + ", '[0-9]') THEN ll_amount_parts(" + text + ") END AS " + p
+	expr = "CASE WHEN " + p + " IS NULL THEN " + f + " ELSE TRY_CAST(ll_amount_canonical_parts(" + p + ", " + dc + ") AS " + amountType + ") END"
 	return fast, parts, expr
 }
 
