@@ -121,10 +121,20 @@ var hostile = []string{
 	`entity IN (SELECT a FROM other_db.main.ledger)`,
 }
 
-// cteScope is a file read that hides behind a CTE of the same name declared
-// in another scope: the CTE is visible only inside its own subquery, so the
-// second reference is a file read.
-const cteScope = `SELECT * FROM (WITH "%[1]s" AS (SELECT 1 AS a) SELECT * FROM "%[1]s") t1, (SELECT * FROM "%[1]s") t2`
+// cteHides are file reads that hide behind a CTE of the same name: declared
+// in another scope (a sibling subquery, where the CTE is not visible), or
+// referred to in the CTE's own body (where a non-recursive CTE is not yet
+// defined). In both, DuckDB reads the file while a check that only asks
+// "is this name a CTE somewhere" lets it through. The filter forms test
+// the file's content through a --where predicate (records or none).
+var cteHides = []struct{ name, sql, where string }{
+	{"sibling scope",
+		`SELECT * FROM (WITH "%[1]s" AS (SELECT 1 AS a) SELECT * FROM "%[1]s") t1, (SELECT * FROM "%[1]s") t2`,
+		`EXISTS (SELECT 1 FROM (WITH "%[1]s" AS (SELECT 1 AS a) SELECT * FROM "%[1]s") t1, (SELECT * FROM "%[1]s") t2 WHERE CAST(t2.x AS VARCHAR) = '2')`},
+	{"own body",
+		`WITH "%[1]s" AS (SELECT * FROM "%[1]s") SELECT * FROM "%[1]s"`,
+		`EXISTS (WITH "%[1]s" AS (SELECT * FROM "%[1]s") SELECT 1 FROM "%[1]s" WHERE CAST(x AS VARCHAR) = '2')`},
+}
 
 func (ev *injectionEnv) fill(s string) string {
 	if !strings.Contains(s, "%[") {
@@ -216,26 +226,26 @@ func TestSQLGuardHostile(t *testing.T) {
 	}
 }
 
-// TestSQLGuardCTEScope: a CTE named like a file, declared inside one
-// subquery, does not make the same name elsewhere in the query a CTE.
-// engine/sqlguard collects CTE names over the whole parse tree, so it takes
-// the second reference for the CTE while DuckDB reads the file: the sql
-// command then prints a file from outside the workspace, and a --where
-// filter can test its content (records or none). Skipped, saying so, while
-// the bypass stands; it passes once engine/sqlguard resolves CTE names by
-// scope (or user SQL runs with enable_external_access = false).
+// TestSQLGuardCTEScope: a CTE named like a file must not let a read of
+// that file through (cteHides), neither in the sql command nor in a filter.
+// Skipped, saying which forms still leak, while the bypass stands (found
+// with issue 10; engine/sqlguard is not this test's to change); it passes
+// once every form is refused.
 func TestSQLGuardCTEScope(t *testing.T) {
 	ev := newInjectionEnv(t)
-	q := ev.fill(cteScope)
-	code, out, _ := ev.run(t, "sql", q)
-	sqlLeaks := code == 0 || strings.Contains(out, secretMarker)
-	pred := ev.fill(`EXISTS (SELECT 1 FROM (WITH "%[1]s" AS (SELECT 1 AS a) SELECT * FROM "%[1]s") t1, (SELECT * FROM "%[1]s") t2 WHERE CAST(t2.x AS VARCHAR) = '2')`)
-	code, out, _ = ev.run(t, "drill", "--min", "0", "--where", pred)
-	filterLeaks := code == 0
-	if !sqlLeaks && !filterLeaks {
-		return
+	var leaks []string
+	for _, c := range cteHides {
+		code, out, _ := ev.run(t, "sql", ev.fill(c.sql))
+		if code == 0 || strings.Contains(out, secretMarker) {
+			leaks = append(leaks, c.name+": sql prints the file")
+		}
+		if code, _, _ := ev.run(t, "drill", "--min", "0", "--where", ev.fill(c.where)); code == 0 {
+			leaks = append(leaks, c.name+": a drill --where filter tests the file's content")
+		}
 	}
-	t.Skipf("KNOWN BYPASS (reported with issue 10): a file outside the workspace is read through a CTE name declared in another scope: sql prints it: %v; a drill --where filter tests its content: %v", sqlLeaks, filterLeaks)
+	if len(leaks) > 0 {
+		t.Skipf("KNOWN BYPASS (reported with issue 10), a file outside the workspace is read through a CTE named like it: %s", strings.Join(leaks, "; "))
+	}
 }
 
 // fewHostile is a cross-section of hostile: a statement after a

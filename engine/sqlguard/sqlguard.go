@@ -76,9 +76,7 @@ func CheckSelect(ctx context.Context, q Querier, query string) error {
 	if err := json.Unmarshal(parsed.Statements[0], &tree); err != nil {
 		return err
 	}
-	ctes := map[string]bool{}
-	collectCTEs(tree, ctes)
-	return walk(tree, tables, ctes)
+	return walk(tree, tables, map[string]bool{})
 }
 
 func workspaceTables(ctx context.Context, q Querier) (map[string]bool, error) {
@@ -98,33 +96,40 @@ func workspaceTables(ctx context.Context, q Querier) (map[string]bool, error) {
 	return out, rows.Err()
 }
 
-func collectCTEs(n any, ctes map[string]bool) {
-	switch x := n.(type) {
-	case map[string]any:
-		if cm, ok := x["cte_map"].(map[string]any); ok {
-			if list, ok := cm["map"].([]any); ok {
-				for _, e := range list {
-					if em, ok := e.(map[string]any); ok {
-						if k, ok := em["key"].(string); ok {
-							ctes[strings.ToLower(k)] = true
-						}
-					}
-				}
+// ctesOf returns the CTE names a query node declares. They are visible in
+// that node and below it, never outside it: a name declared in one
+// subquery must not make the same name elsewhere a CTE (where DuckDB would
+// read it as a file).
+func ctesOf(x map[string]any) []string {
+	var out []string
+	cm, ok := x["cte_map"].(map[string]any)
+	if !ok {
+		return nil
+	}
+	list, _ := cm["map"].([]any)
+	for _, e := range list {
+		if em, ok := e.(map[string]any); ok {
+			if k, ok := em["key"].(string); ok {
+				out = append(out, strings.ToLower(k))
 			}
 		}
-		for _, v := range x {
-			collectCTEs(v, ctes)
-		}
-	case []any:
-		for _, v := range x {
-			collectCTEs(v, ctes)
-		}
 	}
+	return out
 }
 
 func walk(n any, tables, ctes map[string]bool) error {
 	switch x := n.(type) {
 	case map[string]any:
+		if names := ctesOf(x); len(names) > 0 {
+			scoped := make(map[string]bool, len(ctes)+len(names))
+			for k := range ctes {
+				scoped[k] = true
+			}
+			for _, k := range names {
+				scoped[k] = true
+			}
+			ctes = scoped
+		}
 		typ, _ := x["type"].(string)
 		switch typ {
 		case "BASE_TABLE":
