@@ -45,7 +45,10 @@ func TestCheckSelect(t *testing.T) {
 		"SELECT getenv('HOME')":                    "not allowed",
 		"SELECT * FROM other.main.ledger":          "only the workspace",
 		"SELECT * FROM query('DROP TABLE ledger')": "table function",
-		"SELECT * FROM ledger WHERE amount > (SELECT 1 FROM glob('/etc/*'))": "table function",
+		// A CTE is visible only in the query that declares it: the second
+		// "/etc/passwd" is a file to DuckDB, not the CTE.
+		`SELECT * FROM (WITH "/etc/passwd" AS (SELECT 1) SELECT * FROM "/etc/passwd") a, "/etc/passwd" b`: "not a table of this workspace",
+		"SELECT * FROM ledger WHERE amount > (SELECT 1 FROM glob('/etc/*'))":                              "table function",
 	}
 	for q, want := range bad {
 		err := CheckSelect(ctx, ws.Conn, q)
