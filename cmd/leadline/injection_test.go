@@ -228,9 +228,8 @@ func TestSQLGuardHostile(t *testing.T) {
 
 // TestSQLGuardCTEScope: a CTE named like a file must not let a read of
 // that file through (cteHides), neither in the sql command nor in a filter.
-// Skipped, saying which forms still leak, while the bypass stands (found
-// with issue 10; engine/sqlguard is not this test's to change); it passes
-// once every form is refused.
+// Found with issue 10; engine/sqlguard now resolves CTE names by scope
+// (a plain CTE does not see its own name), and every form must be refused.
 func TestSQLGuardCTEScope(t *testing.T) {
 	ev := newInjectionEnv(t)
 	var leaks []string
@@ -244,7 +243,7 @@ func TestSQLGuardCTEScope(t *testing.T) {
 		}
 	}
 	if len(leaks) > 0 {
-		t.Skipf("KNOWN BYPASS (reported with issue 10), a file outside the workspace is read through a CTE named like it: %s", strings.Join(leaks, "; "))
+		t.Errorf("a file outside the workspace is read through a CTE named like it: %s", strings.Join(leaks, "; "))
 	}
 }
 

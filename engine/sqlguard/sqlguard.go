@@ -121,14 +121,7 @@ func walk(n any, tables, ctes map[string]bool) error {
 	switch x := n.(type) {
 	case map[string]any:
 		if names := ctesOf(x); len(names) > 0 {
-			scoped := make(map[string]bool, len(ctes)+len(names))
-			for k := range ctes {
-				scoped[k] = true
-			}
-			for _, k := range names {
-				scoped[k] = true
-			}
-			ctes = scoped
+			return walkWithCTEs(x, names, tables, ctes)
 		}
 		typ, _ := x["type"].(string)
 		switch typ {
@@ -252,4 +245,52 @@ func singleExpression(ctx context.Context, q Querier, probe string) error {
 		return bad
 	}
 	return nil
+}
+
+func with(base map[string]bool, names ...string) map[string]bool {
+	out := make(map[string]bool, len(base)+len(names))
+	for k := range base {
+		out[k] = true
+	}
+	for _, k := range names {
+		out[k] = true
+	}
+	return out
+}
+
+// walkWithCTEs walks a query node that declares CTEs. Each CTE's own
+// definition sees the CTEs declared before it, and itself only when it is
+// recursive: in a plain CTE its own name means the outer table or, to
+// DuckDB, a file of that name. The rest of the node sees them all.
+func walkWithCTEs(x map[string]any, names []string, tables, ctes map[string]bool) error {
+	cm, _ := x["cte_map"].(map[string]any)
+	list, _ := cm["map"].([]any)
+	for i, e := range list {
+		em, _ := e.(map[string]any)
+		vis := with(ctes, names[:min(i, len(names))]...)
+		if recursiveCTE(em["value"]) && i < len(names) {
+			vis[names[i]] = true
+		}
+		if err := walk(em["value"], tables, vis); err != nil {
+			return err
+		}
+	}
+	all := with(ctes, names...)
+	for k, v := range x {
+		if k == "cte_map" {
+			continue
+		}
+		if err := walk(v, tables, all); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func recursiveCTE(v any) bool {
+	m, _ := v.(map[string]any)
+	q, _ := m["query"].(map[string]any)
+	n, _ := q["node"].(map[string]any)
+	t, _ := n["type"].(string)
+	return t == "RECURSIVE_CTE_NODE"
 }

@@ -22,6 +22,8 @@ func TestCheckSelect(t *testing.T) {
 		"SELECT * FROM ledger",
 		"select count(*) from ledger where entity = 'x;DROP TABLE ledger'",
 		"WITH t AS (SELECT * FROM ledger) SELECT * FROM t",
+		"WITH a AS (SELECT 1 AS x), b AS (SELECT * FROM a) SELECT * FROM b",
+		"WITH RECURSIVE r(n) AS (SELECT 1 UNION ALL SELECT n + 1 FROM r WHERE n < 3) SELECT * FROM r",
 		"SELECT * FROM range(10)",
 		"SELECT * FROM files JOIN rejects USING (file_id)",
 		"SELECT 1 -- DROP TABLE ledger",
@@ -48,7 +50,9 @@ func TestCheckSelect(t *testing.T) {
 		// A CTE is visible only in the query that declares it: the second
 		// "/etc/passwd" is a file to DuckDB, not the CTE.
 		`SELECT * FROM (WITH "/etc/passwd" AS (SELECT 1) SELECT * FROM "/etc/passwd") a, "/etc/passwd" b`: "not a table of this workspace",
-		"SELECT * FROM ledger WHERE amount > (SELECT 1 FROM glob('/etc/*'))":                              "table function",
+		// Nor inside its own (non-recursive) definition.
+		`WITH "/etc/passwd" AS (SELECT * FROM "/etc/passwd") SELECT * FROM "/etc/passwd"`: "not a table of this workspace",
+		"SELECT * FROM ledger WHERE amount > (SELECT 1 FROM glob('/etc/*'))":              "table function",
 	}
 	for q, want := range bad {
 		err := CheckSelect(ctx, ws.Conn, q)
