@@ -179,6 +179,9 @@ func Filter(ctx context.Context, q Querier, predicate string) (string, error) {
 	if err := singleExpression(ctx, q, probe); err != nil {
 		return "", fmt.Errorf("filter %q: %w", predicate, err)
 	}
+	if err := staysInside(ctx, q, wrapped); err != nil {
+		return "", fmt.Errorf("filter %q: %w", predicate, err)
+	}
 	rows, err := q.QueryContext(ctx, "SELECT 1 FROM ledger WHERE "+wrapped+" LIMIT 0")
 	if err != nil {
 		return "", fmt.Errorf("filter %q: %s", predicate, firstLine(err.Error()))
@@ -293,4 +296,34 @@ func recursiveCTE(v any) bool {
 	n, _ := q["node"].(map[string]any)
 	t, _ := n["type"].(string)
 	return t == "RECURSIVE_CTE_NODE"
+}
+
+// staysInside checks that the wrapped predicate stays one operand when an
+// operator is put in front of it, as the commands AND it with their own
+// conditions: a predicate such as "1=1) OR (1=1" closes our parenthesis
+// early and would otherwise turn "x AND (1=1) OR (1=1)" into an OR that
+// widens the selection. The probe is a comparison, which binds tighter than
+// AND and OR and which the parser does not flatten the way it flattens
+// nested ANDs or double NOTs.
+func staysInside(ctx context.Context, q Querier, wrapped string) error {
+	var doc string
+	if err := q.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", "SELECT 1 FROM ledger WHERE "+wrapped+" IS NOT DISTINCT FROM TRUE").Scan(&doc); err != nil {
+		return err
+	}
+	var parsed struct {
+		Statements []struct {
+			Node struct {
+				Where struct {
+					Type string `json:"type"`
+				} `json:"where_clause"`
+			} `json:"node"`
+		} `json:"statements"`
+	}
+	if err := json.Unmarshal([]byte(doc), &parsed); err != nil {
+		return err
+	}
+	if len(parsed.Statements) != 1 || parsed.Statements[0].Node.Where.Type != "COMPARE_NOT_DISTINCT_FROM" {
+		return &Error{"not a single predicate: it closes its parentheses early"}
+	}
+	return nil
 }

@@ -79,7 +79,7 @@ func TestFilter(t *testing.T) {
 	if w, err := Filter(ctx, ws.Conn, "entity = 'E1' -- comment"); err != nil || !strings.HasPrefix(w, "(") {
 		t.Errorf("good filter refused: %q %v", w, err)
 	}
-	for _, p := range []string{"1=1; DROP TABLE ledger", "nosuchcolumn = 1", "entity IN (SELECT * FROM read_csv('/etc/passwd'))", "1=1) UNION SELECT 1 FROM range(1) WHERE (1=1"} {
+	for _, p := range []string{"1=1; DROP TABLE ledger", "nosuchcolumn = 1", "entity IN (SELECT * FROM read_csv('/etc/passwd'))", "1=1) UNION SELECT 1 FROM range(1) WHERE (1=1", "1=1) OR (1=1", "entity = 'E1') OR (TRUE"} {
 		if _, err := Filter(ctx, ws.Conn, p); err == nil {
 			t.Errorf("filter %q accepted", p)
 		}
@@ -89,5 +89,22 @@ func TestFilter(t *testing.T) {
 	}
 	if _, err := Column(ctx, ws.Conn, `entity"; DROP TABLE ledger; --`); err == nil {
 		t.Error("bad column accepted")
+	}
+}
+
+func TestFilterKeepsConjunctions(t *testing.T) {
+	ctx := context.Background()
+	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ws.Close()
+	if _, err := ws.Conn.ExecContext(ctx, "CREATE TABLE ledger (amount DECIMAL(18,2), entity VARCHAR)"); err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []string{"entity = 'E1' AND amount > 5", "(entity = 'E1' OR entity = 'E2') AND amount > 5", "entity = 'E1' OR amount > 5", "NOT (entity = 'x')"} {
+		if _, err := Filter(ctx, ws.Conn, p); err != nil {
+			t.Errorf("filter %q refused: %v", p, err)
+		}
 	}
 }
