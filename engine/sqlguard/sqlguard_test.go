@@ -10,14 +10,7 @@ import (
 
 func TestCheckSelect(t *testing.T) {
 	ctx := context.Background()
-	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer ws.Close()
-	if _, err := ws.Conn.ExecContext(ctx, "CREATE TABLE ledger (amount DECIMAL(18,2), entity VARCHAR)"); err != nil {
-		t.Fatal(err)
-	}
+	ws := ledgerWorkspace(t)
 	ok := []string{
 		"SELECT * FROM ledger",
 		"select count(*) from ledger where entity = 'x;DROP TABLE ledger'",
@@ -68,14 +61,7 @@ func TestCheckSelect(t *testing.T) {
 
 func TestFilter(t *testing.T) {
 	ctx := context.Background()
-	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer ws.Close()
-	if _, err := ws.Conn.ExecContext(ctx, "CREATE TABLE ledger (amount DECIMAL(18,2), entity VARCHAR)"); err != nil {
-		t.Fatal(err)
-	}
+	ws := ledgerWorkspace(t)
 	if w, err := Filter(ctx, ws.Conn, "entity = 'E1' -- comment"); err != nil || !strings.HasPrefix(w, "(") {
 		t.Errorf("good filter refused: %q %v", w, err)
 	}
@@ -94,17 +80,24 @@ func TestFilter(t *testing.T) {
 
 func TestFilterKeepsConjunctions(t *testing.T) {
 	ctx := context.Background()
-	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer ws.Close()
-	if _, err := ws.Conn.ExecContext(ctx, "CREATE TABLE ledger (amount DECIMAL(18,2), entity VARCHAR)"); err != nil {
-		t.Fatal(err)
-	}
+	ws := ledgerWorkspace(t)
 	for _, p := range []string{"entity = 'E1' AND amount > 5", "(entity = 'E1' OR entity = 'E2') AND amount > 5", "entity = 'E1' OR amount > 5", "NOT (entity = 'x')"} {
 		if _, err := Filter(ctx, ws.Conn, p); err != nil {
 			t.Errorf("filter %q refused: %v", p, err)
 		}
 	}
+}
+
+// ledgerWorkspace is an in-memory workspace with a small ledger table.
+func ledgerWorkspace(t *testing.T) *workspace.Workspace {
+	t.Helper()
+	ws, err := workspace.Open(context.Background(), ":memory:", workspace.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { ws.Close() })
+	if _, err := ws.Conn.ExecContext(context.Background(), "CREATE TABLE ledger (amount DECIMAL(18,2), entity VARCHAR)"); err != nil {
+		t.Fatal(err)
+	}
+	return ws
 }
