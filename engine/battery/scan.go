@@ -301,6 +301,10 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 	if err := rows.Err(); err != nil {
 		return nil, nil, fmt.Errorf("the battery's scan: %s", firstLine(err.Error()))
 	}
+	// Sum the segments in key order: the summation sums are floats, and
+	// adding them in the order the scan happens to return groups would make
+	// the whole selection's figures differ in the last digits from run to run.
+	sort.Slice(order, func(i, j int) bool { return order[i].Key.Less(order[j].Key) })
 	all := NewCounts()
 	for _, sc := range order {
 		all.Add(sc.Counts)
@@ -331,7 +335,6 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 	for i, sc := range order {
 		segs[i] = *sc
 	}
-	sort.Slice(segs, func(i, j int) bool { return segs[i].Key.Less(segs[j].Key) })
 	return all, segs, nil
 }
 
