@@ -4,18 +4,13 @@ import (
 	"context"
 	"fmt"
 	"io"
-	"os"
-	"path/filepath"
 	"runtime"
 	"strings"
 	"time"
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/tabular"
-	"github.com/leadline/leadline/engine/workspace"
-	"github.com/leadline/leadline/fixtures"
 	"github.com/leadline/leadline/queries"
 	"github.com/spf13/pflag"
 )
@@ -94,48 +89,12 @@ type benchBatteryOptions struct {
 var countTests = []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.FirstThree, benford.LastTwo, benford.Summation}
 
 func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format string) error {
-	dir := o.dir
-	if dir == "" {
-		d, err := os.MkdirTemp("", "leadline-bench-battery-")
-		if err != nil {
-			return err
-		}
-		dir = d
-		if !o.keep {
-			defer os.RemoveAll(d)
-		}
-	} else if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
-	}
-	pq := filepath.Join(dir, fmt.Sprintf("ledger_%d_%d.parquet", o.rows, o.seed))
-	dbPath := filepath.Join(dir, fmt.Sprintf("bench_%d_%d.duckdb", o.rows, o.seed))
-	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
-	var steps []benchStep
-	reuse := o.keep && benchFileExists(pq) && benchFileExists(dbPath)
-	if !reuse {
-		os.Remove(dbPath)
-		say("generating %d rows to %s ...\n", o.rows, pq)
-		t0 := time.Now()
-		if _, err := fixtures.WriteParquet(pq, fixtures.Config{Rows: o.rows, Seed: o.seed, Plants: true}); err != nil {
-			return err
-		}
-		steps = append(steps, benchStep{Step: "generate (not the benchmark)", Command: "fixtures.WriteParquet", Runs: []float64{time.Since(t0).Seconds()}})
-	}
-	ws, err := workspace.Open(ctx, dbPath, workspace.Options{Threads: o.threads, MemoryLimit: o.memory})
+	ws, dir, steps, done, err := openBenchWorkspace(ctx, e, benchData{dir: o.dir, prefix: "leadline-bench-battery-", memory: o.memory, keep: o.keep, rows: o.rows, seed: o.seed, threads: o.threads})
 	if err != nil {
 		return err
 	}
-	defer ws.Close()
-	if !reuse {
-		say("loading ...\n")
-		t0 := time.Now()
-		rep, err := load.Load(ctx, ws, []string{pq}, load.Options{})
-		if err != nil {
-			return err
-		}
-		steps = append(steps, benchStep{Step: "load (not the benchmark)", Command: "leadline load " + filepath.Base(pq),
-			Runs: []float64{time.Since(t0).Seconds()}, Result: fmt.Sprintf("%s rows loaded", drillCount(rep.RowsLoaded))})
-	}
+	defer done()
+	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
 	var n int64
 	if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ledger").Scan(&n); err != nil {
 		return err

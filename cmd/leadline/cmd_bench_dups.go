@@ -5,16 +5,12 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"path/filepath"
 	"runtime"
 	"time"
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
-	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/tabular"
-	"github.com/leadline/leadline/engine/workspace"
-	"github.com/leadline/leadline/fixtures"
 	"github.com/spf13/pflag"
 )
 
@@ -87,48 +83,12 @@ type benchStep struct {
 }
 
 func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) error {
-	dir := o.dir
-	if dir == "" {
-		d, err := os.MkdirTemp("", "leadline-bench-dups-")
-		if err != nil {
-			return err
-		}
-		dir = d
-		if !o.keep {
-			defer os.RemoveAll(d)
-		}
-	} else if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
-	}
-	pq := filepath.Join(dir, fmt.Sprintf("ledger_%d_%d.parquet", o.rows, o.seed))
-	dbPath := filepath.Join(dir, fmt.Sprintf("bench_%d_%d.duckdb", o.rows, o.seed))
-	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
-	var steps []benchStep
-	reuse := o.keep && benchFileExists(pq) && benchFileExists(dbPath)
-	if !reuse {
-		os.Remove(dbPath)
-		say("generating %d rows to %s ...\n", o.rows, pq)
-		t0 := time.Now()
-		if _, err := fixtures.WriteParquet(pq, fixtures.Config{Rows: o.rows, Seed: o.seed, Plants: true}); err != nil {
-			return err
-		}
-		steps = append(steps, benchStep{Step: "generate (not timed as benchmark)", Command: "fixtures.WriteParquet", Runs: []float64{time.Since(t0).Seconds()}})
-	}
-	ws, err := workspace.Open(ctx, dbPath, workspace.Options{Threads: o.threads, MemoryLimit: o.memory})
+	ws, dir, steps, done, err := openBenchWorkspace(ctx, e, benchData{dir: o.dir, prefix: "leadline-bench-dups-", memory: o.memory, keep: o.keep, rows: o.rows, seed: o.seed, threads: o.threads})
 	if err != nil {
 		return err
 	}
-	defer ws.Close()
-	if !reuse {
-		say("loading ...\n")
-		t0 := time.Now()
-		rep, err := load.Load(ctx, ws, []string{pq}, load.Options{})
-		if err != nil {
-			return err
-		}
-		steps = append(steps, benchStep{Step: "load (not timed as benchmark)", Command: "leadline load " + filepath.Base(pq),
-			Runs: []float64{time.Since(t0).Seconds()}, Result: fmt.Sprintf("%s rows loaded", drillCount(rep.RowsLoaded))})
-	}
+	defer done()
+	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
 	var n int64
 	if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ledger").Scan(&n); err != nil {
 		return err
