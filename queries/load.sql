@@ -5,10 +5,7 @@
 -- CSV records go first into a temporary table, in file order: its rowid is
 -- then the record's position, which numbers lines without a window
 -- function (a window over the reader would make the load single-threaded).
-CREATE OR REPLACE TEMP TABLE ll_stage AS SELECT * FROM {{reader}};
-
--- name: load_unstage
-DROP TABLE IF EXISTS ll_stage;
+CREATE OR REPLACE TEMP TABLE {{stage}} AS SELECT * FROM {{reader}};
 
 -- name: load_insert
 -- One pass over the file: every record goes into the ledger with its

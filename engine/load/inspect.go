@@ -107,7 +107,7 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	for _, c := range src.Columns {
 		in.Columns = append(in.Columns, ColumnInfo{Name: c, Detected: detected[c]})
 	}
-	reader, _ := readerSQL(src, 0)
+	reader := readerSQL(src, "ll_rejects_0")
 	reader = strings.Replace(reader, "store_rejects = true", "store_rejects = false, ignore_errors = true", 1)
 	reader = strings.Replace(reader, ", rejects_table = 'll_rejects_0', rejects_scan = 'll_rejects_0_scan'", "", 1)
 	var sel []string

@@ -165,6 +165,15 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	}
 
 	trace("examine", started)
+	// CSV files are read into temporary tables before the load's
+	// transaction starts (see stageCSV); they are dropped when it ends.
+	defer unstage(ws, sources)
+	for i, src := range sources {
+		if err := stageCSV(ctx, ws, src, i); err != nil {
+			return nil, err
+		}
+	}
+	trace("stage", started)
 	hadLedger, err := ws.HasLedger(ctx)
 	if err != nil {
 		return nil, err
@@ -570,7 +579,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	}
 	reasonExpr = "replace(" + reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
 
-	reader, rejTable := readerSQL(src, fr.FileID)
+	reader, rejTable := readerSQL(src, ""), ""
 	var base int64
 	if err := tx.QueryRowContext(ctx, queries.Get("load_next_row_id")).Scan(&base); err != nil {
 		return nil, err
@@ -581,19 +590,8 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	}
 	rowNumber := "file_row_number + 1"
 	if src.Format == "csv" {
-		t1 := time.Now()
-		if _, err := tx.ExecContext(ctx, queries.Render("load_stage", map[string]string{"reader": reader})); err != nil {
-			return nil, fmt.Errorf("%s: %s", src.Path, explainReadError(err))
-		}
-		trace("stage", t1)
-		// Inside a transaction DuckDB numbers new rows from a large offset,
-		// so the position is the rowid less the first one.
-		var first int64
-		if err := tx.QueryRowContext(ctx, "SELECT coalesce(min(rowid), 0) FROM ll_stage").Scan(&first); err != nil {
-			return nil, err
-		}
-		reader, rowNumber = "ll_stage", fmt.Sprintf("rowid - %d + 1", first)
-		defer tx.ExecContext(context.WithoutCancel(ctx), queries.Get("load_unstage"))
+		reader, rejTable = queries.QuoteIdent(src.stage), src.rejects
+		rowNumber = fmt.Sprintf("rowid - %d + 1", src.stageFirst)
 	}
 	insert := queries.Render("load_insert", map[string]string{
 		"row_number":  rowNumber,
@@ -610,7 +608,18 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if tracing {
 		fmt.Fprintln(os.Stderr, insert)
 	}
-	if _, err := tx.ExecContext(ctx, insert); err != nil {
+	// Every row carries its line, so the ledger need not keep file order.
+	// Keeping it makes DuckDB write a part-filled row group after every
+	// batch, which it then merges and rewrites at the next checkpoint
+	// (about a third of the load's time on a 5,000,000-row file).
+	if _, err := tx.ExecContext(ctx, "SET preserve_insertion_order = false"); err != nil {
+		return nil, err
+	}
+	_, err := tx.ExecContext(ctx, insert)
+	if _, rerr := tx.ExecContext(context.WithoutCancel(ctx), "SET preserve_insertion_order = true"); rerr != nil && err == nil {
+		err = rerr
+	}
+	if err != nil {
 		return nil, fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
 	trace("insert", t0)
@@ -619,7 +628,6 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		return nil, err
 	}
 	var structural int64
-	var err error
 	if rejTable != "" {
 		structural, err = takeStructuralRejects(ctx, tx, rejTable, fr.FileID, src, fromReader)
 		if err != nil {
@@ -734,15 +742,51 @@ func isDateLike(t string) bool {
 	return strings.HasPrefix(t, "DATE") || strings.HasPrefix(t, "TIMESTAMP")
 }
 
-func readerSQL(src *Source, fileID int64) (reader, rejTable string) {
+// stageCSV reads a CSV file into a temporary table, in file order, so
+// that each record's rowid gives its position (DuckDB's CSV reader has no
+// row number of its own, and a window over the reader would make the load
+// single-threaded). It runs before the load's transaction starts: DuckDB
+// reads a temporary table created inside the same transaction about half
+// as fast as a committed one (14 s against 6 s for the insert of
+// 5,000,000 rows). The records the reader cannot take go to a second
+// temporary table, src.rejects.
+func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) error {
+	if src.Format != "csv" {
+		return nil
+	}
+	src.stage, src.rejects = fmt.Sprintf("ll_stage_%d", i), fmt.Sprintf("ll_rejects_%d", i)
+	q := queries.Render("load_stage", map[string]string{"stage": queries.QuoteIdent(src.stage), "reader": readerSQL(src, src.rejects)})
+	if _, err := ws.Conn.ExecContext(ctx, q); err != nil {
+		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
+	}
+	return ws.Conn.QueryRowContext(ctx, "SELECT coalesce(min(rowid), 0) FROM "+queries.QuoteIdent(src.stage)).Scan(&src.stageFirst)
+}
+
+// unstage drops the temporary tables of stageCSV.
+func unstage(ws *workspace.Workspace, sources []*Source) {
+	for _, src := range sources {
+		if src.stage == "" {
+			continue
+		}
+		for _, t := range []string{src.stage, src.rejects, src.rejects + "_scan"} {
+			ws.Conn.ExecContext(context.Background(), "DROP TABLE IF EXISTS "+queries.QuoteIdent(t))
+		}
+	}
+}
+
+// readerSQL is the table function that reads src; a CSV reader stores the
+// records it cannot take in the temporary table rejTable ("" for none).
+func readerSQL(src *Source, rejTable string) string {
 	if src.Format == "parquet" {
-		return "read_parquet(" + queries.QuoteString(src.Path) + ", file_row_number = true)", ""
+		return "read_parquet(" + queries.QuoteString(src.Path) + ", file_row_number = true)"
 	}
 	var cols []string
 	for _, c := range src.Columns {
 		cols = append(cols, queries.QuoteString(c)+": 'VARCHAR'")
 	}
-	rejTable = fmt.Sprintf("ll_rejects_%d", fileID)
+	if rejTable == "" {
+		rejTable = "ll_rejects_inspect"
+	}
 	opts := []string{
 		queries.QuoteString(src.Path),
 		"auto_detect = false",
@@ -764,7 +808,7 @@ func readerSQL(src *Source, fileID int64) (reader, rejTable string) {
 	if src.Gzip {
 		opts = append(opts, "compression = 'gzip'")
 	}
-	return "read_csv(" + strings.Join(opts, ", ") + ")", rejTable
+	return "read_csv(" + strings.Join(opts, ", ") + ")"
 }
 
 func explainReadError(err error) string {

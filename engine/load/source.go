@@ -37,6 +37,10 @@ type Source struct {
 	types         []string // Parquet: DuckDB type of each column
 	mapping       Mapping  // resolved before the load's transaction starts
 	oneColumnHint string   // CSV: the header is one column holding another delimiter
+
+	stage      string // CSV: the temporary table its records were read into
+	stageFirst int64  // the first rowid of stage
+	rejects    string // CSV: the temporary table of records the reader could not take
 }
 
 // ExpandPaths turns the command-line arguments (files and glob patterns)
