@@ -7,6 +7,7 @@ import (
 	"math"
 	"math/big"
 	"sort"
+	"strconv"
 	"strings"
 
 	"github.com/leadline/leadline/engine/drill"
@@ -253,15 +254,21 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 	nseg := len(p.Segments)
 	bySeg := map[string]*SegmentCounts{}
 	var order []*SegmentCounts
-	dest := make([]any, nseg+4)
 	key := make([]sql.NullString, nseg)
+	dest := make([]any, nseg, nseg+4)
 	for i := range key {
 		dest[i] = &key[i]
 	}
+	scale := math.Pow10(p.AmountType.Scale)
 	var f3, l2 sql.NullInt64
 	var n int64
 	var sum sql.NullFloat64
-	dest[nseg], dest[nseg+1], dest[nseg+2], dest[nseg+3] = &f3, &l2, &n, &sum
+	var packed string
+	if nseg == 0 {
+		dest = append(dest, &f3, &l2, &n, &sum)
+	} else {
+		dest = append(dest, &packed)
+	}
 	for rows.Next() {
 		if err := rows.Scan(dest...); err != nil {
 			return nil, nil, fmt.Errorf("the battery's scan: %w", err)
@@ -274,28 +281,12 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 			bySeg[ks] = sc
 			order = append(order, sc)
 		}
-		c := sc.Counts
-		switch {
-		case f3.Valid && f3.Int64 >= 100 && f3.Int64 <= 999:
-			c.FirstThree[f3.Int64-100] += n
-			if sum.Valid {
-				c.FirstThreeSum[f3.Int64-100] += sum.Float64 / math.Pow10(p.AmountType.Scale)
+		if nseg == 0 {
+			if err := addGroup(sc.Counts, f3, l2, n, sum, scale); err != nil {
+				return nil, nil, err
 			}
-		case f3.Valid:
-			switch f3.Int64 {
-			case -1:
-				c.Left.Zero += n
-			case -3:
-				c.Left.BelowMin += n
-			default:
-				return nil, nil, fmt.Errorf("the battery's scan returned first-three digits %d: an internal error, please report it", f3.Int64)
-			}
-		case l2.Valid && l2.Int64 >= 0 && l2.Int64 <= 99:
-			c.LastTwo[l2.Int64] += n
-		case l2.Valid && l2.Int64 < 0:
-			// rows left out, already counted in the first-three set
-		default:
-			return nil, nil, fmt.Errorf("the battery's scan returned a group with neither digits nor a reason: an internal error, please report it")
+		} else if err := addPacked(sc.Counts, packed, scale); err != nil {
+			return nil, nil, err
 		}
 	}
 	if err := rows.Err(); err != nil {
@@ -439,4 +430,78 @@ func firstLine(s string) string {
 		return s[:i]
 	}
 	return s
+}
+
+// addGroup adds one group of the scan to c: a first-three-digits group
+// (f3 100..999, or an exclusion code -1 zero, -3 below the minimum) or a
+// last-two-digits group (l2 0..99; negative l2 repeats an exclusion
+// already counted through f3).
+func addGroup(c *Counts, f3, l2 sql.NullInt64, n int64, sum sql.NullFloat64, scale float64) error {
+	switch {
+	case f3.Valid && f3.Int64 >= 100 && f3.Int64 <= 999:
+		c.FirstThree[f3.Int64-100] += n
+		if sum.Valid {
+			c.FirstThreeSum[f3.Int64-100] += sum.Float64 / scale
+		}
+	case f3.Valid:
+		switch f3.Int64 {
+		case -1:
+			c.Left.Zero += n
+		case -3:
+			c.Left.BelowMin += n
+		default:
+			return fmt.Errorf("the battery's scan returned first-three digits %d: an internal error, please report it", f3.Int64)
+		}
+	case l2.Valid && l2.Int64 >= 0 && l2.Int64 <= 99:
+		c.LastTwo[l2.Int64] += n
+	case l2.Valid && l2.Int64 < 0:
+		// rows left out, already counted in the first-three set
+	default:
+		return fmt.Errorf("the battery's scan returned a group with neither digits nor a reason: an internal error, please report it")
+	}
+	return nil
+}
+
+// addPacked adds a segment's groups as battery_scan_segments packs them:
+// "f<digits> <count> <sum>" and "l<digits> <count> <sum>", comma-separated.
+func addPacked(c *Counts, packed string, scale float64) error {
+	bad := func(part string) error {
+		return fmt.Errorf("the battery's scan returned the group %q: an internal error, please report it", part)
+	}
+	for more := packed != ""; more; {
+		var part string
+		part, packed, more = strings.Cut(packed, ",")
+		if part == "" {
+			return bad(part)
+		}
+		kind, rest := part[0], part[1:]
+		i := strings.IndexByte(rest, ' ')
+		if i < 0 {
+			return bad(part)
+		}
+		j := strings.IndexByte(rest[i+1:], ' ')
+		if j < 0 {
+			return bad(part)
+		}
+		digits, err1 := strconv.ParseInt(rest[:i], 10, 64)
+		n, err2 := strconv.ParseInt(rest[i+1:i+1+j], 10, 64)
+		sum, err3 := strconv.ParseFloat(rest[i+2+j:], 64)
+		if err1 != nil || err2 != nil || err3 != nil {
+			return bad(part)
+		}
+		g := sql.NullInt64{Int64: digits, Valid: true}
+		var err error
+		switch kind {
+		case 'f':
+			err = addGroup(c, g, sql.NullInt64{}, n, sql.NullFloat64{Float64: sum, Valid: true}, scale)
+		case 'l':
+			err = addGroup(c, sql.NullInt64{}, g, n, sql.NullFloat64{Float64: sum, Valid: true}, scale)
+		default:
+			return bad(part)
+		}
+		if err != nil {
+			return err
+		}
+	}
+	return nil
 }
