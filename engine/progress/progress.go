@@ -31,6 +31,7 @@ func Watch(src Source, w io.Writer, label string, delay time.Duration) (stop fun
 		defer tick.Stop()
 		var bar *progressbar.ProgressBar
 		var since time.Time
+		var last float64
 		for {
 			select {
 			case <-done:
@@ -52,6 +53,15 @@ func Watch(src Source, w io.Writer, label string, delay time.Duration) (stop fun
 			if since.IsZero() {
 				since = time.Now()
 			}
+			// A fraction well below the last one is the next query of a
+			// step (a load stages its file, then inserts it): start a new
+			// bar, so that its time estimate is not spoiled by the last.
+			if bar != nil && frac < last-0.05 {
+				bar.Clear()
+				bar = nil
+				since = time.Now().Add(-delay)
+			}
+			last = frac
 			if bar == nil && time.Since(since) >= delay {
 				bar = progressbar.NewOptions(1000,
 					progressbar.OptionSetWriter(w),

@@ -59,3 +59,28 @@ func TestWatchDrawsOnlyForLongQueries(t *testing.T) {
 		t.Fatalf("bar not drawn as expected: %q", out.String())
 	}
 }
+
+// TestWatchStartsANewBarForTheNextQuery: a load runs two long queries in
+// a row; when the fraction falls back, the bar starts again (its elapsed
+// time from zero) instead of running backwards with a spoiled estimate.
+func TestWatchStartsANewBarForTheNextQuery(t *testing.T) {
+	src := &fake{}
+	var out syncBuf
+	stop := Watch(src, &out, "loading", 100*time.Millisecond)
+	src.set(0.5, true)
+	time.Sleep(1300 * time.Millisecond)
+	src.set(0.6, true)
+	time.Sleep(300 * time.Millisecond)
+	before := out.String()
+	if !strings.Contains(before, "60%") || !strings.Contains(before, "[1s:") {
+		t.Fatalf("first bar not drawn as expected: %q", before)
+	}
+	src.set(0.1, true)
+	time.Sleep(400 * time.Millisecond)
+	stop()
+	after := out.String()[len(before):]
+	i := strings.LastIndex(after, "10%")
+	if i < 0 || !strings.Contains(after[i:], "[0s:") {
+		t.Fatalf("no new bar from zero after the fraction fell: %q", after)
+	}
+}
