@@ -611,8 +611,16 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	// Every row carries its line, so the ledger need not keep file order.
 	// Keeping it makes DuckDB write a part-filled row group after every
 	// batch, which it then merges and rewrites at the next checkpoint
-	// (about a third of the load's time on a 5,000,000-row file).
-	if _, err := tx.ExecContext(ctx, "SET preserve_insertion_order = false"); err != nil {
+	// (about a third of the load's time on a 5,000,000-row file). Without
+	// it, though, every thread builds row groups of its own, each holding
+	// a block per column: a 5,000-column file then needs more than a
+	// 1280MB memory limit, so wide files keep the order.
+	var threads int
+	if err := tx.QueryRowContext(ctx, "SELECT CAST(current_setting('threads') AS INTEGER)").Scan(&threads); err != nil {
+		return nil, err
+	}
+	keepOrder := len(src.Columns)*max(threads, 1) > 1024
+	if _, err := tx.ExecContext(ctx, fmt.Sprintf("SET preserve_insertion_order = %t", keepOrder)); err != nil {
 		return nil, err
 	}
 	_, err := tx.ExecContext(ctx, insert)
