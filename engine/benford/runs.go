@@ -1,8 +1,9 @@
 package benford
 
 import (
+	"cmp"
 	"math"
-	"sort"
+	"slices"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -101,12 +102,16 @@ func RunsTest(actual, expected []float64, lo int) Runs {
 			r.P = distuv.UnitNormal.CDF(r.Z)
 		}
 	}
-	sort.SliceStable(r.Stretches, func(i, j int) bool {
-		a, b := r.Stretches[i], r.Stretches[j]
+	// A generic stable sort: at 1,000 segments the reflection-based one
+	// was a visible share of the statistics.
+	slices.SortStableFunc(r.Stretches, func(a, b Stretch) int {
 		if a.Kind != b.Kind {
-			return a.Kind == Surplus
+			if a.Kind == Surplus {
+				return -1
+			}
+			return 1
 		}
-		return math.Abs(a.Excess) > math.Abs(b.Excess)
+		return cmp.Compare(math.Abs(b.Excess), math.Abs(a.Excess))
 	})
 	return r
 }
