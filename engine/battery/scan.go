@@ -11,6 +11,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
@@ -67,7 +68,7 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	if err != nil {
 		return nil, err
 	}
-	p.Segments, err = ResolveSegments(ctx, ws, o.By)
+	p.Segments, err = segment.Resolve(ctx, ws, o.By)
 	if err != nil {
 		return nil, err
 	}
@@ -177,13 +178,13 @@ func (p *Plan) segmentSQL(perRow bool) (sel, names, normal string) {
 	var a, b, c []string
 	for i, s := range p.Segments {
 		n := fmt.Sprintf("ll_s%d", i+1)
-		expr := s.raw
+		expr := s.Raw()
 		if perRow {
-			expr = s.row
+			expr = s.Row()
 		}
 		a = append(a, expr+" AS "+n)
 		b = append(b, n)
-		c = append(c, fmt.Sprintf(s.normal, n)+" AS "+n)
+		c = append(c, s.Normal(n)+" AS "+n)
 	}
 	j := func(x []string) string {
 		if len(x) == 0 {

@@ -150,7 +150,7 @@ func Probe(all ranges.Group, groups []ranges.Group, segs []ranges.Segment, limit
 			default:
 				r.Status = StatusTested
 			}
-			r.Segment = g.Key.Map(segs)
+			r.Segment = g.Key.Values(segs)
 			rows = append(rows, r)
 		}
 		return nil

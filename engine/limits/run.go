@@ -8,6 +8,7 @@ import (
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -66,7 +67,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err != nil {
 		return nil, err
 	}
-	segs, err := ranges.ResolveSegments(ctx, ws, o.By)
+	segs, err := segment.Resolve(ctx, ws, o.By)
 	if err != nil {
 		return nil, err
 	}

@@ -22,6 +22,7 @@ import (
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
@@ -696,7 +697,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		if !schemaOK || len(cols) == 0 {
 			return
 		}
-		if _, err := ranges.ResolveSegments(ctx, mem, cols); err != nil {
+		if _, err := segment.Resolve(ctx, mem, cols); err != nil {
 			msg := strings.ReplaceAll(err.Error(), "--by ", "")
 			c.errf(key, "%s", msg)
 		}
@@ -923,7 +924,7 @@ func (c *checker) extracts(ctx context.Context, mem *workspace.Workspace, pl *Pl
 		ep.Top = int(c.intParam(key+".top", e.Top, DefaultExtractTop, 1, "top"))
 		ep.MaxRows = int(c.intParam(key+".max_rows", e.MaxRows, DefaultExtractRows, 1, "max_rows"))
 		if e.GroupBy != "" && schemaOK {
-			if _, err := ranges.ResolveSegments(ctx, mem, []string{e.GroupBy}); err != nil {
+			if _, err := segment.Resolve(ctx, mem, []string{e.GroupBy}); err != nil {
 				c.errf(key+".group_by", "%s", strings.ReplaceAll(err.Error(), "--by ", "group_by "))
 			}
 		}

@@ -102,7 +102,7 @@ func (p *Population) render(name string, segs []Segment) string {
 	var sel, names []string
 	for i, s := range segs {
 		n := fmt.Sprintf("ll_seg_%d", i+1)
-		sel = append(sel, s.expr+" AS "+n+",")
+		sel = append(sel, s.Row()+" AS "+n+",")
 		names = append(names, n)
 	}
 	groupBy := ""

@@ -13,6 +13,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -101,7 +102,7 @@ func TestCountExact(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			segs, err := ResolveSegments(ctx, ws, by)
+			segs, err := segment.Resolve(ctx, ws, by)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -218,7 +219,7 @@ func TestDrillAgrees(t *testing.T) {
 	}
 	// a segment and a band below a limit
 	pop, _ := Prepare(ctx, ws, drill.Base{})
-	segs, _ := ResolveSegments(ctx, ws, []string{"entity", "month"})
+	segs, _ := segment.Resolve(ctx, ws, []string{"entity", "month"})
 	groups, err := pop.Count(ctx, ws, segs, []float64{4500, 5000})
 	if err != nil {
 		t.Fatal(err)
@@ -284,12 +285,12 @@ func TestDrillRangeAndQuote(t *testing.T) {
 func TestSegmentsResolve(t *testing.T) {
 	ws := loadRows(t, boundaryRows()[:50])
 	ctx := context.Background()
-	segs, err := ResolveSegments(ctx, ws, []string{"Entity", "month"})
+	segs, err := segment.Resolve(ctx, ws, []string{"Entity", "month"})
 	if err != nil || len(segs) != 2 || segs[0].Name != "entity" || segs[1].Name != "month" {
 		t.Errorf("%+v %v", segs, err)
 	}
 	for _, by := range [][]string{{"nope"}, {"entity", "ENTITY"}, {"amount"}, {" "}} {
-		if _, err := ResolveSegments(ctx, ws, by); err == nil || !strings.Contains(err.Error(), "--by") {
+		if _, err := segment.Resolve(ctx, ws, by); err == nil || !strings.Contains(err.Error(), "--by") {
 			t.Errorf("--by %q: %v", by, err)
 		}
 	}
