@@ -96,10 +96,7 @@ Examples:
 				if err != nil {
 					return err
 				}
-				if rep.RunID, err = ws.NextRunID(ctx); err != nil {
-					return fmt.Errorf("saving the run: %w", err)
-				}
-				if err := saveBandRun(ctx, ws, rep.RunID, "limits", started, o, rep); err != nil {
+				if err := saveRun(ctx, ws, "limits", started, o, rep, func(id int64) { rep.RunID = id }); err != nil {
 					return err
 				}
 				return printLimits(e.stdout, f.value, rep, top)

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -13,7 +12,6 @@ import (
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/tabular"
-	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -80,10 +78,7 @@ Examples:
 				if err != nil {
 					return err
 				}
-				if rep.RunID, err = ws.NextRunID(ctx); err != nil {
-					return fmt.Errorf("saving the run: %w", err)
-				}
-				if err := saveBandRun(ctx, ws, rep.RunID, "ranges", started, o, rep); err != nil {
+				if err := saveRun(ctx, ws, "ranges", started, o, rep, func(id int64) { rep.RunID = id }); err != nil {
 					return err
 				}
 				return printRanges(e.stdout, f.value, rep)
@@ -106,21 +101,6 @@ func (p *bandPopulation) add(fs *pflag.FlagSet) {
 
 func (p *bandPopulation) base() drill.Base {
 	return drill.Base{Where: p.where, Signs: p.signs, Min: p.min}
-}
-
-// saveBandRun stores a run of the ranges or limits command under the id
-// reserved for it: the options as its parameters and the report (which
-// carries the id) as its result, the document --format json prints.
-func saveBandRun(ctx context.Context, ws *workspace.Workspace, id int64, kind string, started time.Time, params, rep any) error {
-	p, err := json.Marshal(params)
-	if err != nil {
-		return err
-	}
-	r, err := json.Marshal(rep)
-	if err != nil {
-		return err
-	}
-	return ws.SaveRunWithID(ctx, id, kind, started, p, r)
 }
 
 // bandPopulationLine describes the amounts tested and what was left out.

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -107,18 +106,7 @@ Examples:
 				if err != nil {
 					return err
 				}
-				if rep.RunID, err = ws.NextRunID(ctx); err != nil {
-					return fmt.Errorf("saving the run: %w", err)
-				}
-				params, err := json.Marshal(rep.Params)
-				if err != nil {
-					return err
-				}
-				doc, err := json.Marshal(rep)
-				if err != nil {
-					return err
-				}
-				if err := ws.SaveRunWithID(ctx, rep.RunID, "scan", started, params, doc); err != nil {
+				if err := saveRun(ctx, ws, "scan", started, rep.Params, rep, func(id int64) { rep.RunID = id }); err != nil {
 					return err
 				}
 				return printScan(e.stdout, f.value, rep, scanPrint{rankRows: rankRows, allBins: allBins})

@@ -80,3 +80,23 @@ func writeTable(w io.Writer, format string, t *tabular.Table) error {
 	}
 	return t.WriteText(w, 60)
 }
+
+// saveRun reserves the next run id, hands it to setID (the report carries
+// its id) and stores the run: params as its parameters and the report as
+// its result, the document --format json prints.
+func saveRun(ctx context.Context, ws *workspace.Workspace, kind string, started time.Time, params, rep any, setID func(int64)) error {
+	id, err := ws.NextRunID(ctx)
+	if err != nil {
+		return fmt.Errorf("saving the run: %w", err)
+	}
+	setID(id)
+	p, err := json.Marshal(params)
+	if err != nil {
+		return err
+	}
+	r, err := json.Marshal(rep)
+	if err != nil {
+		return err
+	}
+	return ws.SaveRunWithID(ctx, id, kind, started, p, r)
+}
