@@ -10,6 +10,7 @@ import (
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
+	"github.com/spf13/pflag"
 )
 
 // benchData says where bench-battery and bench-dups keep their generated
@@ -20,6 +21,23 @@ type benchData struct {
 	rows                int64
 	seed                uint64
 	threads             int
+}
+
+// add registers the flags of the generated data and the workspace.
+func (d *benchData) add(fs *pflag.FlagSet) {
+	fs.Int64Var(&d.rows, "rows", 20_000_000, "rows to generate")
+	fs.Uint64Var(&d.seed, "seed", 2025, "random seed of the generated ledger")
+	fs.StringVar(&d.dir, "dir", "", "work folder (default: a temporary folder, removed afterwards)")
+	fs.BoolVar(&d.keep, "keep", false, "keep the work folder's Parquet file and workspace, and reuse them when present")
+	fs.IntVar(&d.threads, "threads", 0, "DuckDB worker threads (default: one per core)")
+	fs.StringVar(&d.memory, "memory-limit", "", "DuckDB memory limit, e.g. 4GB")
+}
+
+func (d *benchData) check(repeat int) error {
+	if d.rows < 10_000 || repeat < 1 {
+		return fmt.Errorf("give --rows 10000 or more and --repeat 1 or more")
+	}
+	return nil
 }
 
 // openBenchWorkspace generates the Parquet ledger and loads it into a

@@ -45,17 +45,12 @@ Examples:
   leadline bench-battery --dir /data/bench --keep   # keep the Parquet file and workspace
   leadline bench-battery --by counterparty      # 5,000-odd segments`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var o benchBatteryOptions
+			o := benchBatteryOptions{benchData: benchData{prefix: "leadline-bench-battery-"}}
 			var f formatFlag
-			fs.Int64Var(&o.rows, "rows", 20_000_000, "rows to generate")
-			fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
-			fs.StringVar(&o.dir, "dir", "", "work folder (default: a temporary folder, removed afterwards)")
-			fs.BoolVar(&o.keep, "keep", false, "keep the work folder's Parquet file and workspace, and reuse them when present")
+			o.add(fs)
 			fs.IntVar(&o.repeat, "repeat", 3, "runs of each timed step")
 			fs.StringSliceVar(&o.by, "by", []string{"entity", "account", "month"}, "segment columns of step (c)")
 			fs.BoolVar(&o.extra, "extra", true, "also time the second-order test, number duplication and a full default scan")
-			fs.IntVar(&o.threads, "threads", 0, "DuckDB worker threads (default: one per core)")
-			fs.StringVar(&o.memory, "memory-limit", "", "DuckDB memory limit, e.g. 4GB")
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
@@ -64,8 +59,8 @@ Examples:
 				if len(args) > 0 {
 					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
 				}
-				if o.rows < 10_000 || o.repeat < 1 {
-					return fmt.Errorf("give --rows 10000 or more and --repeat 1 or more")
+				if err := o.check(o.repeat); err != nil {
+					return err
 				}
 				return benchBattery(ctx, e, o, f.value)
 			}
@@ -74,22 +69,17 @@ Examples:
 }
 
 type benchBatteryOptions struct {
-	rows    int64
-	seed    uint64
-	dir     string
-	keep    bool
-	repeat  int
-	by      []string
-	extra   bool
-	threads int
-	memory  string
+	benchData
+	repeat int
+	by     []string
+	extra  bool
 }
 
 // countTests are the tests the one scan feeds.
 var countTests = []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.FirstThree, benford.LastTwo, benford.Summation}
 
 func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format string) error {
-	ws, dir, steps, done, err := openBenchWorkspace(ctx, e, benchData{dir: o.dir, prefix: "leadline-bench-battery-", memory: o.memory, keep: o.keep, rows: o.rows, seed: o.seed, threads: o.threads})
+	ws, dir, steps, done, err := openBenchWorkspace(ctx, e, o.benchData)
 	if err != nil {
 		return err
 	}

@@ -38,16 +38,11 @@ Examples:
   leadline bench-dups --rows 2000000 --repeat 3
   leadline bench-dups --dir /data/bench --keep   # keep the Parquet file and workspace`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var o benchDupsOptions
+			o := benchDupsOptions{benchData: benchData{prefix: "leadline-bench-dups-"}}
 			var f formatFlag
-			fs.Int64Var(&o.rows, "rows", 20_000_000, "rows to generate")
-			fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
-			fs.StringVar(&o.dir, "dir", "", "work folder (default: a temporary folder, removed afterwards)")
-			fs.BoolVar(&o.keep, "keep", false, "keep the work folder's Parquet file and workspace, and reuse them when present")
+			o.add(fs)
 			fs.IntVar(&o.repeat, "repeat", 1, "runs of each timed step")
 			fs.IntVar(&o.bin, "bin", 47, "first-two digits bin drilled")
-			fs.IntVar(&o.threads, "threads", 0, "DuckDB worker threads (default: one per core)")
-			fs.StringVar(&o.memory, "memory-limit", "", "DuckDB memory limit, e.g. 4GB")
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
@@ -56,8 +51,8 @@ Examples:
 				if len(args) > 0 {
 					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
 				}
-				if o.rows < 10_000 || o.repeat < 1 {
-					return fmt.Errorf("give --rows 10000 or more and --repeat 1 or more")
+				if err := o.check(o.repeat); err != nil {
+					return err
 				}
 				return benchDups(ctx, e, o, f.value)
 			}
@@ -66,13 +61,8 @@ Examples:
 }
 
 type benchDupsOptions struct {
-	rows        int64
-	seed        uint64
-	dir         string
-	keep        bool
+	benchData
 	repeat, bin int
-	threads     int
-	memory      string
 }
 
 type benchStep struct {
@@ -83,7 +73,7 @@ type benchStep struct {
 }
 
 func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) error {
-	ws, dir, steps, done, err := openBenchWorkspace(ctx, e, benchData{dir: o.dir, prefix: "leadline-bench-dups-", memory: o.memory, keep: o.keep, rows: o.rows, seed: o.seed, threads: o.threads})
+	ws, dir, steps, done, err := openBenchWorkspace(ctx, e, o.benchData)
 	if err != nil {
 		return err
 	}
