@@ -579,7 +579,6 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	}
 	reasonExpr = "replace(" + reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
 
-	reader, rejTable := readerSQL(src, ""), ""
 	var base int64
 	if err := tx.QueryRowContext(ctx, queries.Get("load_next_row_id")).Scan(&base); err != nil {
 		return nil, err
@@ -588,7 +587,8 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if src.Format == "parquet" {
 		lineOffset = "0"
 	}
-	rowNumber := "file_row_number + 1"
+	// Parquet rows come numbered by the reader; CSV records from the stage.
+	reader, rejTable, rowNumber := readerSQL(src, ""), "", "file_row_number + 1"
 	if src.Format == "csv" {
 		reader, rejTable = queries.QuoteIdent(src.stage), src.rejects
 		rowNumber = fmt.Sprintf("rowid - %d + 1", src.stageFirst)
@@ -783,7 +783,8 @@ func unstage(ws *workspace.Workspace, sources []*Source) {
 }
 
 // readerSQL is the table function that reads src; a CSV reader stores the
-// records it cannot take in the temporary table rejTable ("" for none).
+// records it cannot take in the temporary table rejTable (unused for
+// Parquet).
 func readerSQL(src *Source, rejTable string) string {
 	if src.Format == "parquet" {
 		return "read_parquet(" + queries.QuoteString(src.Path) + ", file_row_number = true)"
@@ -791,9 +792,6 @@ func readerSQL(src *Source, rejTable string) string {
 	var cols []string
 	for _, c := range src.Columns {
 		cols = append(cols, queries.QuoteString(c)+": 'VARCHAR'")
-	}
-	if rejTable == "" {
-		rejTable = "ll_rejects_inspect"
 	}
 	opts := []string{
 		queries.QuoteString(src.Path),
