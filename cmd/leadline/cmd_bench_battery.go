@@ -4,13 +4,12 @@ import (
 	"context"
 	"fmt"
 	"io"
-	"runtime"
+	"slices"
 	"strings"
 	"time"
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/queries"
 	"github.com/spf13/pflag"
 )
@@ -47,8 +46,7 @@ Examples:
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			o := benchBatteryOptions{benchData: benchData{prefix: "leadline-bench-battery-"}}
 			var f formatFlag
-			o.add(fs)
-			fs.IntVar(&o.repeat, "repeat", 3, "runs of each timed step")
+			o.add(fs, 3)
 			fs.StringSliceVar(&o.by, "by", []string{"entity", "account", "month"}, "segment columns of step (c)")
 			fs.BoolVar(&o.extra, "extra", true, "also time the second-order test, number duplication and a full default scan")
 			f.add(fs)
@@ -59,7 +57,7 @@ Examples:
 				if len(args) > 0 {
 					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
 				}
-				if err := o.check(o.repeat); err != nil {
+				if err := o.check(); err != nil {
 					return err
 				}
 				return benchBattery(ctx, e, o, f.value)
@@ -70,9 +68,8 @@ Examples:
 
 type benchBatteryOptions struct {
 	benchData
-	repeat int
-	by     []string
-	extra  bool
+	by    []string
+	extra bool
 }
 
 // countTests are the tests the one scan feeds.
@@ -92,26 +89,8 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 	if err := battery.CreateMacros(ctx, ws); err != nil {
 		return err
 	}
-	best := map[string]float64{}
-	bestCPU := map[string]float64{}
-	time1 := func(key, name, cmd string, fn func() (string, error)) error {
-		st := benchStep{Step: name, Command: cmd}
-		for i := 0; i < o.repeat; i++ {
-			say("%s (run %d of %d) ...\n", name, i+1, o.repeat)
-			t0 := time.Now()
-			res, err := fn()
-			if err != nil {
-				return fmt.Errorf("%s: %w", name, err)
-			}
-			d := time.Since(t0).Seconds()
-			st.Runs = append(st.Runs, d)
-			st.Result = res
-			if b, ok := best[key]; !ok || d < b {
-				best[key] = d
-			}
-		}
-		steps = append(steps, st)
-		return nil
+	time1 := func(name, cmd string, fn func() (string, error)) error {
+		return o.timeStep(e, &steps, name, cmd, fn)
 	}
 	// Interleave (b), (a) and (c) run by run, so that the machine's other
 	// load falls on all three alike.
@@ -166,11 +145,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 				return fmt.Errorf("%s: %w", j.name, err)
 			}
 			d := time.Since(t0).Seconds()
-			c := processCPU() - c0
-			cpuRuns[j.key] = append(cpuRuns[j.key], c)
-			if b, ok := bestCPU[j.key]; !ok || c < b {
-				bestCPU[j.key] = c
-			}
+			cpuRuns[j.key] = append(cpuRuns[j.key], processCPU()-c0)
 			k, ok := byKey[j.key]
 			if !ok {
 				steps = append(steps, benchStep{Step: j.name, Command: j.cmd})
@@ -180,13 +155,10 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 			st := &steps[k]
 			st.Runs = append(st.Runs, d)
 			st.Result = res
-			if b, ok := best[j.key]; !ok || d < b {
-				best[j.key] = d
-			}
 		}
 	}
 	if o.extra {
-		if err := time1("so", "second-order test (its own query)", "leadline scan --tests second_order", func() (string, error) {
+		if err := time1("second-order test (its own query)", "leadline scan --tests second_order", func() (string, error) {
 			r, err := battery.Run(ctx, ws, battery.Options{Tests: []benford.Test{benford.SecondOrder}})
 			if err != nil {
 				return "", err
@@ -195,7 +167,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 		}); err != nil {
 			return err
 		}
-		if err := time1("dup", "number duplication (its own query)", "leadline scan --tests duplication", func() (string, error) {
+		if err := time1("number duplication (its own query)", "leadline scan --tests duplication", func() (string, error) {
 			r, err := battery.Run(ctx, ws, battery.Options{Duplication: true})
 			if err != nil {
 				return "", err
@@ -204,7 +176,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 		}); err != nil {
 			return err
 		}
-		if err := time1("full", "full default scan (all tests)", "leadline scan", func() (string, error) {
+		if err := time1("full default scan (all tests)", "leadline scan", func() (string, error) {
 			r, err := battery.Run(ctx, ws, battery.Options{})
 			if err != nil {
 				return "", err
@@ -214,18 +186,21 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 			return err
 		}
 	}
+	// Ratios of the fastest runs, wall and CPU time.
+	best := func(k string) float64 { return steps[byKey[k]].fastest() }
+	bestCPU := func(k string) float64 { return slices.Min(cpuRuns[k]) }
 	ratios := map[string]float64{}
-	if best["b"] > 0 {
-		ratios["a_over_b"] = best["a"] / best["b"]
+	if best("b") > 0 {
+		ratios["a_over_b"] = best("a") / best("b")
 	}
-	if best["a"] > 0 {
-		ratios["c_over_a"] = best["c"] / best["a"]
+	if best("a") > 0 {
+		ratios["c_over_a"] = best("c") / best("a")
 	}
-	if bestCPU["b"] > 0 {
-		ratios["a_over_b_cpu"] = bestCPU["a"] / bestCPU["b"]
+	if bestCPU("b") > 0 {
+		ratios["a_over_b_cpu"] = bestCPU("a") / bestCPU("b")
 	}
-	if bestCPU["a"] > 0 {
-		ratios["c_over_a_cpu"] = bestCPU["c"] / bestCPU["a"]
+	if bestCPU("a") > 0 {
+		ratios["c_over_a_cpu"] = bestCPU("c") / bestCPU("a")
 	}
 	for k, i := range byKey {
 		steps[i].Result += fmt.Sprintf(" [CPU s: %s]", cpuList(cpuRuns[k]))
@@ -251,37 +226,17 @@ func testNames(ts []benford.Test) string {
 }
 
 func printBenchBattery(w io.Writer, format string, o benchBatteryOptions, rows int64, duckdbVersion string, steps []benchStep, ratios map[string]float64, dir string) error {
-	threads := o.threads
-	if threads == 0 {
-		threads = runtime.NumCPU()
-	}
 	if format == "json" {
-		return drillWriteJSON(w, map[string]any{
-			"rows": rows, "seed": o.seed, "repeat": o.repeat, "threads": threads, "cpus": runtime.NumCPU(),
-			"duckdb": duckdbVersion, "leadline": version(), "by": o.by, "steps": steps, "ratios": ratios,
-		})
+		doc := o.describe(rows, duckdbVersion, steps)
+		doc["by"], doc["ratios"] = o.by, ratios
+		return drillWriteJSON(w, doc)
 	}
-	t := &tabular.Table{Columns: []string{"step", "fastest_s", "slowest_s", "result", "command"}}
-	for _, s := range steps {
-		lo, hi := s.Runs[0], s.Runs[0]
-		for _, r := range s.Runs {
-			lo, hi = min(lo, r), max(hi, r)
-		}
-		t.Add(s.Step, fmt.Sprintf("%.2f", lo), fmt.Sprintf("%.2f", hi), s.Result, s.Command)
-	}
-	if format == "csv" {
-		return t.WriteCSV(w)
-	}
-	fmt.Fprintf(w, "Digit battery on %s generated rows (seed %d), %d run(s) each, %d DuckDB threads on %d CPUs, DuckDB %s\n\n",
-		drillCount(rows), o.seed, o.repeat, threads, runtime.NumCPU(), duckdbVersion)
-	if err := t.WriteText(w, 0); err != nil {
+	if err := o.printSteps(w, format, "Digit battery", rows, duckdbVersion, steps); err != nil || format == "csv" {
 		return err
 	}
 	fmt.Fprintf(w, "\nFastest runs, wall time (CPU time of the process):\n")
 	fmt.Fprintf(w, "  (a) battery / (b) first-two GROUP BY = %.2f (%.2f); goal: at most 1.3\n", ratios["a_over_b"], ratios["a_over_b_cpu"])
 	fmt.Fprintf(w, "  (c) battery by %s / (a) battery = %.2f (%.2f); goal: at most 1.5\n", strings.Join(o.by, ", "), ratios["c_over_a"], ratios["c_over_a_cpu"])
-	if o.keep {
-		fmt.Fprintf(w, "\nKept in %s (rerun with the same --dir --keep to skip generating and loading)\n", dir)
-	}
+	o.printKept(w, dir)
 	return nil
 }

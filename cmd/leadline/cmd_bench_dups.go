@@ -5,12 +5,9 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"runtime"
-	"time"
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
-	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
 )
 
@@ -40,8 +37,7 @@ Examples:
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			o := benchDupsOptions{benchData: benchData{prefix: "leadline-bench-dups-"}}
 			var f formatFlag
-			o.add(fs)
-			fs.IntVar(&o.repeat, "repeat", 1, "runs of each timed step")
+			o.add(fs, 1)
 			fs.IntVar(&o.bin, "bin", 47, "first-two digits bin drilled")
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
@@ -51,7 +47,7 @@ Examples:
 				if len(args) > 0 {
 					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
 				}
-				if err := o.check(o.repeat); err != nil {
+				if err := o.check(); err != nil {
 					return err
 				}
 				return benchDups(ctx, e, o, f.value)
@@ -62,14 +58,7 @@ Examples:
 
 type benchDupsOptions struct {
 	benchData
-	repeat, bin int
-}
-
-type benchStep struct {
-	Step    string    `json:"step"`
-	Command string    `json:"command"`
-	Runs    []float64 `json:"seconds"`
-	Result  string    `json:"result"`
+	bin int
 }
 
 func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) error {
@@ -78,25 +67,12 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 		return err
 	}
 	defer done()
-	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
 	var n int64
 	if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ledger").Scan(&n); err != nil {
 		return err
 	}
 	time1 := func(name, cmd string, fn func() (string, error)) error {
-		st := benchStep{Step: name, Command: cmd}
-		for i := 0; i < o.repeat; i++ {
-			say("%s (run %d of %d) ...\n", name, i+1, o.repeat)
-			t0 := time.Now()
-			res, err := fn()
-			if err != nil {
-				return fmt.Errorf("%s: %w", name, err)
-			}
-			st.Runs = append(st.Runs, time.Since(t0).Seconds())
-			st.Result = res
-		}
-		steps = append(steps, st)
-		return nil
+		return o.timeStep(e, &steps, name, cmd, fn)
 	}
 	dupsResult := func(r *duplicates.Result) string {
 		s := ""
@@ -167,35 +143,13 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 }
 
 func printBenchDups(w io.Writer, format string, o benchDupsOptions, rows int64, duckdbVersion string, steps []benchStep, dir string) error {
-	threads := o.threads
-	if threads == 0 {
-		threads = runtime.NumCPU()
-	}
 	if format == "json" {
-		return drillWriteJSON(w, map[string]any{
-			"rows": rows, "seed": o.seed, "repeat": o.repeat, "threads": threads, "cpus": runtime.NumCPU(),
-			"duckdb": duckdbVersion, "leadline": version(), "steps": steps,
-		})
+		return drillWriteJSON(w, o.describe(rows, duckdbVersion, steps))
 	}
-	t := &tabular.Table{Columns: []string{"step", "fastest_s", "slowest_s", "result", "command"}}
-	for _, s := range steps {
-		lo, hi := s.Runs[0], s.Runs[0]
-		for _, r := range s.Runs {
-			lo, hi = min(lo, r), max(hi, r)
-		}
-		t.Add(s.Step, fmt.Sprintf("%.2f", lo), fmt.Sprintf("%.2f", hi), s.Result, s.Command)
-	}
-	if format == "csv" {
-		return t.WriteCSV(w)
-	}
-	fmt.Fprintf(w, "Duplicate tests and drill on %s generated rows (seed %d), %d run(s) each, %d DuckDB threads on %d CPUs, DuckDB %s\n\n",
-		drillCount(rows), o.seed, o.repeat, threads, runtime.NumCPU(), duckdbVersion)
-	if err := t.WriteText(w, 0); err != nil {
+	if err := o.printSteps(w, format, "Duplicate tests and drill", rows, duckdbVersion, steps); err != nil || format == "csv" {
 		return err
 	}
-	if o.keep {
-		fmt.Fprintf(w, "\nKept in %s (rerun with the same --dir --keep to skip generating and loading)\n", dir)
-	}
+	o.printKept(w, dir)
 	return nil
 }
 
