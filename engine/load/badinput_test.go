@@ -23,75 +23,64 @@ func TestBadInputCorpus(t *testing.T) {
 	if len(cases) < 40 {
 		t.Fatalf("the corpus has %d cases; the issue asks for at least 40", len(cases))
 	}
-	gen := t.TempDir()
-	for _, c := range cases {
-		t.Run(c.Name, func(t *testing.T) {
-			t.Parallel()
-			if c.Heavy && testing.Short() {
-				t.Skip("a large generated input; skipped with -short")
+	loadtest.ForEach(t, func(t *testing.T, c loadtest.Case, path string) {
+		ctx := context.Background()
+		ws := openWS(t, ":memory:")
+		rep, err := Load(ctx, ws, []string{path}, caseOptions(c.Options))
+		if c.Exit != 0 {
+			if err == nil {
+				t.Fatalf("%s loaded (read %d, loaded %d, rejected %d); want an error with %q", c.What, rep.RowsRead, rep.RowsLoaded, rep.RowsRejected, c.Error)
 			}
-			ctx := context.Background()
-			path, err := c.Materialize(gen)
-			if err != nil {
-				t.Fatal(err)
+			if e := c.ErrorMatches(err.Error()); e != nil {
+				t.Fatalf("%v: %q", e, err)
 			}
-			ws := openWS(t, ":memory:")
-			rep, err := Load(ctx, ws, []string{path}, caseOptions(c.Options))
-			if c.Exit != 0 {
-				if err == nil {
-					t.Fatalf("%s loaded (read %d, loaded %d, rejected %d); want an error with %q", c.What, rep.RowsRead, rep.RowsLoaded, rep.RowsRejected, c.Error)
-				}
-				if e := c.ErrorMatches(err.Error()); e != nil {
-					t.Fatalf("%v: %q", e, err)
-				}
-				if n := count(t, ws.Conn, "SELECT count(*) FROM files") + count(t, ws.Conn, "SELECT count(*) FROM rejects") + count(t, ws.Conn, "SELECT count(*) FROM loads") + count(t, ws.Conn, "SELECT count(*) FROM meta"); n != 0 {
-					t.Fatalf("a failed load left %d rows in files, rejects, loads and meta", n)
-				}
-				if has, _ := ws.HasLedger(ctx); has {
-					t.Fatal("a failed load left a ledger table")
-				}
-				return
+			if n := count(t, ws.Conn, "SELECT count(*) FROM files") + count(t, ws.Conn, "SELECT count(*) FROM rejects") + count(t, ws.Conn, "SELECT count(*) FROM loads") + count(t, ws.Conn, "SELECT count(*) FROM meta"); n != 0 {
+				t.Fatalf("a failed load left %d rows in files, rejects, loads and meta", n)
 			}
-			if err != nil {
-				t.Fatalf("%s: %v", c.What, err)
+			if has, _ := ws.HasLedger(ctx); has {
+				t.Fatal("a failed load left a ledger table")
 			}
-			f := rep.Files[0]
-			if f.RowsRead != f.RowsLoaded+f.RowsRejected {
-				t.Fatalf("read %d != loaded %d + rejected %d", f.RowsRead, f.RowsLoaded, f.RowsRejected)
+			return
+		}
+		if err != nil {
+			t.Fatalf("%s: %v", c.What, err)
+		}
+		f := rep.Files[0]
+		if f.RowsRead != f.RowsLoaded+f.RowsRejected {
+			t.Fatalf("read %d != loaded %d + rejected %d", f.RowsRead, f.RowsLoaded, f.RowsRejected)
+		}
+		if f.RowsRead != c.RowsRead || f.RowsLoaded != c.RowsLoaded || f.RowsRejected != c.RowsRejected {
+			t.Fatalf("read %d loaded %d rejected %d; want %d, %d, %d (reasons %+v)", f.RowsRead, f.RowsLoaded, f.RowsRejected,
+				c.RowsRead, c.RowsLoaded, c.RowsRejected, f.RejectReasons)
+		}
+		// The workspace agrees with the report.
+		if n := count(t, ws.Conn, "SELECT count(*) FROM ledger"); n != f.RowsLoaded {
+			t.Errorf("ledger holds %d rows, report says %d loaded", n, f.RowsLoaded)
+		}
+		if n := count(t, ws.Conn, "SELECT count(*) FROM ledger WHERE amount IS NULL"); n != 0 {
+			t.Errorf("%d loaded rows without an amount", n)
+		}
+		for _, w := range c.Warnings {
+			found := false
+			for _, got := range f.Warnings {
+				found = found || strings.Contains(got, w)
 			}
-			if f.RowsRead != c.RowsRead || f.RowsLoaded != c.RowsLoaded || f.RowsRejected != c.RowsRejected {
-				t.Fatalf("read %d loaded %d rejected %d; want %d, %d, %d (reasons %+v)", f.RowsRead, f.RowsLoaded, f.RowsRejected,
-					c.RowsRead, c.RowsLoaded, c.RowsRejected, f.RejectReasons)
+			if !found {
+				t.Errorf("no warning holds %q; warnings: %q", w, f.Warnings)
 			}
-			// The workspace agrees with the report.
-			if n := count(t, ws.Conn, "SELECT count(*) FROM ledger"); n != f.RowsLoaded {
-				t.Errorf("ledger holds %d rows, report says %d loaded", n, f.RowsLoaded)
+		}
+		checkRejects(t, ws.Conn, c.Rejects)
+		for _, ch := range c.Checks {
+			var got sql.NullString
+			if err := ws.Conn.QueryRowContext(ctx, ch.SQL).Scan(&got); err != nil {
+				t.Errorf("%s: %v", ch.SQL, err)
+				continue
 			}
-			if n := count(t, ws.Conn, "SELECT count(*) FROM ledger WHERE amount IS NULL"); n != 0 {
-				t.Errorf("%d loaded rows without an amount", n)
+			if got.String != ch.Want {
+				t.Errorf("%s\n got %q\nwant %q", ch.SQL, got.String, ch.Want)
 			}
-			for _, w := range c.Warnings {
-				found := false
-				for _, got := range f.Warnings {
-					found = found || strings.Contains(got, w)
-				}
-				if !found {
-					t.Errorf("no warning holds %q; warnings: %q", w, f.Warnings)
-				}
-			}
-			checkRejects(t, ws.Conn, c.Rejects)
-			for _, ch := range c.Checks {
-				var got sql.NullString
-				if err := ws.Conn.QueryRowContext(ctx, ch.SQL).Scan(&got); err != nil {
-					t.Errorf("%s: %v", ch.SQL, err)
-					continue
-				}
-				if got.String != ch.Want {
-					t.Errorf("%s\n got %q\nwant %q", ch.SQL, got.String, ch.Want)
-				}
-			}
-		})
-	}
+		}
+	})
 }
 
 func checkRejects(t *testing.T, ws interface {
