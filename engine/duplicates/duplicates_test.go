@@ -16,6 +16,7 @@ import (
 	"github.com/leadline/leadline/engine/drill/drilltest"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/load"
+	popn "github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -355,7 +356,7 @@ func TestOtherPopulation(t *testing.T) {
 			pop = append(pop, r)
 		}
 	}
-	o := duplicates.Options{Base: drill.Base{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1}
+	o := duplicates.Options{Spec: popn.Spec{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1}
 	res := runAll(t, ws, o)
 	for _, tr := range res.Tests {
 		want := expectedWith(tr.Test, pop, 3, 4, 5)
@@ -590,9 +591,9 @@ func TestBadInput(t *testing.T) {
 	}{
 		{duplicates.Options{Tests: []string{"triplicates"}}, `unknown test "triplicates"`},
 		{duplicates.Options{WindowDays: -3}, "--window-days -3"},
-		{duplicates.Options{Base: drill.Base{Signs: "up"}}, `--signs "up"`},
-		{duplicates.Options{Base: drill.Base{Min: "ten"}}, "not a plain decimal number"},
-		{duplicates.Options{Base: drill.Base{Where: "no_such_column = 1"}}, "no_such_column"},
+		{duplicates.Options{Spec: popn.Spec{Signs: "up"}}, `signs "up"`},
+		{duplicates.Options{Spec: popn.Spec{Min: "ten"}}, "not a plain decimal number"},
+		{duplicates.Options{Spec: popn.Spec{Where: "no_such_column = 1"}}, "no_such_column"},
 		{duplicates.Options{MinRecords: 1}, "--min-records 1"},
 	} {
 		_, err := duplicates.Run(ctx, ws, c.o)
