@@ -41,8 +41,12 @@ func TestDecimalGrammar(t *testing.T) {
 // TestFieldErrors checks that every refusal is a *FieldError naming its
 // field and value, rendered in the caller's names.
 func TestFieldErrors(t *testing.T) {
-	flags := func(f string) string { return map[string]string{FieldWhere: "--where", FieldSigns: "--signs", FieldMin: "--min"}[f] }
-	keys := func(f string) string { return map[string]string{FieldWhere: "filter", FieldSigns: "signs", FieldMin: "min_amount"}[f] }
+	flags := func(f string) string {
+		return map[string]string{FieldWhere: "--where", FieldSigns: "--signs", FieldMin: "--min"}[f]
+	}
+	keys := func(f string) string {
+		return map[string]string{FieldWhere: "filter", FieldSigns: "signs", FieldMin: "min_amount"}[f]
+	}
 	for _, c := range []struct {
 		err            error
 		field, value   string
