@@ -15,11 +15,13 @@ var populationFlags = map[string]string{
 }
 
 // flagError words an engine error in the command line's terms: an error
-// about a field of the population names the flag that sets it. Other
-// errors pass unchanged.
+// about the population's fields (a *population.FieldError or
+// *population.EmptyError) names the flags that set them. Other errors pass
+// unchanged.
 func flagError(err error) error {
-	if fe, ok := population.AsFieldError(err); ok {
-		return errors.New(fe.Render(func(f string) string { return populationFlags[f] }))
+	var w population.Worded
+	if errors.As(err, &w) {
+		return errors.New(w.Render(func(f string) string { return populationFlags[f] }))
 	}
 	return err
 }

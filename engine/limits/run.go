@@ -151,6 +151,5 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 const MaxSegments = 100000
 
 func noAmounts(c ranges.Counts, min string) error {
-	return fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
-		c.Rows, c.Zero, c.OtherSign, c.BelowMin, min)
+	return population.NoAmounts(c.Rows, c.Left(), min)
 }

@@ -247,3 +247,20 @@ func TestPrepareRefuses(t *testing.T) {
 		}
 	}
 }
+
+// TestEmptyError checks the words of an empty population in both namings.
+func TestEmptyError(t *testing.T) {
+	err := NoAmounts(6, Left{Zero: 1, OtherSign: 1, BelowMin: 4}, "100000")
+	want := "no amounts to test: 6 rows match the filter, 1 are zero, 1 of the other sign, 4 below the minimum 100000 (try signs both or a lower min)"
+	if err.Error() != want {
+		t.Errorf("Error() = %q, want %q", err.Error(), want)
+	}
+	var w Worded
+	if !errors.As(err, &w) {
+		t.Fatal("not Worded")
+	}
+	flags := map[string]string{FieldSigns: "--signs", FieldMin: "--min"}
+	if got := w.Render(func(f string) string { return flags[f] }); !strings.HasSuffix(got, "(try --signs both or a lower --min)") {
+		t.Errorf("Render(flags) = %q", got)
+	}
+}

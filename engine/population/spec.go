@@ -153,3 +153,35 @@ func ParseMin(s string) (*big.Rat, error) {
 	}
 	return r, nil
 }
+
+// Worded is an error that names fields of the population: Render words it
+// with the caller's names for them (FieldError and EmptyError).
+type Worded interface {
+	error
+	Render(name func(field string) string) string
+}
+
+// EmptyError says that a population holds no amount to test, and why.
+type EmptyError struct {
+	Kept int64  // rows the filter keeps
+	Left Left   // why each of them was left out
+	Min  string // the minimum, as given
+}
+
+// NoAmounts returns the error of a population with nothing to test.
+func NoAmounts(kept int64, left Left, min string) error {
+	return &EmptyError{Kept: kept, Left: left, Min: min}
+}
+
+// Error renders the error with the fields' own names.
+func (e *EmptyError) Error() string { return e.Render(nil) }
+
+// Render writes the error naming the fields that widen the population by
+// name(field).
+func (e *EmptyError) Render(name func(field string) string) string {
+	if name == nil {
+		name = func(f string) string { return f }
+	}
+	return fmt.Sprintf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try %s both or a lower %s)",
+		e.Kept, e.Left.Zero, e.Left.OtherSign, e.Left.BelowMin, e.Min, name(FieldSigns), name(FieldMin))
+}

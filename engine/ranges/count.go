@@ -26,6 +26,12 @@ type Counts struct {
 	Max       float64 `json:"max"`        // largest tested |amount| (0 if none)
 }
 
+// Left returns the rows left out as the population counts them (the
+// filter's are not among Rows).
+func (c Counts) Left() population.Left {
+	return population.Left{Zero: c.Zero, OtherSign: c.OtherSign, BelowMin: c.BelowMin}
+}
+
 // Add adds the counts of o and widens the range to cover it.
 func (c *Counts) Add(o Counts) {
 	if o.Tested > 0 {

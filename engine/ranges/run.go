@@ -2,7 +2,6 @@ package ranges
 
 import (
 	"context"
-	"fmt"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/population"
@@ -50,8 +49,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	if sum.Tested == 0 {
-		return nil, fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
-			sum.Rows, sum.Zero, sum.OtherSign, sum.BelowMin, pop.Spec.Min)
+		return nil, population.NoAmounts(sum.Rows, sum.Left(), pop.Spec.Min)
 	}
 	bands, err := o.Layout.Bands(sum.Min, sum.Max)
 	if err != nil {
