@@ -126,7 +126,7 @@ Examples:
 					if err != nil {
 						return err
 					}
-					g, grp, err := duplicates.GroupSelection(ctx, ws, ref)
+					g, grp, err := drill.DuplicateGroup(ctx, ws, ref)
 					if err != nil {
 						return err
 					}

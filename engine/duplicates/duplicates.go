@@ -22,7 +22,7 @@
 // counterparties by hash (queries/duplicates.sql gives the odds).
 //
 // A stored run keeps each group's key, so that `leadline drill --dup
-// RUN:TEST:GROUP` lists its records again (GroupSelection).
+// RUN:TEST:GROUP` lists its records again (GroupSelection, drill.DuplicateGroup).
 //
 // Results are signals for follow-up, never proof of fraud: recurring
 // payments, instalments and round prices produce many innocent groups.
@@ -38,7 +38,6 @@ import (
 	"strings"
 	"time"
 
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
@@ -397,15 +396,23 @@ func LoadRun(ctx context.Context, ws *workspace.Workspace, run int64) (*Result, 
 	return &res, nil
 }
 
-// GroupSelection turns a group reference into a drill selection: the run's
-// population (filter, signs, minimum) and the group's key, with the same
-// conditions the test put on its key columns, so that the drill finds the
-// group's records (as many as the run counted, unless the ledger changed
-// since).
-func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (drill.Selection, *Group, error) {
+// GroupKey is what selects a group's records: the run's population
+// (filter, signs, minimum), the group's key as a predicate, and a phrase
+// saying what it selects.
+type GroupKey struct {
+	Population population.Spec
+	Where      population.Predicate
+	Described  string
+}
+
+// GroupSelection turns a group reference into its key, with the same
+// conditions the test put on its key columns, so that a drill-down finds
+// the group's records (as many as the run counted, unless the ledger
+// changed since); drill.DuplicateGroup makes it a drill selection.
+func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (GroupKey, *Group, error) {
 	res, err := LoadRun(ctx, ws, ref.Run)
 	if err != nil {
-		return drill.Selection{}, nil, err
+		return GroupKey{}, nil, err
 	}
 	var tr *TestResult
 	for i := range res.Tests {
@@ -414,22 +421,22 @@ func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (dril
 		}
 	}
 	if tr == nil {
-		return drill.Selection{}, nil, fmt.Errorf("run %d did not run the %s test", res.RunID, ref.Test)
+		return GroupKey{}, nil, fmt.Errorf("run %d did not run the %s test", res.RunID, ref.Test)
 	}
 	if tr.Status != "ok" {
-		return drill.Selection{}, nil, fmt.Errorf("run %d skipped the %s test (%s)", res.RunID, ref.Test, tr.Reason)
+		return GroupKey{}, nil, fmt.Errorf("run %d skipped the %s test (%s)", res.RunID, ref.Test, tr.Reason)
 	}
 	if ref.Group > len(tr.Groups) {
 		more := ""
 		if tr.GroupsTotal > int64(len(tr.Groups)) {
 			more = fmt.Sprintf("; it found %d, rerun leadline dups with --top %d to keep more", tr.GroupsTotal, ref.Group)
 		}
-		return drill.Selection{}, nil, fmt.Errorf("run %d kept %d groups of the %s test, no group %d%s", res.RunID, len(tr.Groups), ref.Test, ref.Group, more)
+		return GroupKey{}, nil, fmt.Errorf("run %d kept %d groups of the %s test, no group %d%s", res.RunID, len(tr.Groups), ref.Test, ref.Group, more)
 	}
 	g := tr.Groups[ref.Group-1]
 	at, err := population.ParseAmountType(res.AmountType)
 	if err != nil {
-		return drill.Selection{}, nil, err
+		return GroupKey{}, nil, err
 	}
 	amt := "amount = CAST(? AS " + at.SQL() + ")"
 	var p population.Predicate
@@ -456,10 +463,10 @@ func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (dril
 		p = population.Predicate{SQL: "counterparty = ?", Args: []any{g.Counterparty}}
 		what = fmt.Sprintf("counterparty %s", g.Counterparty)
 	}
-	sel := drill.Selection{
-		Spec:      res.Options.Spec,
-		Extra:     []population.Predicate{p},
-		Described: []string{fmt.Sprintf("duplicates run %d, %s group %d: %s", res.RunID, ref.Test, g.ID, what)},
+	key := GroupKey{
+		Population: res.Options.Spec,
+		Where:      p,
+		Described:  fmt.Sprintf("duplicates run %d, %s group %d: %s", res.RunID, ref.Test, g.ID, what),
 	}
-	return sel, &g, nil
+	return key, &g, nil
 }

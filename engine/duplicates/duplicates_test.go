@@ -470,7 +470,7 @@ func TestDrillGroups(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				sel, _, err := duplicates.GroupSelection(ctx, ws, ref)
+				sel, _, err := drill.DuplicateGroup(ctx, ws, ref)
 				if err != nil {
 					t.Fatal(err)
 				}

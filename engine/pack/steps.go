@@ -530,7 +530,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 				if i >= e.Top {
 					break
 				}
-				sel, g, err := duplicates.GroupSelection(ctx, r.ws, duplicates.Ref{Run: r.duplicates.RunID, Test: tr.Test, Group: i + 1})
+				sel, g, err := drill.DuplicateGroup(ctx, r.ws, duplicates.Ref{Run: r.duplicates.RunID, Test: tr.Test, Group: i + 1})
 				if err != nil {
 					return err
 				}
