@@ -3,7 +3,7 @@
 -- Placeholders, all built by leadline itself:
 --   {{filter}}  the filter checked by sqlguard, or TRUE
 --   {{tested}}  the signs and minimum over amount, the minimum bound with ?
---   {{sign}}    whether amount has a sign kept (TRUE for both signs)
+--   {{sign_ok}}    whether amount has a sign kept (TRUE for both signs)
 
 -- name: population_rows
 -- Rows of the ledger (a count DuckDB answers from its metadata).
@@ -22,7 +22,7 @@ SELECT CASE
            WHEN amount IS NULL THEN 'no_amount'
            WHEN ({{tested}}) THEN 'tested'
            WHEN amount = 0 THEN 'zero'
-           WHEN NOT ({{sign}}) THEN 'other_sign'
+           WHEN NOT ({{sign_ok}}) THEN 'other_sign'
            ELSE 'below_min'
        END AS reason,
        count(*) AS n

@@ -181,7 +181,7 @@ func (l *Left) Add(o Left) {
 // leaves out, by reason.
 func (p *Population) LeftOut(ctx context.Context, ws *workspace.Workspace) (tested int64, left Left, err error) {
 	t := p.Tested()
-	q := queries.Render("population_left_out", map[string]string{"filter": p.Filter, "tested": t.SQL, "sign": p.Sign("amount")})
+	q := queries.Render("population_left_out", map[string]string{"filter": p.Filter, "tested": t.SQL, "sign_ok": p.Sign("amount")})
 	rows, err := ws.Conn.QueryContext(ctx, q, t.Args...)
 	if err != nil {
 		return 0, left, fmt.Errorf("counting the rows left out: %s", firstLine(err.Error()))
