@@ -16,11 +16,10 @@ var populationFlags = map[string]string{
 
 // flagError words an engine error in the command line's terms: an error
 // about the population's fields (a *population.FieldError or
-// *population.EmptyError) names the flags that set them. Other errors pass
-// unchanged.
+// *population.EmptyError) names the flags that set them. Other errors, and
+// such an error wrapped in another's context, pass unchanged.
 func flagError(err error) error {
-	var w population.Worded
-	if errors.As(err, &w) {
+	if w, ok := err.(population.Worded); ok {
 		return errors.New(w.Render(func(f string) string { return populationFlags[f] }))
 	}
 	return err
