@@ -37,6 +37,8 @@ func fragments(dir string, segmented bool) map[string]string {
 		"order":          "row_id",
 		"partition":      "",
 		"parts":          ", 1 AS ll_parts",
+		"predicate":      "(descr = 'x'\n)",
+		"label":          `"group"`,
 		"path":           queries.QuoteString(filepath.Join(dir, "out.csv")),
 		"query":          "SELECT 1 AS one",
 		"raw_expr":       `"amt"`,
