@@ -61,9 +61,9 @@ func binsOf(t *testing.T, at population.AmountType, signs string, amounts []stri
 }
 
 // TestDigitBinsHandComputed checks each amount lands in exactly one bin of
-// each test, the bin computed by hand from the definitions (DESIGN.md,
+// each test, the bin computed by hand from the definitions (docs/design.md,
 // "Exact amounts": 0.29, 10.00, 9999.99 must land in the right bins; the
-// brief's examples 0.5 -> first-three 500 and 1234.56 -> last-two 56).
+// worked examples 0.5 -> first-three 500 and 1234.56 -> last-two 56).
 func TestDigitBinsHandComputed(t *testing.T) {
 	type want struct {
 		amount                       string
@@ -191,7 +191,7 @@ func TestDigitBinsAgainstText(t *testing.T) {
 }
 
 // TestCheckBin: bins that do not exist for a test are refused with the
-// test's range (source: the bad-input check).
+// test's range (the project's bad-input rule: a refusal names what is allowed).
 func TestCheckBin(t *testing.T) {
 	for _, c := range []struct {
 		test string

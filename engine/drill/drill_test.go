@@ -20,7 +20,7 @@ import (
 	"github.com/leadline/leadline/engine/workspace"
 )
 
-// The checks here follow the issue: drill results equal an independent
+// The checks here: drill results equal an independent
 // filter of the same rows in Go (the rows drilltest generated and the test
 // wrote as CSV), for digit bins, amount ranges, exact amounts, segments and
 // filters; groups equal a Go aggregation; bad input gets a clear message.
@@ -479,7 +479,7 @@ func TestExport(t *testing.T) {
 	}
 }
 
-// TestBadInput: clear messages (source: the issue's bad-input check).
+// TestBadInput: clear messages (the project's bad-input rule: a refusal names what is allowed).
 func TestBadInput(t *testing.T) {
 	ws, _ := setup(t)
 	ctx := context.Background()

@@ -20,7 +20,7 @@ import (
 	"github.com/leadline/leadline/engine/workspace"
 )
 
-// The checks here follow the plan: a generated payables ledger with
+// The checks here: a generated payables ledger with
 // planted groups of every kind (the plan is drilltest.Ledger.Plants); every
 // planted group must be found, and every other group reported must be a
 // real coincidence of the generated rows, computed independently below in
@@ -284,8 +284,8 @@ func runAll(t *testing.T, ws *workspace.Workspace, o duplicates.Options) *duplic
 }
 
 // TestPlantedAndCoincidences: every planted group found; every reported
-// group planted or a real coincidence of the generated rows (source: the
-// issue's check; the coincidences are computed independently in Go).
+// group planted or a real coincidence of the generated rows (the
+// coincidences are computed independently in Go).
 func TestPlantedAndCoincidences(t *testing.T) {
 	ws, l := setup(t)
 	pop := population(l.Rows)
@@ -453,8 +453,8 @@ func ratOf(s string) float64 {
 }
 
 // TestDrillGroups: each stored group drills back to exactly its records
-// (source: the check that drill results equal an independent filter
-// of the same rows in Go).
+// (checked against an independent filter of the
+// same rows in Go).
 func TestDrillGroups(t *testing.T) {
 	ws, l := setup(t)
 	ctx := context.Background()
@@ -548,7 +548,7 @@ func sameSet(a, b map[int64]bool) bool {
 }
 
 // TestMissingColumns: a ledger without doc_id skips the tests that need it
-// and runs the others (source: the rule "skipped: needs doc_id").
+// and runs the others (each skipped test says "skipped: needs doc_id").
 func TestMissingColumns(t *testing.T) {
 	l := drilltest.Generate(3000, 7)
 	path := filepath.Join(t.TempDir(), "nodoc.csv")
@@ -580,8 +580,8 @@ func TestMissingColumns(t *testing.T) {
 	}
 }
 
-// TestBadInput: clear messages for options and references (source: the
-// issue's "bad input" check).
+// TestBadInput: clear messages for options and references (the project's
+// bad-input rule).
 func TestBadInput(t *testing.T) {
 	ws, _ := setup(t)
 	ctx := context.Background()

@@ -1,5 +1,5 @@
-// Package limits runs the limit clustering probe (DESIGN.md section 3, a
-// method of this project's own): are amounts piled up just below an
+// Package limits runs the limit clustering probe (a method of this
+// project's own, described in docs/design.md): are amounts piled up just below an
 // approval or testing limit?
 //
 // For a limit T and a width w the probe compares the count of tested
