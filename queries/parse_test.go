@@ -21,6 +21,8 @@ func fragments(dir string, segmented bool) map[string]string {
 		"amount_expr":    `TRY_CAST("amt" AS DECIMAL(18,2))`,
 		"amount_type":    "DECIMAL(18,2)",
 		"base":           "amount > 0",
+		"by_names":       "",
+		"by_select":      "",
 		"columns":        `"ent" AS entity`,
 		"fast":           ", 1 AS ll_fast",
 		"file_col":       `"file"`,
@@ -53,7 +55,10 @@ func fragments(dir string, segmented bool) map[string]string {
 		"segment_select": "",
 		"sign_ok":        "ll_u > 0",
 		"sign_where":     "amount IS NOT NULL",
+		"other_sign":     "u < 0",
+		"min_units":      "1000",
 		"stage":          `"ll_stage"`,
+		"table":          "ledger",
 		"tested":         "ll_amount > 0",
 		"units":          "CAST(amount * 100 AS BIGINT)",
 		"where":          "descr = 'x'",
@@ -63,6 +68,8 @@ func fragments(dir string, segmented bool) map[string]string {
 	}
 	if segmented {
 		f["group_by"] = "GROUP BY ll_s1"
+		f["by_names"] = `"by_entity", `
+		f["by_select"] = `CAST(entity AS VARCHAR) AS "by_entity", `
 		f["partition"] = "PARTITION BY ll_s1 "
 		f["segment_names"] = "ll_s1, "
 		f["segment_normal"] = "ll_s1, "
@@ -99,6 +106,11 @@ func TestEveryStatementParses(t *testing.T) {
 	}
 	prepared := 0
 	for _, name := range names {
+		if strings.HasPrefix(name, "countsql_clickhouse_") {
+			// ClickHouse's own syntax (ARRAY JOIN): engine/countsql runs
+			// it on a ClickHouse server.
+			continue
+		}
 		for _, segmented := range []bool{false, true} {
 			all := fragments(dir, segmented)
 			repl := map[string]string{}

@@ -65,7 +65,14 @@ Examples:
   leadline scan --tests first,first_two,summation --signs negative
   leadline scan --by entity --by month
   leadline scan --where "source = 'AP'" --min 100 --format json > ap.json
-  leadline scan --by user_id --format csv > bins.csv`,
+  leadline scan --by user_id --format csv > bins.csv
+
+With --counts FILE... --count-query QUERY, the battery runs on counts made
+by another engine (see leadline count-sql): the files are added up exactly
+and the results, rankings and notes are those of a local scan of the same
+records; the population is the query's, and the run records the engine,
+the query's SHA-256 and each file's.
+  leadline scan --counts shard1.csv,shard2.csv --count-query gl.sql --by entity`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var db dbFlags
 			var f formatFlag
@@ -73,6 +80,7 @@ Examples:
 			var tests []string
 			var rankRows int
 			var allBins bool
+			var counts countsFlags
 			o := battery.Options{}
 			db.add(fs)
 			fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
@@ -84,6 +92,7 @@ Examples:
 			fs.IntVar(&rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
 			fs.BoolVar(&allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
 			f.add(fs)
+			counts.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
 					return err
@@ -94,6 +103,9 @@ Examples:
 				var err error
 				if o.Tests, o.Duplication, err = battery.ParseTests(tests); err != nil {
 					return err
+				}
+				if counts.given() {
+					return scanCounts(ctx, fs, db, f.value, o, counts, scanPrint{rankRows: rankRows, allBins: allBins}, e)
 				}
 				o.Spec = pop.base()
 				started := time.Now()

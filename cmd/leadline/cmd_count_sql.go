@@ -1,0 +1,181 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"strings"
+	"time"
+
+	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/countsql"
+	"github.com/leadline/leadline/engine/population"
+	"github.com/spf13/pflag"
+)
+
+// countSQLOptions are the flags of count-sql.
+type countSQLOptions struct {
+	spec    countsql.Spec
+	mapping map[string]string
+	by      []string
+	out     string
+}
+
+func (c *countSQLOptions) add(fs *pflag.FlagSet) {
+	fs.StringVar(&c.spec.Engine, "engine", "", "engine that runs the query: duckdb, postgresql or clickhouse")
+	fs.StringVar(&c.spec.Table, "table", "", "table (or view) holding the records; schema.table for a schema")
+	fs.StringToStringVar(&c.mapping, "map", nil, "amount=COLUMN: the table's amount column")
+	fs.IntVar(&c.spec.Scale, "scale", 2, "decimal places of the amount: units = amount * 10^scale")
+	fs.StringSliceVar(&c.by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or month=DATE_COLUMN for YYYY-MM (repeatable)")
+	fs.StringVar(&c.spec.Where, "where", "", "predicate in the engine's own SQL; rows it drops are counted as filtered")
+	fs.StringVar(&c.spec.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative or both")
+	fs.StringVar(&c.spec.Min, "min", population.DefaultMin, "smallest |amount| tested")
+	fs.StringVar(&c.spec.LastTwo, "last-two", "scale", "last two digits at the amount's scale (scale) or of its whole-currency part (units)")
+	fs.StringVarP(&c.out, "output", "o", "", "write the query to this file (default: standard output)")
+}
+
+// build turns the flags into the spec.
+func (c *countSQLOptions) build() (countsql.Spec, error) {
+	s := c.spec
+	for k, v := range c.mapping {
+		if !strings.EqualFold(k, "amount") {
+			return s, fmt.Errorf("--map %s=%s: only amount=COLUMN is read; segments are --by NAME=COLUMN", k, v)
+		}
+		s.Amount = v
+	}
+	if s.Amount == "" {
+		return s, fmt.Errorf("--map amount=COLUMN: name the table's amount column")
+	}
+	if s.Engine == "" || s.Table == "" {
+		return s, fmt.Errorf("--engine and --table are required (e.g. --engine postgresql --table gl --map amount=amt)")
+	}
+	for _, b := range c.by {
+		name, col, ok := strings.Cut(b, "=")
+		name, col = strings.TrimSpace(name), strings.TrimSpace(col)
+		if !ok {
+			col = name
+		}
+		s.By = append(s.By, countsql.Segment{Name: name, Column: col, Month: ok && strings.EqualFold(name, "month")})
+	}
+	return s, nil
+}
+
+func init() {
+	register(&command{
+		name:    "count-sql",
+		summary: "print the digit battery's counting query for another engine (DuckDB, PostgreSQL, ClickHouse)",
+		usage: `Usage: leadline count-sql --engine ENGINE --table TABLE --map amount=COLUMN [options]
+
+Prints the digit battery's additive counting query in the SQL of the engine
+that already holds the records, so that the counting runs where the data
+lives and only the counts come back: per segment, first three significant
+digits and last two digits, the count and the sum of |amount| in whole
+units, and the rows left out by reason (zero, other sign, below --min, NULL
+amount, dropped by --where). Integer arithmetic only: the amount becomes a
+whole number of units (amount * 10^scale) and its digits come from
+comparisons with powers of ten, exactly as a local scan takes them.
+
+Run the query there, write its result as CSV with a header, one file per
+partition, shard or month if you like, and bring the files back:
+
+  leadline count-sql --engine postgresql --table gl --map amount=amt -o gl.sql
+  psql -At --csv -f gl.sql > gl-counts.csv
+  leadline scan --counts gl-counts.csv --count-query gl.sql
+
+ClickHouse: clickhouse client --format CSVWithNames --query "$(cat gl.sql)".
+DuckDB: COPY (query) TO 'counts.csv' (HEADER).
+
+The amount column must be an exact decimal (or integer) type with at most
+--scale decimal places. --where is the engine's own SQL and is printed as
+given (one predicate, no ';' or comments). The query's first line records
+these options; scan --counts reads them from it, and stores the query's
+SHA-256 and each file's with the run.
+
+Examples:
+  leadline count-sql --engine clickhouse --table ledger_all --map amount=amount --by entity
+  leadline count-sql --engine postgresql --table gl --map amount=amt --scale 2 --by entity --signs positive --min 10
+  leadline count-sql --engine duckdb --table ledger --map amount=amount --by month=posted`,
+		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+			var c countSQLOptions
+			c.add(fs)
+			return func(ctx context.Context, args []string, e *env) error {
+				if len(args) > 0 {
+					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
+				}
+				s, err := c.build()
+				if err != nil {
+					return err
+				}
+				q, err := countsql.Query(s)
+				if err != nil {
+					return err
+				}
+				if c.out != "" {
+					return os.WriteFile(c.out, []byte(q), 0o644)
+				}
+				_, err = fmt.Fprint(e.stdout, q)
+				return err
+			}
+		},
+	})
+}
+
+// countsFlags are scan's flags for counts made elsewhere.
+type countsFlags struct {
+	files []string
+	query string
+}
+
+func (c *countsFlags) add(fs *pflag.FlagSet) {
+	fs.StringSliceVar(&c.files, "counts", nil, "run on count files (CSV) made by the query of leadline count-sql, instead of the workspace's ledger (repeatable)")
+	fs.StringVar(&c.query, "count-query", "", "with --counts: the query file count-sql printed (its first line says what was counted)")
+}
+
+func (c *countsFlags) given() bool { return len(c.files) > 0 || c.query != "" }
+
+// countsReport is scan's JSON document for a run on counts: the report and
+// where its counts came from.
+type countsReport struct {
+	*battery.Report
+	CountsSource *countsql.Source `json:"counts_source"`
+}
+
+// scanCounts is scan --counts: the battery's statistics on merged count
+// files, stored as a scan run with the counts' provenance.
+func scanCounts(ctx context.Context, fs *pflag.FlagSet, db dbFlags, format string, o battery.Options, c countsFlags, sp scanPrint, e *env) error {
+	if len(c.files) == 0 || c.query == "" {
+		return fmt.Errorf("--counts and --count-query go together: the count files and the query count-sql printed for them")
+	}
+	for _, name := range []string{"where", "signs", "min", "last-two"} {
+		if fs.Changed(name) {
+			return fmt.Errorf("--%s: with --counts the population is the one the query counted (its first line); print a new query with count-sql --%s", name, name)
+		}
+	}
+	if !fs.Changed("tests") {
+		o.Tests, o.Duplication = battery.CountTests(), false
+	}
+	started := time.Now()
+	rep, src, err := countsql.Scan(c.query, c.files, o)
+	if err != nil {
+		return err
+	}
+	ws, err := db.open(ctx, false)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	doc := &countsReport{Report: rep, CountsSource: src}
+	if err := saveRun(ctx, ws, "scan", started, rep.Params, doc, func(id int64) { rep.RunID = id }); err != nil {
+		return err
+	}
+	if format == "json" {
+		return writeJSON(e.stdout, doc)
+	}
+	if format == "text" {
+		fmt.Fprintf(e.stdout, "Counts from %s (table %s, query %s, SHA-256 %s), %d file(s):\n", src.Engine, src.Table, src.Query, src.QuerySHA256, len(src.Files))
+		for _, f := range src.Files {
+			fmt.Fprintf(e.stdout, "  %s  %s  %d rows\n", f.SHA256, f.Path, f.Rows)
+		}
+	}
+	return printScan(e.stdout, format, rep, sp)
+}

@@ -1,0 +1,338 @@
+package countsql
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"math/big"
+	"regexp"
+	"strings"
+
+	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/queries"
+)
+
+// Engines that count: each is tested against a real server of its kind
+// (see the package's tests); any other engine is refused.
+var Engines = []string{"duckdb", "postgresql", "clickhouse"}
+
+// Segment is one segment column of the counting query: the name the
+// counts give it (the CSV column by_NAME) and the table's column it reads.
+// Month formats a date column as YYYY-MM, as the local --by month does.
+type Segment struct {
+	Name   string `json:"name"`
+	Column string `json:"column"`
+	Month  bool   `json:"month,omitempty"`
+}
+
+// Spec says what to count and where: everything the query needs, and
+// everything `scan --counts` needs to read its result. It is written into
+// the query's first line, so that the query text carries its own spec.
+type Spec struct {
+	Engine  string    `json:"engine"`
+	Table   string    `json:"table"`
+	Amount  string    `json:"amount"` // the amount column
+	Scale   int       `json:"scale"`  // decimal places: units = amount * 10^scale
+	By      []Segment `json:"by,omitempty"`
+	Where   string    `json:"where,omitempty"` // a predicate in the engine's own SQL, as the user wrote it
+	Signs   string    `json:"signs"`
+	Min     string    `json:"min"`
+	LastTwo string    `json:"last_two"`
+}
+
+// header starts the first line of every emitted query.
+const header = "-- leadline count-sql "
+
+var ident = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
+
+// WithDefaults fills the population's defaults (those of the local scan).
+func (s Spec) WithDefaults() Spec {
+	if s.Signs == "" {
+		s.Signs = population.DefaultSigns
+	}
+	if s.Min == "" {
+		s.Min = population.DefaultMin
+	}
+	if s.LastTwo == "" {
+		s.LastTwo = "scale"
+	}
+	s.Engine = strings.ToLower(strings.TrimSpace(s.Engine))
+	if s.Engine == "postgres" {
+		s.Engine = "postgresql"
+	}
+	return s
+}
+
+// Check validates the spec (after WithDefaults).
+func (s Spec) Check() error {
+	d := dialects[s.Engine]
+	if d == nil {
+		return fmt.Errorf("--engine %q: give one of %s (the engines leadline is tested against)", s.Engine, strings.Join(Engines, ", "))
+	}
+	if err := checkName(s.Table, true); err != nil {
+		return fmt.Errorf("--table %q: %w", s.Table, err)
+	}
+	if err := checkName(s.Amount, false); err != nil {
+		return fmt.Errorf("--map amount=%q: %w", s.Amount, err)
+	}
+	if s.Scale < 0 || s.Scale > 9 {
+		return fmt.Errorf("--scale %d: give the amount's decimal places, 0 to 9", s.Scale)
+	}
+	seen := map[string]bool{}
+	for _, b := range s.By {
+		if !ident.MatchString(b.Name) {
+			return fmt.Errorf("--by %q: a segment's name is letters, digits and _", b.Name)
+		}
+		if seen[strings.ToLower(b.Name)] {
+			return fmt.Errorf("--by %s is given twice", b.Name)
+		}
+		seen[strings.ToLower(b.Name)] = true
+		if err := checkName(b.Column, false); err != nil {
+			return fmt.Errorf("--by %s=%s: %w", b.Name, b.Column, err)
+		}
+	}
+	if err := population.CheckSigns(s.Signs); err != nil {
+		return err
+	}
+	if _, err := s.MinUnits(); err != nil {
+		return err
+	}
+	if s.LastTwo != "scale" && s.LastTwo != "units" {
+		return fmt.Errorf("--last-two %q: give scale or units", s.LastTwo)
+	}
+	return checkWhere(s.Where)
+}
+
+// checkName accepts a plain identifier (table: schema-qualified with dots).
+func checkName(n string, dotted bool) error {
+	parts := []string{n}
+	if dotted {
+		parts = strings.Split(n, ".")
+	}
+	for _, p := range parts {
+		if !ident.MatchString(p) {
+			return fmt.Errorf("give a plain name (letters, digits and _%s)", map[bool]string{true: "; schema.table for a schema", false: ""}[dotted])
+		}
+	}
+	return nil
+}
+
+// checkWhere keeps the user's predicate inside its parentheses: it is the
+// engine's SQL, printed for the user to run there, never run by leadline,
+// but it must not end the statement, open a comment or unbalance the
+// query around it.
+func checkWhere(w string) error {
+	if strings.TrimSpace(w) == "" {
+		return nil
+	}
+	depth := 0
+	var quote rune
+	for _, r := range w {
+		switch {
+		case quote != 0:
+			if r == quote {
+				quote = 0
+			}
+		case r == '\'' || r == '"' || r == '`':
+			quote = r
+		case r == '(':
+			depth++
+		case r == ')':
+			depth--
+			if depth < 0 {
+				return fmt.Errorf("--where %q: a ')' without its '('", w)
+			}
+		case r == ';':
+			return fmt.Errorf("--where %q: one predicate, without ';'", w)
+		}
+	}
+	if quote != 0 || depth != 0 {
+		return fmt.Errorf("--where %q: unbalanced quotes or parentheses", w)
+	}
+	if strings.Contains(w, "--") || strings.Contains(w, "/*") || strings.ContainsAny(w, "\n\r") {
+		return fmt.Errorf("--where %q: one line, without comments", w)
+	}
+	return nil
+}
+
+// MinUnits is the smallest |amount| tested, in units: ceil(min * 10^scale),
+// and at least 1 (zero is counted apart).
+func (s Spec) MinUnits() (int64, error) {
+	r, ok := new(big.Rat).SetString(strings.TrimSpace(s.Min))
+	if !ok || strings.ContainsAny(s.Min, "/eE") {
+		return 0, fmt.Errorf("--min %q: give a plain decimal number such as 10 or 0.01", s.Min)
+	}
+	if r.Sign() < 0 {
+		return 0, fmt.Errorf("--min %s: the minimum is on absolute amounts; give 0 or more (choose the sign with --signs)", s.Min)
+	}
+	v := new(big.Rat).Mul(r, new(big.Rat).SetInt(pow10(s.Scale)))
+	q, m := new(big.Int).DivMod(v.Num(), v.Denom(), new(big.Int))
+	if m.Sign() != 0 {
+		q.Add(q, big.NewInt(1))
+	}
+	if !q.IsInt64() || q.Int64() > maxUnits {
+		return 0, fmt.Errorf("--min %s is above the largest amount counted (%d units)", s.Min, int64(maxUnits))
+	}
+	return max(q.Int64(), 1), nil
+}
+
+// maxUnits: |units| is a 64-bit integer.
+const maxUnits = 1<<63 - 1
+
+func pow10(n int) *big.Int { return new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(n)), nil) }
+
+// dialect is what differs between engines: quoting, integer division,
+// casts and text functions. The statement itself is in queries/.
+type dialect struct {
+	stmt  string
+	quote func(string) string
+	div   func(x, n string) string // integer division of a non-negative integer
+	int64 func(x string) string    // the value as a 64-bit integer (a no-op where types already agree)
+	units func(col string, scale int) string
+	text  func(col string) string // segment value as text, NULL for blank
+	month func(col string) string // YYYY-MM of a date
+}
+
+var dialects = map[string]*dialect{
+	"duckdb": {
+		stmt:  "countsql_duckdb_battery",
+		quote: queries.QuoteIdent,
+		div:   func(x, n string) string { return x + " // " + n },
+		int64: func(x string) string { return x },
+		units: func(c string, s int) string {
+			return fmt.Sprintf("CAST(CAST(%s AS DECIMAL(38,%d)) * %s AS BIGINT)", c, s, pow10(s))
+		},
+		text: func(c string) string {
+			return fmt.Sprintf("CASE WHEN nullif(trim(CAST(%[1]s AS VARCHAR)), '') IS NULL THEN NULL ELSE CAST(%[1]s AS VARCHAR) END", c)
+		},
+		month: func(c string) string { return fmt.Sprintf("strftime(CAST(%s AS DATE), '%%Y-%%m')", c) },
+	},
+	"postgresql": {
+		stmt:  "countsql_postgresql_battery",
+		quote: queries.QuoteIdent,
+		div:   func(x, n string) string { return x + " / " + n },
+		int64: func(x string) string { return x },
+		units: func(c string, s int) string {
+			return fmt.Sprintf("CAST(CAST(%s AS numeric(38,%d)) * %s AS bigint)", c, s, pow10(s))
+		},
+		text: func(c string) string {
+			return fmt.Sprintf("CASE WHEN btrim(CAST(%[1]s AS text)) = '' THEN NULL ELSE CAST(%[1]s AS text) END", c)
+		},
+		month: func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-MM')", c) },
+	},
+	"clickhouse": {
+		stmt:  "countsql_clickhouse_battery",
+		quote: func(s string) string { return "`" + s + "`" },
+		div:   func(x, n string) string { return "intDiv(" + x + ", " + n + ")" },
+		int64: func(x string) string { return "toInt64(" + x + ")" },
+		// Decimal128 holds any Decimal exactly; ClickHouse converts a
+		// Float column by truncation, so the amount must be a Decimal or
+		// an integer column (see the package documentation).
+		units: func(c string, s int) string {
+			return fmt.Sprintf("toInt64(toDecimal128(%s, %d) * %s)", c, s, pow10(s))
+		},
+		text: func(c string) string {
+			return fmt.Sprintf("if(replaceAll(toString(%[1]s), ' ', '') = '', NULL, toString(%[1]s))", c)
+		},
+		month: func(c string) string { return fmt.Sprintf("substring(toString(toDate(%s)), 1, 7)", c) },
+	},
+}
+
+// first3 is the first three significant digits of a (a >= 1, a 64-bit
+// integer column) as a balanced tree of comparisons with powers of ten:
+// the rule of ll_first3_i64 in battery.sql, written without a macro.
+func (d *dialect) first3(a string) string {
+	var tree func(lo, hi int) string // digit counts lo..hi
+	tree = func(lo, hi int) string {
+		if lo == hi {
+			switch {
+			case lo == 1:
+				return d.int64(a + " * 100")
+			case lo == 2:
+				return d.int64(a + " * 10")
+			case lo == 3:
+				return d.int64(a)
+			}
+			return d.int64(d.div(a, pow10(lo-3).String()))
+		}
+		mid := (lo + hi) / 2
+		return fmt.Sprintf("CASE WHEN %s < %s THEN %s ELSE %s END", a, pow10(mid), tree(lo, mid), tree(mid+1, hi))
+	}
+	return tree(1, 19)
+}
+
+// Query returns the counting query for the spec, its first line a comment
+// carrying the spec (read back by ReadQuery).
+func Query(s Spec) (string, error) {
+	s = s.WithDefaults()
+	if err := s.Check(); err != nil {
+		return "", err
+	}
+	d := dialects[s.Engine]
+	minU, _ := s.MinUnits()
+	var sel, names []string
+	for _, b := range s.By {
+		col := d.quote(b.Column)
+		v := d.text(col)
+		if b.Month {
+			v = d.month(col)
+		}
+		n := d.quote("by_" + b.Name)
+		sel = append(sel, v+" AS "+n)
+		names = append(names, n)
+	}
+	list := func(x []string) string {
+		if len(x) == 0 {
+			return ""
+		}
+		return strings.Join(x, ", ") + ", "
+	}
+	table := make([]string, 0, 2)
+	for _, p := range strings.Split(s.Table, ".") {
+		table = append(table, d.quote(p))
+	}
+	filter := "1 = 1"
+	if strings.TrimSpace(s.Where) != "" {
+		filter = "(" + strings.TrimSpace(s.Where) + ")"
+	}
+	other := map[string]string{"positive": "u < 0", "negative": "u > 0", "both": "1 = 0"}[s.Signs]
+	last2 := "a % 100"
+	if s.LastTwo == "units" && s.Scale > 0 {
+		last2 = "(" + d.div("a", pow10(s.Scale).String()) + ") % 100"
+	}
+	q := queries.Render(d.stmt, map[string]string{
+		"by_names": list(names), "by_select": list(sel), "table": strings.Join(table, "."),
+		"filter": filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
+		"min_units": fmt.Sprint(minU), "first3": d.first3("a"), "last2": d.int64(last2),
+	})
+	spec, err := json.Marshal(s)
+	if err != nil {
+		return "", err
+	}
+	return header + string(spec) + "\n" + q + "\n", nil
+}
+
+// ReadQuery reads the spec back from a query's first line.
+func ReadQuery(text string) (Spec, error) {
+	first, _, _ := strings.Cut(text, "\n")
+	rest, ok := strings.CutPrefix(strings.TrimSpace(first), strings.TrimSpace(header))
+	if !ok {
+		return Spec{}, fmt.Errorf("the query does not start with the line %q that leadline count-sql writes: give the query file count-sql printed, unchanged", strings.TrimSpace(header)+" {...}")
+	}
+	var s Spec
+	if err := json.Unmarshal([]byte(strings.TrimSpace(rest)), &s); err != nil {
+		return Spec{}, fmt.Errorf("the query's first line: %w", err)
+	}
+	s = s.WithDefaults()
+	if err := s.Check(); err != nil {
+		return Spec{}, fmt.Errorf("the query's first line: %w", err)
+	}
+	return s, nil
+}
+
+// SHA256 is the hex SHA-256 of a text.
+func SHA256(b []byte) string {
+	h := sha256.Sum256(b)
+	return hex.EncodeToString(h[:])
+}

@@ -1,0 +1,64 @@
+package countsql
+
+import (
+	"context"
+	"fmt"
+	"path/filepath"
+	"testing"
+
+	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
+)
+
+// copyCounts runs the emitted DuckDB query on the workspace and writes its
+// result as DuckDB writes CSV.
+func copyCounts(t *testing.T, ws *workspace.Workspace, q, path string) {
+	t.Helper()
+	stmt := fmt.Sprintf("COPY (%s) TO %s (HEADER)", stripQuery(q), queries.QuoteString(path))
+	if _, err := ws.Conn.ExecContext(context.Background(), stmt); err != nil {
+		t.Fatalf("%v\n%s", err, stmt)
+	}
+}
+
+// TestDuckDBCountsEqualLocalScan: the counts of the emitted DuckDB query,
+// over the whole ledger in one file and over two halves in two files,
+// give the local scan's tables and statistics, bin for bin.
+func TestDuckDBCountsEqualLocalScan(t *testing.T) {
+	rows := testLedger()
+	ws := localWorkspace(t, rows)
+	ctx := context.Background()
+	for _, half := range []string{"h0", "h1"} {
+		cond := map[string]string{"h0": "row_id % 2 = 0", "h1": "row_id % 2 = 1"}[half]
+		if _, err := ws.Conn.ExecContext(ctx, "CREATE TEMP VIEW "+half+" AS SELECT * FROM ledger WHERE "+cond); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, v := range variants() {
+		t.Run(v.name, func(t *testing.T) {
+			dir := t.TempDir()
+			local := localReport(t, ws, v)
+			s := v.spec
+			s.Engine, s.Table = "duckdb", "ledger"
+			q, err := Query(s)
+			if err != nil {
+				t.Fatal(err)
+			}
+			one := filepath.Join(dir, "all.csv")
+			copyCounts(t, ws, q, one)
+			sameReports(t, local, countsReport(t, q, []string{one}, v))
+
+			var parts []string
+			for _, half := range []string{"h0", "h1"} {
+				s.Table = half
+				qh, err := Query(s)
+				if err != nil {
+					t.Fatal(err)
+				}
+				p := filepath.Join(dir, half+".csv")
+				copyCounts(t, ws, qh, p)
+				parts = append(parts, p)
+			}
+			sameReports(t, local, countsReport(t, q, parts, v))
+		})
+	}
+}
