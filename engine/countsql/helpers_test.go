@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -184,3 +185,5 @@ func stripQuery(q string) string {
 	_, body, _ := strings.Cut(q, "\n")
 	return strings.TrimSuffix(strings.TrimSpace(body), ";")
 }
+
+func itoa(n int) string { return strconv.Itoa(n) }

@@ -1,0 +1,123 @@
+//go:build unix
+
+package countsql
+
+import (
+	"bytes"
+	"os"
+	"path/filepath"
+	"testing"
+)
+
+// ledgerCSVBytes is the ledger as CSV without a header (entity, posted,
+// amount), blank entities empty.
+func ledgerCSVBytes(t *testing.T, rows []row) []byte {
+	t.Helper()
+	p := filepath.Join(t.TempDir(), "rows.csv")
+	writeLedgerCSV(t, p, rows, false)
+	b, err := os.ReadFile(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
+
+// TestPostgreSQLCountsEqualLocalScan runs the emitted PostgreSQL query on a
+// real server holding the ledger, over the whole table and over two
+// half-years as two files, and checks that the merged counts give the
+// local DuckDB scan's tables and statistics, bin for bin.
+func TestPostgreSQLCountsEqualLocalScan(t *testing.T) {
+	if testing.Short() {
+		t.Skip("starts a PostgreSQL server")
+	}
+	pg := startPostgres(t)
+	rows := testLedger()
+	ws := localWorkspace(t, rows)
+	psql := pg.psql
+	run(t, nil, nil, psql, pg.args("-c", `CREATE TABLE gl (entity text, posted date, amt numeric(18,2));
+CREATE VIEW gl_h1 AS SELECT * FROM gl WHERE posted < '2025-07-01';
+CREATE VIEW gl_h2 AS SELECT * FROM gl WHERE posted >= '2025-07-01';`)...)
+	run(t, nil, ledgerCSVBytes(t, rows), psql, pg.args("-c", `\copy gl FROM STDIN WITH (FORMAT csv)`)...)
+	got := run(t, nil, nil, psql, pg.args("-At", "-c", "SELECT count(*) FROM gl")...)
+	if want := []byte(itoa(len(rows)) + "\n"); !bytes.Equal(got, want) {
+		t.Fatalf("PostgreSQL holds %q rows, want %q", got, want)
+	}
+	for _, v := range variants() {
+		t.Run(v.name, func(t *testing.T) {
+			dir := t.TempDir()
+			local := localReport(t, ws, v)
+			count := func(table string) (string, string) {
+				s := v.spec
+				s.Engine, s.Table, s.Amount = "postgresql", table, "amt"
+				q, err := Query(s)
+				if err != nil {
+					t.Fatal(err)
+				}
+				qp := filepath.Join(dir, table+".sql")
+				out := filepath.Join(dir, table+".csv")
+				if err := os.WriteFile(qp, []byte(q), 0o644); err != nil {
+					t.Fatal(err)
+				}
+				run(t, nil, nil, psql, pg.args("--csv", "-f", qp, "-o", out)...)
+				return q, out
+			}
+			q, all := count("gl")
+			sameReports(t, local, countsReport(t, q, []string{all}, v))
+			_, h1 := count("gl_h1")
+			_, h2 := count("gl_h2")
+			sameReports(t, local, countsReport(t, q, []string{h1, h2}, v))
+		})
+	}
+}
+
+// TestClickHouseClusterCountsEqualLocalScan runs the emitted ClickHouse
+// query on a two-shard cluster, each shard holding half of the ledger:
+// once on the Distributed table (one file) and once on each shard's local
+// table (two files merged by leadline); both give the local DuckDB scan's
+// tables and statistics, bin for bin.
+func TestClickHouseClusterCountsEqualLocalScan(t *testing.T) {
+	if testing.Short() {
+		t.Skip("starts two ClickHouse servers")
+	}
+	shards := startClickHouseCluster(t)
+	rows := testLedger()
+	ws := localWorkspace(t, rows)
+	for i, s := range shards {
+		s.query(t, nil, "CREATE TABLE ledger_local (entity Nullable(String), posted Date, amount Decimal(18,2)) ENGINE = MergeTree ORDER BY tuple()")
+		s.query(t, nil, "CREATE TABLE ledger_all AS ledger_local ENGINE = Distributed(leadline_test, default, ledger_local)")
+		var half []row
+		for j, r := range rows {
+			if j%2 == i {
+				half = append(half, r)
+			}
+		}
+		s.query(t, ledgerCSVBytes(t, half), "INSERT INTO ledger_local FORMAT CSV")
+	}
+	if got := string(shards[0].query(t, nil, "SELECT count(*) FROM ledger_all")); got != itoa(len(rows))+"\n" {
+		t.Fatalf("the cluster holds %q rows, want %d", got, len(rows))
+	}
+	for _, v := range variants() {
+		t.Run(v.name, func(t *testing.T) {
+			dir := t.TempDir()
+			local := localReport(t, ws, v)
+			count := func(s *chServer, table, name string) (string, string) {
+				spec := v.spec
+				spec.Engine, spec.Table = "clickhouse", table
+				q, err := Query(spec)
+				if err != nil {
+					t.Fatal(err)
+				}
+				out := filepath.Join(dir, name+".csv")
+				if err := os.WriteFile(out, s.query(t, nil, q, "--format", "CSVWithNames"), 0o644); err != nil {
+					t.Fatal(err)
+				}
+				return q, out
+			}
+			q, all := count(shards[0], "ledger_all", "all")
+			sameReports(t, local, countsReport(t, q, []string{all}, v))
+			_, s1 := count(shards[0], "ledger_local", "shard1")
+			_, s2 := count(shards[1], "ledger_local", "shard2")
+			sameReports(t, local, countsReport(t, q, []string{s1, s2}, v))
+		})
+	}
+}
