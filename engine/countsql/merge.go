@@ -44,10 +44,57 @@ type Merged struct {
 	segs  map[string]*acc
 }
 
+// sum is an exact sum of |units|: hi * 10^9 + lo + big, where hi and lo
+// add up in 64-bit integers until they would overflow and then move into
+// big (nil until needed), so that the common case allocates nothing.
+type sum struct {
+	hi, lo int64
+	big    *big.Int
+}
+
+func (s *sum) add(hi, lo int64) {
+	if hi > math.MaxInt64-s.hi || lo > math.MaxInt64-s.lo {
+		s.spill()
+	}
+	s.hi += hi
+	s.lo += lo
+}
+
+func (s *sum) addBig(x *big.Int) {
+	s.spill()
+	s.big.Add(s.big, x)
+}
+
+func (s *sum) addSum(o *sum) {
+	s.add(o.hi, o.lo)
+	if o.big != nil {
+		s.addBig(o.big)
+	}
+}
+
+// spill moves hi and lo into big.
+func (s *sum) spill() {
+	if s.big == nil {
+		s.big = new(big.Int)
+	}
+	s.big.Add(s.big, s.value(false))
+	s.hi, s.lo = 0, 0
+}
+
+// value is the exact sum (with big, or hi and lo alone).
+func (s *sum) value(withBig bool) *big.Int {
+	v := new(big.Int).Mul(big.NewInt(s.hi), big.NewInt(1e9))
+	v.Add(v, big.NewInt(s.lo))
+	if withBig && s.big != nil {
+		v.Add(v, s.big)
+	}
+	return v
+}
+
 type acc struct {
 	key   battery.Key
 	first [900]int64
-	sums  [900]*big.Int // nil when zero
+	sums  [900]sum
 	last  [100]int64
 	left  [6]int64 // index -code: 1 zero, 2 other sign, 3 below min, 4 NULL, 5 filtered
 	read  bool     // the local scan would list this segment (rows read: tested, zero or below the minimum)
@@ -88,7 +135,7 @@ func (m *Merged) readFile(path string, first bool) error {
 	}
 	defer f.Close()
 	h := sha256.New()
-	r := csv.NewReader(bufio.NewReader(io.TeeReader(f, h)))
+	r := csv.NewReader(bufio.NewReaderSize(io.TeeReader(f, h), 1<<16))
 	r.ReuseRecord = true
 	head, err := r.Read()
 	if err != nil {
@@ -111,6 +158,7 @@ func (m *Merged) readFile(path string, first bool) error {
 	}
 	nseg := len(by)
 	var rows int64
+	var a *acc
 	key := make(battery.Key, nseg)
 	for line := 2; ; line++ {
 		rec, err := r.Read()
@@ -137,28 +185,42 @@ func (m *Merged) readFile(path string, first bool) error {
 		kind := rec[nseg]
 		bin, err1 := strconv.ParseInt(rec[nseg+1], 10, 64)
 		n, err2 := strconv.ParseInt(rec[nseg+2], 10, 64)
-		hi, ok1 := new(big.Int).SetString(rec[nseg+3], 10)
-		lo, ok2 := new(big.Int).SetString(rec[nseg+4], 10)
-		if err1 != nil || err2 != nil || !ok1 || !ok2 || n < 0 || hi.Sign() < 0 || lo.Sign() < 0 {
-			return bad(fmt.Sprintf("bin %q, n %q, sum_hi %q, sum_lo %q are not whole numbers of the right sign", rec[nseg+1], rec[nseg+2], rec[nseg+3], rec[nseg+4]))
+		// Sums fit 64 bits per row on every engine but PostgreSQL, whose
+		// sum of bigint is numeric: read those wider ones exactly.
+		hi, err3 := strconv.ParseInt(rec[nseg+3], 10, 64)
+		lo, err4 := strconv.ParseInt(rec[nseg+4], 10, 64)
+		var wide *big.Int
+		if err3 != nil || err4 != nil {
+			h, ok1 := new(big.Int).SetString(rec[nseg+3], 10)
+			l, ok2 := new(big.Int).SetString(rec[nseg+4], 10)
+			if !ok1 || !ok2 || h.Sign() < 0 || l.Sign() < 0 {
+				return bad(fmt.Sprintf("sum_hi %q and sum_lo %q are not whole numbers of 0 or more", rec[nseg+3], rec[nseg+4]))
+			}
+			wide = h.Mul(h, big.NewInt(1e9))
+			wide.Add(wide, l)
+			err3, err4 = nil, nil
 		}
-		ks := key.String()
-		a := m.segs[ks]
-		if a == nil {
-			a = &acc{key: append(battery.Key(nil), key...)}
-			m.segs[ks] = a
+		if err1 != nil || err2 != nil || n < 0 || hi < 0 || lo < 0 {
+			return bad(fmt.Sprintf("bin %q, n %q, sum_hi %q, sum_lo %q are not whole numbers of 0 or more", rec[nseg+1], rec[nseg+2], rec[nseg+3], rec[nseg+4]))
+		}
+		// Rows come grouped by segment: look the segment up only when it
+		// changes.
+		if a == nil || !sameKey(a.key, key) {
+			ks := key.String()
+			a = m.segs[ks]
+			if a == nil {
+				a = &acc{key: append(battery.Key(nil), key...)}
+				m.segs[ks] = a
+			}
 		}
 		var slot *int64
 		switch {
 		case kind == "f" && bin >= 100 && bin <= 999:
 			slot = &a.first[bin-100]
-			sum := hi.Mul(hi, big.NewInt(1e9))
-			sum.Add(sum, lo)
-			if sum.Sign() > 0 {
-				if a.sums[bin-100] == nil {
-					a.sums[bin-100] = new(big.Int)
-				}
-				a.sums[bin-100].Add(a.sums[bin-100], sum)
+			if wide != nil {
+				a.sums[bin-100].addBig(wide)
+			} else {
+				a.sums[bin-100].add(hi, lo)
 			}
 			a.read = true
 		case kind == "f" && bin <= codeZero && bin >= codeFiltered:
@@ -178,6 +240,18 @@ func (m *Merged) readFile(path string, first bool) error {
 	}
 	m.Files = append(m.Files, File{Path: path, SHA256: hex.EncodeToString(h.Sum(nil)), Rows: rows})
 	return nil
+}
+
+func sameKey(a, b battery.Key) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
 }
 
 func prefixed(by []string) []string {
@@ -278,12 +352,7 @@ func (p *acc) add(a *acc) error {
 			return fmt.Errorf("the merged counts add up beyond a 64-bit integer")
 		}
 		p.first[i] += a.first[i]
-		if a.sums[i] != nil {
-			if p.sums[i] == nil {
-				p.sums[i] = new(big.Int)
-			}
-			p.sums[i].Add(p.sums[i], a.sums[i])
-		}
+		p.sums[i].addSum(&a.sums[i])
 	}
 	for i := range a.last {
 		if over(p.last[i], a.last[i]) {
@@ -307,11 +376,17 @@ func (p *acc) counts(div float64) *battery.Counts {
 	c := battery.NewCounts()
 	copy(c.FirstThree, p.first[:])
 	copy(c.LastTwo, p.last[:])
-	for i, s := range p.sums {
-		if s != nil {
-			f, _ := new(big.Float).SetInt(s).Float64() // nearest double, as DuckDB's CAST to DOUBLE
-			c.FirstThreeSum[i] = f / div
+	for i := range p.sums {
+		s := &p.sums[i]
+		if s.big == nil && s.hi < 9_007_199 && s.lo < 1<<53 {
+			// Below 2^53 the sum is exact in a double: skip math/big.
+			if v := s.hi*1e9 + s.lo; v < 1<<53 {
+				c.FirstThreeSum[i] = float64(v) / div
+				continue
+			}
 		}
+		f, _ := new(big.Float).SetInt(s.value(true)).Float64() // nearest double, as DuckDB's CAST to DOUBLE
+		c.FirstThreeSum[i] = f / div
 	}
 	c.Left.Zero = p.left[-codeZero]
 	c.Left.BelowMin = p.left[-codeBelowMin]
