@@ -14,8 +14,10 @@
 -- so that every part fits a 64-bit integer on every engine.
 
 -- name: countsql_duckdb_battery
+-- DuckDB sums BIGINT into HUGEINT, which its Parquet writer stores as a
+-- DOUBLE: the parts are cast back to BIGINT (an overflow is an error).
 SELECT {{by_names}}kind, bin, count(*) AS n,
-       sum(t // 1000000000) AS sum_hi, sum(t % 1000000000) AS sum_lo
+       CAST(sum(t // 1000000000) AS BIGINT) AS sum_hi, CAST(sum(t % 1000000000) AS BIGINT) AS sum_lo
 FROM (
     SELECT {{by_names}}k.kind,
            CASE WHEN k.kind = 'f' THEN code ELSE {{last2}} END AS bin,
@@ -42,3 +44,8 @@ FROM (
 ) AS r3
 GROUP BY {{by_names}}kind, bin
 ORDER BY {{by_names}}kind, bin;
+
+-- name: countsql_read_parquet
+-- A Parquet count file, every column as text, in its own order (leadline
+-- checks the columns). Parameter: the file's path.
+SELECT CAST(COLUMNS(*) AS VARCHAR) FROM read_parquet(?);

@@ -127,7 +127,7 @@ type countsFlags struct {
 }
 
 func (c *countsFlags) add(fs *pflag.FlagSet) {
-	fs.StringSliceVar(&c.files, "counts", nil, "run on count files (CSV) made by the query of leadline count-sql, instead of the workspace's ledger (repeatable)")
+	fs.StringSliceVar(&c.files, "counts", nil, "run on count files (CSV or Parquet) made by the query of leadline count-sql, instead of the workspace's ledger (repeatable)")
 	fs.StringVar(&c.query, "count-query", "", "with --counts: the query file count-sql printed (its first line says what was counted)")
 }
 

@@ -14,7 +14,8 @@
 // converts a Float column by truncation (0.29 would count as 0.28), so a
 // Float amount must be cast to Decimal in a view first.
 //
-// The counts come back in one CSV layout, the same for every engine:
+// The counts come back in one layout, the same for every engine, as CSV
+// with a header (or Parquet, read through DuckDB):
 //
 //	by_NAME...  one column per segment (text; empty or \N for blank)
 //	kind        f: first three significant digits; l: last two digits

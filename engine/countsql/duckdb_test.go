@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/leadline/leadline/engine/workspace"
@@ -11,10 +12,14 @@ import (
 )
 
 // copyCounts runs the emitted DuckDB query on the workspace and writes its
-// result as DuckDB writes CSV.
+// result as DuckDB writes CSV (or Parquet, by the path's extension).
 func copyCounts(t *testing.T, ws *workspace.Workspace, q, path string) {
 	t.Helper()
-	stmt := fmt.Sprintf("COPY (%s) TO %s (HEADER)", stripQuery(q), queries.QuoteString(path))
+	opts := "HEADER"
+	if strings.HasSuffix(path, ".parquet") {
+		opts = "FORMAT parquet"
+	}
+	stmt := fmt.Sprintf("COPY (%s) TO %s (%s)", stripQuery(q), queries.QuoteString(path), opts)
 	if _, err := ws.Conn.ExecContext(context.Background(), stmt); err != nil {
 		t.Fatalf("%v\n%s", err, stmt)
 	}
@@ -22,7 +27,8 @@ func copyCounts(t *testing.T, ws *workspace.Workspace, q, path string) {
 
 // TestDuckDBCountsEqualLocalScan: the counts of the emitted DuckDB query,
 // over the whole ledger in one file and over two halves in two files,
-// give the local scan's tables and statistics, bin for bin.
+// give the local scan's tables and statistics, bin for bin. One half is
+// written as Parquet, which the reader takes too.
 func TestDuckDBCountsEqualLocalScan(t *testing.T) {
 	rows := testLedger()
 	ws := localWorkspace(t, rows)
@@ -54,7 +60,7 @@ func TestDuckDBCountsEqualLocalScan(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				p := filepath.Join(dir, half+".csv")
+				p := filepath.Join(dir, half+map[string]string{"h0": ".csv", "h1": ".parquet"}[half])
 				copyCounts(t, ws, qh, p)
 				parts = append(parts, p)
 			}

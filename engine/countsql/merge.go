@@ -12,11 +12,15 @@ import (
 	"math"
 	"math/big"
 	"os"
+	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
 
+	_ "github.com/duckdb/duckdb-go/v2" // reads Parquet count files
+
 	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/queries"
 )
 
 // Exclusion codes of the counting query (kind f, a negative bin).
@@ -100,8 +104,8 @@ type acc struct {
 	read  bool     // the local scan would list this segment (rows read: tested, zero or below the minimum)
 }
 
-// ReadFiles reads count files (CSV, with the header the counting query
-// returns) and adds them up exactly. Every file must have the same by_
+// ReadFiles reads count files (CSV with the header the counting query
+// returns, or Parquet: a .parquet name) and adds them up exactly. Every file must have the same by_
 // columns. Counts are 64-bit and checked for overflow; sums are exact.
 func ReadFiles(paths []string) (*Merged, error) {
 	if len(paths) == 0 {
@@ -135,8 +139,22 @@ func (m *Merged) readFile(path string, first bool) error {
 	}
 	defer f.Close()
 	h := sha256.New()
-	r := csv.NewReader(bufio.NewReaderSize(io.TeeReader(f, h), 1<<16))
-	r.ReuseRecord = true
+	var r records
+	if strings.EqualFold(filepath.Ext(path), ".parquet") {
+		if _, err := io.Copy(h, f); err != nil {
+			return fmt.Errorf("--counts %s: %w", path, err)
+		}
+		pr, err := openParquet(path)
+		if err != nil {
+			return err
+		}
+		defer pr.close()
+		r = pr
+	} else {
+		cr := csv.NewReader(bufio.NewReaderSize(io.TeeReader(f, h), 1<<16))
+		cr.ReuseRecord = true
+		r = cr
+	}
 	head, err := r.Read()
 	if err != nil {
 		return fmt.Errorf("%s: no header line (kind, bin, n, sum_hi, sum_lo): %w; write the query's result as CSV with a header (psql --csv, clickhouse client --format CSVWithNames, DuckDB COPY ... (HEADER))", path, err)
@@ -391,4 +409,75 @@ func (p *acc) counts(div float64) *battery.Counts {
 	c.Left.Zero = p.left[-codeZero]
 	c.Left.BelowMin = p.left[-codeBelowMin]
 	return c
+}
+
+// records is a source of count rows as text: the header first.
+type records interface {
+	Read() ([]string, error)
+}
+
+// parquetRecords reads a Parquet count file through DuckDB, in memory,
+// every value as text (NULL as empty), as the CSV reader sees them.
+type parquetRecords struct {
+	db   *sql.DB
+	rows *sql.Rows
+	head []string
+	vals []sql.NullString
+	rec  []string
+}
+
+func openParquet(path string) (*parquetRecords, error) {
+	db, err := sql.Open("duckdb", "")
+	if err != nil {
+		return nil, fmt.Errorf("--counts %s: %w", path, err)
+	}
+	rows, err := db.Query(queries.Get("countsql_read_parquet"), path)
+	if err != nil {
+		db.Close()
+		return nil, fmt.Errorf("--counts %s: not a Parquet file DuckDB can read: %s", path, firstLine(err.Error()))
+	}
+	cols, err := rows.Columns()
+	if err != nil {
+		rows.Close()
+		db.Close()
+		return nil, fmt.Errorf("--counts %s: %w", path, err)
+	}
+	return &parquetRecords{db: db, rows: rows, head: cols, vals: make([]sql.NullString, len(cols)), rec: make([]string, len(cols))}, nil
+}
+
+func (p *parquetRecords) Read() ([]string, error) {
+	if p.head != nil {
+		h := p.head
+		p.head = nil
+		return h, nil
+	}
+	if !p.rows.Next() {
+		if err := p.rows.Err(); err != nil {
+			return nil, err
+		}
+		return nil, io.EOF
+	}
+	dest := make([]any, len(p.vals))
+	for i := range p.vals {
+		dest[i] = &p.vals[i]
+	}
+	if err := p.rows.Scan(dest...); err != nil {
+		return nil, err
+	}
+	for i, v := range p.vals {
+		p.rec[i] = v.String // "" for NULL
+	}
+	return p.rec, nil
+}
+
+func (p *parquetRecords) close() {
+	p.rows.Close()
+	p.db.Close()
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i]
+	}
+	return s
 }
