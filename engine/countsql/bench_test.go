@@ -62,6 +62,12 @@ func writePartials(b *testing.B, dir string, files, segs int) []string {
 
 func benchMerge(b *testing.B, files, segs int) {
 	paths := writePartials(b, b.TempDir(), files, segs)
+	var size int64
+	for _, p := range paths {
+		if fi, err := os.Stat(p); err == nil {
+			size += fi.Size()
+		}
+	}
 	var by []string
 	if segs > 0 {
 		by = []string{"entity"}
@@ -80,6 +86,7 @@ func benchMerge(b *testing.B, files, segs int) {
 			b.Fatal(err)
 		}
 	}
+	b.ReportMetric(float64(size)/1e6, "MB_read")
 }
 
 // BenchmarkMerge1000Files: 1,000 partial count files of the whole
