@@ -43,11 +43,11 @@ func (c *countSQLOptions) build() (countsql.Spec, error) {
 		}
 		s.Amount = v
 	}
-	if s.Amount == "" {
-		return s, fmt.Errorf("--map amount=COLUMN: name the table's amount column")
-	}
 	if s.Engine == "" || s.Table == "" {
 		return s, fmt.Errorf("--engine and --table are required (e.g. --engine postgresql --table gl --map amount=amt)")
+	}
+	if s.Amount == "" {
+		return s, fmt.Errorf("--map amount=COLUMN: name the table's amount column")
 	}
 	for _, b := range c.by {
 		name, col, ok := strings.Cut(b, "=")

@@ -167,7 +167,7 @@ func (m *Merged) readFile(path string, first bool) error {
 	}
 	want := append(append([]string{}, prefixed(by)...), "kind", "bin", "n", "sum_hi", "sum_lo")
 	if strings.Join(trimAll(head), ",") != strings.Join(want, ",") {
-		return fmt.Errorf("%s line 1: columns %s; the counting query returns %s", path, strings.Join(head, ","), strings.Join(want, ","))
+		return fmt.Errorf("%s line 1: columns %s; the counting query returns %s, with this header line (psql --csv without -t; clickhouse client --format CSVWithNames)", path, strings.Join(head, ","), strings.Join(want, ","))
 	}
 	if first {
 		m.By = by
