@@ -124,6 +124,7 @@ func startPostgres(t *testing.T) *pgServer {
 		}
 	}
 	data := filepath.Join(dir, "data")
+	started := time.Now()
 	if out, err := runErr(cred, nil, initdb, "-D", data, "-U", "leadline", "--auth=trust", "-E", "UTF8", "--no-sync"); err != nil {
 		unavailable(t, install, "initdb failed: %v\n%s", err, out)
 	}
@@ -134,6 +135,7 @@ func startPostgres(t *testing.T) *pgServer {
 		unavailable(t, install, "the PostgreSQL server did not start: %v\n%s\n%s", err, out, log)
 	}
 	t.Cleanup(func() { runErr(cred, nil, pgctl, "-D", data, "-m", "immediate", "stop") })
+	t.Logf("PostgreSQL on port %d: initdb and start-up took %.1f s", port, time.Since(started).Seconds())
 	return &pgServer{psql: psql, port: port}
 }
 
@@ -163,6 +165,7 @@ func startClickHouseCluster(t *testing.T) [2]*chServer {
 		unavailable(t, install, "ClickHouse is not installed (clickhouse-server and clickhouse-client not found on PATH)")
 	}
 	ports := [2][2]int{{freePort(t), freePort(t)}, {freePort(t), freePort(t)}}
+	started := time.Now()
 	var out [2]*chServer
 	for i := range out {
 		dir, err := os.MkdirTemp("", "leadline-ch-")
@@ -243,6 +246,7 @@ func startClickHouseCluster(t *testing.T) [2]*chServer {
 		}
 		out[i] = s
 	}
+	t.Logf("ClickHouse shards on ports %d and %d: start-up took %.1f s", ports[0][0], ports[1][0], time.Since(started).Seconds())
 	return out
 }
 
