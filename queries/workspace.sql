@@ -94,3 +94,12 @@ SELECT column_name, data_type, is_nullable
 FROM information_schema.columns
 WHERE table_schema = 'main' AND lower(table_name) = ?
 ORDER BY ordinal_position;
+
+-- name: workspace_tables
+-- Every table and view of the opened database file (not of the system
+-- catalogs): what decides whether an existing file is a leadline workspace.
+SELECT table_name
+FROM information_schema.tables
+WHERE table_catalog = current_database()
+  AND table_schema NOT IN ('information_schema', 'pg_catalog')
+ORDER BY table_name;

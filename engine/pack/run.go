@@ -67,10 +67,11 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		return nil, err
 	}
 	t0 = time.Now()
-	ws, action, reason, err := openWorkspace(ctx, pl, inputs, o.Fresh, o.Log)
+	ws, action, reason, release, err := openWorkspace(ctx, pl, inputs, o.Fresh, o.Log)
 	if err != nil {
 		return nil, err
 	}
+	defer release()
 	defer ws.Close()
 	if o.Log != nil {
 		fmt.Fprintf(o.Log, "Workspace %s: %s (%s) in %.1fs\n", pl.Workspace, action, reason, time.Since(t0).Seconds())
