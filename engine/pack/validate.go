@@ -232,6 +232,7 @@ func Check(ctx context.Context, p *Pack) (*Plan, *Problems) {
 	c.filters(ctx, mem, pl, schemaOK)
 	c.steps(ctx, mem, pl, schemaOK)
 	c.checks(ctx, mem, pl, schemaOK)
+	c.tableNames(pl)
 	c.out.sort()
 	return pl, c.out
 }

@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -32,10 +33,17 @@ func init() {
 			return nil
 		}
 	}
+	var extra []output.Writer
+	if os.Getenv("LEADLINE_PACK_BLOCK_WRITER") != "" {
+		extra = append(extra, output.WriterFunc{Label: "blocked", Fn: func(context.Context, string, *output.Run) ([]string, error) {
+			fmt.Println("PAUSED writer")
+			select {} // wait here until killed, in the middle of writing the output folder
+		}})
+	}
 	p, err := Read(os.Getenv("LEADLINE_PACK_HELPER"))
 	if err == nil {
 		var res *Result
-		res, err = Run(context.Background(), p, RunOptions{Out: os.Getenv("LEADLINE_PACK_OUT"), Fresh: os.Getenv("LEADLINE_PACK_FRESH") != ""})
+		res, err = Run(context.Background(), p, RunOptions{Out: os.Getenv("LEADLINE_PACK_OUT"), Fresh: os.Getenv("LEADLINE_PACK_FRESH") != "", Output: output.Options{Extra: extra}})
 		if err == nil {
 			fmt.Println("ACTION " + res.Run.Manifest.Run.WorkspaceAction)
 		}
@@ -145,34 +153,7 @@ func TestKilledSwapRecovers(t *testing.T) {
 			mustRun(t, mustRead(t, packPath), filepath.Join(dir, "out1"), false)
 			edit(2)
 			cmd := helper(packPath, filepath.Join(dir, "out2"), "LEADLINE_PACK_PAUSE="+at)
-			stdout, err := cmd.StdoutPipe()
-			if err != nil {
-				t.Fatal(err)
-			}
-			if err := cmd.Start(); err != nil {
-				t.Fatal(err)
-			}
-			paused := make(chan string, 1)
-			go func() {
-				sc := bufio.NewScanner(stdout)
-				for sc.Scan() {
-					if strings.HasPrefix(sc.Text(), "PAUSED") || strings.HasPrefix(sc.Text(), "ERROR") {
-						paused <- sc.Text()
-						return
-					}
-				}
-				paused <- "exited"
-			}()
-			select {
-			case line := <-paused:
-				if !strings.HasPrefix(line, "PAUSED") {
-					t.Fatalf("helper did not reach %q: %s", at, line)
-				}
-			case <-time.After(2 * time.Minute):
-				t.Fatal("helper did not reach the step")
-			}
-			cmd.Process.Signal(syscall.SIGKILL)
-			cmd.Wait()
+			killWhenPaused(t, cmd)
 
 			res := mustRun(t, mustRead(t, packPath), filepath.Join(dir, "out3"), false)
 			action := res.Run.Manifest.Run.WorkspaceAction
@@ -195,4 +176,42 @@ func TestKilledSwapRecovers(t *testing.T) {
 			}
 		})
 	}
+}
+
+// killWhenPaused starts the helper, waits until it says it has paused and
+// kills it with SIGKILL.
+func killWhenPaused(t *testing.T, cmd *exec.Cmd) {
+	t.Helper()
+	stdout, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	paused := make(chan string, 1)
+	go func() {
+		sc := bufio.NewScanner(stdout)
+		for sc.Scan() {
+			if strings.HasPrefix(sc.Text(), "PAUSED") || strings.HasPrefix(sc.Text(), "ERROR") {
+				paused <- sc.Text()
+				return
+			}
+		}
+		paused <- "exited"
+	}()
+	select {
+	case line := <-paused:
+		if !strings.HasPrefix(line, "PAUSED") {
+			cmd.Process.Kill()
+			cmd.Wait()
+			t.Fatalf("helper did not pause: %s", line)
+		}
+	case <-time.After(2 * time.Minute):
+		cmd.Process.Kill()
+		cmd.Wait()
+		t.Fatal("helper did not pause in time")
+	}
+	cmd.Process.Signal(syscall.SIGKILL)
+	cmd.Wait()
 }
