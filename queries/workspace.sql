@@ -103,3 +103,7 @@ FROM information_schema.tables
 WHERE table_catalog = current_database()
   AND table_schema NOT IN ('information_schema', 'pg_catalog')
 ORDER BY table_name;
+
+-- name: input_paths
+-- The loaded input files: an output written by leadline must never replace one.
+SELECT DISTINCT path FROM files ORDER BY path;
