@@ -220,3 +220,23 @@ sql = "SELECT entity, amount FROM ledger ORDER BY entity, amount"
 		t.Errorf("pack check accepts two checks writing one table: %v", probs.Errors())
 	}
 }
+
+// TestPackReloadKeepsForeignPrevious: a file of the team's own named like
+// the workspace's kept copy (NAME.previous) is refused before a reload
+// starts, not deleted, and nothing is left beside the workspace.
+func TestPackReloadKeepsForeignPrevious(t *testing.T) {
+	dir, packPath, edit := miniPack(t)
+	mustRun(t, mustRead(t, packPath), filepath.Join(dir, "out"), false)
+	prev := filepath.Join(dir, "mini.duckdb.previous")
+	if err := os.WriteFile(prev, []byte("client memo"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	edit(1)
+	if _, err := Run(context.Background(), mustRead(t, packPath), RunOptions{Out: filepath.Join(dir, "out")}); err == nil || !strings.Contains(err.Error(), prev) {
+		t.Fatalf("reload beside a foreign %s: %v", prev, err)
+	}
+	if b, _ := os.ReadFile(prev); string(b) != "client memo" {
+		t.Fatal("the team's file was removed or changed")
+	}
+	noLeftovers(t, dir)
+}

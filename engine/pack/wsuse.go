@@ -280,6 +280,14 @@ func step(name string) error {
 // after recoverSwap, never neither.
 func loadFresh(ctx context.Context, pl *Plan, fp string, log io.Writer, replace bool) error {
 	tmp := pl.Workspace + loadingSuffix
+	prev := pl.Workspace + previousSuffix
+	// Both names are leadline's own; anything else found there is
+	// refused before the load, not after it.
+	for _, f := range []string{tmp, prev} {
+		if _, err := workspace.CheckFile(f); err != nil {
+			return ownName(f)
+		}
+	}
 	if err := removeOurs(tmp); err != nil {
 		return err
 	}
@@ -312,7 +320,6 @@ func loadFresh(ctx context.Context, pl *Plan, fp string, log io.Writer, replace 
 		return err
 	}
 	if replace {
-		prev := pl.Workspace + previousSuffix
 		if err := removeOurs(prev); err != nil {
 			return err
 		}
@@ -396,10 +403,14 @@ func moveDB(from, to string) error {
 // under that name.
 func removeOurs(path string) error {
 	if _, err := workspace.CheckFile(path); err != nil {
-		return fmt.Errorf("%w; leadline keeps its own files under that name: move it away", err)
+		return ownName(path)
 	}
 	removeDB(path)
 	return nil
+}
+
+func ownName(path string) error {
+	return fmt.Errorf("%w: %s is not a workspace leadline made, and leadline keeps its own files under that name beside the pack's workspace (the previous workspace, the one being loaded); it is left untouched: move it away", workspace.ErrNotWorkspace, path)
 }
 
 func removeDB(path string) {
