@@ -107,3 +107,12 @@ ORDER BY table_name;
 -- name: input_paths
 -- The loaded input files: an output written by leadline must never replace one.
 SELECT DISTINCT path FROM files ORDER BY path;
+
+-- name: workspace_marker
+-- The mark that makes a database file a leadline workspace: the comment on
+-- its meta table (a comment, so that the mark adds no row to any table).
+SELECT coalesce(comment, '') FROM duckdb_tables()
+WHERE database_name = current_database() AND schema_name = 'main' AND table_name = 'meta';
+
+-- name: workspace_mark
+COMMENT ON TABLE meta IS 'leadline workspace';

@@ -2,6 +2,7 @@ package workspace
 
 import (
 	"context"
+	"database/sql"
 	"errors"
 	"fmt"
 	"io"
@@ -20,9 +21,19 @@ var ErrNotWorkspace = errors.New("not a leadline workspace")
 // workspace is given a path where there is none.
 var ErrNoWorkspace = errors.New("no workspace")
 
-// MarkerKey is the meta entry that marks a database file as a leadline
-// workspace; Open writes it when it creates the schema.
-const MarkerKey = "leadline.workspace"
+// Marker is the comment on the meta table that marks a database file as a
+// leadline workspace; Open writes it when it creates the schema.
+const Marker = "leadline workspace"
+
+// Marked reports whether the workspace carries the marker.
+func (ws *Workspace) Marked(ctx context.Context) (bool, error) {
+	var c string
+	err := ws.Conn.QueryRowContext(ctx, queries.Get("workspace_marker")).Scan(&c)
+	if errors.Is(err, sql.ErrNoRows) {
+		return false, nil
+	}
+	return c == Marker, err
+}
 
 // schemaTables are the tables every leadline workspace has had since its
 // first version: a file holding all of them is a workspace even without
@@ -91,7 +102,7 @@ func (ws *Workspace) checkSchema(ctx context.Context) (empty bool, err error) {
 		return true, nil
 	}
 	if have["meta"] {
-		if _, ok, err := ws.Meta(ctx, MarkerKey); err == nil && ok {
+		if ok, err := ws.Marked(ctx); err == nil && ok {
 			return false, nil
 		}
 	}

@@ -111,9 +111,9 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 			ws.Close()
 			return nil, fmt.Errorf("workspace %s: creating the schema: %w", path, err)
 		}
-		_, marked, err := ws.Meta(ctx, MarkerKey)
+		marked, err := ws.Marked(ctx)
 		if err == nil && !marked {
-			err = ws.SetMeta(ctx, MarkerKey, "1")
+			_, err = conn.ExecContext(ctx, queries.Get("workspace_mark"))
 		}
 		if err != nil {
 			ws.Close()
