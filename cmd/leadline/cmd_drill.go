@@ -245,6 +245,9 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 func drillExport(ctx context.Context, w io.Writer, format string, limitGiven bool, b *drill.Built, sum drill.Summary,
 	ro drill.RecordOptions, g drill.GroupOptions, out string, ws *workspace.Workspace) error {
 	outFormat, _ := drill.ExportFormat(out)
+	if err := ws.CheckOutputFile(ctx, out); err != nil {
+		return err
+	}
 	if !limitGiven {
 		ro.Limit = 0 // every record
 	}

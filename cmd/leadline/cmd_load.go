@@ -63,7 +63,7 @@ Examples:
 					return err
 				}
 				o.Map = m
-				ws, err := db.open(ctx, false)
+				ws, err := db.openOrCreate(ctx)
 				if err != nil {
 					return err
 				}

@@ -65,6 +65,9 @@ func runReport(ctx context.Context, e *env, db dbFlags, out string, opts report.
 		return err
 	}
 	defer ws.Close()
+	if err := ws.CheckOutputFile(ctx, out); err != nil {
+		return err
+	}
 	if err := report.WriteFile(ctx, ws, out, opts); err != nil {
 		return err
 	}

@@ -37,8 +37,20 @@ func (d *dbFlags) add(fs *pflag.FlagSet) {
 	fs.StringVar(&d.tempDir, "temp-dir", "", "folder where DuckDB spills when memory runs short (default: beside the workspace)")
 }
 
+// open opens the existing workspace (every command but load: a mistyped
+// --db must never leave an empty workspace behind).
 func (d *dbFlags) open(ctx context.Context, readOnly bool) (*workspace.Workspace, error) {
-	ws, err := workspace.Open(ctx, d.path, workspace.Options{ReadOnly: readOnly, MemoryLimit: d.memory, Threads: d.threads, TempDir: d.tempDir})
+	return d.openWith(ctx, workspace.Options{ReadOnly: readOnly, MustExist: true})
+}
+
+// openOrCreate opens the workspace, creating it when there is none (load).
+func (d *dbFlags) openOrCreate(ctx context.Context) (*workspace.Workspace, error) {
+	return d.openWith(ctx, workspace.Options{})
+}
+
+func (d *dbFlags) openWith(ctx context.Context, o workspace.Options) (*workspace.Workspace, error) {
+	o.MemoryLimit, o.Threads, o.TempDir = d.memory, d.threads, d.tempDir
+	ws, err := workspace.Open(ctx, d.path, o)
 	if err != nil {
 		return nil, err
 	}

@@ -108,6 +108,9 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 	started := time.Now()
 	rep, err := loadFiles(ctx, ws, args, opts, started)
 	if err != nil {
+		if full := ws.DiskFull(err); full != nil {
+			return nil, full
+		}
 		return nil, interrupted(ctx, err)
 	}
 	// Committed: what follows only reports, and an interruption now must

@@ -232,6 +232,7 @@ func Check(ctx context.Context, p *Pack) (*Plan, *Problems) {
 	c.filters(ctx, mem, pl, schemaOK)
 	c.steps(ctx, mem, pl, schemaOK)
 	c.checks(ctx, mem, pl, schemaOK)
+	c.tableNames(pl)
 	c.out.sort()
 	return pl, c.out
 }
@@ -328,8 +329,8 @@ func (c *checker) header(pl *Plan) {
 		pl.Workspace = filepath.Join(c.p.Dir, ws)
 	}
 	if pl.Workspace != ":memory:" {
-		if st, err := os.Stat(pl.Workspace); err == nil && st.IsDir() {
-			c.errf("pack.workspace", "%s is a folder: give the workspace file's path, e.g. %q", pl.Workspace, "client.duckdb")
+		if _, err := workspace.CheckFile(pl.Workspace); err != nil {
+			c.errf("pack.workspace", "%v", err)
 		}
 	}
 }

@@ -8,7 +8,6 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
-	"os"
 	"strings"
 	"sync/atomic"
 	"time"
@@ -27,6 +26,10 @@ type Options struct {
 	MemoryLimit string // e.g. "4GB"; DuckDB's memory_limit
 	Threads     int    // DuckDB worker threads
 	TempDir     string // where DuckDB spills when memory runs short
+	// MustExist refuses to create a workspace: every command but load
+	// works on one that exists, and a mistyped --db must not leave an
+	// empty workspace behind.
+	MustExist bool
 }
 
 // Workspace is an open workspace. It holds a single connection: DuckDB
@@ -51,15 +54,23 @@ func (ws *Workspace) OnClose(f func()) { ws.onClose = append(ws.onClose, f) }
 // ErrInUse is returned when another process holds the workspace open.
 var ErrInUse = errors.New("workspace is in use by another process")
 
-// Open opens (creating if needed, unless read-only) the workspace at path.
-// ":memory:" gives a workspace that lives only as long as the process.
+// Open opens (creating if needed, unless read-only or MustExist) the
+// workspace at path. ":memory:" gives a workspace that lives only as long
+// as the process. An existing file that is not a leadline workspace is
+// refused before DuckDB opens it (ErrNotWorkspace).
 func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 	dsn := path
+	mustExist := opts.ReadOnly || opts.MustExist
 	if path == ":memory:" {
 		dsn = ""
-	} else if opts.ReadOnly {
-		if _, err := os.Stat(path); err != nil {
-			return nil, fmt.Errorf("workspace %s: %w (load some files first with `leadline load`)", path, err)
+		mustExist = false
+	} else {
+		exists, err := CheckFile(path)
+		if err != nil {
+			return nil, err
+		}
+		if !exists && mustExist {
+			return nil, noWorkspace(path, "there is no such file")
 		}
 	}
 	params := []string{}
@@ -86,10 +97,27 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 		ws.Close()
 		return nil, err
 	}
+	empty, err := ws.checkSchema(ctx)
+	if err != nil {
+		ws.Close()
+		return nil, err
+	}
+	if empty && mustExist {
+		ws.Close()
+		return nil, noWorkspace(path, "the file is a DuckDB database without any table")
+	}
 	if !opts.ReadOnly {
 		if _, err := conn.ExecContext(ctx, queries.Get("create_schema")); err != nil {
 			ws.Close()
 			return nil, fmt.Errorf("workspace %s: creating the schema: %w", path, err)
+		}
+		marked, err := ws.Marked(ctx)
+		if err == nil && !marked {
+			_, err = conn.ExecContext(ctx, queries.Get("workspace_mark"))
+		}
+		if err != nil {
+			ws.Close()
+			return nil, fmt.Errorf("workspace %s: marking it as a leadline workspace: %w", path, err)
 		}
 	}
 	if _, err := conn.ExecContext(ctx, queries.Get("create_amount_macros")); err != nil {
@@ -97,6 +125,10 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 		return nil, fmt.Errorf("workspace %s: creating the amount macros: %w", path, err)
 	}
 	return ws, nil
+}
+
+func noWorkspace(path, why string) error {
+	return fmt.Errorf("%w at %s (%s): check the --db path, or create the workspace by loading files with `leadline load --db %s FILE...`", ErrNoWorkspace, path, why, path)
 }
 
 func classifyOpenError(path string, err error) error {
