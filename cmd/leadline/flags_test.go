@@ -1,6 +1,8 @@
 package main
 
 import (
+	"bytes"
+	"context"
 	"reflect"
 	"strings"
 	"testing"
@@ -294,4 +296,23 @@ func TestRunPackDemoFlags(t *testing.T) {
 	}
 	_, err = parseFlags(demoFlags, "--scenario", "fraud")
 	wantErr(t, nil, err, `--scenario "fraud": the only scenario is threshold`)
+}
+
+// TestHelpListsNoBenchmarks: the benchmarks are cmd/leadline-bench, not
+// commands of the product.
+func TestHelpListsNoBenchmarks(t *testing.T) {
+	var out, errs bytes.Buffer
+	if code := run(context.Background(), []string{"--help"}, &env{stdout: &out, stderr: &errs}); code != 0 {
+		t.Fatalf("--help exited %d", code)
+	}
+	if !strings.Contains(out.String(), "  scan ") || strings.Contains(out.String(), "bench") {
+		t.Errorf("help lists a benchmark, or not scan:\n%s", out.String())
+	}
+	// Looked up, not run: a benchmark run here would start this test
+	// binary again as its steps.
+	for _, name := range []string{"bench", "bench-battery", "bench-dups", "bench-step"} {
+		if _, ok := commands[name]; ok {
+			t.Errorf("leadline has a command %q", name)
+		}
+	}
 }

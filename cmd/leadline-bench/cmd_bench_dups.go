@@ -16,7 +16,7 @@ func init() {
 	register(&command{
 		name:    "bench-dups",
 		summary: "time the duplicate tests and a grouped drill on a generated ledger",
-		usage: `Usage: leadline bench-dups [options]
+		usage: `Usage: leadline-bench bench-dups [options]
 
 Generates a synthetic ledger (the demo's generator, Parquet), loads it into
 a fresh workspace and times, on the same workspace:
@@ -32,9 +32,9 @@ Generation and loading are timed too but are not the benchmark. Nothing is
 held in Go memory beyond the groups and rows printed.
 
 Examples:
-  leadline bench-dups                       # 20,000,000 rows in a temporary folder
-  leadline bench-dups --rows 2000000 --repeat 3
-  leadline bench-dups --dir /data/bench --keep   # keep the Parquet file and workspace`,
+  leadline-bench bench-dups                       # 20,000,000 rows in a temporary folder
+  leadline-bench bench-dups --rows 2000000 --repeat 3
+  leadline-bench bench-dups --dir /data/bench --keep   # keep the Parquet file and workspace`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			o := benchDupsOptions{benchData: benchData{prefix: "leadline-bench-dups-"}}
 			var f formatFlag

@@ -19,7 +19,7 @@ func init() {
 	register(&command{
 		name:    "bench-battery",
 		summary: "time the one-scan digit battery against a single first-two digits GROUP BY",
-		usage: `Usage: leadline bench-battery [options]
+		usage: `Usage: leadline-bench bench-battery [options]
 
 Generates a synthetic ledger (the demo's generator, Parquet), loads it into
 a fresh workspace and times, in the same run and on the same workspace:
@@ -40,10 +40,10 @@ of one invocation (the machine's other load moves all figures together).
 Generation and loading are timed too but are not the benchmark.
 
 Examples:
-  leadline bench-battery                        # 20,000,000 rows in a temporary folder
-  leadline bench-battery --rows 2000000 --repeat 3
-  leadline bench-battery --dir /data/bench --keep   # keep the Parquet file and workspace
-  leadline bench-battery --by counterparty      # 5,000-odd segments`,
+  leadline-bench bench-battery                        # 20,000,000 rows in a temporary folder
+  leadline-bench bench-battery --rows 2000000 --repeat 3
+  leadline-bench bench-battery --dir /data/bench --keep   # keep the Parquet file and workspace
+  leadline-bench bench-battery --by counterparty      # 5,000-odd segments`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			o := benchBatteryOptions{benchData: benchData{prefix: "leadline-bench-battery-"}}
 			var f formatFlag
