@@ -6,9 +6,9 @@ import (
 	"io"
 	"strings"
 
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/numfmt"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
 )
@@ -70,8 +70,8 @@ func dupsFlags(fs *pflag.FlagSet) func(args []string) (dupsOptions, error) {
 	fs.IntVar(&o.dups.MinCounterparties, "min-counterparties", duplicates.DefaultMinCounterparties, "spread: counterparties an amount must reach")
 	fs.IntVar(&o.dups.MinRecords, "min-records", duplicates.DefaultMinRecords, "rsf: records a counterparty must have")
 	fs.IntVar(&o.dups.Top, "top", duplicates.DefaultTop, "groups kept per test, largest first (-1: all)")
-	fs.StringVar(&o.dups.Signs, "signs", drill.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
-	fs.StringVar(&o.dups.Min, "min", drill.DefaultMin, "smallest absolute amount tested")
+	fs.StringVar(&o.dups.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
+	fs.StringVar(&o.dups.Min, "min", population.DefaultMin, "smallest absolute amount tested")
 	fs.StringVar(&o.dups.Where, "where", "", `filter on the ledger's columns, e.g. "source = 'AP'" (read-only)`)
 	f.add(fs)
 	return func(args []string) (dupsOptions, error) {

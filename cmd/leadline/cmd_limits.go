@@ -98,7 +98,7 @@ func limitsFlags(fs *pflag.FlagSet) func(args []string) (limitsOptions, error) {
 		if err := limits.CheckWidth(o.limits.Width); err != nil {
 			return o, err
 		}
-		o.limits.Base = pop.base()
+		o.limits.Spec = pop.base()
 		o.format = f.value
 		return o, nil
 	}

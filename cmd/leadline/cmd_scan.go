@@ -107,7 +107,7 @@ func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
 		if o.battery.Tests, o.battery.Duplication, err = battery.ParseTests(tests); err != nil {
 			return o, err
 		}
-		o.battery.Base = pop.base()
+		o.battery.Spec = pop.base()
 		o.format = f.value
 		return o, nil
 	}

@@ -7,7 +7,7 @@ import (
 	"strings"
 	"time"
 
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/sensitivity"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -51,9 +51,9 @@ type sensitivityOptions struct {
 	db     dbFlags
 	format string
 	study  sensitivity.Options
-	// population is the rows studied as given: empty fields take the
+	// spec is the rows studied as given: empty fields take the
 	// scan's defaults.
-	population drill.Base
+	spec population.Spec
 }
 
 // sensitivityFlags registers sensitivity's flags; the function it returns
@@ -63,7 +63,7 @@ func sensitivityFlags(fs *pflag.FlagSet) func(args []string) (sensitivityOptions
 	var f formatFlag
 	var rng, rates string
 	o := &so.study
-	base := &so.population
+	base := &so.spec
 	so.db.add(fs)
 	fs.StringVar(&o.Kind, "kind", "", "injection kind: uniform, below-limit, repeated or rounded")
 	fs.StringVar(&rng, "range", "", "uniform injections: FROM:TO")
@@ -113,7 +113,7 @@ func sensitivityFlags(fs *pflag.FlagSet) func(args []string) (sensitivityOptions
 // study, stores the run and prints the detection table.
 func runSensitivity(ctx context.Context, e *env, so sensitivityOptions) error {
 	o := so.study
-	base := so.population
+	base := so.spec
 	ws, err := e.openWorkspace(ctx, so.db, false)
 	if err != nil {
 		return err

@@ -12,6 +12,7 @@ import (
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/spf13/pflag"
 )
@@ -48,7 +49,7 @@ func TestScanFlags(t *testing.T) {
 		db:     defaultDB,
 		format: "text",
 		battery: battery.Options{
-			Base:           drill.Base{Signs: "both", Min: "5"},
+			Spec:           population.Spec{Signs: "both", Min: "5"},
 			Tests:          []benford.Test{benford.FirstTwo},
 			By:             []string{"entity"},
 			MinSegmentRows: battery.DefaultMinSegmentRows,
@@ -69,7 +70,7 @@ func TestScanFlags(t *testing.T) {
 		!reflect.DeepEqual(got.battery.By, []string{"entity", "month"}) || !got.battery.Duplication || len(got.battery.Tests) != len(benford.AllTests()) {
 		t.Errorf("scan options %+v", got)
 	}
-	if got.battery.Signs != drill.DefaultSigns || got.battery.Min != drill.DefaultMin {
+	if got.battery.Signs != population.DefaultSigns || got.battery.Min != population.DefaultMin {
 		t.Errorf("scan population defaults: signs %q min %q", got.battery.Signs, got.battery.Min)
 	}
 
@@ -97,7 +98,7 @@ func TestLimitsFlags(t *testing.T) {
 		db:     defaultDB,
 		format: "csv",
 		limits: limits.Options{
-			Base:     drill.Base{Where: "source = 'AP'", Signs: drill.DefaultSigns, Min: drill.DefaultMin},
+			Spec:     population.Spec{Where: "source = 'AP'", Signs: population.DefaultSigns, Min: population.DefaultMin},
 			Limits:   []float64{1000, 5000},
 			Width:    0.05,
 			By:       []string{"user_id"},
@@ -132,7 +133,7 @@ func TestRangesFlags(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := rangesOptions{db: defaultDB, format: "text", ranges: ranges.Options{
-		Base:   drill.Base{Signs: "negative", Min: drill.DefaultMin},
+		Spec:   population.Spec{Signs: "negative", Min: population.DefaultMin},
 		Layout: ranges.Layout{Width: 500, From: 0, To: 20000},
 	}}
 	if !reflect.DeepEqual(got, want) {
@@ -157,7 +158,7 @@ func TestDupsFlags(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := dupsOptions{db: dbFlags{path: "w.duckdb", memory: "1280MB"}, format: "text", dups: duplicates.Options{
-		Base:              drill.Base{Signs: drill.DefaultSigns, Min: "0"},
+		Spec:              population.Spec{Signs: population.DefaultSigns, Min: "0"},
 		Tests:             []string{"same_amount", "exact"},
 		WindowDays:        10,
 		MinCounterparties: duplicates.DefaultMinCounterparties,
@@ -230,8 +231,8 @@ func TestSensitivityFlags(t *testing.T) {
 	if s.Kind != "uniform" || s.From != 2000 || s.To != 5000 || !reflect.DeepEqual(s.Rates, []float64{0, 0.01}) || s.Seeds != 7 || s.Baseline != "benford" {
 		t.Errorf("sensitivity study %+v", s)
 	}
-	if got.population != (drill.Base{Signs: "negative"}) {
-		t.Errorf("sensitivity population %+v", got.population)
+	if got.spec != (population.Spec{Signs: "negative"}) {
+		t.Errorf("sensitivity population %+v", got.spec)
 	}
 	for _, c := range []struct {
 		args []string

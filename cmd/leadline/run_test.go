@@ -12,8 +12,8 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -51,7 +51,7 @@ func TestRunWithoutFlags(t *testing.T) {
 	db := dbFlags{path: "not-a-file.duckdb"}
 
 	err = runScan(ctx, e, scanOptions{db: db, format: "json", battery: battery.Options{
-		Base:  drill.Base{Signs: "both", Min: "0"},
+		Spec:  population.Spec{Signs: "both", Min: "0"},
 		Tests: []benford.Test{benford.FirstDigit},
 	}})
 	if err != nil {
