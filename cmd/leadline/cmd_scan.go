@@ -12,7 +12,9 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -66,53 +68,67 @@ Examples:
   leadline scan --by entity --by month
   leadline scan --where "source = 'AP'" --min 100 --format json > ap.json
   leadline scan --by user_id --format csv > bins.csv`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var pop bandPopulation
-			var tests []string
-			var rankRows int
-			var allBins bool
-			o := battery.Options{}
-			db.add(fs)
-			fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
-			pop.add(fs)
-			fs.StringSliceVar(&o.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
-			fs.Int64Var(&o.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
-			fs.StringVar(&o.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
-			fs.IntVar(&o.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
-			fs.IntVar(&rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
-			fs.BoolVar(&allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
-			f.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				var err error
-				if o.Tests, o.Duplication, err = battery.ParseTests(tests); err != nil {
-					return err
-				}
-				o.Spec = pop.base()
-				started := time.Now()
-				ws, err := db.open(ctx, false)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				rep, err := battery.Run(ctx, ws, o)
-				if err != nil {
-					return err
-				}
-				if err := saveRun(ctx, ws, "scan", started, rep.Params, rep, func(id int64) { rep.RunID = id }); err != nil {
-					return err
-				}
-				return printScan(e.stdout, f.value, rep, scanPrint{rankRows: rankRows, allBins: allBins})
-			}
-		},
+		flags: thin(scanFlags, runScan),
 	})
+}
+
+// scanOptions are what scan's flags ask for.
+type scanOptions struct {
+	db      dbFlags
+	format  string
+	battery battery.Options
+	print   scanPrint
+}
+
+// scanFlags registers scan's flags; the function it returns checks them.
+func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
+	var o scanOptions
+	var f formatFlag
+	var pop bandPopulation
+	var tests []string
+	o.db.add(fs)
+	fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
+	pop.add(fs)
+	fs.StringSliceVar(&o.battery.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+	fs.Int64Var(&o.battery.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
+	fs.StringVar(&o.battery.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
+	fs.IntVar(&o.battery.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
+	fs.IntVar(&o.print.rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
+	fs.BoolVar(&o.print.allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
+	f.add(fs)
+	return func(args []string) (scanOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		var err error
+		if o.battery.Tests, o.battery.Duplication, err = battery.ParseTests(tests); err != nil {
+			return o, err
+		}
+		o.battery.Spec = pop.base()
+		o.format = f.value
+		return o, nil
+	}
+}
+
+// runScan runs the battery, stores the run and prints it.
+func runScan(ctx context.Context, e *env, o scanOptions) error {
+	started := time.Now()
+	ws, err := e.openWorkspace(ctx, o.db, false)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	rep, err := battery.Run(ctx, ws, o.battery)
+	if err != nil {
+		return err
+	}
+	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+		return err
+	}
+	return printScan(e.stdout, o.format, rep, o.print)
 }
 
 type scanPrint struct {
@@ -163,23 +179,23 @@ func scanBinsTable(rep *battery.Report) *tabular.Table {
 func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 	p := rep.Params
 	x := rep.Exclusions
-	fmt.Fprintf(w, "Digit battery (run %d): %s amounts tested (%s, |amount| >= %s", rep.RunID, bf.count(rep.Tested), p.Signs, p.Min)
+	fmt.Fprintf(w, "Digit battery (run %d): %s amounts tested (%s, |amount| >= %s", rep.RunID, numfmt.Int(rep.Tested), p.Signs, p.Min)
 	if strings.TrimSpace(p.Where) != "" {
 		fmt.Fprintf(w, ", where %s", strings.TrimSpace(p.Where))
 	}
-	fmt.Fprintf(w, ") of %s rows\n", bf.count(rep.Rows))
+	fmt.Fprintf(w, ") of %s rows\n", numfmt.Int(rep.Rows))
 	var left []string
 	if x.Filtered > 0 {
-		left = append(left, bf.count(x.Filtered)+" by the filter")
+		left = append(left, numfmt.Int(x.Filtered)+" by the filter")
 	}
-	left = append(left, bf.count(x.Zero)+" zero")
+	left = append(left, numfmt.Int(x.Zero)+" zero")
 	if p.Signs != "both" {
 		other := map[string]string{"positive": "negative", "negative": "positive"}[p.Signs]
-		left = append(left, bf.count(x.OtherSign)+" "+other)
+		left = append(left, numfmt.Int(x.OtherSign)+" "+other)
 	}
-	left = append(left, bf.count(x.BelowMin)+" below "+p.Min)
+	left = append(left, numfmt.Int(x.BelowMin)+" below "+p.Min)
 	if x.NoAmount > 0 {
-		left = append(left, bf.count(x.NoAmount)+" without an amount")
+		left = append(left, numfmt.Int(x.NoAmount)+" without an amount")
 	}
 	fmt.Fprintf(w, "Left out: %s. Amounts as %s; last two digits %s.\n", strings.Join(left, ", "), rep.AmountType,
 		map[string]string{battery.LastTwoScale: "at the ledger's scale", battery.LastTwoUnits: "of the whole-currency part"}[p.LastTwo])
@@ -199,10 +215,10 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 		}
 	}
 	if d := rep.Duplication; d != nil {
-		fmt.Fprintf(w, "\nNumber duplication: the %d most frequent of %s distinct amounts (N %s)\n", len(d.Top), bf.count(d.Distinct), bf.count(d.N))
+		fmt.Fprintf(w, "\nNumber duplication: the %d most frequent of %s distinct amounts (N %s)\n", len(d.Top), numfmt.Int(d.Distinct), numfmt.Int(d.N))
 		t := &tabular.Table{Columns: []string{"rank", "amount", "count", "share_%"}}
 		for _, x := range d.Top {
-			t.Add(x.Rank, x.Amount, bf.count(x.Count), pct(x.Share))
+			t.Add(x.Rank, x.Amount, numfmt.Int(x.Count), pct(x.Share))
 		}
 		if err := t.WriteText(w, 0); err != nil {
 			return err
@@ -210,7 +226,7 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 	}
 	if s := rep.Segments; s != nil {
 		fmt.Fprintf(w, "\nSegments by %s: %s found, %s with at least %s amounts ranked\n", strings.Join(s.By, ", "),
-			bf.count(int64(s.Count)), bf.count(int64(s.Ranked)), bf.count(s.MinRows))
+			numfmt.Int(int64(s.Count)), numfmt.Int(int64(s.Ranked)), numfmt.Int(s.MinRows))
 		for _, rk := range s.Rankings {
 			fmt.Fprintf(w, "\n%s by segment, most distorted first (sorted by %s)\n", capitalize(rk.Test.Name()), strings.ReplaceAll(rk.SortBy, "_", " "))
 			t := &tabular.Table{Columns: []string{"rank", "segment", "n", "mad", "conformity", "excess_mad", "chi2_p", "flagged", "runs", "runs_p"}}
@@ -227,7 +243,7 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 				if rk.Test == benford.Summation {
 					chi, excess = nil, nil
 				}
-				t.Add(r.Rank, r.Segment, bf.count(r.N), fmt.Sprintf("%.5f", r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
+				t.Add(r.Rank, r.Segment, numfmt.Int(r.N), fmt.Sprintf("%.5f", r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
 			}
 			if err := t.WriteText(w, 40); err != nil {
 				return err
@@ -243,9 +259,9 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 					names = append(names, "...")
 					break
 				}
-				names = append(names, fmt.Sprintf("%s (%s)", ts.Segment, bf.count(ts.Tested)))
+				names = append(names, fmt.Sprintf("%s (%s)", ts.Segment, numfmt.Int(ts.Tested)))
 			}
-			fmt.Fprintf(w, "\nToo small to judge (fewer than %s amounts), not ranked: %d segments: %s\n", bf.count(s.MinRows), len(s.TooSmall), strings.Join(names, ", "))
+			fmt.Fprintf(w, "\nToo small to judge (fewer than %s amounts), not ranked: %d segments: %s\n", numfmt.Int(s.MinRows), len(s.TooSmall), strings.Join(names, ", "))
 		}
 	}
 	fmt.Fprintln(w, "\nFlags are signals for follow-up, never proof of fraud.")
@@ -253,7 +269,7 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 }
 
 func printTestText(w io.Writer, r benford.Result, allBins bool) error {
-	fmt.Fprintf(w, "%s (N %s)\n", capitalize(r.Test.Name()), bf.count(r.N))
+	fmt.Fprintf(w, "%s (N %s)\n", capitalize(r.Test.Name()), numfmt.Int(r.N))
 	if r.N == 0 && r.Test != benford.Summation {
 		fmt.Fprintln(w, "  no amounts")
 		return nil
@@ -292,9 +308,9 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		}
 		bar := scanBar(b.Actual, b.Expected, maxP, 30)
 		if summation {
-			t.Add(b.Label, bf.count(b.Count), strconv.FormatFloat(b.Amount, 'f', 2, 64), pct(b.Actual), pct(b.Expected), flag, bar)
+			t.Add(b.Label, numfmt.Int(b.Count), strconv.FormatFloat(b.Amount, 'f', 2, 64), pct(b.Actual), pct(b.Expected), flag, bar)
 		} else {
-			t.Add(b.Label, bf.count(b.Count), pct(b.Actual), pct(b.Expected), fmt.Sprintf("%.2f", b.Z), flag, bar)
+			t.Add(b.Label, numfmt.Int(b.Count), pct(b.Actual), pct(b.Expected), fmt.Sprintf("%.2f", b.Z), flag, bar)
 		}
 	}
 	if r.Test == benford.FirstThree && !allBins {

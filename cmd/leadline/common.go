@@ -2,12 +2,12 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"os"
 	"time"
 
+	"github.com/leadline/leadline/engine/jsondoc"
 	"github.com/leadline/leadline/engine/progress"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -77,11 +77,8 @@ func (f *formatFlag) check() error {
 	return fmt.Errorf("--format %q: give text, csv or json", f.value)
 }
 
-func writeJSON(w io.Writer, v any) error {
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(v)
-}
+// writeJSON writes a command's JSON document.
+func writeJSON(w io.Writer, v any) error { return jsondoc.Write(w, v) }
 
 func writeTable(w io.Writer, format string, t *tabular.Table) error {
 	switch format {
@@ -91,24 +88,4 @@ func writeTable(w io.Writer, format string, t *tabular.Table) error {
 		return t.WriteJSON(w)
 	}
 	return t.WriteText(w, 60)
-}
-
-// saveRun reserves the next run id, hands it to setID (the report carries
-// its id) and stores the run: params as its parameters and the report as
-// its result, the document --format json prints.
-func saveRun(ctx context.Context, ws *workspace.Workspace, kind string, started time.Time, params, rep any, setID func(int64)) error {
-	id, err := ws.NextRunID(ctx)
-	if err != nil {
-		return fmt.Errorf("saving the run: %w", err)
-	}
-	setID(id)
-	p, err := json.Marshal(params)
-	if err != nil {
-		return err
-	}
-	r, err := json.Marshal(rep)
-	if err != nil {
-		return err
-	}
-	return ws.SaveRunWithID(ctx, id, kind, started, p, r)
 }

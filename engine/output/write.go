@@ -1,7 +1,6 @@
 package output
 
 import (
-	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -17,6 +16,8 @@ import (
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/leadline/leadline/engine/jsondoc"
 )
 
 // File names inside an output folder.
@@ -159,7 +160,7 @@ func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]Output
 		m = *run.Manifest
 	}
 	m.Outputs = outs
-	if err := writeFile(filepath.Join(dir, ManifestFile), func(w io.Writer) error { return writeIndented(w, m) }); err != nil {
+	if err := writeFile(filepath.Join(dir, ManifestFile), func(w io.Writer) error { return jsondoc.Write(w, m) }); err != nil {
 		return nil, err
 	}
 	return outs, nil
@@ -174,19 +175,7 @@ func trace(step string, since time.Time) {
 
 // WriteJSON writes the run as one indented JSON document. Maps are written
 // with sorted keys, so the same run gives the same bytes.
-func WriteJSON(w io.Writer, run *Run) error { return writeIndented(w, run) }
-
-func writeIndented(w io.Writer, v any) error {
-	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
-	enc.SetIndent("", "  ")
-	enc.SetEscapeHTML(false)
-	if err := enc.Encode(v); err != nil {
-		return err
-	}
-	_, err := w.Write(buf.Bytes())
-	return err
-}
+func WriteJSON(w io.Writer, run *Run) error { return jsondoc.Write(w, run) }
 
 func writeFile(path string, fn func(io.Writer) error) error {
 	f, err := os.Create(path)

@@ -2,7 +2,6 @@ package pack
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"os"
@@ -186,9 +185,8 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	}
 	run.Manifest.Outputs = outs
 	res.Run, res.Outputs, res.StepErrors = run, outs, r.errs
-	params, _ := json.Marshal(map[string]any{"pack": info, "parameters": pl.Parameters(), "out": out})
-	doc, _ := json.Marshal(run)
-	if err := ws.SaveRunWithID(ctx, runID, "pack", started, params, doc); err != nil {
+	params := map[string]any{"pack": info, "parameters": pl.Parameters(), "out": out}
+	if _, err := ws.SaveRun(ctx, workspace.Run{ID: runID, Kind: "pack", Started: started, Params: params, Result: run}); err != nil {
 		return res, err
 	}
 	return res, nil

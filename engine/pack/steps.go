@@ -15,6 +15,7 @@ import (
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/tabular"
@@ -69,23 +70,6 @@ func dec(s string) any {
 func (r *runner) amountDec(v float64) output.Decimal {
 	d, _ := output.NewDecimal(strconv.FormatFloat(v, 'f', r.scale, 64))
 	return d
-}
-
-func thousands(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
 }
 
 // completeness: per input file, rejects by reason, control totals per entity.
@@ -204,7 +188,7 @@ func (r *runner) completeness(ctx context.Context) error {
 		"files": c.Files, "rows_read": c.RowsRead, "rows_loaded": c.RowsLoaded, "rows_rejected": c.RowsRejected,
 		"balanced": c.Balanced, "sum_positive": c.SumPositive, "sum_negative": c.SumNegative, "net": c.Net,
 	}
-	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, thousands(c.RowsRead), thousands(c.RowsLoaded), thousands(c.RowsRejected))
+	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, numfmt.Int(c.RowsRead), numfmt.Int(c.RowsLoaded), numfmt.Int(c.RowsRejected))
 	if !c.Balanced {
 		text += "; WARNING: a file does not balance, see the inputs table"
 	}
@@ -280,7 +264,7 @@ func (r *runner) limitsStep(ctx context.Context) error {
 	for _, row := range rep.Rows {
 		if row.Flagged && len(top) < 3 {
 			top = append(top, fmt.Sprintf("limit %s in %s: %s just below against %s just above",
-				r.amountDec(row.Limit).Text, segmentText(row.Segment), thousands(row.Below), thousands(row.Above)))
+				r.amountDec(row.Limit).Text, segmentText(row.Segment), numfmt.Int(row.Below), numfmt.Int(row.Above)))
 		}
 	}
 	r.finding("limits", "limits", "Limit clustering: %d of %d (segment, limit) pairs flagged (expected ratio below/above %.3f at width %.0f%%); strongest: %s.",
@@ -323,7 +307,7 @@ func (r *runner) rangesStep(ctx context.Context) error {
 	}
 	s := rep.Stretches[0]
 	r.finding("ranges", "ranges_inflated", "Amount ranges: %d of %d bands flagged in %d inflated range(s); largest excess %s to %s: %s amounts against %.0f expected.",
-		rep.Flagged, rep.Scored, len(rep.Stretches), r.amountDec(s.From).Text, r.amountDec(s.To).Text, thousands(s.Count), s.Expected)
+		rep.Flagged, rep.Scored, len(rep.Stretches), r.amountDec(s.From).Text, r.amountDec(s.To).Text, numfmt.Int(s.Count), s.Expected)
 	return nil
 }
 
@@ -421,7 +405,7 @@ func (r *runner) duplicatesStep(ctx context.Context) error {
 		}
 		r.add(ot)
 		if tr.GroupsTotal > 0 {
-			parts = append(parts, fmt.Sprintf("%s %s", tr.Test, thousands(tr.GroupsTotal)))
+			parts = append(parts, fmt.Sprintf("%s %s", tr.Test, numfmt.Int(tr.GroupsTotal)))
 		}
 	}
 	cp := *res
@@ -475,7 +459,7 @@ func (r *runner) checkStep(ctx context.Context, c CheckPlan) error {
 	checks, _ := r.run.Results["checks"].([]map[string]any)
 	r.run.Results["checks"] = append(checks, res)
 	if c.Finding == "rows" && t.RowsTotal > 0 {
-		r.finding("check", t.Name, "%s: %s row(s).", c.Title, thousands(t.RowsTotal))
+		r.finding("check", t.Name, "%s: %s row(s).", c.Title, numfmt.Int(t.RowsTotal))
 	}
 	return nil
 }
@@ -612,7 +596,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	}
 	r.run.Results["extracts"] = append(ex, map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy})
 	if len(items) > 0 {
-		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, thousands(total), len(items), e.From)
+		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, numfmt.Int(total), len(items), e.From)
 	}
 	return nil
 }

@@ -10,7 +10,6 @@ import (
 	"fmt"
 	"strings"
 	"sync/atomic"
-	"time"
 
 	duckdb "github.com/duckdb/duckdb-go/v2"
 	"github.com/duckdb/duckdb-go/v2/mapping"
@@ -240,31 +239,4 @@ func (ws *Workspace) DuckDBVersion(ctx context.Context) (string, error) {
 	var v string
 	err := ws.Conn.QueryRowContext(ctx, "SELECT version()").Scan(&v)
 	return v, err
-}
-
-// SaveRun stores a finished run (its parameters and its JSON result) and
-// returns the run id.
-func (ws *Workspace) SaveRun(ctx context.Context, kind string, started time.Time, params, result []byte) (int64, error) {
-	id, err := ws.NextRunID(ctx)
-	if err != nil {
-		return 0, fmt.Errorf("saving run: %w", err)
-	}
-	return id, ws.SaveRunWithID(ctx, id, kind, started, params, result)
-}
-
-// NextRunID reserves a run id before the run starts, so that results can
-// carry it; SaveRunWithID stores the run under it.
-func (ws *Workspace) NextRunID(ctx context.Context) (int64, error) {
-	var id int64
-	err := ws.Conn.QueryRowContext(ctx, queries.Get("next_run_id")).Scan(&id)
-	return id, err
-}
-
-// SaveRunWithID stores a run under an id from NextRunID.
-func (ws *Workspace) SaveRunWithID(ctx context.Context, id int64, kind string, started time.Time, params, result []byte) error {
-	_, err := ws.Conn.ExecContext(ctx, queries.Get("insert_run"), id, kind, started.UTC(), time.Now().UTC(), Version, string(params), string(result))
-	if err != nil {
-		return fmt.Errorf("saving run %d: %w", id, err)
-	}
-	return nil
 }
