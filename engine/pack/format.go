@@ -58,9 +58,10 @@ type Header struct {
 	Client      string `toml:"client" json:"client"`
 	Period      string `toml:"period" json:"period"`
 	Description string `toml:"description" json:"description,omitempty"`
-	Workspace   string `toml:"workspace" json:"workspace"` // relative to the pack; default: the pack file's name with .duckdb, beside it
-	Scale       Number `toml:"scale" json:"scale"`         // decimal places of amounts, 1 to 6 (default 2)
-	Precision   Number `toml:"precision" json:"precision"` // 18 or 38 (default 18)
+	Workspace   string `toml:"workspace" json:"workspace"`                 // relative to the pack; default: the pack file's name with .duckdb, beside it
+	Scale       Number `toml:"scale" json:"scale"`                         // decimal places of amounts, 1 to 6 (default 2)
+	Precision   Number `toml:"precision" json:"precision"`                 // 18 or 38 (default 18)
+	CSVFormulas string `toml:"csv_formulas" json:"csv_formulas,omitempty"` // quote (default) or keep
 }
 
 // Source is one [[source]]: files and how to read them.

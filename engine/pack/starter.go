@@ -73,6 +73,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("workspace = %s  # the DuckDB workspace, beside this file", q(strings.TrimSuffix(filepath.Base(packPath), filepath.Ext(packPath))+".duckdb"))
 	w("scale = 2                 # decimal places of amounts (1 to 6)")
 	w("precision = 18            # total digits: 18 (fast) or 38")
+	w("csv_formulas = \"quote\"    # CSV text a spreadsheet would run (=, +, -, @) gets a leading ': \"quote\" or \"keep\"")
 	w("")
 	w("[[source]]")
 	w("name = %s", q(base))

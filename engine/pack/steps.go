@@ -37,7 +37,10 @@ type runner struct {
 	duplicates *duplicates.Result
 }
 
-func (r *runner) add(t *output.Table) { r.run.Tables = append(r.run.Tables, t) }
+func (r *runner) add(t *output.Table) {
+	t.KeepFormulas = r.pl.KeepFormulas
+	r.run.Tables = append(r.run.Tables, t)
+}
 
 func (r *runner) finding(section, table, format string, args ...any) {
 	r.run.Summary.Findings = append(r.run.Summary.Findings, output.Finding{Section: section, Table: table, Text: fmt.Sprintf(format, args...)})

@@ -55,6 +55,8 @@ type Plan struct {
 	Duplicates *duplicates.Options
 	Extracts   []ExtractPlan
 	Checks     []CheckPlan
+	// KeepFormulas writes CSV text cells as they are (csv_formulas = "keep").
+	KeepFormulas bool
 }
 
 // PlannedSource is a [[source]] with its files found and read.
@@ -150,13 +152,14 @@ func (pl *Plan) Parameters() map[string]any {
 		})
 	}
 	out := map[string]any{
-		"workspace":   pl.Workspace,
-		"amount_type": pl.AmountType,
-		"sources":     src,
-		"filters":     pl.Filters,
-		"population":  pl.Pack.Population,
-		"extracts":    pl.Extracts,
-		"checks":      pl.Checks,
+		"workspace":    pl.Workspace,
+		"amount_type":  pl.AmountType,
+		"sources":      src,
+		"filters":      pl.Filters,
+		"population":   pl.Pack.Population,
+		"extracts":     pl.Extracts,
+		"checks":       pl.Checks,
+		"csv_formulas": map[bool]string{false: "quote", true: "keep"}[pl.KeepFormulas],
 	}
 	if pl.Battery != nil {
 		out["battery"] = pl.Battery
@@ -313,6 +316,13 @@ func (c *checker) header(pl *Plan) {
 		}
 	}
 	pl.AmountType = fmt.Sprintf("DECIMAL(%d,%d)", pl.Precision, pl.Scale)
+	switch strings.ToLower(strings.TrimSpace(h.CSVFormulas)) {
+	case "", "quote":
+	case "keep":
+		pl.KeepFormulas = true
+	default:
+		c.errf("pack.csv_formulas", "csv_formulas %q: give \"quote\" (the default: text a spreadsheet would run as a formula gets a leading ') or \"keep\" (text as it is)", h.CSVFormulas)
+	}
 	switch ws := strings.TrimSpace(h.Workspace); {
 	case ws == ":memory:":
 		pl.Workspace = ws
