@@ -114,6 +114,13 @@ func recordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o Reco
 	return q, args, nil
 }
 
+// RecordsQuery returns one query that lists the selection's records in
+// order (o.Limit of them; 0 = all), with the columns Records returns, and
+// its arguments: for writers that have DuckDB stream every record.
+func RecordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOptions) (string, []any, error) {
+	return recordsQuery(ctx, ws, b, o)
+}
+
 // Records returns up to o.Limit records of the selection, in order, with
 // every ledger column and the file name. more reports whether the
 // selection holds further records. Only the returned rows are held in

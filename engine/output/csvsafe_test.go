@@ -3,7 +3,9 @@ package output
 import (
 	"bytes"
 	"database/sql"
+	"context"
 	"encoding/csv"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -220,5 +222,59 @@ func TestCutTextKeepsSurrogatePairs(t *testing.T) {
 	}
 	if _, cut := cutText(strings.Repeat("y", CellLimit), "t"); cut {
 		t.Error("text at the limit was cut")
+	}
+}
+
+// A table with a source is written whole to CSV and Parquet; its sheet
+// stops at the sheet's row limit, and the summary says so with the count
+// and where the rest is.
+func TestSourceTableWholeInFilesCutInSheet(t *testing.T) {
+	db, err := sql.Open("duckdb", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	db.SetMaxOpenConns(1)
+	old := maxSheetRows
+	maxSheetRows = 4
+	defer func() { maxSheetRows = old }()
+	tb := NewTable("big", "Big", "extract", []string{"k", "amount"}, [][]any{{int64(1), "0.01"}}, map[string]Kind{"k": Count, "amount": Money})
+	tb.Source = &Source{DB: db, SQL: "SELECT i AS k, CAST(i / 100 AS DECIMAL(18,2)) AS amount FROM range(1, ? + 1) t(i) ORDER BY i", Args: []any{10}}
+	tb.RowsTotal, tb.Complete, tb.Truncated = 10, true, true
+	out := t.TempDir()
+	run := &Run{Manifest: &Manifest{}, Tables: []*Table{tb}}
+	if _, err := WriteAll(context.Background(), out, run, Options{NoRegistered: true}); err != nil {
+		t.Fatal(err)
+	}
+	b, _ := os.ReadFile(filepath.Join(out, TablesDir, "big.csv"))
+	recs := readCSV(t, b)
+	if len(recs) != 11 || recs[10][0] != "10" || recs[10][1] != "0.10" {
+		t.Errorf("CSV: %d records, last %v", len(recs), recs[len(recs)-1])
+	}
+	var n int64
+	var sum string
+	if err := db.QueryRow("SELECT count(*), CAST(sum(amount) AS VARCHAR) FROM read_parquet(?)", filepath.Join(out, TablesDir, "big.parquet")).Scan(&n, &sum); err != nil || n != 10 || sum != "0.55" {
+		t.Errorf("Parquet: %d rows, sum %s (%v)", n, sum, err)
+	}
+	f, err := excelize.OpenFile(filepath.Join(out, WorkbookFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, _ := f.GetRows("big")
+	if len(rows) != 5 || tb.SheetRows != 4 {
+		t.Errorf("sheet: %d rows, SheetRows %d", len(rows), tb.SheetRows)
+	}
+	note := SheetNote(tb)
+	if !strings.Contains(note, "first 4 of 10 rows") || !strings.Contains(note, "tables/big.csv") {
+		t.Errorf("note %q", note)
+	}
+	summary, _ := f.GetRows(SummarySheet)
+	found := false
+	for _, r := range summary {
+		found = found || strings.Contains(strings.Join(r, "|"), note)
+	}
+	if !found {
+		t.Error("the summary's sheet list lacks the note")
 	}
 }

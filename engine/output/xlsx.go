@@ -13,8 +13,9 @@ import (
 // SummarySheet is the name of the workbook's first sheet.
 const SummarySheet = "summary"
 
-// maxSheetRows leaves room for the header within a worksheet's 1,048,576 rows.
-const maxSheetRows = 1_048_575
+// maxSheetRows leaves room for the header within a worksheet's 1,048,576
+// rows (a variable only so that a test can lower it).
+var maxSheetRows int64 = 1_048_575
 
 // XLSXHook adds to the workbook after the sheets are written, e.g. native
 // charts. sheetOf maps each table's name to its sheet's name.

@@ -548,7 +548,9 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	var grpCols []string
 	var grpRows [][]any
 	var total int64
-	for _, it := range items {
+	var parts []string // one query per item, for the source of every record
+	var args []any
+	for n, it := range items {
 		b, err := drill.Build(ctx, r.ws, it.sel)
 		if err != nil {
 			return fmt.Errorf("%s: %w", it.label, err)
@@ -558,6 +560,13 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			return err
 		}
 		total += sum.Records
+		q, a, err := drill.RecordsQuery(ctx, r.ws, b, drill.RecordOptions{})
+		if err != nil {
+			return err
+		}
+		parts = append(parts, fmt.Sprintf("SELECT %d AS ll_item_no, CAST(? AS VARCHAR) AS item, rec.* FROM (\n%s\n) AS rec",
+			n+1, strings.TrimSuffix(strings.TrimSpace(q), ";")))
+		args = append(append(args, it.label), a...)
 		limit := e.MaxRows - len(recRows)
 		if limit > 0 {
 			t, _, err := drill.Records(ctx, r.ws, b, drill.RecordOptions{Limit: limit})
@@ -591,8 +600,19 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	rt := output.NewTable("extract_"+e.Name, fmt.Sprintf("Extract %s: records behind the top %d result(s) of %s", e.Name, e.Top, e.From), "extract", recCols, recRows, kinds)
 	rt.RowsTotal = total
 	rt.Truncated = total > int64(len(recRows))
+	if len(parts) > 0 && len(recCols) > 1 {
+		// Every record goes to tables/ (and the workbook, up to its row
+		// limit) straight from DuckDB; Rows keeps the first max_rows for
+		// results.json and the report.
+		rt.Source = &output.Source{DB: r.ws.Conn, Args: args,
+			SQL: "SELECT * EXCLUDE (ll_item_no) FROM (\n" + strings.Join(parts, "\nUNION ALL\n") + "\n) ORDER BY ll_item_no, row_id"}
+		rt.Complete = true
+	}
 	if rt.Truncated {
-		rt.Note = fmt.Sprintf("the first %d of %d records (max_rows)", len(recRows), total)
+		rt.Note = fmt.Sprintf("results.json and the report list the first %d of %d records (max_rows)", len(recRows), total)
+		if rt.Complete {
+			rt.Note += fmt.Sprintf("; all %d are in %s/%s.csv and %s/%s.parquet", total, output.TablesDir, rt.Name, output.TablesDir, rt.Name)
+		}
 	}
 	r.add(rt)
 	if e.GroupBy != "" {
