@@ -2,8 +2,8 @@ package output
 
 import (
 	"bytes"
-	"database/sql"
 	"context"
+	"database/sql"
 	"encoding/csv"
 	"os"
 	"path/filepath"
