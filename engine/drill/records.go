@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/duckdb/duckdb-go/v2"
+	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -295,7 +296,9 @@ var copyOptions = map[string]string{
 }
 
 // Export writes the selection's records (o.Limit of them, 0 = all) to the
-// file at path, in the format its extension names. DuckDB writes the file
+// file at path, in the format its extension names. In CSV, text that a
+// spreadsheet would run as a formula gets a leading quote
+// (output.NeutralizeText); Parquet and JSON keep it as it is. DuckDB writes the file
 // straight from the query: no row passes through Go. Amounts keep their
 // exact type in Parquet and are written as exact decimal text in CSV and
 // JSON.
@@ -310,6 +313,11 @@ func Export(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOpti
 	}
 	if format != "parquet" {
 		q = "SELECT * REPLACE (CAST(amount AS VARCHAR) AS amount) FROM (\n" + strings.TrimSuffix(strings.TrimSpace(q), ";") + "\n)"
+	}
+	if format == "csv" {
+		if q, err = output.NeutralCSVQuery(ctx, ws.Conn, q, args); err != nil {
+			return fmt.Errorf("--out %s: %s", path, firstLine(err.Error()))
+		}
 	}
 	return copyTo(ctx, ws, q, args, path, format)
 }
@@ -338,6 +346,11 @@ func ExportGroups(ctx context.Context, ws *workspace.Workspace, b *Built, o Grou
 		limit = 1 << 62
 	}
 	args := append(append([]any(nil), b.Where.Args...), o.Top, limit)
+	if format == "csv" {
+		if q, err = output.NeutralCSVQuery(ctx, ws.Conn, q, args); err != nil {
+			return fmt.Errorf("--out %s: %s", path, firstLine(err.Error()))
+		}
+	}
 	return copyTo(ctx, ws, q, args, path, format)
 }
 

@@ -83,9 +83,10 @@ func WriteCSV(w io.Writer, t *Table) error {
 	return cw.Error()
 }
 
-// sourceColumns returns the DuckDB type of each column the source returns.
-func sourceColumns(ctx context.Context, t *Table) ([]*sql.ColumnType, error) {
-	rows, err := t.Source.DB.QueryContext(ctx, "SELECT * FROM "+t.Source.from()+" LIMIT 0", t.Source.Args...)
+// queryColumns returns the name and DuckDB type of each column a query
+// returns.
+func queryColumns(ctx context.Context, db Querier, from string, args []any) ([]*sql.ColumnType, error) {
+	rows, err := db.QueryContext(ctx, "SELECT * FROM "+from+" LIMIT 0", args...)
 	if err != nil {
 		return nil, err
 	}
@@ -94,27 +95,70 @@ func sourceColumns(ctx context.Context, t *Table) ([]*sql.ColumnType, error) {
 	if err != nil {
 		return nil, err
 	}
-	if len(types) != len(t.Columns) {
-		return nil, fmt.Errorf("table %s: the source returns %d columns, the table has %d", t.Name, len(types), len(t.Columns))
-	}
 	return types, rows.Err()
 }
 
-// sourceCSVQuery is the SELECT whose rows DuckDB writes to CSV: every
-// column under the table's name for it, text columns neutralised unless
-// the table keeps formulas.
-func sourceCSVQuery(ctx context.Context, t *Table) (string, error) {
-	types, err := sourceColumns(ctx, t)
+// sourceColumns returns the DuckDB type of each column the source returns.
+func sourceColumns(ctx context.Context, t *Table) ([]*sql.ColumnType, error) {
+	types, err := queryColumns(ctx, t.Source.DB, t.Source.from(), t.Source.Args)
+	if err != nil {
+		return nil, err
+	}
+	if len(types) != len(t.Columns) {
+		return nil, fmt.Errorf("table %s: the source returns %d columns, the table has %d", t.Name, len(types), len(t.Columns))
+	}
+	return types, nil
+}
+
+// neutralSelect wraps a query (whose arguments are args) in a SELECT that
+// neutralises its text columns for CSV, naming column i names[i] (its own
+// name when names is nil).
+func neutralSelect(ctx context.Context, db Querier, query string, args []any, names []string) (string, error) {
+	from := "(\n" + strings.TrimSuffix(strings.TrimSpace(query), ";") + "\n) AS src"
+	types, err := queryColumns(ctx, db, from, args)
 	if err != nil {
 		return "", err
 	}
 	cols := make([]string, len(types))
 	for i, ct := range types {
 		src := "src." + queries.QuoteIdent(ct.Name())
-		if !t.KeepFormulas && ct.DatabaseTypeName() == "VARCHAR" {
+		if ct.DatabaseTypeName() == "VARCHAR" {
 			src = queries.Render("output_neutral_text", map[string]string{"col": src})
 		}
-		cols[i] = src + " AS " + queries.QuoteIdent(t.Columns[i].Name)
+		name := ct.Name()
+		if i < len(names) {
+			name = names[i]
+		}
+		cols[i] = src + " AS " + queries.QuoteIdent(name)
+	}
+	return "SELECT " + strings.Join(cols, ", ") + " FROM " + from, nil
+}
+
+// NeutralCSVQuery wraps a query whose rows DuckDB will write to a CSV
+// file so that its text columns are neutralised (see NeutralizeText),
+// keeping the column names.
+func NeutralCSVQuery(ctx context.Context, db Querier, query string, args []any) (string, error) {
+	return neutralSelect(ctx, db, query, args, nil)
+}
+
+// sourceCSVQuery is the SELECT whose rows DuckDB writes to CSV: every
+// column under the table's name for it, text columns neutralised unless
+// the table keeps formulas.
+func sourceCSVQuery(ctx context.Context, t *Table) (string, error) {
+	if _, err := sourceColumns(ctx, t); err != nil {
+		return "", err
+	}
+	names := make([]string, len(t.Columns))
+	for i, c := range t.Columns {
+		names[i] = c.Name
+	}
+	if !t.KeepFormulas {
+		return neutralSelect(ctx, t.Source.DB, t.Source.SQL, t.Source.Args, names)
+	}
+	types, _ := sourceColumns(ctx, t)
+	cols := make([]string, len(types))
+	for i, ct := range types {
+		cols[i] = "src." + queries.QuoteIdent(ct.Name()) + " AS " + queries.QuoteIdent(names[i])
 	}
 	return "SELECT " + strings.Join(cols, ", ") + " FROM " + t.Source.from(), nil
 }

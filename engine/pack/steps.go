@@ -609,9 +609,9 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		rt.Complete = true
 	}
 	if rt.Truncated {
-		rt.Note = fmt.Sprintf("results.json and the report list the first %d of %d records (max_rows)", len(recRows), total)
+		rt.Note = fmt.Sprintf("results.json and the report list the first %s of %s records (max_rows)", thousands(int64(len(recRows))), thousands(total))
 		if rt.Complete {
-			rt.Note += fmt.Sprintf("; all %d are in %s/%s.csv and %s/%s.parquet", total, output.TablesDir, rt.Name, output.TablesDir, rt.Name)
+			rt.Note += fmt.Sprintf("; all %s are in %s/%s.csv and %s/%s.parquet", thousands(total), output.TablesDir, rt.Name, output.TablesDir, rt.Name)
 		}
 	}
 	r.add(rt)
