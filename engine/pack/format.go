@@ -142,6 +142,10 @@ type Extract struct {
 	Top     Number `toml:"top" json:"top"`
 	GroupBy string `toml:"group_by" json:"group_by,omitempty"`
 	MaxRows Number `toml:"max_rows" json:"max_rows"`
+	// A reproducible sample of the extract's records to vouch.
+	Sample     string `toml:"sample" json:"sample,omitempty"` // random or monetary
+	SampleSize Number `toml:"sample_size" json:"sample_size"`
+	Seed       Number `toml:"seed" json:"seed"`
 }
 
 // SQLCheck is one [[check]]: a named read-only SELECT whose result is a

@@ -209,7 +209,10 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	} else {
 		w("# group_by = \"user_id\"   # also a table of the records grouped by this column")
 	}
-	w("max_rows = 1000")
+	w("max_rows = 1000            # records in results.json and the report; tables/ hold every record")
+	w("# sample = \"monetary\"      # a sample to vouch: \"random\" (simple random) or \"monetary\" (by |amount|)")
+	w("# sample_size = 25")
+	w("# seed = 1                 # the same seed draws the same sample again")
 	w("")
 	w("# Extra checks: one read-only SELECT each over ledger, files and rejects;")
 	w("# values are bound as $name from [check.params], never pasted into the SQL.")

@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"encoding/json"
 	"fmt"
+	"math/big"
 	"sort"
 	"strconv"
 	"strings"
@@ -17,6 +18,7 @@ import (
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
 )
@@ -608,6 +610,20 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			SQL: "SELECT * EXCLUDE (ll_item_no) FROM (\n" + strings.Join(parts, "\nUNION ALL\n") + "\n) ORDER BY ll_item_no, row_id"}
 		rt.Complete = true
 	}
+	var drawn *SampleDrawn
+	var sampleTable *output.Table
+	if e.Sample != "" && rt.Source != nil && total > 0 {
+		pop := "SELECT row_number() OVER (ORDER BY ll_item_no, row_id) - 1 AS ll_pos, * FROM (\n" + strings.Join(parts, "\nUNION ALL\n") + "\n)"
+		var err error
+		if sampleTable, drawn, err = r.drawSample(ctx, e, pop, args, total, kinds); err != nil {
+			return fmt.Errorf("sample: %w", err)
+		}
+		for i := range r.pl.Extracts {
+			if r.pl.Extracts[i].Name == e.Name {
+				r.pl.Extracts[i].Drawn = drawn
+			}
+		}
+	}
 	if rt.Truncated {
 		rt.Note = fmt.Sprintf("results.json and the report list the first %s of %s records (max_rows)", thousands(int64(len(recRows))), thousands(total))
 		if rt.Complete {
@@ -615,6 +631,9 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		}
 	}
 	r.add(rt)
+	if sampleTable != nil {
+		r.add(sampleTable)
+	}
 	if e.GroupBy != "" {
 		if len(grpCols) == 0 {
 			grpCols = []string{"item", e.GroupBy, "records", "total", "distinct_amounts", "repeated_amounts"}
@@ -633,7 +652,11 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	for i, it := range items {
 		labels[i] = it.label
 	}
-	r.run.Results["extracts"] = append(ex, map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy})
+	doc := map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy}
+	if drawn != nil {
+		doc["sample"] = drawn
+	}
+	r.run.Results["extracts"] = append(ex, doc)
 	if len(items) > 0 {
 		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, thousands(total), len(items), e.From)
 	}
@@ -645,4 +668,95 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 	b := bin
 	return drill.Selection{Base: o.Base, Test: test, Bin: &b}
+}
+
+// drawSample draws the extract's sample from pop, the extract's records in
+// their order with their position (ll_pos, from 0), and returns its table
+// and what was drawn. Simple random: sample_size records with equal
+// probability; monetary: by |amount| (see engine/sample).
+func (r *runner) drawSample(ctx context.Context, e ExtractPlan, pop string, args []any, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
+	d := &SampleDrawn{Method: e.Sample, Seed: e.Seed, Size: e.SampleSize, PopulationRecords: records,
+		Order: "the extract's records in its order: by item, then row_id (file order)"}
+	rows, err := r.ws.Conn.QueryContext(ctx, "SELECT CAST(abs(amount) AS VARCHAR) FROM (\n"+pop+"\n) ORDER BY ll_pos", args...)
+	if err != nil {
+		return nil, nil, err
+	}
+	var sizes []*big.Int
+	total := new(big.Int)
+	for rows.Next() {
+		var a sql.NullString
+		if err := rows.Scan(&a); err != nil {
+			rows.Close()
+			return nil, nil, err
+		}
+		u := new(big.Int)
+		if a.Valid {
+			if _, ok := u.SetString(strings.Replace(a.String, ".", "", 1), 10); !ok {
+				rows.Close()
+				return nil, nil, fmt.Errorf("amount %q is not a decimal", a.String)
+			}
+		}
+		sizes = append(sizes, u)
+		total.Add(total, u)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, nil, err
+	}
+	d.PopulationTotal = r.unitsText(total)
+	var positions []int64
+	switch e.Sample {
+	case "random":
+		positions = sample.Random(int64(len(sizes)), e.SampleSize, uint64(e.Seed))
+	case "monetary":
+		res, err := sample.Monetary(sizes, e.SampleSize, uint64(e.Seed))
+		if err != nil {
+			return nil, nil, err
+		}
+		positions = res.Positions
+		d.Interval, d.Start = r.unitsText(res.Interval), r.unitsText(res.Start)
+	default:
+		return nil, nil, fmt.Errorf("unknown sampling method %q", e.Sample)
+	}
+	d.Selected = len(positions)
+	marks := "NULL"
+	sargs := append([]any(nil), args...)
+	if len(positions) > 0 {
+		marks = strings.TrimSuffix(strings.Repeat("?, ", len(positions)), ", ")
+		for _, p := range positions {
+			sargs = append(sargs, p)
+		}
+	}
+	srows, err := r.ws.Conn.QueryContext(ctx, "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM (\n"+pop+"\n) WHERE ll_pos IN ("+marks+") ORDER BY ll_pos", sargs...)
+	if err != nil {
+		return nil, nil, err
+	}
+	tt, _, err := tabular.FromRows(srows, len(positions)+1)
+	if err != nil {
+		return nil, nil, err
+	}
+	how := "simple random sample (each record equally likely)"
+	if e.Sample == "monetary" {
+		how = fmt.Sprintf("monetary-unit sample (probability proportional to |amount|; interval %s, random start %s)", d.Interval, d.Start)
+	}
+	t := output.NewTable("extract_"+e.Name+"_sample", fmt.Sprintf("Extract %s: sample of %d record(s) to vouch", e.Name, len(tt.Rows)), "extract", tt.Columns, tt.Rows, kinds)
+	t.Note = fmt.Sprintf("%s of %s record(s) asked, %s selected, from the extract's %s records totalling %s (|amount|), seed %d; drawn again by the same pack on the same records",
+		how, thousands(int64(e.SampleSize)), thousands(int64(d.Selected)), thousands(records), d.PopulationTotal, e.Seed)
+	return t, d, nil
+}
+
+// unitsText writes an amount in the ledger's smallest units as decimal
+// text at the ledger's scale.
+func (r *runner) unitsText(u *big.Int) string {
+	s := new(big.Int).Abs(u).String()
+	if r.scale > 0 {
+		if len(s) <= r.scale {
+			s = strings.Repeat("0", r.scale-len(s)+1) + s
+		}
+		s = s[:len(s)-r.scale] + "." + s[len(s)-r.scale:]
+	}
+	if u.Sign() < 0 {
+		s = "-" + s
+	}
+	return s
 }
