@@ -21,6 +21,7 @@ import (
 	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
 )
 
 // runner carries one pack run's state between its steps.
@@ -566,8 +567,8 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		if err != nil {
 			return err
 		}
-		parts = append(parts, fmt.Sprintf("SELECT %d AS ll_item_no, CAST(? AS VARCHAR) AS item, rec.* FROM (\n%s\n) AS rec",
-			n+1, strings.TrimSuffix(strings.TrimSpace(q), ";")))
+		parts = append(parts, queries.Render("extract_item", map[string]string{
+			"n": strconv.Itoa(n + 1), "records": strings.TrimSuffix(strings.TrimSpace(q), ";")}))
 		args = append(append(args, it.label), a...)
 		limit := e.MaxRows - len(recRows)
 		if limit > 0 {
@@ -602,20 +603,23 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	rt := output.NewTable("extract_"+e.Name, fmt.Sprintf("Extract %s: records behind the top %d result(s) of %s", e.Name, e.Top, e.From), "extract", recCols, recRows, kinds)
 	rt.RowsTotal = total
 	rt.Truncated = total > int64(len(recRows))
+	stage := queries.QuoteIdent("ll_extract_" + e.Name)
 	if len(parts) > 0 && len(recCols) > 1 {
 		// Every record goes to tables/ (and the workbook, up to its row
-		// limit) straight from DuckDB; Rows keeps the first max_rows for
-		// results.json and the report.
-		rt.Source = &output.Source{DB: r.ws.Conn, Args: args,
-			SQL: "SELECT * EXCLUDE (ll_item_no) FROM (\n" + strings.Join(parts, "\nUNION ALL\n") + "\n) ORDER BY ll_item_no, row_id"}
+		// limit) straight from DuckDB, from a temporary table filled once;
+		// Rows keeps the first max_rows for results.json and the report.
+		q := queries.Render("extract_stage", map[string]string{"table": stage, "items": strings.Join(parts, "\nUNION ALL\n")})
+		if _, err := r.ws.Conn.ExecContext(ctx, q, args...); err != nil {
+			return err
+		}
+		rt.Source = &output.Source{DB: r.ws.Conn, SQL: "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM " + stage + " ORDER BY ll_pos"}
 		rt.Complete = true
 	}
 	var drawn *SampleDrawn
 	var sampleTable *output.Table
 	if e.Sample != "" && rt.Source != nil && total > 0 {
-		pop := "SELECT row_number() OVER (ORDER BY ll_item_no, row_id) - 1 AS ll_pos, * FROM (\n" + strings.Join(parts, "\nUNION ALL\n") + "\n)"
 		var err error
-		if sampleTable, drawn, err = r.drawSample(ctx, e, pop, args, total, kinds); err != nil {
+		if sampleTable, drawn, err = r.drawSample(ctx, e, stage, total, kinds); err != nil {
 			return fmt.Errorf("sample: %w", err)
 		}
 		for i := range r.pl.Extracts {
@@ -670,14 +674,14 @@ func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 	return drill.Selection{Base: o.Base, Test: test, Bin: &b}
 }
 
-// drawSample draws the extract's sample from pop, the extract's records in
-// their order with their position (ll_pos, from 0), and returns its table
+// drawSample draws the extract's sample from the table stage, the
+// extract's records with their position (ll_pos, from 0), and returns its table
 // and what was drawn. Simple random: sample_size records with equal
 // probability; monetary: by |amount| (see engine/sample).
-func (r *runner) drawSample(ctx context.Context, e ExtractPlan, pop string, args []any, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
+func (r *runner) drawSample(ctx context.Context, e ExtractPlan, stage string, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
 	d := &SampleDrawn{Method: e.Sample, Seed: e.Seed, Size: e.SampleSize, PopulationRecords: records,
 		Order: "the extract's records in its order: by item, then row_id (file order)"}
-	rows, err := r.ws.Conn.QueryContext(ctx, "SELECT CAST(abs(amount) AS VARCHAR) FROM (\n"+pop+"\n) ORDER BY ll_pos", args...)
+	rows, err := r.ws.Conn.QueryContext(ctx, "SELECT CAST(abs(amount) AS VARCHAR) FROM "+stage+" ORDER BY ll_pos")
 	if err != nil {
 		return nil, nil, err
 	}
@@ -720,14 +724,14 @@ func (r *runner) drawSample(ctx context.Context, e ExtractPlan, pop string, args
 	}
 	d.Selected = len(positions)
 	marks := "NULL"
-	sargs := append([]any(nil), args...)
+	var sargs []any
 	if len(positions) > 0 {
 		marks = strings.TrimSuffix(strings.Repeat("?, ", len(positions)), ", ")
 		for _, p := range positions {
 			sargs = append(sargs, p)
 		}
 	}
-	srows, err := r.ws.Conn.QueryContext(ctx, "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM (\n"+pop+"\n) WHERE ll_pos IN ("+marks+") ORDER BY ll_pos", sargs...)
+	srows, err := r.ws.Conn.QueryContext(ctx, "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM "+stage+" WHERE ll_pos IN ("+marks+") ORDER BY ll_pos", sargs...)
 	if err != nil {
 		return nil, nil, err
 	}
