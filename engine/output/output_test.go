@@ -131,11 +131,19 @@ func TestParquet(t *testing.T) {
 	}
 }
 
+// Sheet names are the tables' full names where they fit Excel's 31
+// characters; where they do not (or clash), the cut name ends with the
+// table's position, which the summary's sheet list shows.
 func TestSheetNames(t *testing.T) {
 	long := strings.Repeat("a", 40)
-	names := SheetNames([]*Table{{Name: long}, {Name: long + "b"}, {Name: "summary"}, {Name: "x"}})
-	if names[long] != strings.Repeat("a", 31) || names[long+"b"] != strings.Repeat("a", 29)+"_2" || names["summary"] != "summary_2" || names["x"] != "x" {
-		t.Errorf("sheet names: %v", names)
+	full := strings.Repeat("b", 31)
+	names := SheetNames([]*Table{{Name: long}, {Name: long + "b"}, {Name: "summary"}, {Name: "x"}, {Name: full}})
+	want := map[string]string{long: strings.Repeat("a", 29) + "~1", long + "b": strings.Repeat("a", 29) + "~2",
+		"summary": "summary~3", "x": "x", full: full}
+	for k, v := range want {
+		if names[k] != v {
+			t.Errorf("sheet of %s: %q, want %q", k, names[k], v)
+		}
 	}
 }
 

@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"encoding/json"
 	"fmt"
+	"math/big"
 	"sort"
 	"strconv"
 	"strings"
@@ -18,8 +19,10 @@ import (
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
 )
 
 // runner carries one pack run's state between its steps.
@@ -38,7 +41,10 @@ type runner struct {
 	duplicates *duplicates.Result
 }
 
-func (r *runner) add(t *output.Table) { r.run.Tables = append(r.run.Tables, t) }
+func (r *runner) add(t *output.Table) {
+	t.KeepFormulas = r.pl.KeepFormulas
+	r.run.Tables = append(r.run.Tables, t)
+}
 
 func (r *runner) finding(section, table, format string, args ...any) {
 	r.run.Summary.Findings = append(r.run.Summary.Findings, output.Finding{Section: section, Table: table, Text: fmt.Sprintf(format, args...)})
@@ -529,7 +535,9 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	var grpCols []string
 	var grpRows [][]any
 	var total int64
-	for _, it := range items {
+	var parts []string // one query per item, for the source of every record
+	var args []any
+	for n, it := range items {
 		b, err := drill.Build(ctx, r.ws, it.sel)
 		if err != nil {
 			return fmt.Errorf("%s: %w", it.label, err)
@@ -539,6 +547,13 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			return err
 		}
 		total += sum.Records
+		q, a, err := drill.RecordsQuery(ctx, r.ws, b, drill.RecordOptions{})
+		if err != nil {
+			return err
+		}
+		parts = append(parts, queries.Render("extract_item", map[string]string{
+			"n": strconv.Itoa(n + 1), "records": strings.TrimSuffix(strings.TrimSpace(q), ";")}))
+		args = append(append(args, it.label), a...)
 		limit := e.MaxRows - len(recRows)
 		if limit > 0 {
 			t, _, err := drill.Records(ctx, r.ws, b, drill.RecordOptions{Limit: limit})
@@ -572,10 +587,41 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	rt := output.NewTable("extract_"+e.Name, fmt.Sprintf("Extract %s: records behind the top %d result(s) of %s", e.Name, e.Top, e.From), "extract", recCols, recRows, kinds)
 	rt.RowsTotal = total
 	rt.Truncated = total > int64(len(recRows))
+	stage := queries.QuoteIdent("ll_extract_" + e.Name)
+	if len(parts) > 0 && len(recCols) > 1 {
+		// Every record goes to tables/ (and the workbook, up to its row
+		// limit) straight from DuckDB, from a temporary table filled once;
+		// Rows keeps the first max_rows for results.json and the report.
+		q := queries.Render("extract_stage", map[string]string{"table": stage, "items": strings.Join(parts, "\nUNION ALL\n")})
+		if _, err := r.ws.Conn.ExecContext(ctx, q, args...); err != nil {
+			return err
+		}
+		rt.Source = &output.Source{DB: r.ws.Conn, SQL: "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM " + stage + " ORDER BY ll_pos"}
+		rt.Complete = true
+	}
+	var drawn *SampleDrawn
+	var sampleTable *output.Table
+	if e.Sample != "" && rt.Source != nil && total > 0 {
+		var err error
+		if sampleTable, drawn, err = r.drawSample(ctx, e, stage, total, kinds); err != nil {
+			return fmt.Errorf("sample: %w", err)
+		}
+		for i := range r.pl.Extracts {
+			if r.pl.Extracts[i].Name == e.Name {
+				r.pl.Extracts[i].Drawn = drawn
+			}
+		}
+	}
 	if rt.Truncated {
-		rt.Note = fmt.Sprintf("the first %d of %d records (max_rows)", len(recRows), total)
+		rt.Note = fmt.Sprintf("results.json and the report list the first %s of %s records (max_rows)", numfmt.Int(int64(len(recRows))), numfmt.Int(total))
+		if rt.Complete {
+			rt.Note += fmt.Sprintf("; all %s are in %s/%s.csv and %s/%s.parquet", numfmt.Int(total), output.TablesDir, rt.Name, output.TablesDir, rt.Name)
+		}
 	}
 	r.add(rt)
+	if sampleTable != nil {
+		r.add(sampleTable)
+	}
 	if e.GroupBy != "" {
 		if len(grpCols) == 0 {
 			grpCols = []string{"item", e.GroupBy, "records", "total", "distinct_amounts", "repeated_amounts"}
@@ -594,7 +640,11 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	for i, it := range items {
 		labels[i] = it.label
 	}
-	r.run.Results["extracts"] = append(ex, map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy})
+	doc := map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy}
+	if drawn != nil {
+		doc["sample"] = drawn
+	}
+	r.run.Results["extracts"] = append(ex, doc)
 	if len(items) > 0 {
 		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, numfmt.Int(total), len(items), e.From)
 	}
@@ -606,4 +656,95 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 	b := bin
 	return drill.Selection{Spec: o.Spec, Test: test, Bin: &b}
+}
+
+// drawSample draws the extract's sample from the table stage, the
+// extract's records with their position (ll_pos, from 0), and returns its table
+// and what was drawn. Simple random: sample_size records with equal
+// probability; monetary: by |amount| (see engine/sample).
+func (r *runner) drawSample(ctx context.Context, e ExtractPlan, stage string, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
+	d := &SampleDrawn{Method: e.Sample, Seed: e.Seed, Size: e.SampleSize, PopulationRecords: records,
+		Order: "the extract's records in its order: by item, then row_id (file order)"}
+	rows, err := r.ws.Conn.QueryContext(ctx, "SELECT CAST(abs(amount) AS VARCHAR) FROM "+stage+" ORDER BY ll_pos")
+	if err != nil {
+		return nil, nil, err
+	}
+	var sizes []*big.Int
+	total := new(big.Int)
+	for rows.Next() {
+		var a sql.NullString
+		if err := rows.Scan(&a); err != nil {
+			rows.Close()
+			return nil, nil, err
+		}
+		u := new(big.Int)
+		if a.Valid {
+			if _, ok := u.SetString(strings.Replace(a.String, ".", "", 1), 10); !ok {
+				rows.Close()
+				return nil, nil, fmt.Errorf("amount %q is not a decimal", a.String)
+			}
+		}
+		sizes = append(sizes, u)
+		total.Add(total, u)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, nil, err
+	}
+	d.PopulationTotal = r.unitsText(total)
+	var positions []int64
+	switch e.Sample {
+	case "random":
+		positions = sample.Random(int64(len(sizes)), e.SampleSize, uint64(e.Seed))
+	case "monetary":
+		res, err := sample.Monetary(sizes, e.SampleSize, uint64(e.Seed))
+		if err != nil {
+			return nil, nil, err
+		}
+		positions = res.Positions
+		d.Interval, d.Start = r.unitsText(res.Interval), r.unitsText(res.Start)
+	default:
+		return nil, nil, fmt.Errorf("unknown sampling method %q", e.Sample)
+	}
+	d.Selected = len(positions)
+	marks := "NULL"
+	var sargs []any
+	if len(positions) > 0 {
+		marks = strings.TrimSuffix(strings.Repeat("?, ", len(positions)), ", ")
+		for _, p := range positions {
+			sargs = append(sargs, p)
+		}
+	}
+	srows, err := r.ws.Conn.QueryContext(ctx, "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM "+stage+" WHERE ll_pos IN ("+marks+") ORDER BY ll_pos", sargs...)
+	if err != nil {
+		return nil, nil, err
+	}
+	tt, _, err := tabular.FromRows(srows, len(positions)+1)
+	if err != nil {
+		return nil, nil, err
+	}
+	how := "simple random sample (each record equally likely)"
+	if e.Sample == "monetary" {
+		how = fmt.Sprintf("monetary-unit sample (probability proportional to |amount|; interval %s, random start %s)", d.Interval, d.Start)
+	}
+	t := output.NewTable("extract_"+e.Name+"_sample", fmt.Sprintf("Extract %s: sample of %d record(s) to vouch", e.Name, len(tt.Rows)), "extract", tt.Columns, tt.Rows, kinds)
+	t.Note = fmt.Sprintf("%s of %s record(s) asked, %s selected, from the extract's %s records totalling %s (|amount|), seed %d; drawn again by the same pack on the same records",
+		how, numfmt.Int(int64(e.SampleSize)), numfmt.Int(int64(d.Selected)), numfmt.Int(records), d.PopulationTotal, e.Seed)
+	return t, d, nil
+}
+
+// unitsText writes an amount in the ledger's smallest units as decimal
+// text at the ledger's scale.
+func (r *runner) unitsText(u *big.Int) string {
+	s := new(big.Int).Abs(u).String()
+	if r.scale > 0 {
+		if len(s) <= r.scale {
+			s = strings.Repeat("0", r.scale-len(s)+1) + s
+		}
+		s = s[:len(s)-r.scale] + "." + s[len(s)-r.scale:]
+	}
+	if u.Sign() < 0 {
+		s = "-" + s
+	}
+	return s
 }
