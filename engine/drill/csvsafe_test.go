@@ -10,6 +10,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -35,7 +36,7 @@ func TestExportCSVNeutralisesFormulas(t *testing.T) {
 	if _, err := load.Load(ctx, ws, []string{src}, load.Options{}); err != nil {
 		t.Fatal(err)
 	}
-	b, err := drill.Build(ctx, ws, drill.Selection{Range: "0:100000", Base: drill.Base{Signs: "both"}})
+	b, err := drill.Build(ctx, ws, drill.Selection{Range: "0:100000", Spec: population.Spec{Signs: "both"}})
 	if err != nil {
 		t.Fatal(err)
 	}
