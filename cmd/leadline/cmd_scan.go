@@ -53,6 +53,14 @@ tested amounts (1,000 by default: below that the smallest first-two bins
 expect fewer than about four amounts each) are listed as too small to
 judge, not ranked.
 
+A bin is flagged when its count is beyond chance and material: its exact
+binomial p-value, adjusted by Holm's step-down over the test's bins, is
+below 5% (so a population that follows Benford's law has a flagged bin in
+at most 5% of tests, at any N and in any segment), and it is off by at
+least --min-excess (20%) of its expected share, or that share of 2.5
+percentage points of N when the bin expects more than 2.5%. The per-bin
+Z-statistic and its 1.96 bounds stay in the tables as the trade's
+reference: they mark about 5% of the bins of any population by chance.
 A flagged bin, test or segment is a signal for follow-up, never proof of
 fraud. Drill into a bin with: leadline drill --test first_two --bin 47.
 
@@ -81,6 +89,7 @@ Examples:
 			fs.Int64Var(&o.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
 			fs.StringVar(&o.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
 			fs.IntVar(&o.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
+			o.MinExcess = fs.Float64("min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin is off by at least this share of its expectation (capped at this times 2.5 percentage points of N); 0 flags on significance alone")
 			fs.IntVar(&rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
 			fs.BoolVar(&allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
 			f.add(fs)

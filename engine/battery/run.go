@@ -143,7 +143,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	}
 
 	t = time.Now()
-	if rep.Tests, err = AnalyzeAll(all, o.Tests); err != nil {
+	if rep.Tests, err = AnalyzeAllWith(all, o.Tests, o.Flagging()); err != nil {
 		return nil, err
 	}
 	if len(p.Segments) > 0 {
@@ -157,14 +157,26 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	return rep, nil
 }
 
-// AnalyzeAll runs the tests on one bin-count table, in canonical order.
+// AnalyzeAll runs the tests on one bin-count table, in canonical order,
+// with the default bin flag.
 func AnalyzeAll(c *Counts, tests []benford.Test) ([]benford.Result, error) {
+	return AnalyzeAllWith(c, tests, benford.DefaultFlagging)
+}
+
+// AnalyzeAllWith is AnalyzeAll with the bin flag's settings f.
+func AnalyzeAllWith(c *Counts, tests []benford.Test, f benford.Flagging) ([]benford.Result, error) {
 	out := []benford.Result{}
 	for _, t := range benford.AllTests() {
 		if !contains(tests, t) {
 			continue
 		}
-		r, err := c.Analyze(t)
+		var r benford.Result
+		var err error
+		if b := c.Bins(t); t != benford.Summation && b != nil {
+			r, err = benford.AnalyzeWith(t, b, f)
+		} else {
+			r, err = c.Analyze(t)
+		}
 		if err != nil {
 			return nil, err
 		}
@@ -254,7 +266,7 @@ func analyzeSegments(segs []SegmentCounts, o Options) ([][]benford.Result, error
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				out[i], errs[i] = AnalyzeAll(segs[i].Counts, o.Tests)
+				out[i], errs[i] = AnalyzeAllWith(segs[i].Counts, o.Tests, o.Flagging())
 			}
 		}()
 	}
