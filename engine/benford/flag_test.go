@@ -1,6 +1,7 @@
 package benford
 
 import (
+	"fmt"
 	"math"
 	"math/big"
 	"math/rand/v2"
@@ -149,4 +150,44 @@ func rateBound(n int, alpha float64) int {
 		a++
 	}
 	return a
+}
+
+// TestRunsNoteQuotesCalibration: the "fewer than 35 runs" note and the runs
+// line quote one expected count, that of conforming populations of this N
+// (simulated; near 46 for the 90 first-two bins, common practice, no
+// source), not the textbook count given the overs and unders, and the note
+// quotes the simulated rate of fewer than 35 runs (about 1%, measured in
+// TestFalseAlarmRates; the trade's "about 5%" is from memory and wrong).
+func TestRunsNoteQuotesCalibration(t *testing.T) {
+	p := Expected(FirstTwo)
+	counts := make([]int64, 90)
+	for i, v := range p {
+		counts[i] = int64(math.Round(v * 50000))
+	}
+	for b := 20; b < 50; b++ { // a surplus stretch: amounts pushed into 2,000 to 4,999
+		counts[b-10] += 120
+	}
+	r, err := Analyze(FirstTwo, counts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rr := r.Runs
+	if rr.Runs >= FewRunsFirstTwo {
+		t.Fatalf("%d runs: the population does not exercise the note", rr.Runs)
+	}
+	if rr.Expected < 44 || rr.Expected > 47.5 || rr.Simulations != NullSimulations || rr.ExpectedGivenMarks == rr.Expected {
+		t.Errorf("expected %.1f (given marks %.1f) from %d simulations", rr.Expected, rr.ExpectedGivenMarks, rr.Simulations)
+	}
+	if rr.FewRunsRate < 0.002 || rr.FewRunsRate > 0.03 {
+		t.Errorf("fewer than 35 runs in %.4f of conforming populations", rr.FewRunsRate)
+	}
+	want := []string{fmt.Sprintf("%.1f expected", rr.Expected), fmt.Sprintf("%.1f%% of draws", 100*rr.FewRunsRate)}
+	for _, w := range want {
+		if !hasNote(r, w) {
+			t.Errorf("no note quoting %q: %q", w, r.Notes)
+		}
+	}
+	if rr.P > 0.01 || rr.P <= 0 {
+		t.Errorf("simulated p %v for %d runs", rr.P, rr.Runs)
+	}
 }
