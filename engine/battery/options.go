@@ -52,6 +52,9 @@ type Options struct {
 	// MinExcess is the materiality margin of the bin flag
 	// (benford.Flagging; nil: benford.DefaultMinExcess, 0: none).
 	MinExcess *float64 `json:"min_excess"`
+	// LastTwoAll tests the last two digits of every amount, not only of
+	// those where they are the fourth significant digit or later.
+	LastTwoAll bool `json:"last_two_all,omitempty"`
 }
 
 // WithDefaults fills empty fields with the defaults.

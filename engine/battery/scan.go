@@ -95,10 +95,7 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	default:
 		p.signOK, p.signMay, p.absU = "TRUE", "amount IS NOT NULL", "abs(ll_u)"
 	}
-	p.last2 = "ll_a % 100"
-	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
-		p.last2 = fmt.Sprintf("(ll_a // %s) %% 100", pow10Text(at.Scale))
-	}
+	p.last2 = lastTwoSQL(o, at)
 	return p, nil
 }
 

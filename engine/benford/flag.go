@@ -92,3 +92,23 @@ func (res *Result) flagBins(f Flagging) {
 		b.Flagged = b.PAdjusted < f.Alpha && b.Material
 	}
 }
+
+// Unflag clears the flag of the given bins (a rule of the caller: bins a
+// known property of the data explains), recounts Flagged and TopFlagged,
+// and returns how many of them were flagged. P and PAdjusted stay: Holm
+// over all K bins is conservative for the bins left.
+func (res *Result) Unflag(bins []int) int {
+	n := 0
+	for i := range res.Bins {
+		b := &res.Bins[i]
+		for _, x := range bins {
+			if b.Bin == x && b.Flagged {
+				b.Flagged = false
+				n++
+			}
+		}
+	}
+	res.Flagged, res.ZFlagged, res.OutsideGoodman, res.TopFlagged = 0, 0, 0, []int{}
+	res.countFlags()
+	return n
+}

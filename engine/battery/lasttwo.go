@@ -1,0 +1,95 @@
+package battery
+
+import (
+	"fmt"
+	"strings"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
+)
+
+// lastTwoMinDigits: the last-two digits test reads the two rightmost digits
+// of a whole number (the amount in units of its scale, or its
+// whole-currency part with --last-two units). Those two digits are close to
+// uniform only when they are the fourth significant digit or later: the
+// third significant digit of Benford-distributed amounts runs from 10.2% for
+// 0 to 9.8% for 9 (Hill 1995), which a few million amounts detect. So by
+// default the test takes only numbers of at least five digits: at scale 2,
+// amounts of at least 100.00 (for 10.00 to 99.99 the cents are the third
+// and fourth significant digits).
+const lastTwoMinDigits = 5
+
+// lastTwoMinUnits returns the smallest |amount|, in units of 10^-scale,
+// whose last two digits the test reads (0: every amount).
+func lastTwoMinUnits(o Options, at drill.AmountType) string {
+	if o.LastTwoAll {
+		return ""
+	}
+	zeros := lastTwoMinDigits - 1
+	if o.LastTwo == LastTwoUnits {
+		zeros += at.Scale
+	}
+	return "1" + strings.Repeat("0", zeros)
+}
+
+// lastTwoSQL returns the SQL over ll_a (|amount| in units) of the last-two
+// bin, or -4 for an amount below the test's minimum: the scan's reader
+// skips negative last-two codes, so those amounts stay in every other test
+// and are left out of this one only.
+func lastTwoSQL(o Options, at drill.AmountType) string {
+	bin := "ll_a % 100"
+	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
+		bin = fmt.Sprintf("(ll_a // %s) %% 100", pow10Text(at.Scale))
+	}
+	min := lastTwoMinUnits(o, at)
+	if min == "" {
+		return bin
+	}
+	return fmt.Sprintf("(CASE WHEN ll_a >= %s THEN %s ELSE -4 END)", min, bin)
+}
+
+// LastTwoMin returns the smallest |amount| the last-two digits test takes,
+// as the ledger writes it ("100.00" at scale 2), or "" when it takes all.
+func LastTwoMin(o Options, at drill.AmountType) string {
+	u := lastTwoMinUnits(o, at)
+	if u == "" {
+		return ""
+	}
+	if at.Scale == 0 {
+		return u
+	}
+	for len(u) <= at.Scale {
+		u = "0" + u
+	}
+	return u[:len(u)-at.Scale] + "." + u[len(u)-at.Scale:]
+}
+
+// noteLastTwo adds to a last-two result the note saying which amounts it
+// took; tested is the population's N for the other tests.
+func noteLastTwo(r *benford.Result, min string, tested int64) {
+	if min == "" {
+		return
+	}
+	r.Notes = append(r.Notes, fmt.Sprintf(
+		"last-two digits: only amounts of at least %s are tested, whose two digits read are the fourth significant digit or later (uniform there); %d of %d amounts are smaller and left out of this test only (--last-two-all tests them all)",
+		min, tested-r.N, tested))
+}
+
+// secondOrderDiscrete lists the second-order bins that differences of 1 to
+// 9 units of the ledger's scale fall in: a difference of k units has first
+// two digits 10k. Amounts are whole units (cents at scale 2), so the
+// differences are discrete and these bins hold a surplus that the
+// discreteness alone explains.
+var secondOrderDiscrete = []int{10, 20, 30, 40, 50, 60, 70, 80, 90}
+
+// noteSecondOrder takes the bins that discreteness explains out of the
+// second-order test's flags, with a note.
+func noteSecondOrder(r *benford.Result) {
+	if r.N == 0 {
+		return
+	}
+	n := r.Unflag(secondOrderDiscrete)
+	r.Notes = append(r.Notes, fmt.Sprintf(
+		"second-order test: bins 10, 20, ..., 90 also hold every difference of 1 to 9 units of the ledger's scale (amounts are whole units, so their differences are discrete and pile on these bins): they are not flagged (%d would have been), their counts stay in the table",
+		n))
+}
