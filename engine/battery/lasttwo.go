@@ -82,14 +82,15 @@ func noteLastTwo(r *benford.Result, min string, tested int64) {
 // discreteness alone explains.
 var secondOrderDiscrete = []int{10, 20, 30, 40, 50, 60, 70, 80, 90}
 
-// noteSecondOrder takes the bins that discreteness explains out of the
-// second-order test's flags, with a note.
+// noteSecondOrder tests the second-order bins with those that
+// discreteness explains left out (benford.Result.FlagExcluding), with a
+// note.
 func noteSecondOrder(r *benford.Result) {
 	if r.N == 0 {
 		return
 	}
-	n := r.Unflag(secondOrderDiscrete)
+	n := r.FlagExcluding(secondOrderDiscrete)
 	r.Notes = append(r.Notes, fmt.Sprintf(
-		"second-order test: bins 10, 20, ..., 90 also hold every difference of 1 to 9 units of the ledger's scale (amounts are whole units, so their differences are discrete and pile on these bins): they are not flagged (%d would have been), their counts stay in the table",
+		"second-order test: bins 10, 20, ..., 90 also hold every difference of 1 to 9 units of the ledger's scale (amounts are whole units, so their differences are discrete and pile on these bins): they are left out of the flag (%d would have been flagged), and the other bins are flagged against their expected shares among the differences outside them",
 		n))
 }

@@ -93,22 +93,57 @@ func (res *Result) flagBins(f Flagging) {
 	}
 }
 
-// Unflag clears the flag of the given bins (a rule of the caller: bins a
-// known property of the data explains), recounts Flagged and TopFlagged,
-// and returns how many of them were flagged. P and PAdjusted stay: Holm
-// over all K bins is conservative for the bins left.
-func (res *Result) Unflag(bins []int) int {
-	n := 0
+// FlagExcluding flags the bins of a count-based result again with the
+// given bins left out of the test: a known property of the data explains
+// them (for the second-order test, the differences of 1 to 9 units of the
+// ledger's scale that fill bins 10, 20, ..., 90). The other bins are
+// tested conditionally, as if the excluded bins did not exist: N' = N less
+// their counts, each expected share p / (1 - the excluded shares), exact
+// binomial p-values adjusted by Holm over the bins left, and the
+// materiality margin on the conditional shares. So the surplus in the
+// excluded bins no longer shows as a shortfall everywhere else. The
+// excluded bins keep their own P and PAdjusted, and are never flagged. It
+// returns how many of the excluded bins the plain flag had flagged.
+func (res *Result) FlagExcluding(bins []int) int {
+	excluded := map[int]bool{}
+	for _, b := range bins {
+		excluded[b] = true
+	}
+	was := 0
+	var n int64
+	var pOut float64
+	for _, b := range res.Bins {
+		if excluded[b.Bin] {
+			if b.Flagged {
+				was++
+			}
+			pOut += b.Expected
+			continue
+		}
+		n += b.Count
+	}
+	var idx []int
+	var ps []float64
 	for i := range res.Bins {
 		b := &res.Bins[i]
-		for _, x := range bins {
-			if b.Bin == x && b.Flagged {
-				b.Flagged = false
-				n++
-			}
+		b.Flagged = false
+		if excluded[b.Bin] || n == 0 || pOut >= 1 {
+			continue
 		}
+		q := b.Expected / (1 - pOut)
+		b.P = BinomialTwoSided(b.Count, n, q)
+		b.MinDiff = MaterialDiff(q, res.FlagRule.MinExcess)
+		b.Material = math.Abs(float64(b.Count)/float64(n)-q) >= b.MinDiff*(1-1e-12)
+		idx = append(idx, i)
+		ps = append(ps, b.P)
+	}
+	adj := Holm(ps)
+	for k, i := range idx {
+		b := &res.Bins[i]
+		b.PAdjusted = adj[k]
+		b.Flagged = b.PAdjusted < res.FlagRule.Alpha && b.Material
 	}
 	res.Flagged, res.ZFlagged, res.OutsideGoodman, res.TopFlagged = 0, 0, 0, []int{}
 	res.countFlags()
-	return n
+	return was
 }

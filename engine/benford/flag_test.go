@@ -191,3 +191,34 @@ func TestRunsNoteQuotesCalibration(t *testing.T) {
 		t.Errorf("simulated p %v for %d runs", rr.P, rr.Runs)
 	}
 }
+
+// TestFlagExcluding: a second-order population whose bins 10, 20, ..., 90
+// hold a large surplus (the differences of 1 to 9 cents) over counts that
+// otherwise follow the expectation. The plain flag marks those bins and,
+// through the shares, a shortfall in nearly every other bin; with them left
+// out, nothing is flagged, while a planted 40% surplus in bin 47 is.
+func TestFlagExcluding(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 10))
+	p := Expected(SecondOrder)
+	counts := Multinomial(rng, p, 200000)
+	discrete := []int{10, 20, 30, 40, 50, 60, 70, 80, 90}
+	for _, b := range discrete {
+		counts[b-10] += 10000
+	}
+	r, err := Analyze(SecondOrder, counts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Flagged < 60 {
+		t.Fatalf("plain flag: %d bins flagged; the population does not exercise the rule", r.Flagged)
+	}
+	if was := r.FlagExcluding(discrete); was != 9 || r.Flagged != 0 || len(r.TopFlagged) != 0 {
+		t.Errorf("excluding 10..90: %d of them were flagged, %d flagged now (top %v)", was, r.Flagged, r.TopFlagged)
+	}
+	counts[47-10] = counts[47-10] * 14 / 10
+	r, _ = Analyze(SecondOrder, counts)
+	r.FlagExcluding(discrete)
+	if r.Flagged != 1 || !r.Bins[47-10].Flagged || r.TopFlagged[0] != 47 {
+		t.Errorf("bin 47 +40%%: %d flagged, top %v", r.Flagged, r.TopFlagged)
+	}
+}
