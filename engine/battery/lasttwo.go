@@ -2,34 +2,24 @@ package battery
 
 import (
 	"fmt"
-	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
 )
 
-// lastTwoMinDigits: the last-two digits test reads the two rightmost digits
-// of a whole number (the amount in units of its scale, or its
-// whole-currency part with --last-two units). Those two digits are close to
-// uniform only when they are the fourth significant digit or later: the
-// third significant digit of Benford-distributed amounts runs from 10.2% for
-// 0 to 9.8% for 9 (Hill 1995), which a few million amounts detect. So by
-// default the test takes only numbers of at least five digits: at scale 2,
-// amounts of at least 100.00 (for 10.00 to 99.99 the cents are the third
-// and fourth significant digits).
-const lastTwoMinDigits = 5
-
 // lastTwoMinUnits returns the smallest |amount|, in units of 10^-scale,
-// whose last two digits the test reads (0: every amount).
+// whose last two digits the test reads ("": every amount). The rule is
+// drill.LastTwoMinUnits, shared with the drill-down: the two digits read
+// must be the fourth significant digit or later. The third significant
+// digit of Benford-distributed amounts runs from 10.2% for 0 to 9.8% for 9
+// (Hill 1995, from memory), which a few million amounts detect: at scale 2
+// the cents of 10.00 to 99.99 are the third and fourth significant digits
+// (measured in engine/benford TestLastTwoNeedsFourthDigit).
 func lastTwoMinUnits(o Options, at drill.AmountType) string {
 	if o.LastTwoAll {
 		return ""
 	}
-	zeros := lastTwoMinDigits - 1
-	if o.LastTwo == LastTwoUnits {
-		zeros += at.Scale
-	}
-	return "1" + strings.Repeat("0", zeros)
+	return drill.LastTwoMinUnits(o.LastTwo, at).String()
 }
 
 // lastTwoSQL returns the SQL over ll_a (|amount| in units) of the last-two
