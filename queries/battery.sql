@@ -109,7 +109,7 @@ CASE WHEN u < 1000000000000000000
 --   -1 zero, -3 |amount| below the minimum.
 -- Rows of the other sign and rows the filter drops are not read here;
 -- engine/battery counts them from the ledger's row count (and, with a
--- filter, the rows it keeps: battery_filtered_rows).
+-- filter, the rows it keeps: population_kept_rows).
 -- Two grouping sets share the pass: (segment..., first three digits) and
 -- (segment..., last two digits); ll_l2 repeats the exclusion code for rows
 -- left out, so they stay apart. Counts and sums of |amount| (in units) per
@@ -157,19 +157,11 @@ FROM (
 )
 GROUP BY ALL;
 
--- name: battery_rows
--- Rows of the ledger (a count DuckDB answers from its metadata).
-SELECT count(*) FROM ledger;
-
 -- name: battery_amount_range
 -- The smallest and largest amount (DuckDB answers from its column
 -- statistics): when every amount is small enough for amount * 10^scale
 -- to stay within the amount's width, the scan uses the plain product.
 SELECT CAST(min(amount) AS VARCHAR), CAST(max(amount) AS VARCHAR) FROM ledger;
-
--- name: battery_filtered_rows
--- Rows the --where filter keeps (run only when there is a filter).
-SELECT count(*) FROM ledger WHERE {{filter}};
 
 -- name: battery_second_order
 -- Second-order test (Nigrini and Miller 2009): sort the tested amounts

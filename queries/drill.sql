@@ -98,3 +98,17 @@ LIMIT ?;
 COPY (
 {{query}}
 ) TO {{path}} ({{options}});
+
+-- name: drill_export_text_amounts
+-- An export to CSV or XLSX keeps each amount's exact text. {{query}} is a
+-- drill statement leadline rendered itself (without its semicolon).
+SELECT * REPLACE (CAST(amount AS VARCHAR) AS amount) FROM (
+{{query}}
+)
+
+-- name: drill_export_groups
+-- A grouped selection for export, the group column named by {{label}} (a
+-- quoted identifier); {{query}} is drill_groups, rendered.
+SELECT grp AS {{label}}, records, total, distinct_amounts, repeated AS repeated_amounts FROM (
+{{query}}
+)

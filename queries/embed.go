@@ -24,6 +24,7 @@ var files embed.FS
 var (
 	once  sync.Once
 	named map[string]string
+	known map[string]bool // every placeholder name of every statement
 	err   error
 )
 
@@ -61,12 +62,27 @@ func load() {
 				}
 				continue
 			}
-			if cur != "" {
+			// Whole-line comments document a statement (its placeholders,
+			// its bound parameters) and are not part of it: dropping them
+			// keeps a placeholder named in a comment from being filled
+			// with text that could end the comment's line.
+			if cur != "" && !strings.HasPrefix(strings.TrimSpace(line), "--") {
 				buf.WriteString(line)
 				buf.WriteByte('\n')
 			}
 		}
 		flush()
+	}
+	known = map[string]bool{}
+	for _, q := range named {
+		for {
+			_, key, rest, ok := nextPlaceholder(q)
+			if !ok {
+				break
+			}
+			known[key] = true
+			q = rest
+		}
 	}
 }
 
@@ -85,20 +101,111 @@ func Get(name string) string {
 	return q
 }
 
-// Render returns the named statement with each {{key}} replaced by the given
-// text. Only identifiers quoted with QuoteIdent or SQL fragments that
-// leadline built itself may be passed; user values must be bound instead.
+// Render returns the named statement with each {{key}} placeholder replaced
+// by the given text. Substitution is a single pass over the statement as
+// written: text that was substituted is never scanned again, so a fragment
+// that itself contains "{{...}}" (a string literal in a checked filter, say)
+// stays exactly as it was given. A placeholder the statement has but the map
+// does not fill, or a key that no statement has (a misspelt name), is a
+// programming error and panics, as an unknown statement name does in Get. A
+// key the statement does not use is allowed when a sibling statement does, so
+// that one map can serve a family of statements.
+//
+// Only identifiers quoted with QuoteIdent, SQL fragments that leadline built
+// itself, and user expressions already checked by engine/sqlguard may be
+// passed; user values must be bound as parameters instead.
 func Render(name string, repl map[string]string) string {
+	out, err := render(Get(name), repl)
+	if err != nil {
+		panic(fmt.Sprintf("queries: statement %q: %v", name, err))
+	}
+	return out
+}
+
+// Placeholders lists the distinct {{key}} placeholders of the named
+// statement, in order of first appearance.
+func Placeholders(name string) []string {
+	var keys []string
+	seen := map[string]bool{}
 	q := Get(name)
-	keys := make([]string, 0, len(repl))
+	for {
+		_, key, rest, ok := nextPlaceholder(q)
+		if !ok {
+			return keys
+		}
+		if !seen[key] {
+			seen[key] = true
+			keys = append(keys, key)
+		}
+		q = rest
+	}
+}
+
+// render substitutes every placeholder of tmpl once.
+func render(tmpl string, repl map[string]string) (string, error) {
+	var b strings.Builder
+	used := map[string]bool{}
+	rest := tmpl
+	for {
+		before, key, after, ok := nextPlaceholder(rest)
+		if !ok {
+			b.WriteString(rest)
+			break
+		}
+		val, filled := repl[key]
+		if !filled {
+			return "", fmt.Errorf("placeholder {{%s}} is not filled", key)
+		}
+		b.WriteString(before)
+		b.WriteString(val)
+		used[key] = true
+		rest = after
+	}
+	var unknown []string
 	for k := range repl {
-		keys = append(keys, k)
+		if !used[k] && !known[k] {
+			unknown = append(unknown, k)
+		}
 	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		q = strings.ReplaceAll(q, "{{"+k+"}}", repl[k])
+	if len(unknown) > 0 {
+		sort.Strings(unknown)
+		return "", fmt.Errorf("no statement has a placeholder {{%s}}", strings.Join(unknown, "}}, {{"))
 	}
-	return q
+	return b.String(), nil
+}
+
+// nextPlaceholder finds the first {{key}} in s whose key is a lower-case
+// name ([a-z0-9_]+); other brace runs are left as text.
+func nextPlaceholder(s string) (before, key, after string, ok bool) {
+	off := 0
+	for {
+		i := strings.Index(s[off:], "{{")
+		if i < 0 {
+			return "", "", "", false
+		}
+		i += off
+		j := strings.Index(s[i+2:], "}}")
+		if j < 0 {
+			return "", "", "", false
+		}
+		k := s[i+2 : i+2+j]
+		if isPlaceholderName(k) {
+			return s[:i], k, s[i+2+j+2:], true
+		}
+		off = i + 2
+	}
+}
+
+func isPlaceholderName(k string) bool {
+	if k == "" {
+		return false
+	}
+	for _, r := range k {
+		if !(r >= 'a' && r <= 'z' || r >= '0' && r <= '9' || r == '_') {
+			return false
+		}
+	}
+	return true
 }
 
 // Names lists every statement name, sorted.

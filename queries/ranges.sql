@@ -3,7 +3,7 @@
 --
 -- Placeholders, all built by leadline itself:
 --   {{filter}}          the --where predicate checked by sqlguard, or TRUE
---   {{tested}}          signs and minimum amount (drill.Base), values bound with ?
+--   {{tested}}          signs and minimum amount (engine/population), values bound with ?
 --   {{x}}               the absolute amount under the signs kept
 --   {{sign_ok}}         whether ll_amount has the sign kept
 --   {{segment_select}}  "expr AS ll_seg_1, ..." (empty without --by)

@@ -9,6 +9,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
@@ -74,8 +75,8 @@ Examples:
 			fs.StringArrayVar(&sel.Segments, "segment", nil, "COLUMN=VALUE, e.g. counterparty=V00123 (repeatable)")
 			fs.StringVar(&dup, "dup", "", "a duplicate group RUN:TEST:GROUP from leadline dups, e.g. 7:same_amount:3")
 			fs.StringVar(&sel.Where, "where", "", `filter on the ledger's columns, e.g. "entity = 'KELP'" (read-only)`)
-			fs.StringVar(&sel.Signs, "signs", drill.DefaultSigns, "amounts kept: positive, negative (as absolute values) or both")
-			fs.StringVar(&sel.Min, "min", drill.DefaultMin, "smallest absolute amount kept")
+			fs.StringVar(&sel.Signs, "signs", population.DefaultSigns, "amounts kept: positive, negative (as absolute values) or both")
+			fs.StringVar(&sel.Min, "min", population.DefaultMin, "smallest absolute amount kept")
 			fs.StringVar(&ro.Sort, "sort", "", "sort the records by a column (default: file order)")
 			fs.BoolVar(&ro.Desc, "desc", false, "sort in descending order")
 			fs.IntVar(&ro.Limit, "limit", drill.DefaultLimit, "records (or groups) shown")
@@ -125,14 +126,14 @@ Examples:
 					if err != nil {
 						return err
 					}
-					g, grp, err := duplicates.GroupSelection(ctx, ws, ref)
+					g, grp, err := drill.DuplicateGroup(ctx, ws, ref)
 					if err != nil {
 						return err
 					}
 					// The run's population and the group's key, narrowed by
 					// any further selection given here.
 					userWhere := strings.TrimSpace(sel.Where)
-					sel.Base = g.Base
+					sel.Spec = g.Spec
 					if runWhere := strings.TrimSpace(g.Where); userWhere != "" && runWhere != "" {
 						sel.Where = "(" + runWhere + ") AND (" + userWhere + ")"
 					} else if userWhere != "" {

@@ -6,8 +6,8 @@ import (
 	"io"
 	"strings"
 
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
 )
@@ -58,8 +58,8 @@ Examples:
 			fs.IntVar(&o.MinCounterparties, "min-counterparties", duplicates.DefaultMinCounterparties, "spread: counterparties an amount must reach")
 			fs.IntVar(&o.MinRecords, "min-records", duplicates.DefaultMinRecords, "rsf: records a counterparty must have")
 			fs.IntVar(&o.Top, "top", duplicates.DefaultTop, "groups kept per test, largest first (-1: all)")
-			fs.StringVar(&o.Signs, "signs", drill.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
-			fs.StringVar(&o.Min, "min", drill.DefaultMin, "smallest absolute amount tested")
+			fs.StringVar(&o.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
+			fs.StringVar(&o.Min, "min", population.DefaultMin, "smallest absolute amount tested")
 			fs.StringVar(&o.Where, "where", "", `filter on the ledger's columns, e.g. "source = 'AP'" (read-only)`)
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {

@@ -85,7 +85,7 @@ Examples:
 				if err := limits.CheckWidth(o.Width); err != nil {
 					return err
 				}
-				o.Base = pop.base()
+				o.Spec = pop.base()
 				started := time.Now()
 				ws, err := db.open(ctx, false)
 				if err != nil {

@@ -9,7 +9,7 @@ import (
 	"strings"
 	"time"
 
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
@@ -64,7 +64,7 @@ Examples:
 				if len(args) > 0 {
 					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
 				}
-				o.Base = pop.base()
+				o.Spec = pop.base()
 				if err := o.Layout.Check(); err != nil {
 					return err
 				}
@@ -94,17 +94,17 @@ type bandPopulation struct {
 }
 
 func (p *bandPopulation) add(fs *pflag.FlagSet) {
-	fs.StringVar(&p.signs, "signs", drill.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
-	fs.StringVar(&p.min, "min", drill.DefaultMin, "smallest absolute amount tested")
+	fs.StringVar(&p.signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
+	fs.StringVar(&p.min, "min", population.DefaultMin, "smallest absolute amount tested")
 	fs.StringVar(&p.where, "where", "", `filter on the ledger's columns, e.g. "entity = 'KELP' AND posted >= '2025-07-01'" (read-only)`)
 }
 
-func (p *bandPopulation) base() drill.Base {
-	return drill.Base{Where: p.where, Signs: p.signs, Min: p.min}
+func (p *bandPopulation) base() population.Spec {
+	return population.Spec{Where: p.where, Signs: p.signs, Min: p.min}
 }
 
 // bandPopulationLine describes the amounts tested and what was left out.
-func bandPopulationLine(b drill.Base, c ranges.Counts) string {
+func bandPopulationLine(b population.Spec, c ranges.Counts) string {
 	other := map[string]string{"positive": "negative", "negative": "positive"}[b.Signs]
 	s := fmt.Sprintf("%s amounts tested (%s, |amount| >= %s", bf.count(c.Tested), b.Signs, b.Min)
 	if strings.TrimSpace(b.Where) != "" {

@@ -114,7 +114,7 @@ Examples:
 				if o.Tests, o.Duplication, err = battery.ParseTests(tests); err != nil {
 					return err
 				}
-				o.Base = pop.base()
+				o.Spec = pop.base()
 				started := time.Now()
 				ws, err := db.open(ctx, false)
 				if err != nil {

@@ -8,7 +8,7 @@ import (
 	"strings"
 	"time"
 
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/sensitivity"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
@@ -46,7 +46,7 @@ Examples:
 			var db dbFlags
 			var f formatFlag
 			var o sensitivity.Options
-			var base drill.Base
+			var base population.Spec
 			var rng, rates string
 			db.add(fs)
 			fs.StringVar(&o.Kind, "kind", "", "injection kind: uniform, below-limit, repeated or rounded")

@@ -92,7 +92,7 @@ func run(ctx context.Context, args []string, e *env) int {
 		if errors.As(err, &ee) {
 			code = ee.code
 		}
-		fmt.Fprintf(e.stderr, "leadline %s: %v\n", c.name, err)
+		fmt.Fprintf(e.stderr, "leadline %s: %v\n", c.name, flagError(err))
 		return code
 	}
 	return 0

@@ -4,6 +4,7 @@ import (
 	"fmt"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // Counts is the bin-count table of one population (the whole selection or
@@ -24,20 +25,10 @@ type Counts struct {
 	Left          Left      // amounts left out, and why
 }
 
-// Left counts the rows of a population that were not tested, by reason,
-// so that N is always explained: rows = tested + Filtered + Zero +
-// OtherSign + BelowMin + NoAmount. Filtered and OtherSign are counted for
-// the whole selection only (the scan does not read those rows).
-type Left struct {
-	Filtered  int64 `json:"filtered"`   // left out by the --where filter
-	Zero      int64 `json:"zero"`       // amount zero: no significant digits
-	OtherSign int64 `json:"other_sign"` // of the sign not tested
-	BelowMin  int64 `json:"below_min"`  // |amount| below the minimum
-	NoAmount  int64 `json:"no_amount"`  // NULL amount (a committed ledger has none)
-}
-
-// Total is the number of rows left out.
-func (l Left) Total() int64 { return l.Filtered + l.Zero + l.OtherSign + l.BelowMin + l.NoAmount }
+// Left counts the rows of a population that were not tested, by reason
+// (population.Left). Filtered and OtherSign are counted for the whole
+// selection only (the scan does not read those rows).
+type Left = population.Left
 
 // NewCounts returns an empty table.
 func NewCounts() *Counts {
@@ -70,11 +61,7 @@ func (c *Counts) Add(o *Counts) {
 			c.SecondOrder[i] += o.SecondOrder[i]
 		}
 	}
-	c.Left.Filtered += o.Left.Filtered
-	c.Left.Zero += o.Left.Zero
-	c.Left.OtherSign += o.Left.OtherSign
-	c.Left.BelowMin += o.Left.BelowMin
-	c.Left.NoAmount += o.Left.NoAmount
+	c.Left.Add(o.Left)
 }
 
 // Bins returns the bin counts of test t, derived from the table: counts[i]

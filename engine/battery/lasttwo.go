@@ -5,6 +5,7 @@ import (
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // lastTwoMinUnits returns the smallest |amount|, in units of 10^-scale,
@@ -15,7 +16,7 @@ import (
 // (Hill 1995, from memory), which a few million amounts detect: at scale 2
 // the cents of 10.00 to 99.99 are the third and fourth significant digits
 // (measured in engine/benford TestLastTwoNeedsFourthDigit).
-func lastTwoMinUnits(o Options, at drill.AmountType) string {
+func lastTwoMinUnits(o Options, at population.AmountType) string {
 	if o.LastTwoAll {
 		return ""
 	}
@@ -26,7 +27,7 @@ func lastTwoMinUnits(o Options, at drill.AmountType) string {
 // bin, or -4 for an amount below the test's minimum: the scan's reader
 // skips negative last-two codes, so those amounts stay in every other test
 // and are left out of this one only.
-func lastTwoSQL(o Options, at drill.AmountType) string {
+func lastTwoSQL(o Options, at population.AmountType) string {
 	bin := "ll_a % 100"
 	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
 		bin = fmt.Sprintf("(ll_a // %s) %% 100", pow10Text(at.Scale))
@@ -40,7 +41,7 @@ func lastTwoSQL(o Options, at drill.AmountType) string {
 
 // LastTwoMin returns the smallest |amount| the last-two digits test takes,
 // as the ledger writes it ("100.00" at scale 2), or "" when it takes all.
-func LastTwoMin(o Options, at drill.AmountType) string {
+func LastTwoMin(o Options, at population.AmountType) string {
 	u := lastTwoMinUnits(o, at)
 	if u == "" {
 		return ""

@@ -5,7 +5,7 @@ import (
 	"testing"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // TestLastTwoMinimum: by default the last-two digits test takes only
@@ -50,10 +50,10 @@ func TestLastTwoMinimum(t *testing.T) {
 	if units.Tests[0].N != 5 || units.LastTwoMin != "10000.00" {
 		t.Errorf("units: N %d, minimum %q; want 5 amounts of at least 10000.00", units.Tests[0].N, units.LastTwoMin)
 	}
-	if got := LastTwoMin(Options{LastTwo: LastTwoScale}, drill.AmountType{Precision: 18, Scale: 6}); got != "0.010000" {
+	if got := LastTwoMin(Options{LastTwo: LastTwoScale}, population.AmountType{Precision: 18, Scale: 6}); got != "0.010000" {
 		t.Errorf("scale 6: minimum %q, want 0.010000", got)
 	}
-	if got := LastTwoMin(Options{LastTwo: LastTwoScale}, drill.AmountType{Precision: 18, Scale: 0}); got != "10000" {
+	if got := LastTwoMin(Options{LastTwo: LastTwoScale}, population.AmountType{Precision: 18, Scale: 0}); got != "10000" {
 		t.Errorf("scale 0: minimum %q, want 10000", got)
 	}
 }

@@ -5,7 +5,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // Defaults.
@@ -26,15 +26,15 @@ const (
 
 // Options say what the battery tests and on which amounts.
 //
-// The population (drill.Base) is the one the drill-down, the limits and
-// the ranges commands use: a --where filter over the ledger's columns, the
+// The population (population.Spec) is the one every test and the
+// drill-down use: a filter over the ledger's columns, the
 // signs tested (positive by default: debits and credits, or invoices and
 // credit notes, are different populations, and Nigrini analyses them
 // apart), and a minimum absolute amount (10 by default: amounts below 10
 // carry too few significant digits of their own for the first-two digits
 // test, common practice).
 type Options struct {
-	drill.Base
+	population.Spec
 	// Tests to run. With Tests empty and Duplication false, every test of
 	// benford.AllTests runs, and number duplication too.
 	Tests []benford.Test `json:"tests"`
@@ -59,7 +59,7 @@ type Options struct {
 
 // WithDefaults fills empty fields with the defaults.
 func (o Options) WithDefaults() Options {
-	o.Base = o.Base.WithDefaults()
+	o.Spec = o.Spec.WithDefaults()
 	if len(o.Tests) == 0 && !o.Duplication {
 		o.Tests = benford.AllTests()
 		o.Duplication = true
@@ -85,7 +85,7 @@ func (o Options) WithDefaults() Options {
 
 // Check validates the options (after WithDefaults).
 func (o Options) Check() error {
-	if err := drill.CheckSigns(o.Signs); err != nil {
+	if err := o.Spec.Check(); err != nil {
 		return err
 	}
 	for _, t := range o.Tests {

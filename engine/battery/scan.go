@@ -10,9 +10,8 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/segment"
-	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
 )
@@ -33,11 +32,12 @@ const (
 // Plan is a checked battery, its SQL built, ready to scan.
 type Plan struct {
 	Options    Options
-	AmountType drill.AmountType
+	AmountType population.AmountType
 	Segments   []Segment
 	MinUnits   int64 // Options.Min in units of the ledger's scale (ceiling)
 
-	filter   string // checked --where, ready to paste after WHERE
+	pop      *population.Population
+	filter   string // checked filter, ready to paste after WHERE
 	units    string // SQL: the signed amount in whole units
 	first3   string // SQL macro: first three significant digits of units
 	signOK   string // SQL over ll_u: the row is of a sign tested
@@ -55,19 +55,18 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	if err := o.Check(); err != nil {
 		return nil, err
 	}
-	at, err := drill.LedgerAmountType(ctx, ws)
+	pop, err := population.Prepare(ctx, ws, o.Spec)
 	if err != nil {
 		return nil, err
 	}
-	p := &Plan{Options: o, AmountType: at}
-	p.MinUnits, err = minUnits(o.Min, at)
-	if err != nil {
-		return nil, err
+	at := pop.AmountType
+	p := &Plan{Options: o, AmountType: at, pop: pop, filter: pop.Filter}
+	if !pop.MinUnits.IsInt64() {
+		// Units are bound as BIGINT; only a DECIMAL wider than 18 digits
+		// holds amounts beyond them.
+		return nil, &population.FieldError{Field: population.FieldMin, Value: o.Min, Reason: "above the largest minimum the digit battery takes (9223372036854775807 units)"}
 	}
-	p.filter, err = sqlguard.Filter(ctx, ws.Conn, o.Where)
-	if err != nil {
-		return nil, err
-	}
+	p.MinUnits = pop.MinUnits.Int64()
 	p.Segments, err = segment.Resolve(ctx, ws, o.By)
 	if err != nil {
 		return nil, err
@@ -87,14 +86,7 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 	if p.wide {
 		p.first3 = "ll_first3_i128"
 	}
-	switch o.Signs {
-	case "positive":
-		p.signOK, p.signMay, p.absU = "ll_u > 0", "amount >= 0", "ll_u"
-	case "negative":
-		p.signOK, p.signMay, p.absU = "ll_u < 0", "amount <= 0", "-ll_u"
-	default:
-		p.signOK, p.signMay, p.absU = "TRUE", "amount IS NOT NULL", "abs(ll_u)"
-	}
+	p.signOK, p.signMay, p.absU = pop.Sign("ll_u"), pop.SignOrZero("amount"), pop.Abs("ll_u")
 	p.last2 = lastTwoSQL(o, at)
 	return p, nil
 }
@@ -104,7 +96,7 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 // width, so the plain product is used only below the amount where it would
 // overflow; above it the integer and fractional parts are scaled apart
 // (both exact, and both fit: |trunc(amount)| < 10^(p-s)).
-func unitsSQL(at drill.AmountType) string {
+func unitsSQL(at population.AmountType) string {
 	s := at.Scale
 	it := "BIGINT"
 	if at.Precision > 18 {
@@ -126,7 +118,7 @@ func unitsSQL(at drill.AmountType) string {
 // plainUnitsSQL returns the plain product amount * 10^s as BIGINT, exact
 // for |amount| < 10^(p-2s) (see unitsSQL), and whether it applies to the
 // type at all.
-func plainUnitsSQL(at drill.AmountType) (string, bool) {
+func plainUnitsSQL(at population.AmountType) (string, bool) {
 	if at.Precision > 18 || at.Scale == 0 || at.Precision-2*at.Scale < 1 {
 		return "", false
 	}
@@ -135,7 +127,7 @@ func plainUnitsSQL(at drill.AmountType) (string, bool) {
 
 // within reports whether the decimal text v (an amount of type at) is
 // strictly between -10^(p-2s) and 10^(p-2s); a NULL (empty ledger) is.
-func within(v sql.NullString, at drill.AmountType) bool {
+func within(v sql.NullString, at population.AmountType) bool {
 	if !v.Valid {
 		return true
 	}
@@ -148,26 +140,6 @@ func within(v sql.NullString, at drill.AmountType) bool {
 }
 
 func pow10Text(n int) string { return "1" + strings.Repeat("0", n) }
-
-// minUnits is the smallest |amount| tested, in units: ceil(min * 10^s).
-func minUnits(min string, at drill.AmountType) (int64, error) {
-	r, ok := new(big.Rat).SetString(strings.TrimSpace(min))
-	if !ok || strings.ContainsAny(min, "/eE") {
-		return 0, fmt.Errorf("--min %q: give a plain decimal number such as 10 or 0.01", min)
-	}
-	if r.Sign() < 0 {
-		return 0, fmt.Errorf("--min %s: the minimum is on absolute amounts; give 0 or more (choose the sign with --signs)", min)
-	}
-	v := new(big.Rat).Mul(r, new(big.Rat).SetInt(new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(at.Scale)), nil)))
-	q, m := new(big.Int).DivMod(v.Num(), v.Denom(), new(big.Int))
-	if m.Sign() != 0 {
-		q.Add(q, big.NewInt(1))
-	}
-	if !q.IsInt64() {
-		return 0, fmt.Errorf("--min %s is above the largest amount a %s can hold", min, at.SQL())
-	}
-	return q.Int64(), nil
-}
 
 // segmentSQL returns the select list (raw values as ll_s1...), the names
 // list and the normalising list, each ending in ", " when not empty.
@@ -300,18 +272,12 @@ func (p *Plan) Scan(ctx context.Context, ws *workspace.Workspace) (*Counts, []Se
 	}
 	// The rows the scan did not read: of the other sign, or dropped by the
 	// filter.
-	var total int64
-	if err := ws.Conn.QueryRowContext(ctx, queries.Get("battery_rows")).Scan(&total); err != nil {
+	total, kept, err := p.pop.Rows(ctx, ws)
+	if err != nil {
 		return nil, nil, err
 	}
-	kept := total
-	if p.filter != "TRUE" {
-		if err := ws.Conn.QueryRowContext(ctx, queries.Render("battery_filtered_rows", map[string]string{"filter": p.filter})).Scan(&kept); err != nil {
-			return nil, nil, fmt.Errorf("counting the rows the filter keeps: %s", firstLine(err.Error()))
-		}
-	}
 	unread := kept - all.N() - all.Left.Total()
-	if p.Options.Signs == "both" {
+	if p.Options.Signs == population.Both {
 		all.Left.NoAmount = unread // NULL amounts: none in a committed ledger
 	} else {
 		all.Left.OtherSign = unread // and NULL amounts, of which there are none

@@ -7,8 +7,8 @@ import (
 	"testing"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/fixtures"
 )
 
@@ -247,13 +247,13 @@ func TestDuplicationFilterAndBlanks(t *testing.T) {
 		t.Errorf("share %v, want 10/24", d.Top[0].Share)
 	}
 
-	f := run(t, ws, Options{Base: drill.Base{Where: "entity = 'A'"}, Tests: []benford.Test{benford.FirstDigit}})
+	f := run(t, ws, Options{Spec: population.Spec{Where: "entity = 'A'"}, Tests: []benford.Test{benford.FirstDigit}})
 	// Entity A: 7 + 5 tested, one negative, one zero; the 13 other rows are
 	// left out by the filter (27 rows in all).
 	if f.Tested != 12 || f.Exclusions.Filtered != 13 || f.Exclusions.OtherSign != 1 || f.Exclusions.Zero != 1 || f.Rows != 27 {
 		t.Errorf("filter: tested %d, exclusions %+v, rows %d", f.Tested, f.Exclusions, f.Rows)
 	}
-	if _, err := Prepare(t.Context(), ws, Options{Base: drill.Base{Where: "1=1; DROP TABLE ledger"}}); err == nil {
+	if _, err := Prepare(t.Context(), ws, Options{Spec: population.Spec{Where: "1=1; DROP TABLE ledger"}}); err == nil {
 		t.Error("a filter that writes must be refused")
 	}
 

@@ -38,7 +38,7 @@
 //     Accounting Research 1(1) (title and journal from memory): the excess
 //     MAD.
 //   - R. Cerqueti and C. Lupi (2022): the asymptotic distribution of the
-//     MAD (as cited in DESIGN.md; title not checked).
+//     MAD ("Severe testing of Benford's law", arXiv:2202.05237).
 //   - L. A. Goodman (1965), On simultaneous confidence intervals for
 //     multinomial proportions, Technometrics 7(2), 247-254; as recommended
 //     by M. Lesperance, W. J. Reed, M. A. Stephens, C. Tsao and B. Wilton

@@ -30,7 +30,7 @@ func MAD(actual, expected []float64) float64 {
 
 // madRanges holds the upper ends of the close, acceptable and marginal
 // ranges of the MAD (Nigrini 2012, Benford's Law, Wiley; values from
-// memory, as given in DESIGN.md section 3):
+// memory; also listed in docs/design.md):
 //
 //	test                close      acceptable         marginal           nonconforming
 //	first digit         < 0.006    0.006 to 0.012     0.012 to 0.015     > 0.015

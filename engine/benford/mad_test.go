@@ -7,7 +7,7 @@ import (
 )
 
 // TestConformityBoundaries checks the MAD ranges of Nigrini (2012; from
-// memory, DESIGN.md section 3) at and around their boundaries.
+// memory) at and around their boundaries.
 func TestConformityBoundaries(t *testing.T) {
 	for _, c := range []struct {
 		t    Test

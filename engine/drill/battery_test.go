@@ -7,6 +7,7 @@ import (
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // TestBinCountsEqualBattery: for every bin of every drillable test, the
@@ -20,16 +21,16 @@ func TestBinCountsEqualBattery(t *testing.T) {
 	ws, _ := setup(t)
 	ctx := context.Background()
 	for _, c := range []struct {
-		base    drill.Base
+		base    population.Spec
 		lastTwo string
 		tests   []benford.Test
 	}{
-		{drill.Base{}, drill.LastTwoScale, drill.DrillTests},
-		{drill.Base{Signs: "both", Min: "0"}, drill.LastTwoScale, []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.LastTwo}},
-		{drill.Base{Signs: "negative", Min: "1", Where: "entity <> 'WEST'"}, drill.LastTwoUnits, []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.LastTwo}},
-		{drill.Base{}, drill.LastTwoUnits, []benford.Test{benford.LastTwo}},
+		{population.Spec{}, drill.LastTwoScale, drill.DrillTests},
+		{population.Spec{Signs: "both", Min: "0"}, drill.LastTwoScale, []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.LastTwo}},
+		{population.Spec{Signs: "negative", Min: "1", Where: "entity <> 'WEST'"}, drill.LastTwoUnits, []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.LastTwo}},
+		{population.Spec{}, drill.LastTwoUnits, []benford.Test{benford.LastTwo}},
 	} {
-		rep, err := battery.Run(ctx, ws, battery.Options{Base: c.base, Tests: c.tests, LastTwo: c.lastTwo})
+		rep, err := battery.Run(ctx, ws, battery.Options{Spec: c.base, Tests: c.tests, LastTwo: c.lastTwo})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -40,7 +41,7 @@ func TestBinCountsEqualBattery(t *testing.T) {
 			var total int64
 			for i, n := range counts {
 				b := lo + i
-				built, err := drill.Build(ctx, ws, drill.Selection{Base: c.base, Test: string(test), Bin: &b, LastTwo: c.lastTwo})
+				built, err := drill.Build(ctx, ws, drill.Selection{Spec: c.base, Test: string(test), Bin: &b, LastTwo: c.lastTwo})
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // Digit definitions, shared with the digit battery: digits are taken from the
@@ -47,7 +48,7 @@ const LastTwoMinDigits = 5
 // LastTwoMinUnits returns the smallest |amount|, in units of the scale,
 // that the last-two digits test takes under a reading: 10^4 units, or
 // 10^(4+scale) with the units reading.
-func LastTwoMinUnits(reading string, at AmountType) *big.Int {
+func LastTwoMinUnits(reading string, at population.AmountType) *big.Int {
 	e := LastTwoMinDigits - 1
 	if reading == LastTwoUnits {
 		e += at.Scale
@@ -86,13 +87,13 @@ func CheckBin(test string, bin int) (benford.Test, error) {
 // amount expression x (a non-negative exact decimal of type at, e.g.
 // "amount" for positive amounts or "abs(amount)") is non-zero and falls in
 // the bin of the test. The bin must have been checked with CheckBin.
-func BinPredicate(test benford.Test, bin int, x string, at AmountType) (string, error) {
+func BinPredicate(test benford.Test, bin int, x string, at population.AmountType) (string, error) {
 	return BinPredicateReading(test, bin, x, at, LastTwoScale)
 }
 
 // BinPredicateReading is BinPredicate with a reading of the last-two
 // digits test: LastTwoScale or LastTwoUnits.
-func BinPredicateReading(test benford.Test, bin int, x string, at AmountType, lastTwo string) (string, error) {
+func BinPredicateReading(test benford.Test, bin int, x string, at population.AmountType, lastTwo string) (string, error) {
 	if _, err := CheckBin(string(test), bin); err != nil {
 		return "", err
 	}
@@ -124,8 +125,8 @@ func BinPredicateReading(test benford.Test, bin int, x string, at AmountType, la
 // e, b*10^e <= units(x) < (b+1)*10^e. Over whole units that is
 // ceil(b*10^e) <= units < ceil((b+1)*10^e); e runs over every power that
 // gives a non-empty range within the type.
-func prefixRanges(b, m int, x string, at AmountType) string {
-	maxU := at.maxUnits()
+func prefixRanges(b, m int, x string, at population.AmountType) string {
+	maxU := at.MaxUnits()
 	var terms []string
 	for e := -m; e <= at.Precision; e++ {
 		lo := scaledCeil(int64(b), e)
@@ -150,7 +151,7 @@ func prefixRanges(b, m int, x string, at AmountType) string {
 // whole units [ceil(d*10^(j-1)), ceil((d+1)*10^(j-1))). For j = 0 (a
 // single-digit number of units) the remainder is 0 and only d = 0 matches:
 // 0.05 has significant digits 500.
-func secondDigit(d int, x string, at AmountType) string {
+func secondDigit(d int, x string, at population.AmountType) string {
 	var b strings.Builder
 	b.WriteString("(CASE")
 	for j := at.Precision - 1; j >= 0; j-- {

@@ -9,13 +9,14 @@ import (
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
 // binsOf evaluates BinPredicate for every bin of every drillable test over
 // the given amounts (text at the type's scale) and returns, per amount, the
 // bins that matched.
-func binsOf(t *testing.T, at drill.AmountType, signs string, amounts []string) []map[benford.Test][]int {
+func binsOf(t *testing.T, at population.AmountType, signs string, amounts []string) []map[benford.Test][]int {
 	t.Helper()
 	ctx := context.Background()
 	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
@@ -38,7 +39,7 @@ func binsOf(t *testing.T, at drill.AmountType, signs string, amounts []string) [
 	for _, test := range drill.DrillTests {
 		lo, hi := test.Bins()
 		for b := lo; b <= hi; b++ {
-			p, err := drill.BinPredicate(test, b, drill.AbsExpr(signs), at)
+			p, err := drill.BinPredicate(test, b, population.AbsSQL(signs, "amount"), at)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -60,9 +61,9 @@ func binsOf(t *testing.T, at drill.AmountType, signs string, amounts []string) [
 }
 
 // TestDigitBinsHandComputed checks each amount lands in exactly one bin of
-// each test, the bin computed by hand from the definitions (DESIGN.md,
+// each test, the bin computed by hand from the definitions (docs/design.md,
 // "Exact amounts": 0.29, 10.00, 9999.99 must land in the right bins; the
-// brief's examples 0.5 -> first-three 500 and 1234.56 -> last-two 56).
+// worked examples 0.5 -> first-three 500 and 1234.56 -> last-two 56).
 func TestDigitBinsHandComputed(t *testing.T) {
 	type want struct {
 		amount                       string
@@ -94,7 +95,7 @@ func TestDigitBinsHandComputed(t *testing.T) {
 	for _, c := range cases {
 		amounts = append(amounts, c.amount)
 	}
-	got := binsOf(t, drill.AmountType{Precision: 18, Scale: 2}, "both", amounts)
+	got := binsOf(t, population.AmountType{Precision: 18, Scale: 2}, "both", amounts)
 	for i, c := range cases {
 		w := map[benford.Test]int{benford.FirstDigit: c.first, benford.SecondDigit: c.second, benford.FirstTwo: c.f2, benford.FirstThree: c.f3, benford.LastTwo: c.last2}
 		for _, test := range drill.DrillTests {
@@ -115,7 +116,7 @@ func TestDigitBinsHandComputed(t *testing.T) {
 // TestDigitBinsOtherScales: scale 0 and scale 3, by hand (1234 -> last two
 // 34; 7 -> first three 700; 0.125 at scale 3 -> last two 25).
 func TestDigitBinsOtherScales(t *testing.T) {
-	got := binsOf(t, drill.AmountType{Precision: 18, Scale: 0}, "positive", []string{"1234", "7", "100", "99"})
+	got := binsOf(t, population.AmountType{Precision: 18, Scale: 0}, "positive", []string{"1234", "7", "100", "99"})
 	wants := []map[benford.Test]int{
 		{benford.FirstDigit: 1, benford.SecondDigit: 2, benford.FirstTwo: 12, benford.FirstThree: 123, benford.LastTwo: 34},
 		{benford.FirstDigit: 7, benford.SecondDigit: 0, benford.FirstTwo: 70, benford.FirstThree: 700, benford.LastTwo: 7},
@@ -129,7 +130,7 @@ func TestDigitBinsOtherScales(t *testing.T) {
 			}
 		}
 	}
-	got = binsOf(t, drill.AmountType{Precision: 18, Scale: 3}, "positive", []string{"0.125", "12.005"})
+	got = binsOf(t, population.AmountType{Precision: 18, Scale: 3}, "positive", []string{"0.125", "12.005"})
 	wants = []map[benford.Test]int{
 		{benford.FirstDigit: 1, benford.SecondDigit: 2, benford.FirstTwo: 12, benford.FirstThree: 125, benford.LastTwo: 25},
 		{benford.FirstDigit: 1, benford.SecondDigit: 2, benford.FirstTwo: 12, benford.FirstThree: 120, benford.LastTwo: 5},
@@ -148,7 +149,7 @@ func TestDigitBinsOtherScales(t *testing.T) {
 // decimal text give (DigitsOf, an independent string computation), at
 // DECIMAL(18,2) and DECIMAL(38,2).
 func TestDigitBinsAgainstText(t *testing.T) {
-	for _, at := range []drill.AmountType{{Precision: 18, Scale: 2}, {Precision: 38, Scale: 2}} {
+	for _, at := range []population.AmountType{{Precision: 18, Scale: 2}, {Precision: 38, Scale: 2}} {
 		r := rand.New(rand.NewPCG(1, 2))
 		var units []*big.Int
 		max := new(big.Int).Sub(new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(at.Precision)), nil), big.NewInt(1))
@@ -190,7 +191,7 @@ func TestDigitBinsAgainstText(t *testing.T) {
 }
 
 // TestCheckBin: bins that do not exist for a test are refused with the
-// test's range (source: the bad-input check).
+// test's range (the project's bad-input rule: a refusal names what is allowed).
 func TestCheckBin(t *testing.T) {
 	for _, c := range []struct {
 		test string
@@ -230,7 +231,7 @@ func TestLastTwoUnits(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ws.Close()
-	at := drill.AmountType{Precision: 18, Scale: 2}
+	at := population.AmountType{Precision: 18, Scale: 2}
 	for _, c := range []struct {
 		amount string
 		bin    int

@@ -16,10 +16,11 @@ import (
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/drill/drilltest"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
-// The checks here follow the issue: drill results equal an independent
+// The checks here: drill results equal an independent
 // filter of the same rows in Go (the rows drilltest generated and the test
 // wrote as CSV), for digit bins, amount ranges, exact amounts, segments and
 // filters; groups equal a Go aggregation; bad input gets a clear message.
@@ -74,7 +75,7 @@ func abs(c int64) int64 {
 	return c
 }
 
-// keep applies signs and minimum (in cents) like drill.Base.
+// keep applies signs and minimum (in cents) like population.Spec.
 func keep(r drilltest.Row, signs string, minCents int64) bool {
 	switch signs {
 	case "positive":
@@ -226,7 +227,7 @@ func TestDrillBinsEqualGoFilter(t *testing.T) {
 			}
 			sum := 0
 			for b := lo; b <= hi; b++ {
-				got := whereLines(t, ws, drill.Selection{Base: drill.Base{Signs: pop.signs, Min: pop.min}, Test: string(test), Bin: bin(b)})
+				got := whereLines(t, ws, drill.Selection{Spec: population.Spec{Signs: pop.signs, Min: pop.min}, Test: string(test), Bin: bin(b)})
 				want := byBin[test][b]
 				if want == nil {
 					want = map[int64]bool{}
@@ -257,31 +258,31 @@ func TestDrillAmountsRangesSegments(t *testing.T) {
 	}{
 		{"range 4500:5000", drill.Selection{Range: "4500:5000"},
 			func(r drilltest.Row) bool { return r.Cents >= 450000 && r.Cents < 500000 }},
-		{"range both signs", drill.Selection{Base: drill.Base{Signs: "both", Min: "0"}, Range: "99.995:250"},
+		{"range both signs", drill.Selection{Spec: population.Spec{Signs: "both", Min: "0"}, Range: "99.995:250"},
 			func(r drilltest.Row) bool { return abs(r.Cents) >= 10000 && abs(r.Cents) < 25000 }},
 		{"range open end", drill.Selection{Range: "50000:"},
 			func(r drilltest.Row) bool { return r.Cents >= 5000000 }},
-		{"range negative", drill.Selection{Base: drill.Base{Signs: "negative", Min: "0"}, Range: ":100"},
+		{"range negative", drill.Selection{Spec: population.Spec{Signs: "negative", Min: "0"}, Range: ":100"},
 			func(r drilltest.Row) bool { return r.Cents < 0 && -r.Cents < 10000 }},
 		{"amount 250", drill.Selection{Amount: "250"},
 			func(r drilltest.Row) bool { return r.Cents == 25000 }},
 		{"amount -250 (negative)", drill.Selection{Amount: "-250.00"},
 			func(r drilltest.Row) bool { return r.Cents == -25000 }},
-		{"amount 250 both", drill.Selection{Amount: "250", Base: drill.Base{Signs: "both"}},
+		{"amount 250 both", drill.Selection{Amount: "250", Spec: population.Spec{Signs: "both"}},
 			func(r drilltest.Row) bool { return abs(r.Cents) == 25000 }},
 		{"segment counterparty", drill.Selection{Segments: []string{"counterparty=V0007"}},
 			func(r drilltest.Row) bool { return r.Cents >= 1000 && r.Counterparty == "V0007" }},
-		{"two segments", drill.Selection{Segments: []string{"user_id=ghart", "entity=WEST"}, Base: drill.Base{Signs: "both", Min: "0"}},
+		{"two segments", drill.Selection{Segments: []string{"user_id=ghart", "entity=WEST"}, Spec: population.Spec{Signs: "both", Min: "0"}},
 			func(r drilltest.Row) bool { return r.UserID == "ghart" && r.Entity == "WEST" }},
 		{"segment original column", drill.Selection{Segments: []string{"currency=EUR", "account=6400"}},
 			func(r drilltest.Row) bool { return r.Cents >= 1000 && r.Account == "6400" }},
 		{"month", drill.Selection{Segments: []string{"month=2025-03"}},
 			func(r drilltest.Row) bool { return r.Cents >= 1000 && r.Posted.Month() == 3 }},
-		{"where", drill.Selection{Base: drill.Base{Where: "account IN ('5010', '5020') AND posted >= DATE '2025-07-01'"}},
+		{"where", drill.Selection{Spec: population.Spec{Where: "account IN ('5010', '5020') AND posted >= DATE '2025-07-01'"}},
 			func(r drilltest.Row) bool {
 				return r.Cents >= 1000 && (r.Account == "5010" || r.Account == "5020") && r.Posted.Month() >= 7
 			}},
-		{"bin, segment and where", drill.Selection{Test: "first_two", Bin: bin(47), Segments: []string{"entity=NORTH"}, Base: drill.Base{Where: "user_id <> 'abarrow'"}},
+		{"bin, segment and where", drill.Selection{Test: "first_two", Bin: bin(47), Segments: []string{"entity=NORTH"}, Spec: population.Spec{Where: "user_id <> 'abarrow'"}},
 			func(r drilltest.Row) bool {
 				d, _ := drill.DigitsOf(big.NewInt(r.Cents))
 				return r.Cents >= 1000 && d[benford.FirstTwo] == 47 && r.Entity == "NORTH" && r.UserID != "abarrow"
@@ -307,7 +308,7 @@ func TestDrillGroupEqualsGo(t *testing.T) {
 	ctx := context.Background()
 	for _, sel := range []drill.Selection{
 		{Test: "first_two", Bin: bin(25)}, // holds the round 250.00 price
-		{Test: "first", Bin: bin(1), Base: drill.Base{Signs: "both", Min: "0"}},
+		{Test: "first", Bin: bin(1), Spec: population.Spec{Signs: "both", Min: "0"}},
 	} {
 		b, err := drill.Build(ctx, ws, sel)
 		if err != nil {
@@ -478,7 +479,7 @@ func TestExport(t *testing.T) {
 	}
 }
 
-// TestBadInput: clear messages (source: the issue's bad-input check).
+// TestBadInput: clear messages (the project's bad-input rule: a refusal names what is allowed).
 func TestBadInput(t *testing.T) {
 	ws, _ := setup(t)
 	ctx := context.Background()
@@ -496,11 +497,11 @@ func TestBadInput(t *testing.T) {
 		{drill.Selection{Range: "4500"}, "write FROM:TO"},
 		{drill.Selection{Range: "4,500:5,000"}, "not a plain decimal number"},
 		{drill.Selection{Amount: "12.345"}, "more decimal places than the ledger's amounts (DECIMAL(18,2))"},
-		{drill.Selection{Amount: "-12", Base: drill.Base{Signs: "positive"}}, "--signs negative"},
-		{drill.Selection{Base: drill.Base{Signs: "all"}}, `--signs "all": give positive, negative or both`},
-		{drill.Selection{Base: drill.Base{Min: "-5"}}, "the minimum is on absolute amounts"},
-		{drill.Selection{Base: drill.Base{Where: "amount > 0; DROP TABLE ledger"}}, "filter"},
-		{drill.Selection{Base: drill.Base{Where: "nosuch > 1"}}, "nosuch"},
+		{drill.Selection{Amount: "-12", Spec: population.Spec{Signs: "positive"}}, "--signs negative"},
+		{drill.Selection{Spec: population.Spec{Signs: "all"}}, `signs "all": give positive, negative or both`},
+		{drill.Selection{Spec: population.Spec{Min: "-5"}}, "the minimum is on absolute amounts"},
+		{drill.Selection{Spec: population.Spec{Where: "amount > 0; DROP TABLE ledger"}}, "filter"},
+		{drill.Selection{Spec: population.Spec{Where: "nosuch > 1"}}, "nosuch"},
 	} {
 		_, err := drill.Build(ctx, ws, c.sel)
 		if err == nil || !strings.Contains(err.Error(), c.want) {

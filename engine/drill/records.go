@@ -302,7 +302,7 @@ func Export(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOpti
 		return err
 	}
 	if format != "parquet" {
-		q = "SELECT * REPLACE (CAST(amount AS VARCHAR) AS amount) FROM (\n" + strings.TrimSuffix(strings.TrimSpace(q), ";") + "\n)"
+		q = queries.Render("drill_export_text_amounts", map[string]string{"query": strings.TrimSuffix(strings.TrimSpace(q), ";")})
 	}
 	return copyTo(ctx, ws, q, args, path, format)
 }
@@ -324,8 +324,9 @@ func ExportGroups(ctx context.Context, ws *workspace.Workspace, b *Built, o Grou
 		"where": b.Where.SQL, "group_expr": expr,
 		"wide_type": fmt.Sprintf("DECIMAL(38,%d)", b.AmountType.Scale),
 	})
-	q = "SELECT grp AS " + quoteIdent(label) + ", records, total, distinct_amounts, repeated AS repeated_amounts FROM (\n" +
-		strings.TrimSuffix(strings.TrimSpace(q), ";") + "\n)"
+	q = queries.Render("drill_export_groups", map[string]string{
+		"label": quoteIdent(label), "query": strings.TrimSuffix(strings.TrimSpace(q), ";"),
+	})
 	limit := o.Limit
 	if limit <= 0 {
 		limit = 1 << 62

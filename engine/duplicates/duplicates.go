@@ -14,15 +14,15 @@
 //
 // A test whose key columns the ledger lacks (never filled: not mapped at
 // load) is reported as skipped with the column it needs, not as an error.
-// The tests run in DuckDB over the population of drill.Base (filter, signs,
-// minimum, with the scan's defaults); only the top groups reach Go. To
+// The tests run in DuckDB over the population (engine/population: filter,
+// signs, minimum, with the scan's defaults); only the top groups reach Go. To
 // keep tens of millions of rows fast, candidate keys are first found by
 // grouping on 64-bit hashes of the text columns and then counted on the
 // text itself, which is exact; only the spread test counts distinct
 // counterparties by hash (queries/duplicates.sql gives the odds).
 //
 // A stored run keeps each group's key, so that `leadline drill --dup
-// RUN:TEST:GROUP` lists its records again (GroupSelection).
+// RUN:TEST:GROUP` lists its records again (GroupSelection, drill.DuplicateGroup).
 //
 // Results are signals for follow-up, never proof of fraud: recurring
 // payments, instalments and round prices produce many innocent groups.
@@ -38,7 +38,7 @@ import (
 	"strings"
 	"time"
 
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
 )
@@ -67,7 +67,7 @@ const Kind = "duplicates"
 
 // Options say which tests to run over which population.
 type Options struct {
-	drill.Base
+	population.Spec
 	Tests             []string `json:"tests"`              // default: all
 	WindowDays        int      `json:"window_days"`        // same_amount: 0 = any dates; N = documents within N days
 	MinCounterparties int      `json:"min_counterparties"` // spread
@@ -76,7 +76,7 @@ type Options struct {
 }
 
 func (o *Options) defaults() {
-	o.Base = o.Base.WithDefaults()
+	o.Spec = o.Spec.WithDefaults()
 	if len(o.Tests) == 0 {
 		o.Tests = append([]string(nil), Tests...)
 	}
@@ -116,7 +116,7 @@ func (o *Options) check() error {
 	if o.Top < -1 {
 		return fmt.Errorf("--top %d: give a number of groups, or -1 for all", o.Top)
 	}
-	return drill.CheckSigns(o.Signs)
+	return o.Spec.Check()
 }
 
 var titles = map[string]string{
@@ -213,14 +213,11 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, erro
 	if err := o.check(); err != nil {
 		return nil, err
 	}
-	at, err := drill.LedgerAmountType(ctx, ws)
+	pop, err := population.Prepare(ctx, ws, o.Spec)
 	if err != nil {
 		return nil, err
 	}
-	base, err := o.Base.Predicate(ctx, ws, at)
-	if err != nil {
-		return nil, err
-	}
+	at, base := pop.AmountType, pop.Where()
 	res := &Result{Kind: Kind, StartedAt: started.UTC(), AmountType: at.SQL(), Options: o, Note: Note}
 	if err := ws.Conn.QueryRowContext(ctx, queries.Render("dup_records_tested", map[string]string{"base": base.SQL}), base.Args...).Scan(&res.RecordsTested); err != nil {
 		return nil, fmt.Errorf("duplicates: %w", err)
@@ -399,15 +396,23 @@ func LoadRun(ctx context.Context, ws *workspace.Workspace, run int64) (*Result, 
 	return &res, nil
 }
 
-// GroupSelection turns a group reference into a drill selection: the run's
-// population (filter, signs, minimum) and the group's key, with the same
-// conditions the test put on its key columns, so that the drill finds the
-// group's records (as many as the run counted, unless the ledger changed
-// since).
-func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (drill.Selection, *Group, error) {
+// GroupKey is what selects a group's records: the run's population
+// (filter, signs, minimum), the group's key as a predicate, and a phrase
+// saying what it selects.
+type GroupKey struct {
+	Population population.Spec
+	Where      population.Predicate
+	Described  string
+}
+
+// GroupSelection turns a group reference into its key, with the same
+// conditions the test put on its key columns, so that a drill-down finds
+// the group's records (as many as the run counted, unless the ledger
+// changed since); drill.DuplicateGroup makes it a drill selection.
+func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (GroupKey, *Group, error) {
 	res, err := LoadRun(ctx, ws, ref.Run)
 	if err != nil {
-		return drill.Selection{}, nil, err
+		return GroupKey{}, nil, err
 	}
 	var tr *TestResult
 	for i := range res.Tests {
@@ -416,32 +421,32 @@ func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (dril
 		}
 	}
 	if tr == nil {
-		return drill.Selection{}, nil, fmt.Errorf("run %d did not run the %s test", res.RunID, ref.Test)
+		return GroupKey{}, nil, fmt.Errorf("run %d did not run the %s test", res.RunID, ref.Test)
 	}
 	if tr.Status != "ok" {
-		return drill.Selection{}, nil, fmt.Errorf("run %d skipped the %s test (%s)", res.RunID, ref.Test, tr.Reason)
+		return GroupKey{}, nil, fmt.Errorf("run %d skipped the %s test (%s)", res.RunID, ref.Test, tr.Reason)
 	}
 	if ref.Group > len(tr.Groups) {
 		more := ""
 		if tr.GroupsTotal > int64(len(tr.Groups)) {
 			more = fmt.Sprintf("; it found %d, rerun leadline dups with --top %d to keep more", tr.GroupsTotal, ref.Group)
 		}
-		return drill.Selection{}, nil, fmt.Errorf("run %d kept %d groups of the %s test, no group %d%s", res.RunID, len(tr.Groups), ref.Test, ref.Group, more)
+		return GroupKey{}, nil, fmt.Errorf("run %d kept %d groups of the %s test, no group %d%s", res.RunID, len(tr.Groups), ref.Test, ref.Group, more)
 	}
 	g := tr.Groups[ref.Group-1]
-	at, err := drill.ParseAmountType(res.AmountType)
+	at, err := population.ParseAmountType(res.AmountType)
 	if err != nil {
-		return drill.Selection{}, nil, err
+		return GroupKey{}, nil, err
 	}
 	amt := "amount = CAST(? AS " + at.SQL() + ")"
-	var p drill.Predicate
+	var p population.Predicate
 	var what string
 	switch ref.Test {
 	case Exact:
-		p = drill.Predicate{SQL: amt + " AND counterparty = ? AND posted = CAST(? AS DATE) AND doc_id = ?", Args: []any{g.Amount, g.Counterparty, g.Posted, g.DocID}}
+		p = population.Predicate{SQL: amt + " AND counterparty = ? AND posted = CAST(? AS DATE) AND doc_id = ?", Args: []any{g.Amount, g.Counterparty, g.Posted, g.DocID}}
 		what = fmt.Sprintf("amount %s, counterparty %s, posted %s, document %s", g.Amount, g.Counterparty, g.Posted, g.DocID)
 	case SameAmount:
-		p = drill.Predicate{SQL: amt + " AND counterparty = ? AND doc_id <> ''", Args: []any{g.Amount, g.Counterparty}}
+		p = population.Predicate{SQL: amt + " AND counterparty = ? AND doc_id <> ''", Args: []any{g.Amount, g.Counterparty}}
 		what = fmt.Sprintf("amount %s, counterparty %s", g.Amount, g.Counterparty)
 		if res.Options.WindowDays > 0 {
 			p.SQL += " AND posted BETWEEN CAST(? AS DATE) AND CAST(? AS DATE)"
@@ -449,19 +454,19 @@ func GroupSelection(ctx context.Context, ws *workspace.Workspace, ref Ref) (dril
 			what += fmt.Sprintf(", posted %s to %s", g.FirstPosted, g.LastPosted)
 		}
 	case SameDoc:
-		p = drill.Predicate{SQL: "doc_id = ? AND counterparty = ?", Args: []any{g.DocID, g.Counterparty}}
+		p = population.Predicate{SQL: "doc_id = ? AND counterparty = ?", Args: []any{g.DocID, g.Counterparty}}
 		what = fmt.Sprintf("document %s, counterparty %s", g.DocID, g.Counterparty)
 	case Spread:
-		p = drill.Predicate{SQL: amt + " AND counterparty <> ''", Args: []any{g.Amount}}
+		p = population.Predicate{SQL: amt + " AND counterparty <> ''", Args: []any{g.Amount}}
 		what = fmt.Sprintf("amount %s", g.Amount)
 	case RSF:
-		p = drill.Predicate{SQL: "counterparty = ?", Args: []any{g.Counterparty}}
+		p = population.Predicate{SQL: "counterparty = ?", Args: []any{g.Counterparty}}
 		what = fmt.Sprintf("counterparty %s", g.Counterparty)
 	}
-	sel := drill.Selection{
-		Base:      res.Options.Base,
-		Extra:     []drill.Predicate{p},
-		Described: []string{fmt.Sprintf("duplicates run %d, %s group %d: %s", res.RunID, ref.Test, g.ID, what)},
+	key := GroupKey{
+		Population: res.Options.Spec,
+		Where:      p,
+		Described:  fmt.Sprintf("duplicates run %d, %s group %d: %s", res.RunID, ref.Test, g.ID, what),
 	}
-	return sel, &g, nil
+	return key, &g, nil
 }

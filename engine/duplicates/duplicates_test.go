@@ -16,10 +16,11 @@ import (
 	"github.com/leadline/leadline/engine/drill/drilltest"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/load"
+	popn "github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
-// The checks here follow the issue's plan: a generated payables ledger with
+// The checks here: a generated payables ledger with
 // planted groups of every kind (the plan is drilltest.Ledger.Plants); every
 // planted group must be found, and every other group reported must be a
 // real coincidence of the generated rows, computed independently below in
@@ -283,8 +284,8 @@ func runAll(t *testing.T, ws *workspace.Workspace, o duplicates.Options) *duplic
 }
 
 // TestPlantedAndCoincidences: every planted group found; every reported
-// group planted or a real coincidence of the generated rows (source: the
-// issue's check; the coincidences are computed independently in Go).
+// group planted or a real coincidence of the generated rows (the
+// coincidences are computed independently in Go).
 func TestPlantedAndCoincidences(t *testing.T) {
 	ws, l := setup(t)
 	pop := population(l.Rows)
@@ -355,7 +356,7 @@ func TestOtherPopulation(t *testing.T) {
 			pop = append(pop, r)
 		}
 	}
-	o := duplicates.Options{Base: drill.Base{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1}
+	o := duplicates.Options{Spec: popn.Spec{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1}
 	res := runAll(t, ws, o)
 	for _, tr := range res.Tests {
 		want := expectedWith(tr.Test, pop, 3, 4, 5)
@@ -452,8 +453,8 @@ func ratOf(s string) float64 {
 }
 
 // TestDrillGroups: each stored group drills back to exactly its records
-// (source: the issue's check that drill results equal an independent filter
-// of the same rows in Go).
+// (checked against an independent filter of the
+// same rows in Go).
 func TestDrillGroups(t *testing.T) {
 	ws, l := setup(t)
 	ctx := context.Background()
@@ -469,7 +470,7 @@ func TestDrillGroups(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				sel, _, err := duplicates.GroupSelection(ctx, ws, ref)
+				sel, _, err := drill.DuplicateGroup(ctx, ws, ref)
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -547,7 +548,7 @@ func sameSet(a, b map[int64]bool) bool {
 }
 
 // TestMissingColumns: a ledger without doc_id skips the tests that need it
-// and runs the others (source: the issue's rule "skipped: needs doc_id").
+// and runs the others (each skipped test says "skipped: needs doc_id").
 func TestMissingColumns(t *testing.T) {
 	l := drilltest.Generate(3000, 7)
 	path := filepath.Join(t.TempDir(), "nodoc.csv")
@@ -579,8 +580,8 @@ func TestMissingColumns(t *testing.T) {
 	}
 }
 
-// TestBadInput: clear messages for options and references (source: the
-// issue's "bad input" check).
+// TestBadInput: clear messages for options and references (the project's
+// bad-input rule).
 func TestBadInput(t *testing.T) {
 	ws, _ := setup(t)
 	ctx := context.Background()
@@ -590,9 +591,9 @@ func TestBadInput(t *testing.T) {
 	}{
 		{duplicates.Options{Tests: []string{"triplicates"}}, `unknown test "triplicates"`},
 		{duplicates.Options{WindowDays: -3}, "--window-days -3"},
-		{duplicates.Options{Base: drill.Base{Signs: "up"}}, `--signs "up"`},
-		{duplicates.Options{Base: drill.Base{Min: "ten"}}, "not a plain decimal number"},
-		{duplicates.Options{Base: drill.Base{Where: "no_such_column = 1"}}, "no_such_column"},
+		{duplicates.Options{Spec: popn.Spec{Signs: "up"}}, `signs "up"`},
+		{duplicates.Options{Spec: popn.Spec{Min: "ten"}}, "not a plain decimal number"},
+		{duplicates.Options{Spec: popn.Spec{Where: "no_such_column = 1"}}, "no_such_column"},
 		{duplicates.Options{MinRecords: 1}, "--min-records 1"},
 	} {
 		_, err := duplicates.Run(ctx, ws, c.o)

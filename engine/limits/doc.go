@@ -1,5 +1,5 @@
-// Package limits runs the limit clustering probe (DESIGN.md section 3, a
-// method of this project's own): are amounts piled up just below an
+// Package limits runs the limit clustering probe (a method of this
+// project's own, described in docs/design.md): are amounts piled up just below an
 // approval or testing limit?
 //
 // For a limit T and a width w the probe compares the count of tested
@@ -21,7 +21,7 @@
 // are adjusted together with Holm's procedure, so a flag carries a
 // family-wise error rate of 5% over the limits and segments tested.
 //
-// The population is the digit battery's and the drill-down's (drill.Base).
+// The population is every test's (engine/population: filter, signs, minimum).
 // Amounts are compared as absolute values: with --signs negative the band
 // below a 5,000 limit holds the amounts from -4,999.99 to -4,500.00 (a
 // credit limit reads the same as a debit limit); --signs both pools the two.

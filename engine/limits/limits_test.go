@@ -10,7 +10,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/fixtures"
 )
@@ -193,10 +193,10 @@ func TestBadInput(t *testing.T) {
 	if _, err := Run(ctx, ws, Options{By: []string{"no_such_column"}}); err == nil || !strings.Contains(err.Error(), "no_such_column") {
 		t.Errorf("unknown column: %v", err)
 	}
-	if _, err := Run(ctx, ws, Options{Base: drill.Base{Signs: "sideways"}}); err == nil || !strings.Contains(err.Error(), "--signs") {
+	if _, err := Run(ctx, ws, Options{Spec: population.Spec{Signs: "sideways"}}); err == nil || !strings.Contains(err.Error(), `signs "sideways"`) {
 		t.Errorf("bad signs: %v", err)
 	}
-	if _, err := Run(ctx, ws, Options{Base: drill.Base{Where: "amount > 0; DROP TABLE ledger"}}); err == nil {
+	if _, err := Run(ctx, ws, Options{Spec: population.Spec{Where: "amount > 0; DROP TABLE ledger"}}); err == nil {
 		t.Error("a filter with a second statement was accepted")
 	}
 	if _, err := ranges.Run(ctx, ws, ranges.Options{Layout: ranges.Layout{Width: 500, PerDecade: 10}}); err == nil {

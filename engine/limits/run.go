@@ -6,7 +6,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
@@ -14,7 +14,7 @@ import (
 
 // Options are the parameters of a probe run.
 type Options struct {
-	drill.Base
+	population.Spec
 	Limits   []float64 `json:"limits,omitempty"` // nil: scan the round values
 	Width    float64   `json:"width"`            // fraction of the limit; 0 means DefaultWidth
 	By       []string  `json:"by,omitempty"`     // segment columns; the segment is their combination
@@ -24,23 +24,23 @@ type Options struct {
 // Report is one probe run; it is what --format json prints and what the
 // workspace stores (docs/json.md, "limits").
 type Report struct {
-	RunID         int64         `json:"run_id"`
-	Kind          string        `json:"kind"` // "limits"
-	Population    drill.Base    `json:"population"`
-	AmountType    string        `json:"amount_type"`
-	Counts        ranges.Counts `json:"counts"` // the whole selection
-	Width         float64       `json:"width"`
-	ExpectedRatio float64       `json:"expected_ratio"`
-	LimitSource   string        `json:"limit_source"` // "given" or "round values"
-	Limits        []float64     `json:"limits"`
-	By            []string      `json:"by"`
-	Segments      int           `json:"segments"` // segments with rows (0 without --by)
-	MinCount      int64         `json:"min_count"`
-	Tested        int           `json:"tested"` // pairs tested: the Holm family
-	Flagged       int           `json:"flagged"`
-	TooFew        int           `json:"too_few"`       // pairs with fewer than MinCount amounts in the band
-	OutsideRange  int           `json:"outside_range"` // pairs whose band is not within the segment's amounts
-	Rows          []Row         `json:"rows"`
+	RunID         int64           `json:"run_id"`
+	Kind          string          `json:"kind"` // "limits"
+	Population    population.Spec `json:"population"`
+	AmountType    string          `json:"amount_type"`
+	Counts        ranges.Counts   `json:"counts"` // the whole selection
+	Width         float64         `json:"width"`
+	ExpectedRatio float64         `json:"expected_ratio"`
+	LimitSource   string          `json:"limit_source"` // "given" or "round values"
+	Limits        []float64       `json:"limits"`
+	By            []string        `json:"by"`
+	Segments      int             `json:"segments"` // segments with rows (0 without --by)
+	MinCount      int64           `json:"min_count"`
+	Tested        int             `json:"tested"` // pairs tested: the Holm family
+	Flagged       int             `json:"flagged"`
+	TooFew        int             `json:"too_few"`       // pairs with fewer than MinCount amounts in the band
+	OutsideRange  int             `json:"outside_range"` // pairs whose band is not within the segment's amounts
+	Rows          []Row           `json:"rows"`
 }
 
 // Run probes the limits in one aggregate scan over all limits and segments
@@ -63,7 +63,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 			return nil, fmt.Errorf("--limits: %w", err)
 		}
 	}
-	pop, err := ranges.Prepare(ctx, ws, o.Base)
+	pop, err := ranges.Prepare(ctx, ws, o.Spec)
 	if err != nil {
 		return nil, err
 	}
@@ -72,7 +72,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	rep := &Report{
-		Kind: "limits", Population: pop.Base, AmountType: pop.AmountType.SQL(),
+		Kind: "limits", Population: pop.Spec, AmountType: pop.AmountType.SQL(),
 		Width: o.Width, ExpectedRatio: benford.ExpectedBelowAboveRatio(o.Width),
 		Limits: ranges.SortedEdges(o.Limits), LimitSource: "given", By: []string{}, MinCount: o.MinCount,
 	}
@@ -86,7 +86,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 			return nil, err
 		}
 		if sum.Tested == 0 {
-			return nil, noAmounts(sum, pop.Base.Min)
+			return nil, noAmounts(sum, pop.Spec.Min)
 		}
 		rep.LimitSource = "round values"
 		rep.Limits = ScanLimits(sum.Min, sum.Max, o.Width)
@@ -115,7 +115,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	}
 	rep.Counts = all.Counts
 	if all.Tested == 0 {
-		return nil, noAmounts(all.Counts, pop.Base.Min)
+		return nil, noAmounts(all.Counts, pop.Spec.Min)
 	}
 	rows, err := Probe(all, groups, segs, rep.Limits, o.Width, o.MinCount)
 	if err != nil {
@@ -141,7 +141,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 			continue
 		}
 		r.Range = ranges.DrillRange(r.From, r.Limit, scale)
-		r.Drill = ranges.DrillCommand(ws.Path, r.Range, pop.Base, r.key.DrillSegments(segs))
+		r.Drill = ranges.DrillCommand(ws.Path, r.Range, pop.Spec, r.key.DrillSegments(segs))
 		rep.Rows = append(rep.Rows, r)
 	}
 	return rep, nil
@@ -151,6 +151,5 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 const MaxSegments = 100000
 
 func noAmounts(c ranges.Counts, min string) error {
-	return fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
-		c.Rows, c.Zero, c.OtherSign, c.BelowMin, min)
+	return population.NoAmounts(c.Rows, c.Left(), min)
 }

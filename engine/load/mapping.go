@@ -6,8 +6,8 @@ import (
 	"strings"
 )
 
-// Canonical lists the canonical ledger columns (DESIGN.md, "Canonical
-// columns"). amount is required; the rest are optional.
+// Canonical lists the canonical ledger columns (docs/design.md,
+// "Canonical columns"). amount is required; the rest are optional.
 var Canonical = []string{"amount", "entity", "account", "counterparty", "doc_id", "line_id", "posted", "user_id", "source", "descr"}
 
 // textCanonical are canonical columns stored as the client's exact text.

@@ -504,7 +504,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			}
 			items = append(items, extractItem{
 				label: fmt.Sprintf("limit %s, %s, %s", r.amountDec(row.Limit).Text, segmentText(row.Segment), row.Range),
-				sel:   drill.Selection{Base: r.pl.Limits.Base, Range: row.Range, Segments: segmentArgs(row.Segment)},
+				sel:   drill.Selection{Spec: r.pl.Limits.Spec, Range: row.Range, Segments: segmentArgs(row.Segment)},
 			})
 		}
 	case "ranges":
@@ -516,7 +516,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 				break
 			}
 			items = append(items, extractItem{label: fmt.Sprintf("inflated range %d, %s", i+1, s.Range),
-				sel: drill.Selection{Base: r.pl.Ranges.Base, Range: s.Range}})
+				sel: drill.Selection{Spec: r.pl.Ranges.Spec, Range: s.Range}})
 		}
 	case "duplicates":
 		if r.duplicates == nil {
@@ -530,7 +530,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 				if i >= e.Top {
 					break
 				}
-				sel, g, err := duplicates.GroupSelection(ctx, r.ws, duplicates.Ref{Run: r.duplicates.RunID, Test: tr.Test, Group: i + 1})
+				sel, g, err := drill.DuplicateGroup(ctx, r.ws, duplicates.Ref{Run: r.duplicates.RunID, Test: tr.Test, Group: i + 1})
 				if err != nil {
 					return err
 				}
@@ -621,5 +621,5 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 // the battery's population.
 func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 	b := bin
-	return drill.Selection{Base: o.Base, Test: test, Bin: &b}
+	return drill.Selection{Spec: o.Spec, Test: test, Bin: &b}
 }

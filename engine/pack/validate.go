@@ -21,6 +21,7 @@ import (
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/output"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/sqlguard"
@@ -175,8 +176,9 @@ func (pl *Plan) Parameters() map[string]any {
 
 // checker collects problems.
 type checker struct {
-	p   *Pack
-	out *Problems
+	p          *Pack
+	out        *Problems
+	amountType population.AmountType // of the ledger the pack loads
 }
 
 func displayKey(path string) string {
@@ -312,7 +314,8 @@ func (c *checker) header(pl *Plan) {
 			pl.Precision = int(v)
 		}
 	}
-	pl.AmountType = fmt.Sprintf("DECIMAL(%d,%d)", pl.Precision, pl.Scale)
+	c.amountType = population.AmountType{Precision: pl.Precision, Scale: pl.Scale}
+	pl.AmountType = c.amountType.SQL()
 	switch ws := strings.TrimSpace(h.Workspace); {
 	case ws == ":memory:":
 		pl.Workspace = ws
@@ -618,9 +621,9 @@ func (c *checker) filters(ctx context.Context, mem *workspace.Workspace, pl *Pla
 
 // scope resolves a step's population: its own filter, signs and minimum, or
 // the [population] defaults.
-func (c *checker) scope(pl *Plan, key string, s Scope) drill.Base {
+func (c *checker) scope(pl *Plan, key string, s Scope) population.Spec {
 	pop := c.p.Population
-	b := drill.Base{Signs: drill.DefaultSigns, Min: drill.DefaultMin}
+	b := population.Spec{Signs: population.DefaultSigns, Min: population.DefaultMin}
 	filter, filterKey := pop.Filter, "population.filter"
 	if s.Filter != "" {
 		filter, filterKey = s.Filter, key+".filter"
@@ -650,8 +653,8 @@ func (c *checker) scope(pl *Plan, key string, s Scope) drill.Base {
 		signs, signsKey = s.Signs, key+".signs"
 	}
 	if signs != "" {
-		if err := drill.CheckSigns(signs); err != nil {
-			c.errf(signsKey, "signs %q: give positive, negative or both", signs)
+		if err := population.CheckSigns(signs); err != nil {
+			c.fieldErr(signsKey, err)
 		} else {
 			b.Signs = signs
 		}
@@ -662,16 +665,29 @@ func (c *checker) scope(pl *Plan, key string, s Scope) drill.Base {
 	}
 	if min.Set() {
 		t, err := min.Text()
-		switch {
-		case err != nil:
-			c.errf(minKey, "%v", err)
-		case strings.HasPrefix(t, "-"):
-			c.errf(minKey, "min_amount %s: the minimum is on absolute amounts; give 0 or more (choose the sign with signs)", t)
-		default:
+		if err == nil {
+			_, err = population.MinUnits(t, c.amountType)
+		}
+		if err != nil {
+			c.fieldErr(minKey, err)
+		} else {
 			b.Min = t
 		}
 	}
 	return b
+}
+
+// packKeys names the population's fields as a pack writes them.
+var packKeys = map[string]string{population.FieldWhere: "filter", population.FieldSigns: "signs", population.FieldMin: "min_amount"}
+
+// fieldErr reports err under key, a population field error in the
+// pack's own names.
+func (c *checker) fieldErr(key string, err error) {
+	if fe, ok := population.AsFieldError(err); ok {
+		c.errf(key, "%s", fe.Render(func(f string) string { return packKeys[f] }))
+		return
+	}
+	c.errf(key, "%v", err)
 }
 
 func enabled(b *bool) bool { return b == nil || *b }
@@ -705,7 +721,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 	// The population is checked once even when no step uses it.
 	c.scope(pl, "population", Scope{})
 	if b := c.p.Battery; b != nil && enabled(b.Enabled) {
-		o := battery.Options{Base: c.scope(pl, "battery", b.Scope)}
+		o := battery.Options{Spec: c.scope(pl, "battery", b.Scope)}
 		if len(b.Tests) == 0 {
 			o.Tests, o.Duplication = benford.AllTests(), true
 		}
@@ -769,7 +785,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		pl.Battery = bp
 	}
 	if l := c.p.Limits; l != nil && enabled(l.Enabled) {
-		o := &limits.Options{Base: c.scope(pl, "limits", l.Scope), By: l.By}
+		o := &limits.Options{Spec: c.scope(pl, "limits", l.Scope), By: l.By}
 		o.Width = limits.DefaultWidth
 		if l.Width.Set() {
 			w, err := l.Width.Float()
@@ -808,7 +824,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		pl.Limits = o
 	}
 	if r := c.p.Ranges; r != nil && enabled(r.Enabled) {
-		o := &ranges.Options{Base: c.scope(pl, "ranges", r.Scope)}
+		o := &ranges.Options{Spec: c.scope(pl, "ranges", r.Scope)}
 		ok := true
 		num := func(key string, n Number) float64 {
 			if !n.Set() {
@@ -833,7 +849,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		pl.Ranges = o
 	}
 	if d := c.p.Duplicates; d != nil && enabled(d.Enabled) {
-		o := &duplicates.Options{Base: c.scope(pl, "duplicates", d.Scope)}
+		o := &duplicates.Options{Spec: c.scope(pl, "duplicates", d.Scope)}
 		for i, t := range d.Tests {
 			if !contains(duplicates.Tests, t) {
 				msg := fmt.Sprintf("unknown duplicate test %q (tests: %s)", t, strings.Join(duplicates.Tests, ", "))

@@ -6,11 +6,9 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strconv"
 	"strings"
 
-	"github.com/leadline/leadline/engine/drill"
-	"github.com/leadline/leadline/engine/sqlguard"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
 )
@@ -26,6 +24,12 @@ type Counts struct {
 	Tested    int64   `json:"tested"`     // amounts tested
 	Min       float64 `json:"min"`        // smallest tested |amount| (0 if none)
 	Max       float64 `json:"max"`        // largest tested |amount| (0 if none)
+}
+
+// Left returns the rows left out as the population counts them (the
+// filter's are not among Rows).
+func (c Counts) Left() population.Left {
+	return population.Left{Zero: c.Zero, OtherSign: c.OtherSign, BelowMin: c.BelowMin}
 }
 
 // Add adds the counts of o and widens the range to cover it.
@@ -54,48 +58,20 @@ type Group struct {
 
 // Population is a checked selection of the ledger ready to count.
 type Population struct {
-	Base       drill.Base
-	AmountType drill.AmountType
-	MinAmount  float64 // Base.Min as a number
-	filter     string
-	tested     drill.Predicate
-	x, signOK  string
+	Spec       population.Spec // as given, defaults filled in
+	AmountType population.AmountType
+	MinAmount  float64 // Spec.Min as a number
+	pop        *population.Population
 }
 
 // Prepare checks the selection (filter, signs, minimum) against the
 // workspace.
-func Prepare(ctx context.Context, ws *workspace.Workspace, base drill.Base) (*Population, error) {
-	base = base.WithDefaults()
-	at, err := drill.LedgerAmountType(ctx, ws)
+func Prepare(ctx context.Context, ws *workspace.Workspace, spec population.Spec) (*Population, error) {
+	pop, err := population.Prepare(ctx, ws, spec)
 	if err != nil {
 		return nil, err
 	}
-	if err := drill.CheckSigns(base.Signs); err != nil {
-		return nil, err
-	}
-	minAmount, err := strconv.ParseFloat(strings.TrimSpace(base.Min), 64)
-	if err != nil || math.IsNaN(minAmount) || math.IsInf(minAmount, 0) {
-		return nil, fmt.Errorf("--min %q: give a plain decimal number such as 10 or 0.01", base.Min)
-	}
-	filter, err := sqlguard.Filter(ctx, ws.Conn, base.Where)
-	if err != nil {
-		return nil, err
-	}
-	tested, err := drill.Base{Signs: base.Signs, Min: base.Min}.Predicate(ctx, ws, at)
-	if err != nil {
-		return nil, err
-	}
-	signOK := "TRUE"
-	switch base.Signs {
-	case "positive":
-		signOK = "ll_amount > 0"
-	case "negative":
-		signOK = "ll_amount < 0"
-	}
-	return &Population{
-		Base: base, AmountType: at, MinAmount: minAmount,
-		filter: filter, tested: tested, x: drill.AbsExpr(base.Signs), signOK: signOK,
-	}, nil
+	return &Population{Spec: pop.Spec, AmountType: pop.AmountType, MinAmount: pop.MinAmount(), pop: pop}, nil
 }
 
 func (p *Population) render(name string, segs []Segment) string {
@@ -112,7 +88,7 @@ func (p *Population) render(name string, segs []Segment) string {
 		segNames = strings.Join(names, ", ") + ","
 	}
 	return queries.Render(name, map[string]string{
-		"filter": p.filter, "tested": p.tested.SQL, "x": p.x, "sign_ok": p.signOK,
+		"filter": p.pop.Filter, "tested": p.pop.Tested().SQL, "x": p.pop.Abs("amount"), "sign_ok": p.pop.Sign("ll_amount"),
 		"segment_select": strings.Join(sel, "\n           "), "segment_names": segNames, "group_by": groupBy,
 	})
 }
@@ -121,7 +97,7 @@ func (p *Population) render(name string, segs []Segment) string {
 func (p *Population) Summary(ctx context.Context, ws *workspace.Workspace) (Counts, error) {
 	var c Counts
 	var lo, hi sql.NullFloat64
-	err := ws.Conn.QueryRowContext(ctx, p.render("ranges_summary", nil), p.tested.Args...).
+	err := ws.Conn.QueryRowContext(ctx, p.render("ranges_summary", nil), p.pop.Tested().Args...).
 		Scan(&c.Rows, &c.Zero, &c.OtherSign, &c.Tested, &lo, &hi)
 	if err != nil {
 		return c, fmt.Errorf("counting the amounts: %w", err)
@@ -145,7 +121,7 @@ func (p *Population) Count(ctx context.Context, ws *workspace.Workspace, segs []
 	for i, e := range edges {
 		neg[len(edges)-1-i] = -e
 	}
-	args := append(append([]any(nil), p.tested.Args...), neg)
+	args := append(append([]any(nil), p.pop.Tested().Args...), neg)
 	rows, err := ws.Conn.QueryContext(ctx, p.render("ranges_counts", segs), args...)
 	if err != nil {
 		return nil, fmt.Errorf("counting the amounts in ranges: %w", err)

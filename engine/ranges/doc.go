@@ -19,7 +19,7 @@
 // but not scored. Adjacent flagged bands are joined into stretches, each
 // with the drill-down command that lists its records.
 //
-// The population is the digit battery's and the drill-down's (drill.Base):
+// The population is every test's (engine/population):
 // a filter predicate, the signs kept (positive amounts by default) and the
 // smallest absolute amount kept (10 by default). Amounts are compared as
 // absolute values: with --signs negative a band [4500, 5000) holds the

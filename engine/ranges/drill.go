@@ -5,7 +5,7 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // DefaultWorkspace is the command line's default --db; drill-down commands
@@ -43,7 +43,7 @@ func AmountText(v float64, scale int) string {
 // of a range (FROM:TO from DrillRange) within the selection base, narrowed
 // to a segment (COLUMN=VALUE arguments, see Key.DrillSegments), on the
 // workspace at path.
-func DrillCommand(path, rangeSpec string, base drill.Base, segments []string) string {
+func DrillCommand(path, rangeSpec string, base population.Spec, segments []string) string {
 	args := []string{"leadline", "drill"}
 	if path != "" && path != DefaultWorkspace {
 		args = append(args, "--db", path)
@@ -53,10 +53,10 @@ func DrillCommand(path, rangeSpec string, base drill.Base, segments []string) st
 		args = append(args, "--segment", s)
 	}
 	b := base.WithDefaults()
-	if b.Signs != drill.DefaultSigns {
+	if b.Signs != population.DefaultSigns {
 		args = append(args, "--signs", b.Signs)
 	}
-	if b.Min != drill.DefaultMin {
+	if b.Min != population.DefaultMin {
 		args = append(args, "--min", b.Min)
 	}
 	if strings.TrimSpace(b.Where) != "" {

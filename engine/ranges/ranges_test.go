@@ -13,6 +13,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
 )
@@ -98,7 +99,7 @@ func TestCountExact(t *testing.T) {
 	edges := []float64{4500, 5000, 5500}
 	for _, signs := range []string{"positive", "negative", "both"} {
 		for _, by := range [][]string{nil, {"entity"}, {"month", "entity"}} {
-			pop, err := Prepare(ctx, ws, drill.Base{Signs: signs, Min: "10"})
+			pop, err := Prepare(ctx, ws, population.Spec{Signs: signs, Min: "10"})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -194,8 +195,8 @@ func TestDrillAgrees(t *testing.T) {
 	ctx := context.Background()
 	for _, o := range []Options{
 		{Layout: Layout{PerDecade: 7}},
-		{Layout: Layout{Width: 2500, To: 30000}, Base: drill.Base{Signs: "negative", Min: "1"}},
-		{Layout: Layout{PerDecade: 3, From: 0.01}, Base: drill.Base{Signs: "both", Min: "0.01", Where: "entity <> 'B'"}},
+		{Layout: Layout{Width: 2500, To: 30000}, Spec: population.Spec{Signs: "negative", Min: "1"}},
+		{Layout: Layout{PerDecade: 3, From: 0.01}, Spec: population.Spec{Signs: "both", Min: "0.01", Where: "entity <> 'B'"}},
 	} {
 		rep, err := Run(ctx, ws, o)
 		if err != nil {
@@ -203,7 +204,7 @@ func TestDrillAgrees(t *testing.T) {
 		}
 		var sum int64
 		for _, b := range rep.Bands {
-			sel := drill.Selection{Base: rep.Population, Range: b.Range}
+			sel := drill.Selection{Spec: rep.Population, Range: b.Range}
 			got := drillCount(t, ws, sel)
 			if got != b.Count {
 				t.Errorf("%+v: band [%v, %v) (%s): %d counted, drill finds %d", o, b.From, b.To, b.Range, b.Count, got)
@@ -218,7 +219,7 @@ func TestDrillAgrees(t *testing.T) {
 		}
 	}
 	// a segment and a band below a limit
-	pop, _ := Prepare(ctx, ws, drill.Base{})
+	pop, _ := Prepare(ctx, ws, population.Spec{})
 	segs, _ := segment.Resolve(ctx, ws, []string{"entity", "month"})
 	groups, err := pop.Count(ctx, ws, segs, []float64{4500, 5000})
 	if err != nil {
@@ -274,7 +275,7 @@ func TestDrillRangeAndQuote(t *testing.T) {
 			t.Errorf("ShellQuote(%q) = %s, want %s", in, got, want)
 		}
 	}
-	cmd := DrillCommand("acme.duckdb", "4500:5000", drill.Base{Signs: "negative", Where: "account = '6100'"}, []string{"entity=E 1"})
+	cmd := DrillCommand("acme.duckdb", "4500:5000", population.Spec{Signs: "negative", Where: "account = '6100'"}, []string{"entity=E 1"})
 	want := `leadline drill --db acme.duckdb --range 4500:5000 --segment "entity=E 1" --signs negative --where "account = '6100'"`
 	if cmd != want {
 		t.Errorf("DrillCommand = %s\nwant            %s", cmd, want)

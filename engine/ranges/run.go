@@ -2,36 +2,35 @@ package ranges
 
 import (
 	"context"
-	"fmt"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
 // Options are the parameters of a range table.
 type Options struct {
-	drill.Base
+	population.Spec
 	Layout
 }
 
 // Report is the range table of one run; it is what --format json prints
 // and what the workspace stores (docs/json.md, "ranges").
 type Report struct {
-	RunID      int64      `json:"run_id"`
-	Kind       string     `json:"kind"` // "ranges"
-	Population drill.Base `json:"population"`
-	AmountType string     `json:"amount_type"`
-	Layout     Layout     `json:"layout"` // as run: From and To filled in
-	BandScale  string     `json:"scale"`  // fixed or logarithmic
-	Counts     Counts     `json:"counts"`
-	BelowBands int64      `json:"below_bands"` // tested amounts below the first band
-	AboveBands int64      `json:"above_bands"` // tested amounts at or above the end of the last band
-	Scored     int        `json:"scored"`      // bands scored (the Holm family)
-	Flagged    int        `json:"flagged"`
-	Dispersion float64    `json:"dispersion"` // quasi-Poisson dispersion of the scored bands
-	Bands      []Row      `json:"bands"`
-	Stretches  []Stretch  `json:"stretches"` // adjacent flagged bands joined, largest excess first
+	RunID      int64           `json:"run_id"`
+	Kind       string          `json:"kind"` // "ranges"
+	Population population.Spec `json:"population"`
+	AmountType string          `json:"amount_type"`
+	Layout     Layout          `json:"layout"` // as run: From and To filled in
+	BandScale  string          `json:"scale"`  // fixed or logarithmic
+	Counts     Counts          `json:"counts"`
+	BelowBands int64           `json:"below_bands"` // tested amounts below the first band
+	AboveBands int64           `json:"above_bands"` // tested amounts at or above the end of the last band
+	Scored     int             `json:"scored"`      // bands scored (the Holm family)
+	Flagged    int             `json:"flagged"`
+	Dispersion float64         `json:"dispersion"` // quasi-Poisson dispersion of the scored bands
+	Bands      []Row           `json:"bands"`
+	Stretches  []Stretch       `json:"stretches"` // adjacent flagged bands joined, largest excess first
 }
 
 // Run counts the tested amounts in the bands of the layout in one scan
@@ -41,7 +40,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err := o.Layout.Check(); err != nil {
 		return nil, err
 	}
-	pop, err := Prepare(ctx, ws, o.Base)
+	pop, err := Prepare(ctx, ws, o.Spec)
 	if err != nil {
 		return nil, err
 	}
@@ -50,8 +49,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	if sum.Tested == 0 {
-		return nil, fmt.Errorf("no amounts to test: %d rows match the filter, %d are zero, %d of the other sign, %d below the minimum %s (try --signs both or a lower --min)",
-			sum.Rows, sum.Zero, sum.OtherSign, sum.BelowMin, pop.Base.Min)
+		return nil, population.NoAmounts(sum.Rows, sum.Left(), pop.Spec.Min)
 	}
 	bands, err := o.Layout.Bands(sum.Min, sum.Max)
 	if err != nil {
@@ -73,7 +71,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		layout.PerDecade = DefaultPerDecade
 	}
 	rep := &Report{
-		Kind: "ranges", Population: pop.Base, AmountType: pop.AmountType.SQL(),
+		Kind: "ranges", Population: pop.Spec, AmountType: pop.AmountType.SQL(),
 		Layout: layout, BandScale: layout.Scale(), Counts: g.Counts,
 		BelowBands: g.Bins.Below(), AboveBands: g.Bins.Above(),
 		Bands: rows, Stretches: str,
@@ -89,14 +87,14 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		}
 		if r.Flagged {
 			rep.Flagged++
-			r.Drill = DrillCommand(ws.Path, r.Range, pop.Base, nil)
+			r.Drill = DrillCommand(ws.Path, r.Range, pop.Spec, nil)
 		}
 	}
 	rep.Dispersion = benford.BandDispersion(scored)
 	for i := range rep.Stretches {
 		s := &rep.Stretches[i]
 		s.Range = DrillRange(s.From, s.To, scale)
-		s.Drill = DrillCommand(ws.Path, s.Range, pop.Base, nil)
+		s.Drill = DrillCommand(ws.Path, s.Range, pop.Spec, nil)
 	}
 	sortStretches(rep.Stretches)
 	if rep.Stretches == nil {

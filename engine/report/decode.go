@@ -153,7 +153,7 @@ func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
 		}
 		R := srcRef(base, "", "scan")
 		X := R.At("exclusions")
-		P := rep.Params.Base.WithDefaults()
+		P := rep.Params.Spec.WithDefaults()
 		pop := "signs " + P.Signs + ", |amount| ≥ " + P.Min
 		if strings.TrimSpace(P.Where) != "" {
 			pop += ", where " + P.Where

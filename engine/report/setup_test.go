@@ -12,10 +12,10 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/sensitivity"
 	"github.com/leadline/leadline/engine/workspace"
@@ -108,7 +108,7 @@ func buildDemo() (*demo, error) {
 	if err := so.Validate(); err != nil {
 		return nil, err
 	}
-	pop, err := sensitivity.FromWorkspace(ctx, d.ws, drill.Base{}.WithDefaults(), so)
+	pop, err := sensitivity.FromWorkspace(ctx, d.ws, population.Spec{}.WithDefaults(), so)
 	if err != nil {
 		return nil, fmt.Errorf("sensitivity: %w", err)
 	}

@@ -8,8 +8,8 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/limits"
+	popn "github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -18,9 +18,9 @@ import (
 // one aggregate scan, the band counts of the round limits (and of
 // o.Limit) from the limit probe's scan, and the most frequent amounts from
 // the number duplication query. Nothing is written to the workspace.
-func FromWorkspace(ctx context.Context, ws *workspace.Workspace, base drill.Base, o Options) (Population, error) {
+func FromWorkspace(ctx context.Context, ws *workspace.Workspace, base popn.Spec, o Options) (Population, error) {
 	var pop Population
-	plan, err := battery.Prepare(ctx, ws, battery.Options{Base: base, Tests: []benford.Test{benford.FirstTwo, benford.LastTwo}})
+	plan, err := battery.Prepare(ctx, ws, battery.Options{Spec: base, Tests: []benford.Test{benford.FirstTwo, benford.LastTwo}})
 	if err != nil {
 		return pop, err
 	}
@@ -34,7 +34,7 @@ func FromWorkspace(ctx context.Context, ws *workspace.Workspace, base drill.Base
 		return pop, fmt.Errorf("no amounts to test in this population")
 	}
 	if o.Kind == BelowLimit {
-		rep, err := limits.Run(ctx, ws, limits.Options{Base: base, Width: o.Width})
+		rep, err := limits.Run(ctx, ws, limits.Options{Spec: base, Width: o.Width})
 		if err != nil {
 			return pop, err
 		}

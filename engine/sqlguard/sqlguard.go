@@ -47,7 +47,7 @@ func (e *Error) Error() string { return e.Reason }
 // workspace's own tables, and an *Error saying why not otherwise.
 func CheckSelect(ctx context.Context, q Querier, query string) error {
 	var doc string
-	if err := q.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", query).Scan(&doc); err != nil {
+	if err := q.QueryRowContext(ctx, queries.Get("sqlguard_parse"), query).Scan(&doc); err != nil {
 		return fmt.Errorf("checking the SQL: %w", err)
 	}
 	var parsed struct {
@@ -80,7 +80,7 @@ func CheckSelect(ctx context.Context, q Querier, query string) error {
 }
 
 func workspaceTables(ctx context.Context, q Querier) (map[string]bool, error) {
-	rows, err := q.QueryContext(ctx, `SELECT lower(table_name) FROM information_schema.tables WHERE table_catalog = current_database() AND table_schema = 'main'`)
+	rows, err := q.QueryContext(ctx, queries.Get("sqlguard_tables"))
 	if err != nil {
 		return nil, err
 	}
@@ -172,7 +172,7 @@ func Filter(ctx context.Context, q Querier, predicate string) (string, error) {
 		return "TRUE", nil
 	}
 	wrapped := "(" + p + "\n)"
-	probe := "SELECT " + wrapped + " AS ll_predicate FROM ledger"
+	probe := queries.Render("sqlguard_filter_probe", map[string]string{"predicate": wrapped})
 	if err := CheckSelect(ctx, q, probe); err != nil {
 		return "", fmt.Errorf("filter %q: %w", predicate, err)
 	}
@@ -182,7 +182,7 @@ func Filter(ctx context.Context, q Querier, predicate string) (string, error) {
 	if err := staysInside(ctx, q, wrapped); err != nil {
 		return "", fmt.Errorf("filter %q: %w", predicate, err)
 	}
-	rows, err := q.QueryContext(ctx, "SELECT 1 FROM ledger WHERE "+wrapped+" LIMIT 0")
+	rows, err := q.QueryContext(ctx, queries.Render("sqlguard_filter_bind", map[string]string{"predicate": wrapped}))
 	if err != nil {
 		return "", fmt.Errorf("filter %q: %s", predicate, firstLine(err.Error()))
 	}
@@ -193,7 +193,7 @@ func Filter(ctx context.Context, q Querier, predicate string) (string, error) {
 // Column checks that name is a column of the ledger and returns it quoted.
 func Column(ctx context.Context, q Querier, name string) (string, error) {
 	var n int
-	if err := q.QueryRowContext(ctx, `SELECT count(*) FROM information_schema.columns WHERE table_name = 'ledger' AND table_schema = 'main' AND lower(column_name) = lower(?)`, name).Scan(&n); err != nil {
+	if err := q.QueryRowContext(ctx, queries.Get("sqlguard_column_count"), name).Scan(&n); err != nil {
 		return "", err
 	}
 	if n == 0 {
@@ -215,7 +215,7 @@ func firstLine(s string) string {
 // WHERE) changes that shape and is refused.
 func singleExpression(ctx context.Context, q Querier, probe string) error {
 	var doc string
-	if err := q.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", probe).Scan(&doc); err != nil {
+	if err := q.QueryRowContext(ctx, queries.Get("sqlguard_parse"), probe).Scan(&doc); err != nil {
 		return err
 	}
 	var parsed struct {
@@ -307,7 +307,7 @@ func recursiveCTE(v any) bool {
 // nested ANDs or double NOTs.
 func staysInside(ctx context.Context, q Querier, wrapped string) error {
 	var doc string
-	if err := q.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", "SELECT 1 FROM ledger WHERE "+wrapped+" IS NOT DISTINCT FROM TRUE").Scan(&doc); err != nil {
+	if err := q.QueryRowContext(ctx, queries.Get("sqlguard_parse"), queries.Render("sqlguard_filter_operand", map[string]string{"predicate": wrapped})).Scan(&doc); err != nil {
 		return err
 	}
 	var parsed struct {

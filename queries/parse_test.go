@@ -1,0 +1,137 @@
+package queries_test
+
+import (
+	"context"
+	"database/sql"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	_ "github.com/duckdb/duckdb-go/v2"
+
+	"github.com/leadline/leadline/queries"
+)
+
+// fragments holds one representative text for every placeholder, of the
+// kind the engine puts there. The segment placeholders come in two forms:
+// with one segment column and without any.
+func fragments(dir string, segmented bool) map[string]string {
+	f := map[string]string{
+		"abs":            "abs(ll_u)",
+		"amount_expr":    `TRY_CAST("amt" AS DECIMAL(18,2))`,
+		"amount_type":    "DECIMAL(18,2)",
+		"base":           "amount > 0",
+		"columns":        `"ent" AS entity`,
+		"fast":           ", 1 AS ll_fast",
+		"file_col":       `"file"`,
+		"file_id":        "1",
+		"filter":         "descr <> '{{filter}}'",
+		"first3":         "ll_first3",
+		"group_by":       "",
+		"group_expr":     "entity",
+		"ids":            "1, 2",
+		"last2":          "ll_a % 100",
+		"limit":          "LIMIT 10",
+		"line_offset":    "1",
+		"options":        "FORMAT csv, HEADER",
+		"order":          "row_id",
+		"partition":      "",
+		"parts":          ", 1 AS ll_parts",
+		"predicate":      "(descr = 'x'\n)",
+		"label":          `"group"`,
+		"path":           queries.QuoteString(filepath.Join(dir, "out.csv")),
+		"query":          "SELECT 1 AS one",
+		"raw_expr":       `"amt"`,
+		"reader":         "read_csv(" + queries.QuoteString(filepath.Join(dir, "missing.csv")) + ")",
+		"reason_expr":    "'not an amount'",
+		"rejects_table":  `"ll_rejects"`,
+		"row_id_base":    "0",
+		"row_number":     "row_number() OVER ()",
+		"scan":           "SELECT 1 AS ll_f3, 2 AS ll_l2, 3 AS ll_n, 4.0 AS ll_sum",
+		"segment_names":  "",
+		"segment_normal": "",
+		"segment_select": "",
+		"sign_ok":        "ll_u > 0",
+		"sign_where":     "amount IS NOT NULL",
+		"stage":          `"ll_stage"`,
+		"tested":         "ll_amount > 0",
+		"units":          "CAST(amount * 100 AS BIGINT)",
+		"where":          "descr = 'x'",
+		"wide_type":      "DECIMAL(38,2)",
+		"wide":           "DECIMAL(38,2)",
+		"x":              "abs(amount)",
+	}
+	if segmented {
+		f["group_by"] = "GROUP BY ll_s1"
+		f["partition"] = "PARTITION BY ll_s1 "
+		f["segment_names"] = "ll_s1, "
+		f["segment_normal"] = "ll_s1, "
+		f["segment_select"] = "strftime(posted, '%Y-%m') AS ll_s1, "
+	}
+	return f
+}
+
+// TestEveryStatementParses renders every named statement with representative
+// fragments (with and without segments) and runs it on an empty workspace
+// schema in a transaction that is rolled back. Errors of binding or
+// execution are expected for some (missing files, bound values not given);
+// a parser error is a broken template and fails the test.
+func TestEveryStatementParses(t *testing.T) {
+	ctx := context.Background()
+	db, err := sql.Open("duckdb", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	db.SetMaxOpenConns(1)
+	for _, setup := range []string{
+		queries.Get("create_schema"),
+		queries.Render("create_ledger", map[string]string{"amount_type": "DECIMAL(18,2)"}),
+	} {
+		if _, err := db.ExecContext(ctx, setup); err != nil {
+			t.Fatal(err)
+		}
+	}
+	dir := t.TempDir()
+	names := queries.Names()
+	if len(names) < 50 {
+		t.Fatalf("only %d named statements found", len(names))
+	}
+	prepared := 0
+	for _, name := range names {
+		for _, segmented := range []bool{false, true} {
+			all := fragments(dir, segmented)
+			repl := map[string]string{}
+			for _, k := range queries.Placeholders(name) {
+				v, ok := all[k]
+				if !ok {
+					t.Fatalf("%s: no representative fragment for {{%s}}: add one here", name, k)
+				}
+				repl[k] = v
+			}
+			q := queries.Render(name, repl)
+			tx, err := db.BeginTx(ctx, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			_, err = tx.ExecContext(ctx, q)
+			tx.Rollback()
+			switch {
+			case err == nil:
+				prepared++
+			case strings.Contains(err.Error(), "Parser Error"):
+				t.Errorf("%s (segmented %v) does not parse: %v\n%s", name, segmented, err, q)
+			default:
+				t.Logf("%s (segmented %v): parsed; %v", name, segmented, firstLine(err.Error()))
+			}
+		}
+	}
+	t.Logf("%d statements, %d ran without error on the empty schema", len(names), prepared/2)
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i]
+	}
+	return s
+}
