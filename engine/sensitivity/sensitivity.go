@@ -123,6 +123,10 @@ func (o *Options) Validate() error {
 
 // Signal names, each a flag the engagement team would act on.
 const (
+	SigFirstTwoFlag  = "first_two bin flagged"   // the battery's bin flag: exact binomial, Holm, material
+	SigRunsP         = "first_two runs p < 0.05" // the runs test against its simulated null
+	SigFirstThreeFlg = "first_three bin flagged"
+	SigLastTwoFlag   = "last_two bin flagged"
 	SigFirstTwoMAD   = "first_two MAD nonconforming"
 	SigFirstTwoChi   = "first_two chi-square p < 0.01"
 	SigGoodman       = "first_two bin outside Goodman 95%"
@@ -160,7 +164,7 @@ func Run(pop Population, o Options) (*Result, error) {
 	if n == 0 {
 		return nil, fmt.Errorf("the population has no amounts to test")
 	}
-	signals := []string{SigFirstTwoMAD, SigFirstTwoChi, SigGoodman, SigRuns, SigFirstThreeMAD, SigLastTwoChi}
+	signals := []string{SigFirstTwoFlag, SigRunsP, SigFirstThreeFlg, SigLastTwoFlag, SigFirstTwoMAD, SigFirstTwoChi, SigGoodman, SigRuns, SigFirstThreeMAD, SigLastTwoChi}
 	if o.Kind == BelowLimit {
 		signals = append(signals, SigLimit)
 	}
@@ -301,14 +305,18 @@ func evaluate(f3, l2 []int64) map[string]bool {
 	}
 	out := map[string]bool{}
 	r2, _ := benford.Analyze(benford.FirstTwo, f2)
+	out[SigFirstTwoFlag] = r2.Flagged > 0
+	out[SigRunsP] = r2.Runs != nil && r2.Runs.P < 0.05
 	out[SigFirstTwoMAD] = r2.Conformity == "nonconforming"
 	out[SigFirstTwoChi] = r2.DF > 0 && r2.PValue < 0.01
 	out[SigGoodman] = r2.OutsideGoodman > 0
 	out[SigRuns] = r2.Runs != nil && r2.Runs.Runs < 35
 	r3, _ := benford.Analyze(benford.FirstThree, f3)
 	out[SigFirstThreeMAD] = r3.Conformity == "nonconforming"
+	out[SigFirstThreeFlg] = r3.Flagged > 0
 	rl, _ := benford.Analyze(benford.LastTwo, l2)
 	out[SigLastTwoChi] = rl.DF > 0 && rl.PValue < 0.01
+	out[SigLastTwoFlag] = rl.Flagged > 0
 	return out
 }
 
