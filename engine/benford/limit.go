@@ -64,7 +64,7 @@ func CheckLimit(limit, w float64) error {
 }
 
 // LimitProbe tests for amounts clustered just below a limit T (a method of
-// this project's own, DESIGN.md section 3): with below the count of amounts
+// this project's own, see docs/design.md): with below the count of amounts
 // in [T(1-w), T) and above the count in [T, T(1+w)), under f(x) ∝ 1/x each
 // of the n = below+above amounts falls below with probability
 //

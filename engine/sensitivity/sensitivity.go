@@ -3,7 +3,7 @@
 // at several rates over many seeds and reports, per signal and rate, the
 // share of trials in which the signal fired.
 //
-// It works on bin counts only (DESIGN.md: counts are additive). The
+// It works on bin counts only (counts are additive; docs/design.md). The
 // population's counts are read once; each trial adds the counts of its
 // injected amounts to them in memory. The loaded ledger is never copied or
 // touched.
@@ -231,7 +231,7 @@ func Run(pop Population, o Options) (*Result, error) {
 	} else {
 		res.Notes = append(res.Notes, "baseline: the workspace's own counts, the same in every seed; the rate-0 column says whether a signal already fires on the population itself")
 	}
-	res.Notes = append(res.Notes, "rules of thumb used as signals (MAD ranges, runs < 35, top 10) are common practice, no source; see DESIGN.md")
+	res.Notes = append(res.Notes, "rules of thumb used as signals (MAD ranges, runs < 35, top 10) are common practice, no source")
 	return res, nil
 }
 
