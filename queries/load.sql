@@ -120,3 +120,43 @@ SELECT file_id, reason, count(*) AS rows, min(line) AS first_line
 FROM rejects
 GROUP BY ALL
 ORDER BY file_id, rows DESC, reason;
+
+-- name: load_separator_evidence
+-- What the amount texts of one file say about its decimal mark, by kind
+-- (see engine/load/separators.go): how many, the first record holding one
+-- and its text; and the same for those of them that a decimal reading
+-- would round: the last ? digits (3 minus the scale, at least 0) are not
+-- all zero, bound twice. {{texts}} selects (pos, text). Only digits and
+-- the two marks are kept (spaces, signs and currencies dropped); texts
+-- with an exponent, or with digits in more than one run (12,3x4), say
+-- nothing.
+WITH s AS (
+    SELECT pos, text, regexp_replace(regexp_extract(text, '^[^0-9]*?([0-9.,][0-9.,'' \x{00A0}\x{202F}]*)[^0-9]*$', 1), '[^0-9.,]', '', 'g') AS s
+    FROM ({{texts}})
+    WHERE text IS NOT NULL AND NOT contains(lower(text), 'e')
+), k AS (
+    SELECT pos, text, s, CASE
+        WHEN contains(s, '.') AND contains(s, ',') THEN
+            CASE WHEN strpos(reverse(s), '.') < strpos(reverse(s), ',') THEN 'point' ELSE 'comma' END
+        WHEN regexp_full_match(s, '[1-9][0-9]{0,2}\.[0-9]{3}') THEN 'ambiguous_point'
+        WHEN regexp_full_match(s, '[1-9][0-9]{0,2},[0-9]{3}') THEN 'ambiguous_comma'
+        WHEN length(s) - length(replace(s, '.', '')) > 1 THEN 'comma'
+        WHEN length(s) - length(replace(s, ',', '')) > 1 THEN 'point'
+        WHEN contains(s, '.') THEN 'point'
+        WHEN contains(s, ',') THEN 'comma'
+        END AS kind
+    FROM s
+)
+SELECT kind, count(*), min(pos), arg_min(text, pos),
+       count(*) FILTER (WHERE right(s, ?) <> repeat('0', ?)),
+       coalesce(min(pos) FILTER (WHERE right(s, ?) <> repeat('0', ?)), 0),
+       coalesce(arg_min(text, pos) FILTER (WHERE right(s, ?) <> repeat('0', ?)), '')
+FROM k
+WHERE kind IS NOT NULL
+GROUP BY kind;
+
+-- name: load_rounded_count
+-- Loaded rows of one file (? = file_id) whose amount text had more
+-- decimal places than the scale; {{test}} is built by engine/load from
+-- the stored text columns of the amount.
+SELECT count(*) FROM ledger WHERE file_id = ? AND ({{test}});

@@ -13,8 +13,10 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 
@@ -28,12 +30,44 @@ type Options struct {
 	Debit        string            `json:"debit,omitempty"`
 	Credit       string            `json:"credit,omitempty"`
 	DecimalComma bool              `json:"decimal_comma"`
-	Scale        int               `json:"scale"`     // decimal places of amounts (default 2)
-	Precision    int               `json:"precision"` // total digits (18 or 38; default 18)
+	DecimalPoint bool              `json:"decimal_point,omitempty"` // the decimal mark is a point: settles amounts such as 1.234
+	Scale        int               `json:"scale"`                   // decimal places of amounts (default 2)
+	Precision    int               `json:"precision"`               // total digits (18 or 38; default 18)
 	Delimiter    string            `json:"delimiter,omitempty"`
 	Encoding     string            `json:"encoding,omitempty"`
 	DateFormat   string            `json:"date_format,omitempty"` // strptime format of posted, e.g. %d/%m/%Y
 	Replace      bool              `json:"replace"`               // reload a file already in the workspace
+	// MaxRejects is the largest share of a file's rows that may be
+	// rejected, as "5%" ("" for DefaultMaxRejects, "100%" to accept any).
+	MaxRejects string `json:"max_rejects,omitempty"`
+}
+
+// DefaultMaxRejects is the share of a file's rows a load may reject unless
+// told otherwise: more means the file or the options are wrong (common
+// practice, no source).
+const DefaultMaxRejects = "1%"
+
+// ParseShare reads a share of rows written as a percentage ("5%", "0.5%",
+// "100%"); a plain number is read as a percentage too.
+func ParseShare(s string) (float64, error) {
+	t := strings.TrimSpace(strings.TrimSuffix(strings.TrimSpace(s), "%"))
+	v, err := strconv.ParseFloat(t, 64)
+	if err != nil || v < 0 || v > 100 || t == "" {
+		return 0, fmt.Errorf("%q: give a percentage from 0%% to 100%%, e.g. 5%%", s)
+	}
+	return v / 100, nil
+}
+
+// maxRejects is the share of rows a file may have rejected.
+func (o Options) maxRejects() (float64, error) {
+	if o.MaxRejects == "" {
+		return ParseShare(DefaultMaxRejects)
+	}
+	v, err := ParseShare(o.MaxRejects)
+	if err != nil {
+		return 0, fmt.Errorf("--max-rejects %w", err)
+	}
+	return v, nil
 }
 
 func (o *Options) defaults() {
@@ -69,6 +103,7 @@ type FileReport struct {
 	RowsRead      int64         `json:"rows_read"`
 	RowsLoaded    int64         `json:"rows_loaded"`
 	RowsRejected  int64         `json:"rows_rejected"`
+	RowsRounded   int64         `json:"rows_rounded"` // loaded rows whose amount had more decimal places than the scale
 	Positive      string        `json:"sum_positive"`
 	Negative      string        `json:"sum_negative"`
 	Net           string        `json:"net"`
@@ -98,6 +133,7 @@ type Report struct {
 	RowsRead     int64         `json:"rows_read"`
 	RowsLoaded   int64         `json:"rows_loaded"`
 	RowsRejected int64         `json:"rows_rejected"`
+	RowsRounded  int64         `json:"rows_rounded"`
 	Seconds      float64       `json:"seconds"`
 }
 
@@ -129,6 +165,12 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	}
 	if opts.Precision != 18 && opts.Precision != 38 {
 		return nil, fmt.Errorf("--precision %d: give 18 (fast, amounts below 10^%d) or 38", opts.Precision, 18-opts.Scale)
+	}
+	if opts.DecimalComma && opts.DecimalPoint {
+		return nil, errors.New("--decimal-comma and --decimal-point contradict each other: give one")
+	}
+	if _, err := opts.maxRejects(); err != nil {
+		return nil, err
 	}
 	paths, err := ExpandPaths(args)
 	if err != nil {
@@ -170,6 +212,11 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	defer unstage(ws, sources)
 	for i, src := range sources {
 		if err := stageCSV(ctx, ws, src, i); err != nil {
+			return nil, err
+		}
+	}
+	for _, src := range sources {
+		if err := checkSeparators(ctx, ws, src, opts, scaleOf(amountType)); err != nil {
 			return nil, err
 		}
 	}
@@ -257,6 +304,7 @@ func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, a
 		rep.RowsRead += fr.RowsRead
 		rep.RowsLoaded += fr.RowsLoaded
 		rep.RowsRejected += fr.RowsRejected
+		rep.RowsRounded += fr.RowsRounded
 	}
 	optsJSON, _ := json.Marshal(opts)
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_load"), loadID, started.UTC(), time.Now().UTC(), workspace.Version, string(optsJSON)); err != nil {
@@ -689,6 +737,16 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		}
 		return nil, fmt.Errorf("%s: none of its %d rows could be loaded%s; check --delimiter, --decimal-comma, --date-format and the mapping (leadline inspect %s); nothing was loaded", src.Path, fr.RowsRead, top, src.Path)
 	}
+	if err := checkRejectShare(fr, opts); err != nil {
+		return nil, err
+	}
+	rounded := queries.Render("load_rounded_count", map[string]string{"test": roundedTest(src, m, storedOf, opts.DecimalComma, scaleOf(amountType))})
+	if err := tx.QueryRowContext(ctx, rounded, fr.FileID).Scan(&fr.RowsRounded); err != nil {
+		return nil, fmt.Errorf("%s: counting rounded amounts: %w", src.Path, err)
+	}
+	if fr.RowsRounded > 0 {
+		fr.Warnings = append(fr.Warnings, fmt.Sprintf("%d amounts had more decimal places than the scale of %d and were rounded half away from zero; their text as sent is kept in the ledger beside the amount", fr.RowsRounded, scaleOf(amountType)))
+	}
 	if err := tx.QueryRowContext(ctx, `SELECT CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
 		CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR), CAST(coalesce(sum(amount), 0) AS VARCHAR)
 		FROM ledger WHERE file_id = ?`, fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
@@ -697,12 +755,77 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	trace("counts", t0)
 	mapJSON, _ := json.Marshal(m)
 	dialect, _ := json.Marshal(map[string]any{"delimiter": src.Delimiter, "encoding": src.Encoding, "gzip": src.Gzip,
-		"decimal_comma": opts.DecimalComma, "amount_type": amountType, "date_format": opts.DateFormat})
+		"decimal_comma": opts.DecimalComma, "decimal_point": opts.DecimalPoint, "amount_type": amountType, "date_format": opts.DateFormat,
+		"rows_rounded": fr.RowsRounded, "max_rejects": maxRejectsText(opts)})
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_file"), fr.FileID, loadID, src.Path, src.Name, src.Format,
 		src.Size, src.SHA256, fr.RowsRead, fr.RowsLoaded, fr.RowsRejected, string(mapJSON), string(dialect), time.Now().UTC()); err != nil {
 		return nil, err
 	}
 	return fr, nil
+}
+
+// checkRejectShare fails a file whose rejected rows exceed the share the
+// options allow: rows read = loaded + rejected is necessary, not
+// sufficient, and a load that lost most of a file is no success.
+func checkRejectShare(fr *FileReport, opts Options) error {
+	limit, err := opts.maxRejects()
+	if err != nil {
+		return err
+	}
+	if fr.RowsRead == 0 || float64(fr.RowsRejected) <= limit*float64(fr.RowsRead) {
+		return nil
+	}
+	share := float64(fr.RowsRejected) / float64(fr.RowsRead)
+	top, hint := "", ""
+	if len(fr.RejectReasons) > 0 {
+		r := fr.RejectReasons[0]
+		top = fmt.Sprintf(" (most common reason, %d rows: %s, first at line %d)", r.Rows, r.Reason, deref(r.FirstLine))
+		switch {
+		case strings.Contains(r.Reason, "decimal comma?"):
+			hint = " If the amounts write a decimal comma, give --decimal-comma."
+		case strings.Contains(r.Reason, "too many fields"):
+			hint = " Too many fields often means a delimiter inside unquoted values (a thousands separator, a comma in a text), or the wrong --delimiter."
+		case strings.Contains(r.Reason, "invalid date"):
+			hint = " Give the dates' format with --date-format."
+		}
+	}
+	return fmt.Errorf("%s: %d of %d rows (%s) were rejected, more than the %s a load accepts%s.%s Fix the file or the options (leadline inspect shows how the file reads), or accept the rejects with --max-rejects %s or --accept-rejects; nothing was loaded",
+		fr.Path, fr.RowsRejected, fr.RowsRead, percent(share), maxRejectsText(opts), top, hint, percent(share))
+}
+
+func maxRejectsText(o Options) string {
+	if o.MaxRejects == "" {
+		return DefaultMaxRejects
+	}
+	v, _ := ParseShare(o.MaxRejects)
+	return percent(v)
+}
+
+// percent writes a share as a percentage rounded up to one decimal place
+// (so that --max-rejects with it accepts the share).
+func percent(share float64) string {
+	return strconv.FormatFloat(math.Ceil(share*1000-1e-9)/10, 'f', -1, 64) + "%"
+}
+
+// roundedTest is the condition, on a loaded ledger row, that its amount
+// text as sent had a nonzero digit beyond the scale: the texts that
+// could hold one (a run of more than scale digits after a mark, or an
+// exponent) are parsed again and their exact decimal text examined.
+func roundedTest(src *Source, m Mapping, storedOf map[string]storage, decimalComma bool, scale int) string {
+	cols := []string{m.Columns["amount"]}
+	if m.Debit != "" {
+		cols = []string{m.Debit, m.Credit}
+	}
+	var tests []string
+	for _, c := range cols {
+		st := storedOf[c]
+		x := queries.QuoteIdent(st.stored)
+		dc := decimalComma && !isNumeric(st.typ)
+		pre := queries.QuoteString(fmt.Sprintf("[.,][0-9]{%d}|[eE]", scale+1))
+		beyond := queries.QuoteString(fmt.Sprintf(`\.[0-9]{%d}[0-9]*[1-9]`, scale))
+		tests = append(tests, fmt.Sprintf("(regexp_matches(%s, %s) AND regexp_matches(coalesce(ll_amount_canonical(%s, %t), ''), %s))", x, pre, x, dc, beyond))
+	}
+	return strings.Join(tests, " OR ")
 }
 
 func deref(p *int64) int64 {
