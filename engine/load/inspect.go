@@ -79,7 +79,7 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	// Detected types: DuckDB's own sniffer on a sample (CSV), the schema (Parquet).
 	detected := map[string]string{}
 	if format == "csv" {
-		q := "DESCRIBE SELECT * FROM read_csv(" + queries.QuoteString(path) + ", delim = " + queries.QuoteString(src.Delimiter) +
+		q := "DESCRIBE SELECT * FROM read_csv(" + queries.QuoteString(ExactPath(path)) + ", delim = " + queries.QuoteString(src.Delimiter) +
 			", header = true, encoding = " + queries.QuoteString(src.Encoding) + ", sample_size = 20480, ignore_errors = true)"
 		if rows, err := ws.Conn.QueryContext(ctx, q); err == nil {
 			cols, _ := rows.Columns()

@@ -434,7 +434,7 @@ func examine(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 // ParquetTypes maps column name to DuckDB type for a Parquet file.
 func examineParquet(ctx context.Context, ws *workspace.Workspace, path string) (*Source, error) {
 	src := &Source{Path: path, Name: baseName(path), Format: "parquet"}
-	rows, err := ws.Conn.QueryContext(ctx, "DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(path)+")")
+	rows, err := ws.Conn.QueryContext(ctx, "DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(ExactPath(path))+")")
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, oneLine(err))
 	}
@@ -910,14 +910,14 @@ func unstage(ws *workspace.Workspace, sources []*Source) {
 // Parquet).
 func readerSQL(src *Source, rejTable string) string {
 	if src.Format == "parquet" {
-		return "read_parquet(" + queries.QuoteString(src.Path) + ", file_row_number = true)"
+		return "read_parquet(" + queries.QuoteString(ExactPath(src.Path)) + ", file_row_number = true)"
 	}
 	var cols []string
 	for _, c := range src.Columns {
 		cols = append(cols, queries.QuoteString(c)+": 'VARCHAR'")
 	}
 	opts := []string{
-		queries.QuoteString(src.Path),
+		queries.QuoteString(ExactPath(src.Path)),
 		"auto_detect = false",
 		"header = true",
 		"columns = {" + strings.Join(cols, ", ") + "}",

@@ -51,7 +51,11 @@ func ExpandPaths(args []string) ([]string, error) {
 	var out []string
 	for _, a := range args {
 		var matches []string
-		if strings.ContainsAny(a, "*?[") {
+		// A name that is a file is that file, whatever characters it
+		// holds: data[1].csv is not a pattern for data1.csv.
+		if st, err := os.Stat(a); err == nil && !st.IsDir() {
+			matches = []string{a}
+		} else if strings.ContainsAny(a, "*?[") {
 			m, err := filepath.Glob(a)
 			if err != nil {
 				return nil, fmt.Errorf("pattern %q: %w", a, err)
@@ -86,6 +90,29 @@ func ExpandPaths(args []string) ([]string, error) {
 		return nil, errors.New("no input files given")
 	}
 	return out, nil
+}
+
+// ExactPath escapes the glob characters of a path, so that DuckDB's
+// readers, which expand * ? [ in the names they are given, read that one
+// file: leadline has expanded the patterns itself, once. Each of the
+// three becomes a bracket class holding it alone ([[], [?], [*]), which
+// DuckDB's glob reads as the character.
+func ExactPath(p string) string {
+	if !strings.ContainsAny(p, "*?[") {
+		return p
+	}
+	var b strings.Builder
+	for _, r := range p {
+		switch r {
+		case '*', '?', '[':
+			b.WriteByte('[')
+			b.WriteRune(r)
+			b.WriteByte(']')
+		default:
+			b.WriteRune(r)
+		}
+	}
+	return b.String()
 }
 
 func unwrapPathError(err error) error {

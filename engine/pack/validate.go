@@ -493,7 +493,7 @@ func fileColumns(ctx context.Context, mem *workspace.Workspace, path string, o l
 		}
 		return src.Columns, nil
 	}
-	rows, err := mem.Conn.QueryContext(ctx, "SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(path)+"))")
+	rows, err := mem.Conn.QueryContext(ctx, "SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(load.ExactPath(path))+"))")
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, firstLine(err.Error()))
 	}
