@@ -160,3 +160,12 @@ GROUP BY kind;
 -- decimal places than the scale; {{test}} is built by engine/load from
 -- the stored text columns of the amount.
 SELECT count(*) FROM ledger WHERE file_id = ? AND ({{test}});
+
+-- name: load_file_by_path
+-- The latest earlier load of a path (? = the absolute path).
+SELECT file_id, load_id, sha256 FROM files WHERE path = ? ORDER BY file_id DESC LIMIT 1;
+
+-- name: load_files_to_replace
+-- Files that --replace takes out: the same content ($1 = SHA-256) or the
+-- same path ($2 = the absolute path); whether each had the same content.
+SELECT file_id, sha256 = $1 FROM files WHERE sha256 = $1 OR path = $2 ORDER BY file_id;

@@ -83,3 +83,74 @@ func TestGlobCharactersInNames(t *testing.T) {
 		t.Errorf("ExactPath: %s", ExactPath("/a/b[1]/c?*.csv"))
 	}
 }
+
+// TestFileChangedWhileLoading: a file rewritten after its rows were read
+// and before the load commits is refused, and nothing is loaded: its
+// recorded SHA-256 and size would otherwise belong to other bytes than
+// its rows.
+func TestFileChangedWhileLoading(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	p := writeFile(t, dir, "gl.csv", "amount\n1.00\n2.00\n")
+	ws := openWS(t, ":memory:")
+	afterRead = func() {
+		if err := os.WriteFile(p, []byte("amount\n1.00\n2.00\n3.00\n"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	defer func() { afterRead = nil }()
+	_, err := Load(ctx, ws, []string{p}, Options{})
+	if err == nil || !strings.Contains(err.Error(), "changed while it was being loaded") || !strings.Contains(err.Error(), p) {
+		t.Fatalf("want a refusal naming the file, got %v", err)
+	}
+	if n := count(t, ws.Conn, "SELECT count(*) FROM files"); n != 0 {
+		t.Fatalf("%d files recorded after a refused load", n)
+	}
+	// Unchanged, the same file loads, with the hash of what was read.
+	afterRead = nil
+	rep, err := Load(ctx, ws, []string{p}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.RowsRead != 3 || rep.Files[0].SHA256 != sha(t, p) {
+		t.Fatalf("read %d, sha %s", rep.RowsRead, rep.Files[0].SHA256)
+	}
+}
+
+// TestSamePathOtherContent: a path loaded again with other content is
+// refused (its rows would be counted beside the first version's), and
+// --replace swaps that file's rows for the new ones in one load.
+func TestSamePathOtherContent(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	p := writeFile(t, dir, "gl.csv", "amount\n1.00\n2.00\n")
+	ws := openWS(t, filepath.Join(dir, "w.duckdb"))
+	if _, err := Load(ctx, ws, []string{p}, Options{}); err != nil {
+		t.Fatal(err)
+	}
+	writeFile(t, dir, "gl.csv", "amount\n1.00\n2.00\n4.00\n")
+	_, err := Load(ctx, ws, []string{p}, Options{})
+	if err == nil || !strings.Contains(err.Error(), "loaded before as file 1") || !strings.Contains(err.Error(), "--replace") {
+		t.Fatalf("want a refusal offering --replace, got %v", err)
+	}
+	sum := func() string {
+		var s string
+		if err := ws.Conn.QueryRowContext(ctx, "SELECT CAST(sum(amount) AS VARCHAR) || ' ' || count(*) || ' ' || (SELECT count(*) FROM files) FROM ledger").Scan(&s); err != nil {
+			t.Fatal(err)
+		}
+		return s
+	}
+	if got := sum(); got != "3.00 2 1" {
+		t.Fatalf("after the refusal: sum, rows, files = %s; want 3.00 2 1", got)
+	}
+	rep, err := Load(ctx, ws, []string{p}, Options{Replace: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := sum(); got != "7.00 3 1" {
+		t.Fatalf("after --replace: sum, rows, files = %s; want 7.00 3 1", got)
+	}
+	if w := strings.Join(rep.Files[0].Warnings, " "); !strings.Contains(w, "replaced file 1 loaded earlier from the same path with other content") {
+		t.Errorf("warnings: %s", w)
+	}
+}

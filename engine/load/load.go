@@ -244,6 +244,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	if err != nil {
 		return nil, err
 	}
+	if err := checkUnchanged(sources); err != nil {
+		return nil, err
+	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -253,6 +256,30 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	committed = true
 	trace("commit", started)
 	return rep, nil
+}
+
+// afterRead, when set (by tests), runs once every file has been read and
+// before they are hashed again.
+var afterRead func()
+
+// checkUnchanged hashes every file again once its rows are read: a file
+// that changed while it was loaded (an export still being written, a copy
+// over the network) would otherwise be recorded with the SHA-256 and size
+// of other bytes than its rows came from.
+func checkUnchanged(sources []*Source) error {
+	if afterRead != nil {
+		afterRead()
+	}
+	for _, src := range sources {
+		size, sum, err := Hash(src.Path)
+		if err != nil {
+			return fmt.Errorf("%s: reading it again after the load: %w; nothing was loaded", src.Path, err)
+		}
+		if size != src.Size || sum != src.SHA256 {
+			return fmt.Errorf("%s: the file changed while it was being loaded (%d bytes, SHA-256 %s before; %d bytes, %s after); nothing was loaded. Load it again once whatever writes it has finished", src.Path, src.Size, src.SHA256[:12], size, sum[:12])
+		}
+	}
+	return nil
 }
 
 // interrupted turns an error that follows a cancelled context into the
@@ -428,6 +455,19 @@ func examine(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	case !opts.Replace:
 		return nil, fmt.Errorf("%s: already loaded as file %d (%s, same SHA-256 %s); give --replace to load it again in its place", path, fileID, old, src.SHA256[:12])
 	}
+	// The same path with other content: a corrected or re-sent extract.
+	// Loading it beside the first would count its rows twice.
+	var oldSHA string
+	var oldLoad int64
+	err = ws.Conn.QueryRowContext(ctx, queries.Get("load_file_by_path"), path).Scan(&fileID, &oldLoad, &oldSHA)
+	switch {
+	case errors.Is(err, sql.ErrNoRows):
+	case err != nil:
+		return nil, err
+	case !opts.Replace && oldSHA != src.SHA256:
+		return nil, fmt.Errorf("%s: this path was loaded before as file %d (load %d) with other content (SHA-256 %s then, %s now), and its rows are in the workspace; give --replace to replace that file's rows with this version in one transaction, or copy the file under another name if both versions belong in the ledger; nothing was loaded",
+			path, fileID, oldLoad, oldSHA[:12], src.SHA256[:12])
+	}
 	return src, nil
 }
 
@@ -522,17 +562,37 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	fr := &FileReport{Path: src.Path, Name: src.Name, Format: src.Format, SizeBytes: src.Size, SHA256: src.SHA256,
 		Mapping: m, Delimiter: src.Delimiter, Encoding: src.Encoding, Warnings: src.Warnings}
 	if opts.Replace {
-		var oldID int64
-		err := tx.QueryRowContext(ctx, queries.Get("file_by_sha"), src.SHA256).Scan(&oldID, new(string))
-		if err == nil {
+		// Earlier loads of the same content, or of the same path.
+		rows, err := tx.QueryContext(ctx, queries.Get("load_files_to_replace"), src.SHA256, src.Path)
+		if err != nil {
+			return nil, err
+		}
+		var old []int64
+		var same []bool
+		for rows.Next() {
+			var id int64
+			var sameContent bool
+			if err := rows.Scan(&id, &sameContent); err != nil {
+				rows.Close()
+				return nil, err
+			}
+			old, same = append(old, id), append(same, sameContent)
+		}
+		rows.Close()
+		if err := rows.Err(); err != nil {
+			return nil, err
+		}
+		for i, oldID := range old {
 			for _, q := range []string{"load_forget_ledger", "load_forget_rejects", "load_forget_file"} {
 				if _, err := tx.ExecContext(ctx, queries.Get(q), oldID); err != nil {
 					return nil, err
 				}
 			}
-			fr.Warnings = append(fr.Warnings, fmt.Sprintf("replaced file %d loaded earlier with the same content", oldID))
-		} else if !errors.Is(err, sql.ErrNoRows) {
-			return nil, err
+			if same[i] {
+				fr.Warnings = append(fr.Warnings, fmt.Sprintf("replaced file %d loaded earlier with the same content", oldID))
+			} else {
+				fr.Warnings = append(fr.Warnings, fmt.Sprintf("replaced file %d loaded earlier from the same path with other content", oldID))
+			}
 		}
 	}
 	if err := tx.QueryRowContext(ctx, "SELECT nextval('file_seq')").Scan(&fr.FileID); err != nil {
