@@ -154,3 +154,54 @@ func TestSamePathOtherContent(t *testing.T) {
 		t.Errorf("warnings: %s", w)
 	}
 }
+
+// TestClientColumnsNamedLikeInternals: a client's columns named rowid,
+// ll_rn, ll_fast, ll_parts, file_row_number, or like the reader's own
+// positional names, load as any other column, in CSV and Parquet, with
+// their values kept and the lines numbered.
+func TestClientColumnsNamedLikeInternals(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	names := []string{"rowid", "ll_rn", "ll_fast", "ll_parts", "file_row_number", "ll_c1", "ll_file_row", "ll_parts_d"}
+	body := strings.Join(names, ",") + ",amount\n"
+	for i := 1; i <= 3; i++ {
+		for range names {
+			body += "x" + string(rune('0'+i)) + ","
+		}
+		body += string(rune('0'+i)) + ".25\n"
+	}
+	csv := writeFile(t, dir, "internal_names.csv", body)
+	pq := filepath.Join(dir, "internal_names.parquet")
+	ws := openWS(t, ":memory:")
+	var sel []string
+	for _, n := range names {
+		sel = append(sel, "'x' || i AS "+n)
+	}
+	if _, err := ws.Conn.ExecContext(ctx, "COPY (SELECT "+strings.Join(sel, ", ")+", CAST(i + 0.25 AS DECIMAL(18,2)) AS amount FROM range(1, 4) r(i) ORDER BY i) TO '"+pq+"' (FORMAT parquet)"); err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []string{csv, pq} {
+		ws := openWS(t, ":memory:")
+		rep, err := Load(ctx, ws, []string{p}, Options{})
+		if err != nil {
+			t.Fatalf("%s: %v", filepath.Base(p), err)
+		}
+		if rep.RowsLoaded != 3 || rep.Files[0].Net != "6.75" {
+			t.Fatalf("%s: loaded %d, net %s", filepath.Base(p), rep.RowsLoaded, rep.Files[0].Net)
+		}
+		for _, n := range names {
+			var got string
+			q := "SELECT string_agg(" + `"` + n + `"` + " || '@' || line, ' ' ORDER BY line) FROM ledger"
+			if err := ws.Conn.QueryRowContext(ctx, q).Scan(&got); err != nil {
+				t.Fatalf("%s: column %s: %v", filepath.Base(p), n, err)
+			}
+			want := "x1@2 x2@3 x3@4"
+			if strings.HasSuffix(p, ".parquet") {
+				want = "x1@1 x2@2 x3@3"
+			}
+			if got != want {
+				t.Errorf("%s: column %s holds %q, want %q", filepath.Base(p), n, got, want)
+			}
+		}
+	}
+}

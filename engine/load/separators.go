@@ -184,10 +184,10 @@ func amountTexts(src *Source) string {
 		cols = []string{m.Debit, m.Credit}
 	}
 	from, pos := "", ""
-	if src.Format == "csv" {
+	if src.stage != "" {
 		from, pos = queries.QuoteIdent(src.stage), fmt.Sprintf("rowid - %d + 1", src.stageFirst)
 	} else {
-		from, pos = readerSQL(src, ""), "file_row_number + 1"
+		from, pos = readerSQL(src, ""), "ll_file_row + 1"
 	}
 	var parts []string
 	for _, c := range cols {
@@ -205,7 +205,7 @@ func amountTexts(src *Source) string {
 				continue
 			}
 		}
-		parts = append(parts, "SELECT "+pos+" AS pos, CAST("+queries.QuoteIdent(c)+" AS VARCHAR) AS text FROM "+from)
+		parts = append(parts, "SELECT "+pos+" AS pos, CAST("+src.ref(c)+" AS VARCHAR) AS text FROM "+from)
 	}
 	return strings.Join(parts, " UNION ALL ")
 }
