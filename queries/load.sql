@@ -169,3 +169,7 @@ SELECT file_id, load_id, sha256 FROM files WHERE path = ? ORDER BY file_id DESC 
 -- Files that --replace takes out: the same content ($1 = SHA-256) or the
 -- same path ($2 = the absolute path); whether each had the same content.
 SELECT file_id, sha256 = $1 FROM files WHERE sha256 = $1 OR path = $2 ORDER BY file_id;
+
+-- name: load_time_zone_known
+-- Whether ? names a time zone DuckDB knows.
+SELECT count(*) > 0 FROM pg_timezone_names() WHERE name = ?;

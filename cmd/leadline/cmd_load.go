@@ -49,6 +49,7 @@ Examples:
 			fs.IntVar(&o.Precision, "precision", 18, "total digits of amounts: 18 (fast) or 38")
 			fs.StringVar(&o.Delimiter, "delimiter", "", `CSV field delimiter (default: guessed from the header among , ; tab |; "\t" for tab)`)
 			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8 (default), utf-16 or latin-1")
+			fs.StringVar(&o.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
 			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
 			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of its earlier load (same content, or the same path with new content), in one transaction")
 			fs.StringVar(&o.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")

@@ -205,3 +205,41 @@ func TestClientColumnsNamedLikeInternals(t *testing.T) {
 		}
 	}
 }
+
+// TestTimestampWithTimeZone: the posting date of a Parquet TIMESTAMP
+// WITH TIME ZONE is taken in UTC, whatever the session's (the machine's)
+// zone, or in the zone the load names.
+func TestTimestampWithTimeZone(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	pq := filepath.Join(dir, "tz.parquet")
+	ws := openWS(t, ":memory:")
+	if _, err := ws.Conn.ExecContext(ctx, "COPY (SELECT TIMESTAMPTZ '2025-12-31 20:00:00+00' AS posted, CAST(1 AS DECIMAL(18,2)) AS amount) TO '"+pq+"' (FORMAT parquet)"); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct{ session, option, want string }{
+		{"UTC", "", "2025-12-31"},
+		{"Asia/Tokyo", "", "2025-12-31"},
+		{"America/New_York", "", "2025-12-31"},
+		{"UTC", "Asia/Tokyo", "2026-01-01"},
+		{"Asia/Tokyo", "UTC", "2025-12-31"},
+	} {
+		ws := openWS(t, ":memory:")
+		if _, err := ws.Conn.ExecContext(ctx, "SET TimeZone = '"+c.session+"'"); err != nil {
+			t.Fatal(err)
+		}
+		if _, err := Load(ctx, ws, []string{pq}, Options{TimeZone: c.option}); err != nil {
+			t.Fatalf("session %s, option %q: %v", c.session, c.option, err)
+		}
+		var got string
+		if err := ws.Conn.QueryRowContext(ctx, "SELECT CAST(posted AS VARCHAR) FROM ledger").Scan(&got); err != nil {
+			t.Fatal(err)
+		}
+		if got != c.want {
+			t.Errorf("session zone %s, --time-zone %q: posted %s, want %s", c.session, c.option, got, c.want)
+		}
+	}
+	if _, err := Load(ctx, openWS(t, ":memory:"), []string{pq}, Options{TimeZone: "Mars/Olympus"}); err == nil || !strings.Contains(err.Error(), "--time-zone") {
+		t.Errorf("unknown zone: %v", err)
+	}
+}

@@ -36,6 +36,9 @@ type Options struct {
 	Delimiter    string            `json:"delimiter,omitempty"`
 	Encoding     string            `json:"encoding,omitempty"`
 	DateFormat   string            `json:"date_format,omitempty"` // strptime format of posted, e.g. %d/%m/%Y
+	// TimeZone is the zone in which a Parquet TIMESTAMP WITH TIME ZONE
+	// becomes a posting date ("" for UTC), never the machine's own.
+	TimeZone string `json:"time_zone,omitempty"`
 	Replace      bool              `json:"replace"`               // reload a file already in the workspace
 	// MaxRejects is the largest share of a file's rows that may be
 	// rejected, as "5%" ("" for DefaultMaxRejects, "100%" to accept any).
@@ -56,6 +59,27 @@ func ParseShare(s string) (float64, error) {
 		return 0, fmt.Errorf("%q: give a percentage from 0%% to 100%%, e.g. 5%%", s)
 	}
 	return v / 100, nil
+}
+
+// timeZone is the zone dates are taken in.
+func timeZone(o Options) string {
+	if o.TimeZone == "" {
+		return "UTC"
+	}
+	return o.TimeZone
+}
+
+// checkTimeZone refuses a zone DuckDB does not know, before anything is
+// read.
+func checkTimeZone(ctx context.Context, ws *workspace.Workspace, o Options) error {
+	if o.TimeZone == "" {
+		return nil
+	}
+	var ok bool
+	if err := ws.Conn.QueryRowContext(ctx, queries.Get("load_time_zone_known"), o.TimeZone).Scan(&ok); err != nil || !ok {
+		return fmt.Errorf("--time-zone %q: not a time zone name; give one such as UTC, Europe/Berlin or America/New_York", o.TimeZone)
+	}
+	return nil
 }
 
 // maxRejects is the share of rows a file may have rejected.
@@ -170,6 +194,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 		return nil, errors.New("--decimal-comma and --decimal-point contradict each other: give one")
 	}
 	if _, err := opts.maxRejects(); err != nil {
+		return nil, err
+	}
+	if err := checkTimeZone(ctx, ws, opts); err != nil {
 		return nil, err
 	}
 	paths, err := ExpandPaths(args)
@@ -624,6 +651,8 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		orig := src.ref(p)
 		var expr string
 		switch {
+		case strings.Contains(strings.ToUpper(st.typ), "WITH TIME ZONE"):
+			expr = "TRY_CAST(timezone(" + queries.QuoteString(timeZone(opts)) + ", " + orig + ") AS DATE)"
 		case isDateLike(st.typ):
 			expr = "TRY_CAST(" + orig + " AS DATE)"
 		case opts.DateFormat != "":
@@ -818,7 +847,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	trace("counts", t0)
 	mapJSON, _ := json.Marshal(m)
 	dialect, _ := json.Marshal(map[string]any{"delimiter": src.Delimiter, "encoding": src.Encoding, "gzip": src.Gzip,
-		"decimal_comma": opts.DecimalComma, "decimal_point": opts.DecimalPoint, "amount_type": amountType, "date_format": opts.DateFormat,
+		"decimal_comma": opts.DecimalComma, "decimal_point": opts.DecimalPoint, "time_zone": timeZone(opts), "amount_type": amountType, "date_format": opts.DateFormat,
 		"rows_rounded": fr.RowsRounded, "max_rejects": maxRejectsText(opts)})
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_file"), fr.FileID, loadID, src.Path, src.Name, src.Format,
 		src.Size, src.SHA256, fr.RowsRead, fr.RowsLoaded, fr.RowsRejected, string(mapJSON), string(dialect), time.Now().UTC()); err != nil {
