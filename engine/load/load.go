@@ -39,7 +39,7 @@ type Options struct {
 	// TimeZone is the zone in which a Parquet TIMESTAMP WITH TIME ZONE
 	// becomes a posting date ("" for UTC), never the machine's own.
 	TimeZone string `json:"time_zone,omitempty"`
-	Replace      bool              `json:"replace"`               // reload a file already in the workspace
+	Replace  bool   `json:"replace"` // reload a file already in the workspace
 	// MaxRejects is the largest share of a file's rows that may be
 	// rejected, as "5%" ("" for DefaultMaxRejects, "100%" to accept any).
 	MaxRejects string `json:"max_rejects,omitempty"`
