@@ -7,6 +7,7 @@ package load
 import (
 	"bufio"
 	"bytes"
+	"compress/gzip"
 	"context"
 	"database/sql"
 	"encoding/json"
@@ -15,6 +16,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
@@ -984,6 +986,9 @@ func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) 
 	src.stage, src.rejects = fmt.Sprintf("ll_stage_%d", i), fmt.Sprintf("ll_rejects_%d", i)
 	q := queries.Render("load_stage", map[string]string{"stage": queries.QuoteIdent(src.stage), "reader": readerSQL(src, src.rejects)})
 	if _, err := ws.Conn.ExecContext(ctx, q); err != nil {
+		if hint := windows1252Hint(src, err); hint != "" {
+			return fmt.Errorf("%s: %s", src.Path, hint)
+		}
 		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
 	return ws.Conn.QueryRowContext(ctx, "SELECT coalesce(min(rowid), 0) FROM "+queries.QuoteIdent(src.stage)).Scan(&src.stageFirst)
@@ -1086,6 +1091,44 @@ func readerSQL(src *Source, rejTable string) string {
 		opts = append(opts, "compression = 'gzip'")
 	}
 	return "read_csv(" + strings.Join(opts, ", ") + ")"
+}
+
+// windows1252Hint explains DuckDB's "File is not latin-1 encoded": Latin-1
+// (ISO-8859-1) leaves bytes 0x80 to 0x9F to control codes, where
+// Windows-1252 puts the euro sign, curly quotes and dashes. It names the
+// first line holding one.
+func windows1252Hint(src *Source, err error) string {
+	if src.Encoding != "latin-1" || !strings.Contains(strings.ToLower(err.Error()), "not latin-1") {
+		return ""
+	}
+	f, ferr := os.Open(src.Path)
+	if ferr != nil {
+		return ""
+	}
+	defer f.Close()
+	var r io.Reader = f
+	if src.Gzip {
+		gz, gerr := gzip.NewReader(f)
+		if gerr != nil {
+			return ""
+		}
+		r = gz
+	}
+	br := bufio.NewReaderSize(r, 1<<20)
+	line := int64(1)
+	for {
+		b, rerr := br.ReadByte()
+		if rerr != nil {
+			return ""
+		}
+		switch {
+		case b == '\n':
+			line++
+		case b >= 0x80 && b <= 0x9F:
+			return fmt.Sprintf("line %d: byte 0x%02X is a control code in Latin-1 (ISO-8859-1), which --encoding latin-1 reads; the file is most likely Windows-1252 (cp1252), where it is a letter or sign such as the euro sign or a curly quote. Convert it to UTF-8 first, e.g. iconv -f WINDOWS-1252 -t UTF-8 %s > %s, and load the copy without --encoding; nothing was loaded",
+				line, b, shellQuote(src.Name), shellQuote(strings.TrimSuffix(src.Name, filepath.Ext(src.Name))+"_utf8.csv"))
+		}
+	}
 }
 
 func explainReadError(err error) string {
