@@ -173,3 +173,7 @@ SELECT file_id, sha256 = $1 FROM files WHERE sha256 = $1 OR path = $2 ORDER BY f
 -- name: load_time_zone_known
 -- Whether ? names a time zone DuckDB knows.
 SELECT count(*) > 0 FROM pg_timezone_names() WHERE name = ?;
+
+-- name: load_input_totals
+-- What every load of the workspace read, loaded and rejected.
+SELECT count(*), coalesce(sum(rows_read), 0), coalesce(sum(rows_loaded), 0), coalesce(sum(rows_rejected), 0) FROM files;

@@ -12,6 +12,7 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
 )
@@ -106,6 +107,11 @@ Examples:
 				if err != nil {
 					return err
 				}
+				in, err := load.Inputs(ctx, ws)
+				if err != nil {
+					return err
+				}
+				rep.Input = &battery.Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
 				if err := saveRun(ctx, ws, "scan", started, rep.Params, rep, func(id int64) { rep.RunID = id }); err != nil {
 					return err
 				}
@@ -168,6 +174,10 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 		fmt.Fprintf(w, ", where %s", strings.TrimSpace(p.Where))
 	}
 	fmt.Fprintf(w, ") of %s rows\n", bf.count(rep.Rows))
+	if in := rep.Input; in != nil {
+		fmt.Fprintf(w, "Input: %s rows read from %d file(s) = %s loaded + %s rejected at load (%.2f%% rejected).\n",
+			bf.count(in.RowsRead), in.Files, bf.count(in.RowsLoaded), bf.count(in.RowsRejected), 100*in.RejectedShare)
+	}
 	var left []string
 	if x.Filtered > 0 {
 		left = append(left, bf.count(x.Filtered)+" by the filter")

@@ -1448,3 +1448,24 @@ func trace(step string, since time.Time) {
 		fmt.Fprintf(os.Stderr, "trace: %-10s %6.2fs\n", step, time.Since(since).Seconds())
 	}
 }
+
+// InputTotals is what every load of the workspace read, loaded and
+// rejected: the files, and rows read = loaded + rejected.
+type InputTotals struct {
+	Files, RowsRead, RowsLoaded, RowsRejected int64
+}
+
+// Inputs sums the workspace's file records.
+func Inputs(ctx context.Context, ws *workspace.Workspace) (InputTotals, error) {
+	var t InputTotals
+	err := ws.Conn.QueryRowContext(ctx, queries.Get("load_input_totals")).Scan(&t.Files, &t.RowsRead, &t.RowsLoaded, &t.RowsRejected)
+	return t, err
+}
+
+// RejectedShare is rows rejected over rows read (0 when nothing was read).
+func (t InputTotals) RejectedShare() float64 {
+	if t.RowsRead == 0 {
+		return 0
+	}
+	return float64(t.RowsRejected) / float64(t.RowsRead)
+}
