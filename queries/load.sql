@@ -128,12 +128,22 @@ ORDER BY file_id, rows DESC, reason;
 -- would round: the last ? digits (3 minus the scale, at least 0) are not
 -- all zero, bound twice. {{texts}} selects (pos, text). Only digits and
 -- the two marks are kept (spaces, signs and currencies dropped); texts
--- with an exponent, or with digits in more than one run (12,3x4), say
+-- with digits in more than one run (12,3x4, and exponents: 1.5E+03) say
 -- nothing.
-WITH s AS (
-    SELECT pos, text, regexp_replace(regexp_extract(text, '^[^0-9]*?([0-9.,][0-9.,'' \x{00A0}\x{202F}]*)[^0-9]*$', 1), '[^0-9.,]', '', 'g') AS s
+--
+-- The common shape, one point followed by one or two digits at the end
+-- (1234.56), is told without a regular expression: it is most rows, and
+-- the expression would cost about as much as reading the file.
+WITH t AS (
+    SELECT pos, text, strpos(text, '.') AS p
     FROM ({{texts}})
-    WHERE text IS NOT NULL AND NOT contains(lower(text), 'e')
+    WHERE contains(text, '.') OR contains(text, ',')
+), s AS (
+    SELECT pos, text, CASE
+        WHEN NOT contains(text, ',') AND length(text) - p IN (1, 2) THEN '0.5'
+        ELSE regexp_replace(regexp_extract(text, '^[^0-9]*?([0-9.,][0-9.,'' \x{00A0}\x{202F}]*)[^0-9]*$', 1), '[^0-9.,]', '', 'g')
+        END AS s
+    FROM t
 ), k AS (
     SELECT pos, text, s, CASE
         WHEN contains(s, '.') AND contains(s, ',') THEN

@@ -244,12 +244,13 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 			return nil, err
 		}
 	}
+	trace("stage", started)
 	for _, src := range sources {
 		if err := checkSeparators(ctx, ws, src, opts, scaleOf(amountType)); err != nil {
 			return nil, err
 		}
 	}
-	trace("stage", started)
+	trace("marks", started)
 	hadLedger, err := ws.HasLedger(ctx)
 	if err != nil {
 		return nil, err
@@ -915,9 +916,11 @@ func roundedTest(src *Source, m Mapping, storedOf map[string]storage, decimalCom
 		st := storedOf[c]
 		x := queries.QuoteIdent(st.stored)
 		dc := decimalComma && !isNumeric(st.typ)
-		pre := queries.QuoteString(fmt.Sprintf("[.,][0-9]{%d}|[eE]", scale+1))
+		// Candidates without a regular expression: an exponent, or more
+		// than scale characters after the last mark.
+		pre := fmt.Sprintf("(contains(%s, 'e') OR contains(%s, 'E') OR least(nullif(strpos(reverse(%s), '.'), 0), nullif(strpos(reverse(%s), ','), 0)) > %d)", x, x, x, x, scale+1)
 		beyond := queries.QuoteString(fmt.Sprintf(`\.[0-9]{%d}[0-9]*[1-9]`, scale))
-		tests = append(tests, fmt.Sprintf("(regexp_matches(%s, %s) AND regexp_matches(coalesce(ll_amount_canonical(%s, %t), ''), %s))", x, pre, x, dc, beyond))
+		tests = append(tests, fmt.Sprintf("(%s AND regexp_matches(coalesce(ll_amount_canonical(%s, %t), ''), %s))", pre, x, dc, beyond))
 	}
 	return strings.Join(tests, " OR ")
 }
