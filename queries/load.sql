@@ -27,12 +27,16 @@ FROM (
 );
 
 -- name: load_reject_amounts
+-- Rows whose amount did not parse, with the reason: ? = the amount's
+-- column name, ? = file_id.
 INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
 SELECT file_id, line, ?, {{raw_expr}}, {{reason_expr}}, NULL
 FROM ledger
 WHERE file_id = ? AND amount IS NULL;
 
 -- name: load_reject_dates
+-- Rows whose posting date did not parse: ? = the date's column name,
+-- ? = the reason, ? = file_id.
 INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
 SELECT file_id, line, ?, {{raw_expr}}, ?, NULL
 FROM ledger
@@ -40,11 +44,13 @@ WHERE file_id = ? AND amount IS NOT NULL AND posted IS NULL
   AND nullif(trim(CAST({{raw_expr}} AS VARCHAR)), '') IS NOT NULL;
 
 -- name: load_delete_rejected
+-- The rows just moved to rejects leave the ledger (? = file_id).
 DELETE FROM ledger
 WHERE file_id = ?
   AND (amount IS NULL OR (posted IS NULL AND nullif(trim(CAST({{raw_expr}} AS VARCHAR)), '') IS NOT NULL));
 
 -- name: load_delete_rejected_no_date
+-- The same without a posting date column (? = file_id).
 DELETE FROM ledger WHERE file_id = ? AND amount IS NULL;
 
 -- name: load_structural_rejects
@@ -69,24 +75,30 @@ FROM duckdb_tables()
 WHERE table_name = 'ledger' AND schema_name = 'main' AND database_name = current_database();
 
 -- name: load_file_counts
+-- Rows of one file (? = file_id) the reader gave, and the last line.
 SELECT count(*) AS rows_in_ledger, coalesce(max(line), 0) FROM ledger WHERE file_id = ?;
 
 -- name: load_rejected_count
+-- ? = file_id.
 SELECT count(*) FROM rejects WHERE file_id = ?;
 
 -- name: load_next_row_id
 SELECT coalesce(max(row_id), 0) FROM ledger;
 
 -- name: load_insert_file
+-- The file's completeness record, bound in the order of the columns.
 INSERT INTO files (file_id, load_id, path, name, format, size_bytes, sha256,
                    rows_read, rows_loaded, rows_rejected, mapping, dialect, loaded_at)
 VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?);
 
 -- name: load_insert_load
+-- ? = load_id, started, finished, tool version, options as JSON.
 INSERT INTO loads (load_id, started_at, finished_at, tool_version, options)
 VALUES (?, ?, ?, ?, ?);
 
 -- name: load_forget_ledger
+-- --replace takes out an earlier file's rows, rejects and record
+-- (? = its file_id), in the load's transaction.
 DELETE FROM ledger WHERE file_id = ?;
 
 -- name: load_forget_rejects
@@ -105,15 +117,6 @@ SELECT coalesce(entity, '') AS entity,
 FROM ledger
 GROUP BY ALL
 ORDER BY entity;
-
--- name: file_totals
-SELECT f.file_id, f.name, f.rows_read, f.rows_loaded, f.rows_rejected, f.size_bytes, f.sha256,
-       CAST(coalesce(sum(l.amount) FILTER (WHERE l.amount > 0), 0) AS VARCHAR) AS positive,
-       CAST(coalesce(sum(l.amount) FILTER (WHERE l.amount < 0), 0) AS VARCHAR) AS negative,
-       CAST(coalesce(sum(l.amount), 0) AS VARCHAR) AS net
-FROM files f LEFT JOIN ledger l USING (file_id)
-GROUP BY ALL
-ORDER BY f.file_id;
 
 -- name: reject_reasons
 SELECT file_id, reason, count(*) AS rows, min(line) AS first_line
@@ -187,3 +190,70 @@ SELECT count(*) > 0 FROM pg_timezone_names() WHERE name = ?;
 -- name: load_input_totals
 -- What every load of the workspace read, loaded and rejected.
 SELECT count(*), coalesce(sum(rows_read), 0), coalesce(sum(rows_loaded), 0), coalesce(sum(rows_rejected), 0) FROM files;
+
+-- name: load_next_load_id
+SELECT nextval('load_seq');
+
+-- name: load_next_file_id
+SELECT nextval('file_seq');
+
+-- name: load_drop_new_ledger
+-- The ledger a load has just created, still empty, before it is created
+-- again with every column of its files (see widenNewLedger).
+DROP TABLE ledger;
+
+-- name: load_describe_parquet
+-- The columns and types of a Parquet file; {{path}} is the quoted,
+-- glob-escaped path.
+DESCRIBE SELECT * FROM read_parquet({{path}});
+
+-- name: load_threads
+SELECT CAST(current_setting('threads') AS INTEGER);
+
+-- name: load_insertion_order
+-- {{keep}} is true or false, decided by engine/load.
+SET preserve_insertion_order = {{keep}};
+
+-- name: load_loaded_count
+-- Rows of one file (? = file_id) in the ledger.
+SELECT count(*) FROM ledger WHERE file_id = ?;
+
+-- name: load_file_sums
+-- Control totals of one file (? = file_id), exact decimals as text.
+SELECT CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount), 0) AS VARCHAR)
+FROM ledger WHERE file_id = ?;
+
+-- name: load_stage_first
+-- The first rowid of a stage table.
+SELECT coalesce(min(rowid), 0) FROM {{stage}};
+
+-- name: load_drop_temp
+-- A stage or reader-rejects table of the load.
+DROP TABLE IF EXISTS {{table}};
+
+-- name: load_insert_structural_reject
+-- A record the CSV reader could not take: file_id, line, the columns it
+-- names, the reason, the record's text as the reader kept it.
+INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line) VALUES (?, ?, ?, NULL, ?, ?);
+
+-- name: load_renumber_lines
+-- Good rows after the i-th rejected record move down by i: {{ranges}} are
+-- (lo, hi, i) rows built by engine/load, lines of good rows (less the
+-- header) in (lo, hi]; ? = file_id.
+UPDATE ledger SET line = ledger.line + r.j
+FROM (VALUES {{ranges}}) AS r(lo, hi, j)
+WHERE ledger.file_id = ? AND ledger.line - 1 > r.lo AND ledger.line - 1 <= r.hi;
+
+-- name: load_add_column
+-- A ledger column for an original column, kept as text.
+ALTER TABLE ledger ADD COLUMN {{column}} VARCHAR;
+
+-- name: load_file_reasons
+-- Rejected rows of one file (? = file_id) by reason, with the first line.
+SELECT reason, count(*), min(line) FROM rejects WHERE file_id = ? GROUP BY reason ORDER BY count(*) DESC, reason;
+
+-- name: load_rejected_lines
+-- The lines of the records the CSV reader rejected while staging.
+SELECT DISTINCT line FROM {{rejects_table}} ORDER BY line;

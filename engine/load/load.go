@@ -348,7 +348,7 @@ func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, a
 	}
 	trace("create", started)
 	var loadID int64
-	if err := tx.QueryRowContext(ctx, "SELECT nextval('load_seq')").Scan(&loadID); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_next_load_id")).Scan(&loadID); err != nil {
 		return nil, err
 	}
 	rep := &Report{LoadID: loadID, AmountType: amountType}
@@ -399,7 +399,7 @@ func widenNewLedger(ctx context.Context, tx *sql.Tx, sources []*Source) error {
 	if n != 0 || !strings.HasSuffix(ddl, ");") {
 		return nil
 	}
-	if _, err := tx.ExecContext(ctx, "DROP TABLE ledger"); err != nil {
+	if _, err := tx.ExecContext(ctx, queries.Get("load_drop_new_ledger")); err != nil {
 		return err
 	}
 	wide := strings.TrimSuffix(ddl, ");") + ", " + strings.Join(extra, ", ") + ");"
@@ -504,7 +504,7 @@ func examine(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 // ParquetTypes maps column name to DuckDB type for a Parquet file.
 func examineParquet(ctx context.Context, ws *workspace.Workspace, path string) (*Source, error) {
 	src := &Source{Path: path, Name: baseName(path), Format: "parquet"}
-	rows, err := ws.Conn.QueryContext(ctx, "DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(ExactPath(path))+")")
+	rows, err := ws.Conn.QueryContext(ctx, queries.Render("load_describe_parquet", map[string]string{"path": queries.QuoteString(ExactPath(path))}))
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, oneLine(err))
 	}
@@ -625,7 +625,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 			}
 		}
 	}
-	if err := tx.QueryRowContext(ctx, "SELECT nextval('file_seq')").Scan(&fr.FileID); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_next_file_id")).Scan(&fr.FileID); err != nil {
 		return nil, err
 	}
 	cols := plan(src, m)
@@ -759,15 +759,15 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	// a block per column: a 5,000-column file then needs more than a
 	// 1280MB memory limit, so wide files keep the order.
 	var threads int
-	if err := tx.QueryRowContext(ctx, "SELECT CAST(current_setting('threads') AS INTEGER)").Scan(&threads); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_threads")).Scan(&threads); err != nil {
 		return nil, err
 	}
 	keepOrder := len(src.Columns)*max(threads, 1) > 1024
-	if _, err := tx.ExecContext(ctx, fmt.Sprintf("SET preserve_insertion_order = %t", keepOrder)); err != nil {
+	if _, err := tx.ExecContext(ctx, queries.Render("load_insertion_order", map[string]string{"keep": fmt.Sprint(keepOrder)})); err != nil {
 		return nil, err
 	}
 	_, err := tx.ExecContext(ctx, insert)
-	if _, rerr := tx.ExecContext(context.WithoutCancel(ctx), "SET preserve_insertion_order = true"); rerr != nil && err == nil {
+	if _, rerr := tx.ExecContext(context.WithoutCancel(ctx), queries.Render("load_insertion_order", map[string]string{"keep": "true"})); rerr != nil && err == nil {
 		err = rerr
 	}
 	if err != nil {
@@ -809,7 +809,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if err := tx.QueryRowContext(ctx, queries.Get("load_rejected_count"), fr.FileID).Scan(&fr.RowsRejected); err != nil {
 		return nil, err
 	}
-	if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM ledger WHERE file_id = ?", fr.FileID).Scan(&fr.RowsLoaded); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_loaded_count"), fr.FileID).Scan(&fr.RowsLoaded); err != nil {
 		return nil, err
 	}
 	if fr.RowsLoaded+fr.RowsRejected != fr.RowsRead {
@@ -842,9 +842,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if fr.RowsRounded > 0 {
 		fr.Warnings = append(fr.Warnings, fmt.Sprintf("%d amounts had more decimal places than the scale of %d and were rounded half away from zero; their text as sent is kept in the ledger beside the amount", fr.RowsRounded, scaleOf(amountType)))
 	}
-	if err := tx.QueryRowContext(ctx, `SELECT CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
-		CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR), CAST(coalesce(sum(amount), 0) AS VARCHAR)
-		FROM ledger WHERE file_id = ?`, fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_file_sums"), fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
 		return nil, err
 	}
 	trace("counts", t0)
@@ -994,7 +992,7 @@ func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) 
 		}
 		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
-	return ws.Conn.QueryRowContext(ctx, "SELECT coalesce(min(rowid), 0) FROM "+queries.QuoteIdent(src.stage)).Scan(&src.stageFirst)
+	return ws.Conn.QueryRowContext(ctx, queries.Render("load_stage_first", map[string]string{"stage": queries.QuoteIdent(src.stage)})).Scan(&src.stageFirst)
 }
 
 // unstage drops the temporary tables of stageCSV.
@@ -1004,7 +1002,7 @@ func unstage(ws *workspace.Workspace, sources []*Source) {
 			continue
 		}
 		for _, t := range []string{src.stage, src.rejects, src.rejects + "_scan"} {
-			ws.Conn.ExecContext(context.Background(), "DROP TABLE IF EXISTS "+queries.QuoteIdent(t))
+			ws.Conn.ExecContext(context.Background(), queries.Render("load_drop_temp", map[string]string{"table": queries.QuoteIdent(t)}))
 		}
 	}
 }
@@ -1173,7 +1171,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		return 0, err
 	}
 	for _, t := range []string{table, table + "_scan"} {
-		if _, err := tx.ExecContext(ctx, "DROP TABLE IF EXISTS "+queries.QuoteIdent(t)); err != nil {
+		if _, err := tx.ExecContext(ctx, queries.Render("load_drop_temp", map[string]string{"table": queries.QuoteIdent(t)})); err != nil {
 			return 0, err
 		}
 	}
@@ -1196,7 +1194,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		}
 		swallowed = true
 	}
-	app, err := tx.PrepareContext(ctx, "INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line) VALUES (?, ?, ?, NULL, ?, ?)")
+	app, err := tx.PrepareContext(ctx, queries.Get("load_insert_structural_reject"))
 	if err != nil {
 		return 0, err
 	}
@@ -1222,8 +1220,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		}
 	}
 	if len(vals) > 0 {
-		q := "UPDATE ledger SET line = ledger.line + r.j FROM (VALUES " + strings.Join(vals, ", ") +
-			") AS r(lo, hi, j) WHERE ledger.file_id = ? AND ledger.line - 1 > r.lo AND ledger.line - 1 <= r.hi"
+		q := queries.Render("load_renumber_lines", map[string]string{"ranges": strings.Join(vals, ", ")})
 		if _, err := tx.ExecContext(ctx, q, fileID); err != nil {
 			return 0, fmt.Errorf("numbering lines: %w", err)
 		}
@@ -1311,7 +1308,7 @@ func ensureColumns(ctx context.Context, tx *sql.Tx, cols []storage) error {
 		if c.stored == "" || have[strings.ToLower(c.stored)] {
 			continue
 		}
-		if _, err := tx.ExecContext(ctx, "ALTER TABLE ledger ADD COLUMN "+queries.QuoteIdent(c.stored)+" VARCHAR"); err != nil {
+		if _, err := tx.ExecContext(ctx, queries.Render("load_add_column", map[string]string{"column": queries.QuoteIdent(c.stored)})); err != nil {
 			return fmt.Errorf("adding column %q: %w", c.stored, err)
 		}
 		have[strings.ToLower(c.stored)] = true
@@ -1320,7 +1317,7 @@ func ensureColumns(ctx context.Context, tx *sql.Tx, cols []storage) error {
 }
 
 func reasons(ctx context.Context, tx *sql.Tx, fileID int64) ([]ReasonCount, error) {
-	rows, err := tx.QueryContext(ctx, `SELECT reason, count(*), min(line) FROM rejects WHERE file_id = ? GROUP BY reason ORDER BY count(*) DESC, reason`, fileID)
+	rows, err := tx.QueryContext(ctx, queries.Get("load_file_reasons"), fileID)
 	if err != nil {
 		return nil, err
 	}

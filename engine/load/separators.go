@@ -218,7 +218,7 @@ func lineOf(ctx context.Context, ws *workspace.Workspace, src *Source, pos int64
 		return pos
 	}
 	line := pos + 1
-	rows, err := ws.Conn.QueryContext(ctx, "SELECT DISTINCT line FROM "+queries.QuoteIdent(src.rejects)+" ORDER BY line")
+	rows, err := ws.Conn.QueryContext(ctx, queries.Render("load_rejected_lines", map[string]string{"rejects_table": queries.QuoteIdent(src.rejects)}))
 	if err != nil {
 		return line
 	}
