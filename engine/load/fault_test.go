@@ -280,7 +280,7 @@ func TestInterruptedLoad(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		_, err = Load(context.Background(), ws, []string{csv}, Options{})
+		_, err = Load(context.Background(), ws, []string{csv}, faultOptions)
 		ws.Close()
 		if err != nil {
 			t.Fatalf("loading after the interruptions: %v", err)
