@@ -12,6 +12,7 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -146,6 +147,11 @@ func runScan(ctx context.Context, e *env, o scanOptions) error {
 	if err != nil {
 		return err
 	}
+	in, err := load.Inputs(ctx, ws)
+	if err != nil {
+		return err
+	}
+	rep.Input = &battery.Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
 	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
 		return err
 	}
@@ -205,6 +211,10 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 		fmt.Fprintf(w, ", where %s", strings.TrimSpace(p.Where))
 	}
 	fmt.Fprintf(w, ") of %s rows\n", numfmt.Int(rep.Rows))
+	if in := rep.Input; in != nil {
+		fmt.Fprintf(w, "Input: %s rows read from %d file(s) = %s loaded + %s rejected at load (%.2f%% rejected).\n",
+			numfmt.Int(in.RowsRead), in.Files, numfmt.Int(in.RowsLoaded), numfmt.Int(in.RowsRejected), 100*in.RejectedShare)
+	}
 	var left []string
 	if x.Filtered > 0 {
 		left = append(left, numfmt.Int(x.Filtered)+" by the filter")

@@ -20,10 +20,11 @@ type Report struct {
 	RunID      int64            `json:"run_id"`
 	Params     Options          `json:"params"`
 	AmountType string           `json:"amount_type"`
-	Rows       int64            `json:"rows"`       // rows in the ledger
-	Tested     int64            `json:"tested"`     // amounts tested (N of the count-based tests)
-	Exclusions Left             `json:"exclusions"` // rows = tested + the sum of these
-	Tests      []benford.Result `json:"tests"`      // the whole selection, in canonical test order
+	Rows       int64            `json:"rows"`            // rows in the ledger
+	Input      *Input           `json:"input,omitempty"` // what the loads read and rejected, beside N
+	Tested     int64            `json:"tested"`          // amounts tested (N of the count-based tests)
+	Exclusions Left             `json:"exclusions"`      // rows = tested + the sum of these
+	Tests      []benford.Result `json:"tests"`           // the whole selection, in canonical test order
 	// LastTwoMin is the smallest |amount| the last-two digits test takes
 	// ("" when it takes all: --last-two-all).
 	LastTwoMin  string       `json:"last_two_min"`
@@ -36,6 +37,17 @@ type Report struct {
 	// long format); neither is part of the JSON document.
 	Counts         *Counts         `json:"-"`
 	SegmentResults []SegmentResult `json:"-"`
+}
+
+// Input is what the workspace's loads read and rejected, so that N is
+// read beside the share of the client's rows that never reached the
+// ledger.
+type Input struct {
+	Files         int64   `json:"files"`
+	RowsRead      int64   `json:"rows_read"`
+	RowsLoaded    int64   `json:"rows_loaded"`
+	RowsRejected  int64   `json:"rows_rejected"`
+	RejectedShare float64 `json:"rejected_share"` // rows_rejected / rows_read
 }
 
 // Timing records where the time went, in seconds.
