@@ -205,7 +205,7 @@ LIMIT ?;
 -- The benchmark's reference: one hand-written first-two digits GROUP BY
 -- over the positive amounts of at least 10.00 of a DECIMAL(18,2) ledger
 -- below 10^14 (what the generated ledger holds), with the same exact digit
--- rule as the battery. leadline bench-battery times the battery against it.
+-- rule as the battery. leadline-bench bench-battery times the battery against it.
 SELECT ll_first3_i64(ll_u) // 10 AS first_two, count(*) AS n
 FROM (SELECT CAST(amount * 100 AS BIGINT) AS ll_u FROM ledger WHERE amount >= 10)
 GROUP BY 1;

@@ -30,7 +30,7 @@ FROM (
         )
     )
     ARRAY JOIN ['f', 'l'] AS kind
-    WHERE kind = 'f' OR code >= 100
+    WHERE kind = 'f' OR (code >= 100 AND a >= {{last2_min}})
 )
 GROUP BY {{by_names}}kind, bin
 ORDER BY {{by_names}}kind, bin

@@ -9,9 +9,11 @@
 -- Every row of the table gets one code: its first three significant digits
 -- (100..999) when tested, or why it was left out: -1 zero, -2 other sign,
 -- -3 |amount| below the minimum ({{min_units}} units), -4 NULL amount,
--- -5 dropped by the filter. Tested rows also count once under kind 'l'
--- (last two digits). Sums of |units| are split into sum_hi * 10^9 + sum_lo
--- so that every part fits a 64-bit integer on every engine.
+-- -5 dropped by the filter. Tested rows at or above the last-two minimum
+-- ({{last2_min}} units: 100.00 at scale 2 unless last_two_all) also count
+-- once under kind 'l' (last two digits), as the local scan's last-two test
+-- takes them. Sums of |units| are split into sum_hi * 10^9 + sum_lo so
+-- that every part fits a 64-bit integer on every engine.
 
 -- name: countsql_duckdb_battery
 -- DuckDB sums BIGINT into HUGEINT, which its Parquet writer stores as a
@@ -40,7 +42,7 @@ FROM (
         ) AS r1
     ) AS r2
     CROSS JOIN (VALUES ('f'), ('l')) AS k(kind)
-    WHERE k.kind = 'f' OR code >= 100
+    WHERE k.kind = 'f' OR (code >= 100 AND a >= {{last2_min}})
 ) AS r3
 GROUP BY {{by_names}}kind, bin
 ORDER BY {{by_names}}kind, bin;

@@ -40,6 +40,16 @@ func fragments(dir string, segmented bool) map[string]string {
 		"partition":      "",
 		"parts":          ", 1 AS ll_parts",
 		"predicate":      "(descr = 'x'\n)",
+		"col":            `"descr"`,
+		"column":         `"client_ref"`,
+		"keep":           "false",
+		"ranges":         "(0, 10, 1), (10, 20, 2)",
+		"test":           "length(descr) > 2",
+		"texts":          "SELECT 1 AS pos, '1.234' AS text",
+		"n":              "1",
+		"records":        "SELECT * FROM ledger",
+		"table":          `"ll_extract"`,
+		"items":          "SELECT 1 AS ll_item_no, 'a' AS item, 1 AS row_id",
 		"label":          `"group"`,
 		"path":           queries.QuoteString(filepath.Join(dir, "out.csv")),
 		"query":          "SELECT 1 AS one",
@@ -57,8 +67,8 @@ func fragments(dir string, segmented bool) map[string]string {
 		"sign_where":     "amount IS NOT NULL",
 		"other_sign":     "u < 0",
 		"min_units":      "1000",
+		"last2_min":      "10000",
 		"stage":          `"ll_stage"`,
-		"table":          "ledger",
 		"tested":         "ll_amount > 0",
 		"units":          "CAST(amount * 100 AS BIGINT)",
 		"where":          "descr = 'x'",
@@ -77,6 +87,10 @@ func fragments(dir string, segmented bool) map[string]string {
 	}
 	return f
 }
+
+// expressions are named fragments that are not statements of their own:
+// the test parses each as the one expression of a SELECT.
+var expressions = map[string]bool{"output_neutral_text": true}
 
 // TestEveryStatementParses renders every named statement with representative
 // fragments (with and without segments) and runs it on an empty workspace
@@ -122,6 +136,9 @@ func TestEveryStatementParses(t *testing.T) {
 				repl[k] = v
 			}
 			q := queries.Render(name, repl)
+			if expressions[name] {
+				q = "SELECT " + q + " FROM ledger"
+			}
 			tx, err := db.BeginTx(ctx, nil)
 			if err != nil {
 				t.Fatal(err)

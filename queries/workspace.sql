@@ -94,3 +94,25 @@ SELECT column_name, data_type, is_nullable
 FROM information_schema.columns
 WHERE table_schema = 'main' AND lower(table_name) = ?
 ORDER BY ordinal_position;
+
+-- name: workspace_tables
+-- Every table and view of the opened database file (not of the system
+-- catalogs): what decides whether an existing file is a leadline workspace.
+SELECT table_name
+FROM information_schema.tables
+WHERE table_catalog = current_database()
+  AND table_schema NOT IN ('information_schema', 'pg_catalog')
+ORDER BY table_name;
+
+-- name: input_paths
+-- The loaded input files: an output written by leadline must never replace one.
+SELECT DISTINCT path FROM files ORDER BY path;
+
+-- name: workspace_marker
+-- The mark that makes a database file a leadline workspace: the comment on
+-- its meta table (a comment, so that the mark adds no row to any table).
+SELECT coalesce(comment, '') FROM duckdb_tables()
+WHERE database_name = current_database() AND schema_name = 'main' AND table_name = 'meta';
+
+-- name: workspace_mark
+COMMENT ON TABLE meta IS 'leadline workspace';

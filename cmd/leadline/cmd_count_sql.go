@@ -10,6 +10,7 @@ import (
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/countsql"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -31,6 +32,7 @@ func (c *countSQLOptions) add(fs *pflag.FlagSet) {
 	fs.StringVar(&c.spec.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative or both")
 	fs.StringVar(&c.spec.Min, "min", population.DefaultMin, "smallest |amount| tested")
 	fs.StringVar(&c.spec.LastTwo, "last-two", "scale", "last two digits at the amount's scale (scale) or of its whole-currency part (units)")
+	fs.BoolVar(&c.spec.LastTwoAll, "last-two-all", false, "count the last two digits of every tested amount (default: only where they are the fourth significant digit or later, e.g. 100.00 and more at scale 2, as scan does)")
 	fs.StringVarP(&c.out, "output", "o", "", "write the query to this file (default: standard output)")
 }
 
@@ -140,42 +142,46 @@ type countsReport struct {
 	CountsSource *countsql.Source `json:"counts_source"`
 }
 
-// scanCounts is scan --counts: the battery's statistics on merged count
-// files, stored as a scan run with the counts' provenance.
-func scanCounts(ctx context.Context, fs *pflag.FlagSet, db dbFlags, format string, o battery.Options, c countsFlags, sp scanPrint, e *env) error {
+// check refuses --counts without --count-query (or the reverse) and the
+// population flags beside them: the population is the query's.
+func (c *countsFlags) check(fs *pflag.FlagSet) error {
 	if len(c.files) == 0 || c.query == "" {
 		return fmt.Errorf("--counts and --count-query go together: the count files and the query count-sql printed for them")
 	}
-	for _, name := range []string{"where", "signs", "min", "last-two"} {
+	for _, name := range []string{"where", "signs", "min", "last-two", "last-two-all"} {
 		if fs.Changed(name) {
 			return fmt.Errorf("--%s: with --counts the population is the one the query counted (its first line); print a new query with count-sql --%s", name, name)
 		}
 	}
-	if !fs.Changed("tests") {
-		o.Tests, o.Duplication = battery.CountTests(), false
-	}
+	return nil
+}
+
+// scanCounts is scan --counts: the battery's statistics on merged count
+// files, stored as a scan run with the counts' provenance. The loads'
+// input (rep.Input) is not the counts' and is left out.
+func scanCounts(ctx context.Context, e *env, o scanOptions) error {
 	started := time.Now()
-	rep, src, err := countsql.Scan(c.query, c.files, o)
+	rep, src, err := countsql.Scan(o.counts.query, o.counts.files, o.battery)
 	if err != nil {
 		return err
 	}
-	ws, err := db.open(ctx, false)
+	ws, err := e.openWorkspace(ctx, o.db, false)
 	if err != nil {
 		return err
 	}
 	defer ws.Close()
 	doc := &countsReport{Report: rep, CountsSource: src}
-	if err := saveRun(ctx, ws, "scan", started, rep.Params, doc, func(id int64) { rep.RunID = id }); err != nil {
+	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: doc, SetID: func(id int64) { rep.RunID = id }}); err != nil {
 		return err
 	}
-	if format == "json" {
+	if o.format == "json" {
 		return writeJSON(e.stdout, doc)
 	}
-	if format == "text" {
+	if o.format == "text" {
 		fmt.Fprintf(e.stdout, "Counts from %s (table %s, query %s, SHA-256 %s), %d file(s):\n", src.Engine, src.Table, src.Query, src.QuerySHA256, len(src.Files))
 		for _, f := range src.Files {
 			fmt.Fprintf(e.stdout, "  %s  %s  %d rows\n", f.SHA256, f.Path, f.Rows)
 		}
 	}
-	return printScan(e.stdout, format, rep, sp)
+	return printScan(e.stdout, o.format, rep, o.print)
 }

@@ -40,29 +40,38 @@ Examples:
   leadline demo                                # 1,000,000 rows into ./leadline-demo
   leadline demo --rows 200000 --out demo-small
   leadline demo --scenario threshold --out threshold`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var o demoOptions
-			fs.Int64Var(&o.rows, "rows", 1_000_000, "ledger rows to generate")
-			fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
-			fs.StringVar(&o.out, "out", "leadline-demo", "output folder (created; an earlier demo there is replaced)")
-			fs.Float64Var(&o.badRate, "bad-rate", 0.001, "share of CSV rows written with a malformed amount, to show rejects")
-			fs.StringVar(&o.scenario, "scenario", "", "threshold: the limit probe's worked example instead of the group ledger")
-			return func(ctx context.Context, args []string, e *env) error {
-				if len(args) > 0 {
-					return fmt.Errorf("demo takes no arguments (see --help)")
-				}
-				switch o.scenario {
-				case "":
-					return runDemo(ctx, e, o)
-				case "threshold":
-					return runThresholdDemo(ctx, e, o)
-				}
-				return fmt.Errorf("--scenario %q: the only scenario is threshold", o.scenario)
-			}
-		},
+		flags: thin(demoFlags, runDemoCmd),
 	})
 }
 
+// demoFlags registers demo's flags; the function it returns checks them.
+func demoFlags(fs *pflag.FlagSet) func(args []string) (demoOptions, error) {
+	var o demoOptions
+	fs.Int64Var(&o.rows, "rows", 1_000_000, "ledger rows to generate")
+	fs.Uint64Var(&o.seed, "seed", 2025, "random seed of the generated ledger")
+	fs.StringVar(&o.out, "out", "leadline-demo", "output folder (created; an earlier demo there is replaced)")
+	fs.Float64Var(&o.badRate, "bad-rate", 0.001, "share of CSV rows written with a malformed amount, to show rejects")
+	fs.StringVar(&o.scenario, "scenario", "", "threshold: the limit probe's worked example instead of the group ledger")
+	return func(args []string) (demoOptions, error) {
+		if len(args) > 0 {
+			return o, fmt.Errorf("demo takes no arguments (see --help)")
+		}
+		if o.scenario != "" && o.scenario != "threshold" {
+			return o, fmt.Errorf("--scenario %q: the only scenario is threshold", o.scenario)
+		}
+		return o, nil
+	}
+}
+
+// runDemoCmd runs the scenario the options name.
+func runDemoCmd(ctx context.Context, e *env, o demoOptions) error {
+	if o.scenario == "threshold" {
+		return runThresholdDemo(ctx, e, o)
+	}
+	return runDemo(ctx, e, o)
+}
+
+// demoOptions are what demo's flags ask for.
 type demoOptions struct {
 	rows     int64
 	seed     uint64

@@ -2,13 +2,13 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"strings"
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -56,127 +56,151 @@ Examples:
   leadline drill --amount -250 --group counterparty --limit 20
   leadline drill --dup 7:same_amount:1
   leadline drill --test last_two --bin 0 --where "entity = 'HAUL'" --out round.parquet`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var sel drill.Selection
-			var bin int
-			var dup, out string
-			var dupRecords int64
-			var dupNarrowed bool
-			var ro drill.RecordOptions
-			var gopt drill.GroupOptions
-			db.add(fs)
-			fs.StringVar(&sel.Test, "test", "", "digit test of the bin: first, second, first_two, first_three or last_two")
-			fs.IntVar(&bin, "bin", 0, "the bin, e.g. 47 for first_two")
-			fs.StringVar(&sel.LastTwo, "last-two", drill.LastTwoScale, "reading of the last_two test, as in the scan: scale (1234.56 -> 56) or units (1234.56 -> 34)")
-			fs.StringVar(&sel.Amount, "amount", "", "an exact amount, e.g. 1847.23")
-			fs.StringVar(&sel.Range, "range", "", "FROM:TO, records with FROM <= |amount| < TO")
-			fs.StringArrayVar(&sel.Segments, "segment", nil, "COLUMN=VALUE, e.g. counterparty=V00123 (repeatable)")
-			fs.StringVar(&dup, "dup", "", "a duplicate group RUN:TEST:GROUP from leadline dups, e.g. 7:same_amount:3")
-			fs.StringVar(&sel.Where, "where", "", `filter on the ledger's columns, e.g. "entity = 'KELP'" (read-only)`)
-			fs.StringVar(&sel.Signs, "signs", population.DefaultSigns, "amounts kept: positive, negative (as absolute values) or both")
-			fs.StringVar(&sel.Min, "min", population.DefaultMin, "smallest absolute amount kept")
-			fs.StringVar(&ro.Sort, "sort", "", "sort the records by a column (default: file order)")
-			fs.BoolVar(&ro.Desc, "desc", false, "sort in descending order")
-			fs.IntVar(&ro.Limit, "limit", drill.DefaultLimit, "records (or groups) shown")
-			fs.StringVar(&gopt.Column, "group", "", "one row per value of this column: counterparty, user_id, account, entity, any original column, file_name, month")
-			fs.IntVar(&gopt.Top, "top-amounts", drill.DefaultTopAmounts, "repeated amounts listed per group")
-			fs.StringVar(&out, "out", "", "write every record (or group) to a .csv, .json or .parquet file")
-			f.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				if fs.Changed("bin") {
-					sel.Bin = &bin
-				}
-				if ro.Limit <= 0 {
-					return fmt.Errorf("--limit %d: give 1 or more", ro.Limit)
-				}
-				if gopt.Top <= 0 {
-					return fmt.Errorf("--top-amounts %d: give 1 or more", gopt.Top)
-				}
-				if out != "" {
-					if _, err := drill.ExportFormat(out); err != nil {
-						return err
-					}
-				}
-				// Defaults apply unless the flag was given: a negative
-				// --amount then selects negative amounts by itself.
-				if !fs.Changed("signs") {
-					sel.Signs = ""
-				}
-				if !fs.Changed("min") {
-					sel.Min = ""
-				}
-				ws, err := db.open(ctx, true)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				if dup != "" {
-					if fs.Changed("signs") || fs.Changed("min") {
-						return fmt.Errorf("--dup: a duplicate group keeps the --signs and --min of its run; narrow it with --where or --segment instead")
-					}
-					ref, err := duplicates.ParseRef(dup)
-					if err != nil {
-						return err
-					}
-					g, grp, err := drill.DuplicateGroup(ctx, ws, ref)
-					if err != nil {
-						return err
-					}
-					// The run's population and the group's key, narrowed by
-					// any further selection given here.
-					userWhere := strings.TrimSpace(sel.Where)
-					sel.Spec = g.Spec
-					if runWhere := strings.TrimSpace(g.Where); userWhere != "" && runWhere != "" {
-						sel.Where = "(" + runWhere + ") AND (" + userWhere + ")"
-					} else if userWhere != "" {
-						sel.Where = userWhere
-					}
-					dupRecords = grp.Records
-					dupNarrowed = userWhere != "" || len(sel.Segments) > 0 || sel.Amount != "" || sel.Range != "" || sel.Bin != nil
-					sel.Extra = append(g.Extra, sel.Extra...)
-					sel.Described = append(g.Described, sel.Described...)
-				}
-				b, err := drill.Build(ctx, ws, sel)
-				if err != nil {
-					return err
-				}
-				sum, err := drill.Summarize(ctx, ws, b)
-				if err != nil {
-					return err
-				}
-				if dup != "" && !dupNarrowed && sum.Records != dupRecords {
-					fmt.Fprintf(e.stderr, "note: the duplicates run counted %d records in this group; the ledger now holds %d (files loaded or replaced since the run?)\n", dupRecords, sum.Records)
-				}
-				if sum.Records == 0 {
-					return drill.NoRecordsError(b)
-				}
-				if out != "" {
-					return drillExport(ctx, e.stdout, f.value, fs.Changed("limit"), b, sum, ro, gopt, out, ws)
-				}
-				if gopt.Column != "" {
-					gopt.Limit = ro.Limit
-					res, err := drill.Group(ctx, ws, b, gopt)
-					if err != nil {
-						return err
-					}
-					return printDrillGroups(e.stdout, f.value, b, sum, res)
-				}
-				t, more, err := drill.Records(ctx, ws, b, ro)
-				if err != nil {
-					return err
-				}
-				return printDrillRecords(e.stdout, f.value, b, sum, t, more)
-			}
-		},
+		flags: thin(drillFlags, runDrill),
 	})
+}
+
+// drillOptions are what drill's flags ask for.
+type drillOptions struct {
+	db      dbFlags
+	format  string
+	sel     drill.Selection
+	dup     string // RUN:TEST:GROUP of --dup
+	records drill.RecordOptions
+	group   drill.GroupOptions
+	out     string
+	// limitGiven: --limit was given, so --out writes only that many.
+	limitGiven bool
+}
+
+// drillFlags registers drill's flags; the function it returns checks them.
+func drillFlags(fs *pflag.FlagSet) func(args []string) (drillOptions, error) {
+	var o drillOptions
+	var f formatFlag
+	var bin int
+	sel := &o.sel
+	o.db.add(fs)
+	fs.StringVar(&sel.Test, "test", "", "digit test of the bin: first, second, first_two, first_three or last_two")
+	fs.IntVar(&bin, "bin", 0, "the bin, e.g. 47 for first_two")
+	fs.StringVar(&sel.LastTwo, "last-two", drill.LastTwoScale, "reading of the last_two test, as in the scan: scale (1234.56 -> 56) or units (1234.56 -> 34)")
+	fs.StringVar(&sel.Amount, "amount", "", "an exact amount, e.g. 1847.23")
+	fs.StringVar(&sel.Range, "range", "", "FROM:TO, records with FROM <= |amount| < TO")
+	fs.StringArrayVar(&sel.Segments, "segment", nil, "COLUMN=VALUE, e.g. counterparty=V00123 (repeatable)")
+	fs.StringVar(&o.dup, "dup", "", "a duplicate group RUN:TEST:GROUP from leadline dups, e.g. 7:same_amount:3")
+	fs.StringVar(&sel.Where, "where", "", `filter on the ledger's columns, e.g. "entity = 'KELP'" (read-only)`)
+	fs.StringVar(&sel.Signs, "signs", population.DefaultSigns, "amounts kept: positive, negative (as absolute values) or both")
+	fs.StringVar(&sel.Min, "min", population.DefaultMin, "smallest absolute amount kept")
+	fs.StringVar(&o.records.Sort, "sort", "", "sort the records by a column (default: file order)")
+	fs.BoolVar(&o.records.Desc, "desc", false, "sort in descending order")
+	fs.IntVar(&o.records.Limit, "limit", drill.DefaultLimit, "records (or groups) shown")
+	fs.StringVar(&o.group.Column, "group", "", "one row per value of this column: counterparty, user_id, account, entity, any original column, file_name, month")
+	fs.IntVar(&o.group.Top, "top-amounts", drill.DefaultTopAmounts, "repeated amounts listed per group")
+	fs.StringVar(&o.out, "out", "", "write every record (or group) to a .csv, .json or .parquet file")
+	f.add(fs)
+	return func(args []string) (drillOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		if fs.Changed("bin") {
+			b := bin
+			sel.Bin = &b
+		}
+		if o.records.Limit <= 0 {
+			return o, fmt.Errorf("--limit %d: give 1 or more", o.records.Limit)
+		}
+		if o.group.Top <= 0 {
+			return o, fmt.Errorf("--top-amounts %d: give 1 or more", o.group.Top)
+		}
+		if o.out != "" {
+			if _, err := drill.ExportFormat(o.out); err != nil {
+				return o, err
+			}
+		}
+		if o.dup != "" && (fs.Changed("signs") || fs.Changed("min")) {
+			return o, fmt.Errorf("--dup: a duplicate group keeps the --signs and --min of its run; narrow it with --where or --segment instead")
+		}
+		// Defaults apply unless the flag was given: a negative
+		// --amount then selects negative amounts by itself.
+		if !fs.Changed("signs") {
+			sel.Signs = ""
+		}
+		if !fs.Changed("min") {
+			sel.Min = ""
+		}
+		o.limitGiven = fs.Changed("limit")
+		o.format = f.value
+		return o, nil
+	}
+}
+
+// runDrill builds the selection (within a duplicate group's run for
+// --dup) and prints or exports its records or groups.
+func runDrill(ctx context.Context, e *env, o drillOptions) error {
+	sel := o.sel
+	ws, err := e.openWorkspace(ctx, o.db, true)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	var dupRecords int64
+	var dupNarrowed bool
+	if o.dup != "" {
+		ref, err := duplicates.ParseRef(o.dup)
+		if err != nil {
+			return err
+		}
+		g, grp, err := drill.DuplicateGroup(ctx, ws, ref)
+		if err != nil {
+			return err
+		}
+		// The run's population and the group's key, narrowed by
+		// any further selection given here.
+		userWhere := strings.TrimSpace(sel.Where)
+		sel.Spec = g.Spec
+		if runWhere := strings.TrimSpace(g.Where); userWhere != "" && runWhere != "" {
+			sel.Where = "(" + runWhere + ") AND (" + userWhere + ")"
+		} else if userWhere != "" {
+			sel.Where = userWhere
+		}
+		dupRecords = grp.Records
+		dupNarrowed = userWhere != "" || len(sel.Segments) > 0 || sel.Amount != "" || sel.Range != "" || sel.Bin != nil
+		sel.Extra = append(g.Extra, sel.Extra...)
+		sel.Described = append(g.Described, sel.Described...)
+	}
+	b, err := drill.Build(ctx, ws, sel)
+	if err != nil {
+		return err
+	}
+	sum, err := drill.Summarize(ctx, ws, b)
+	if err != nil {
+		return err
+	}
+	if o.dup != "" && !dupNarrowed && sum.Records != dupRecords {
+		fmt.Fprintf(e.stderr, "note: the duplicates run counted %d records in this group; the ledger now holds %d (files loaded or replaced since the run?)\n", dupRecords, sum.Records)
+	}
+	if sum.Records == 0 {
+		return drill.NoRecordsError(b)
+	}
+	if o.out != "" {
+		return drillExport(ctx, e.stdout, o.format, o.limitGiven, b, sum, o.records, o.group, o.out, ws)
+	}
+	if o.group.Column != "" {
+		gopt := o.group
+		gopt.Limit = o.records.Limit
+		res, err := drill.Group(ctx, ws, b, gopt)
+		if err != nil {
+			return err
+		}
+		return printDrillGroups(e.stdout, o.format, b, sum, res)
+	}
+	t, more, err := drill.Records(ctx, ws, b, o.records)
+	if err != nil {
+		return err
+	}
+	return printDrillRecords(e.stdout, o.format, b, sum, t, more)
 }
 
 // drillJSON is the document drill --format json prints (docs/json.md).
@@ -197,13 +221,13 @@ type drillJSON struct {
 func printDrillRecords(w io.Writer, format string, b *drill.Built, sum drill.Summary, t *tabular.Table, more bool) error {
 	switch format {
 	case "json":
-		return drillWriteJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total,
+		return writeJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total,
 			Shown: len(t.Rows), More: more, Columns: t.Columns, Rows: t.Records()})
 	case "csv":
 		return t.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "%s records, total %s", drillCount(sum.Records), sum.Total)
+	fmt.Fprintf(w, "%s records, total %s", numfmt.Int(sum.Records), sum.Total)
 	if more {
 		fmt.Fprintf(w, " (showing the first %d: --limit for more, --out FILE for all)", len(t.Rows))
 	}
@@ -223,13 +247,13 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 	switch format {
 	case "json":
 		g := res.GroupsTotal
-		return drillWriteJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total, GroupBy: res.Column,
+		return writeJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total, GroupBy: res.Column,
 			GroupsTotal: &g, Shown: len(res.Table.Rows), More: more, Columns: res.Table.Columns, Rows: res.Rows})
 	case "csv":
 		return res.Table.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", drillCount(sum.Records), sum.Total, drillCount(res.GroupsTotal), res.Column)
+	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", numfmt.Int(sum.Records), sum.Total, numfmt.Int(res.GroupsTotal), res.Column)
 	if more {
 		fmt.Fprintf(w, " (showing the %d with most records: --limit for more, --out FILE for all)", len(res.Table.Rows))
 	}
@@ -245,6 +269,9 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 func drillExport(ctx context.Context, w io.Writer, format string, limitGiven bool, b *drill.Built, sum drill.Summary,
 	ro drill.RecordOptions, g drill.GroupOptions, out string, ws *workspace.Workspace) error {
 	outFormat, _ := drill.ExportFormat(out)
+	if err := ws.CheckOutputFile(ctx, out); err != nil {
+		return err
+	}
 	if !limitGiven {
 		ro.Limit = 0 // every record
 	}
@@ -268,37 +295,14 @@ func drillExport(ctx context.Context, w io.Writer, format string, limitGiven boo
 		return err
 	}
 	if format == "json" {
-		return drillWriteJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total, GroupBy: g.Column,
+		return writeJSON(w, drillJSON{Selection: b.Description, Records: sum.Records, Total: sum.Total, GroupBy: g.Column,
 			Columns: []string{}, Rows: []map[string]any{}, Out: out, OutFormat: outFormat})
 	}
 	if n >= 0 {
-		fmt.Fprintf(w, "Wrote %s %s (of %s selected, total %s) to %s\n", drillCount(n), what, drillCount(sum.Records), sum.Total, out)
+		fmt.Fprintf(w, "Wrote %s %s (of %s selected, total %s) to %s\n", numfmt.Int(n), what, numfmt.Int(sum.Records), sum.Total, out)
 	} else {
-		fmt.Fprintf(w, "Wrote the %s by %s of %s records (total %s) to %s\n", what, g.Column, drillCount(sum.Records), sum.Total, out)
+		fmt.Fprintf(w, "Wrote the %s by %s of %s records (total %s) to %s\n", what, g.Column, numfmt.Int(sum.Records), sum.Total, out)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
 	return nil
-}
-
-// drillCount writes a count with thousands separators: 1234567 -> 1,234,567.
-func drillCount(n int64) string {
-	s := fmt.Sprint(n)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	for i := len(s) - 3; i > 0; i -= 3 {
-		s = s[:i] + "," + s[i:]
-	}
-	if neg {
-		s = "-" + s
-	}
-	return s
-}
-
-// drillWriteJSON writes v indented, without escaping <, > and & (the
-// selection reads "|amount| >= 10").
-func drillWriteJSON(w io.Writer, v any) error {
-	enc := json.NewEncoder(w)
-	enc.SetEscapeHTML(false)
-	enc.SetIndent("", "  ")
-	return enc.Encode(v)
 }

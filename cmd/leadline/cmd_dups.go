@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/spf13/pflag"
@@ -47,52 +48,67 @@ Examples:
   leadline dups --window-days 10 --tests same_amount,exact
   leadline dups --signs both --min 0 --where "source = 'AP'" --top 50
   leadline dups --format json > dups.json`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var o duplicates.Options
-			var tests string
-			db.add(fs)
-			fs.StringVar(&tests, "tests", strings.Join(duplicates.Tests, ","), "tests to run, comma-separated")
-			fs.IntVar(&o.WindowDays, "window-days", 0, "same_amount: only documents within this many days of each other (0: any dates)")
-			fs.IntVar(&o.MinCounterparties, "min-counterparties", duplicates.DefaultMinCounterparties, "spread: counterparties an amount must reach")
-			fs.IntVar(&o.MinRecords, "min-records", duplicates.DefaultMinRecords, "rsf: records a counterparty must have")
-			fs.IntVar(&o.Top, "top", duplicates.DefaultTop, "groups kept per test, largest first (-1: all)")
-			fs.StringVar(&o.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
-			fs.StringVar(&o.Min, "min", population.DefaultMin, "smallest absolute amount tested")
-			fs.StringVar(&o.Where, "where", "", `filter on the ledger's columns, e.g. "source = 'AP'" (read-only)`)
-			f.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				for _, t := range strings.Split(tests, ",") {
-					if t = strings.TrimSpace(t); t != "" {
-						o.Tests = append(o.Tests, t)
-					}
-				}
-				if o.Top == 0 {
-					return fmt.Errorf("--top 0: give a number of groups, or -1 for all")
-				}
-				ws, err := db.open(ctx, false)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				res, err := duplicates.Run(ctx, ws, o)
-				if err != nil {
-					return err
-				}
-				if err := duplicates.Save(ctx, ws, res); err != nil {
-					return err
-				}
-				return printDups(e.stdout, f.value, res, db.path)
-			}
-		},
+		flags: thin(dupsFlags, runDups),
 	})
+}
+
+// dupsOptions are what dups' flags ask for.
+type dupsOptions struct {
+	db     dbFlags
+	format string
+	dups   duplicates.Options
+}
+
+// dupsFlags registers dups' flags; the function it returns checks them.
+func dupsFlags(fs *pflag.FlagSet) func(args []string) (dupsOptions, error) {
+	var o dupsOptions
+	var f formatFlag
+	var tests string
+	o.db.add(fs)
+	fs.StringVar(&tests, "tests", strings.Join(duplicates.Tests, ","), "tests to run, comma-separated")
+	fs.IntVar(&o.dups.WindowDays, "window-days", 0, "same_amount: only documents within this many days of each other (0: any dates)")
+	fs.IntVar(&o.dups.MinCounterparties, "min-counterparties", duplicates.DefaultMinCounterparties, "spread: counterparties an amount must reach")
+	fs.IntVar(&o.dups.MinRecords, "min-records", duplicates.DefaultMinRecords, "rsf: records a counterparty must have")
+	fs.IntVar(&o.dups.Top, "top", duplicates.DefaultTop, "groups kept per test, largest first (-1: all)")
+	fs.StringVar(&o.dups.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
+	fs.StringVar(&o.dups.Min, "min", population.DefaultMin, "smallest absolute amount tested")
+	fs.StringVar(&o.dups.Where, "where", "", `filter on the ledger's columns, e.g. "source = 'AP'" (read-only)`)
+	f.add(fs)
+	return func(args []string) (dupsOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		for _, t := range strings.Split(tests, ",") {
+			if t = strings.TrimSpace(t); t != "" {
+				o.dups.Tests = append(o.dups.Tests, t)
+			}
+		}
+		if o.dups.Top == 0 {
+			return o, fmt.Errorf("--top 0: give a number of groups, or -1 for all")
+		}
+		o.format = f.value
+		return o, nil
+	}
+}
+
+// runDups runs the duplicate tests, stores the run and prints it.
+func runDups(ctx context.Context, e *env, o dupsOptions) error {
+	ws, err := e.openWorkspace(ctx, o.db, false)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	res, err := duplicates.Run(ctx, ws, o.dups)
+	if err != nil {
+		return err
+	}
+	if err := duplicates.Save(ctx, ws, res); err != nil {
+		return err
+	}
+	return printDups(e.stdout, o.format, res, o.db.path)
 }
 
 // dupsColumns are the columns of each test's table in the terminal, and of
@@ -158,7 +174,7 @@ func dupsValue(g duplicates.Group, col string) any {
 func printDups(w io.Writer, format string, res *duplicates.Result, dbPath string) error {
 	switch format {
 	case "json":
-		return drillWriteJSON(w, res)
+		return writeJSON(w, res)
 	case "csv":
 		t := &tabular.Table{Columns: dupsCSVColumns}
 		for _, tr := range res.Tests {
@@ -195,7 +211,7 @@ func printDups(w io.Writer, format string, res *duplicates.Result, dbPath string
 	if strings.TrimSpace(o.Where) != "" {
 		pop += ", where " + strings.TrimSpace(o.Where)
 	}
-	fmt.Fprintf(w, "Duplicate tests (run %d) over %s records (%s) in %.1fs\n", res.RunID, drillCount(res.RecordsTested), pop, res.Seconds)
+	fmt.Fprintf(w, "Duplicate tests (run %d) over %s records (%s) in %.1fs\n", res.RunID, numfmt.Int(res.RecordsTested), pop, res.Seconds)
 	firstRef := ""
 	for _, tr := range res.Tests {
 		fmt.Fprintf(w, "\n%s [%s]\n", tr.Title, tr.Test)
@@ -215,7 +231,7 @@ func printDups(w io.Writer, format string, res *duplicates.Result, dbPath string
 		if tr.Test == duplicates.SameAmount && o.WindowDays > 0 {
 			extra = fmt.Sprintf(", documents within %d days", o.WindowDays)
 		}
-		fmt.Fprintf(w, "  %s groups holding %s records%s; ranked by %s%s\n\n", drillCount(tr.GroupsTotal), drillCount(tr.RecordsTotal), extra, tr.Ranking, shown)
+		fmt.Fprintf(w, "  %s groups holding %s records%s; ranked by %s%s\n\n", numfmt.Int(tr.GroupsTotal), numfmt.Int(tr.RecordsTotal), extra, tr.Ranking, shown)
 		t := &tabular.Table{Columns: dupsColumns[tr.Test]}
 		for _, g := range tr.Groups {
 			row := make([]any, 0, len(t.Columns))

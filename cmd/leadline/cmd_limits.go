@@ -9,7 +9,9 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -50,59 +52,74 @@ Examples:
   leadline limits --limits 1000,5000,10000 --by user_id
   leadline limits --by entity --by month --top 30
   leadline limits --limits 2500 --width 0.05 --where "source = 'AP'" --format json`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var pop bandPopulation
-			var texts []string
-			var top int
-			o := limits.Options{}
-			db.add(fs)
-			fs.StringSliceVar(&texts, "limits", nil, "limits to probe, e.g. 1000,5000,10000 (default: round values within the amounts)")
-			fs.Float64Var(&o.Width, "width", limits.DefaultWidth, "band width on each side, as a fraction of the limit (0 < width < 1)")
-			fs.StringSliceVar(&o.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
-			fs.Int64Var(&o.MinCount, "min-count", limits.DefaultMinCount, "fewest amounts in a band (below + above) for its limit to be tested")
-			fs.IntVar(&top, "top", 20, "rows to print in text format (0 = all tested)")
-			pop.add(fs)
-			f.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				if fs.Changed("limits") {
-					l, err := limits.ParseLimits(texts)
-					if err != nil {
-						return err
-					}
-					if len(l) == 0 {
-						return fmt.Errorf("--limits: give at least one limit, e.g. --limits 5000")
-					}
-					o.Limits = l
-				}
-				if err := limits.CheckWidth(o.Width); err != nil {
-					return err
-				}
-				o.Spec = pop.base()
-				started := time.Now()
-				ws, err := db.open(ctx, false)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				rep, err := limits.Run(ctx, ws, o)
-				if err != nil {
-					return err
-				}
-				if err := saveRun(ctx, ws, "limits", started, o, rep, func(id int64) { rep.RunID = id }); err != nil {
-					return err
-				}
-				return printLimits(e.stdout, f.value, rep, top)
-			}
-		},
+		flags: thin(limitsFlags, runLimits),
 	})
+}
+
+// limitsOptions are what limits' flags ask for.
+type limitsOptions struct {
+	db     dbFlags
+	format string
+	limits limits.Options
+	top    int
+}
+
+// limitsFlags registers limits' flags; the function it returns checks them.
+func limitsFlags(fs *pflag.FlagSet) func(args []string) (limitsOptions, error) {
+	var o limitsOptions
+	var f formatFlag
+	var pop bandPopulation
+	var texts []string
+	o.db.add(fs)
+	fs.StringSliceVar(&texts, "limits", nil, "limits to probe, e.g. 1000,5000,10000 (default: round values within the amounts)")
+	fs.Float64Var(&o.limits.Width, "width", limits.DefaultWidth, "band width on each side, as a fraction of the limit (0 < width < 1)")
+	fs.StringSliceVar(&o.limits.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+	fs.Int64Var(&o.limits.MinCount, "min-count", limits.DefaultMinCount, "fewest amounts in a band (below + above) for its limit to be tested")
+	fs.IntVar(&o.top, "top", 20, "rows to print in text format (0 = all tested)")
+	pop.add(fs)
+	f.add(fs)
+	return func(args []string) (limitsOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		if fs.Changed("limits") {
+			l, err := limits.ParseLimits(texts)
+			if err != nil {
+				return o, err
+			}
+			if len(l) == 0 {
+				return o, fmt.Errorf("--limits: give at least one limit, e.g. --limits 5000")
+			}
+			o.limits.Limits = l
+		}
+		if err := limits.CheckWidth(o.limits.Width); err != nil {
+			return o, err
+		}
+		o.limits.Spec = pop.base()
+		o.format = f.value
+		return o, nil
+	}
+}
+
+// runLimits runs the probe, stores the run and prints it.
+func runLimits(ctx context.Context, e *env, o limitsOptions) error {
+	started := time.Now()
+	ws, err := e.openWorkspace(ctx, o.db, false)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	rep, err := limits.Run(ctx, ws, o.limits)
+	if err != nil {
+		return err
+	}
+	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "limits", Started: started, Params: o.limits, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+		return err
+	}
+	return printLimits(e.stdout, o.format, rep, o.top)
 }
 
 func printLimits(w io.Writer, format string, rep *limits.Report, top int) error {
@@ -158,8 +175,8 @@ func printLimits(w io.Writer, format string, rep *limits.Report, top int) error 
 			break
 		}
 		row := append([]any{r.Rank}, segCell(r)...)
-		row = append(row, bf.num(r.Limit), r.Range, bf.count(r.Below), bf.count(r.Above), fmt.Sprintf("%.3f", r.ObservedRatio),
-			bf.count(int64(math.Round(r.Excess))), bf.count(int64(math.Round(r.ExcessVsAbove))), fmt.Sprintf("%.1f", r.Z), bf.p(r.PAdjusted), bf.flag(r.Flagged))
+		row = append(row, bf.num(r.Limit), r.Range, numfmt.Int(r.Below), numfmt.Int(r.Above), fmt.Sprintf("%.3f", r.ObservedRatio),
+			numfmt.Int(int64(math.Round(r.Excess))), numfmt.Int(int64(math.Round(r.ExcessVsAbove))), fmt.Sprintf("%.1f", r.Z), bf.p(r.PAdjusted), bf.flag(r.Flagged))
 		t.Add(row...)
 		shown++
 	}

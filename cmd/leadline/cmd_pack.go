@@ -38,47 +38,66 @@ Examples:
   leadline pack init extracts/gl_2025.csv --out acme.toml --client "Acme Group" --period FY2025
   leadline pack check acme.toml
   leadline run acme.toml --out results`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var o packCmdOptions
-			fs.StringVar(&o.out, "out", "", "init, example: the pack file to write (default: SAMPLE's name with .toml; example.toml)")
-			fs.StringVar(&o.name, "name", "", "init: the pack's name (default: the sample's file name)")
-			fs.StringVar(&o.client, "client", "", "init: the client's name")
-			fs.StringVar(&o.period, "period", "", "init: the period the extract covers")
-			fs.BoolVar(&o.force, "force", false, "init, example: overwrite an existing pack file")
-			fs.StringVar(&o.format, "format", "text", "check: text or json")
-			return func(ctx context.Context, args []string, e *env) error {
-				if len(args) == 0 {
-					return fmt.Errorf("give a subcommand: init, check or example (see --help)")
-				}
-				switch args[0] {
-				case "init":
-					if len(args) != 2 {
-						return fmt.Errorf("pack init takes one sample file")
-					}
-					return packInit(ctx, e, args[1], o)
-				case "check":
-					if len(args) != 2 {
-						return fmt.Errorf("pack check takes one pack file")
-					}
-					return packCheck(ctx, e, args[1], o)
-				case "example":
-					if len(args) != 1 {
-						return fmt.Errorf("pack example takes no arguments")
-					}
-					if o.out == "" {
-						o.out = "example.toml"
-					}
-					return writeNew(e, o.out, packs.Example(), o.force, "example pack")
-				}
-				return fmt.Errorf("unknown subcommand %q: give init, check or example", args[0])
-			}
-		},
+		flags: thin(packFlags, runPackCmd),
 	})
 }
 
+// packCmdOptions are what pack's flags and arguments ask for.
 type packCmdOptions struct {
+	sub, file                         string // subcommand and its file
 	out, name, client, period, format string
 	force                             bool
+}
+
+// packFlags registers pack's flags; the function it returns checks the
+// subcommand and its arguments.
+func packFlags(fs *pflag.FlagSet) func(args []string) (packCmdOptions, error) {
+	var o packCmdOptions
+	fs.StringVar(&o.out, "out", "", "init, example: the pack file to write (default: SAMPLE's name with .toml; example.toml)")
+	fs.StringVar(&o.name, "name", "", "init: the pack's name (default: the sample's file name)")
+	fs.StringVar(&o.client, "client", "", "init: the client's name")
+	fs.StringVar(&o.period, "period", "", "init: the period the extract covers")
+	fs.BoolVar(&o.force, "force", false, "init, example: overwrite an existing pack file")
+	fs.StringVar(&o.format, "format", "text", "check: text or json")
+	return func(args []string) (packCmdOptions, error) {
+		if len(args) == 0 {
+			return o, fmt.Errorf("give a subcommand: init, check or example (see --help)")
+		}
+		o.sub = args[0]
+		switch args[0] {
+		case "init":
+			if len(args) != 2 {
+				return o, fmt.Errorf("pack init takes one sample file")
+			}
+			o.file = args[1]
+		case "check":
+			if len(args) != 2 {
+				return o, fmt.Errorf("pack check takes one pack file")
+			}
+			o.file = args[1]
+		case "example":
+			if len(args) != 1 {
+				return o, fmt.Errorf("pack example takes no arguments")
+			}
+			if o.out == "" {
+				o.out = "example.toml"
+			}
+		default:
+			return o, fmt.Errorf("unknown subcommand %q: give init, check or example", args[0])
+		}
+		return o, nil
+	}
+}
+
+// runPackCmd runs the pack subcommand.
+func runPackCmd(ctx context.Context, e *env, o packCmdOptions) error {
+	switch o.sub {
+	case "init":
+		return packInit(ctx, e, o.file, o)
+	case "check":
+		return packCheck(ctx, e, o.file, o)
+	}
+	return writeNew(e, o.out, packs.Example(), o.force, "example pack")
 }
 
 func packInit(ctx context.Context, e *env, sample string, o packCmdOptions) error {

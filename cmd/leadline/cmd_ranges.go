@@ -9,9 +9,11 @@ import (
 	"strings"
 	"time"
 
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -45,46 +47,61 @@ Examples:
   leadline ranges --width 500 --from 0 --to 20000   # fixed-width bands of 500
   leadline ranges --per-decade 20 --where "entity = 'KELP'"
   leadline ranges --width 1000 --to 50000 --signs negative --format csv > bands.csv`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var pop bandPopulation
-			var o ranges.Options
-			db.add(fs)
-			fs.Float64Var(&o.Width, "width", 0, "fixed band width in currency units, e.g. 500 (default: logarithmic bands)")
-			fs.IntVar(&o.PerDecade, "per-decade", 0, "logarithmic bands to a decade (default 10 when --width is not given)")
-			fs.Float64Var(&o.From, "from", 0, "start of the bands (default: 0 for fixed-width bands, the smallest tested amount for logarithmic ones)")
-			fs.Float64Var(&o.To, "to", 0, "end of the bands (default: the largest tested amount)")
-			pop.add(fs)
-			f.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				o.Spec = pop.base()
-				if err := o.Layout.Check(); err != nil {
-					return err
-				}
-				started := time.Now()
-				ws, err := db.open(ctx, false)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				rep, err := ranges.Run(ctx, ws, o)
-				if err != nil {
-					return err
-				}
-				if err := saveRun(ctx, ws, "ranges", started, o, rep, func(id int64) { rep.RunID = id }); err != nil {
-					return err
-				}
-				return printRanges(e.stdout, f.value, rep)
-			}
-		},
+		flags: thin(rangesFlags, runRanges),
 	})
+}
+
+// rangesOptions are what ranges' flags ask for.
+type rangesOptions struct {
+	db     dbFlags
+	format string
+	ranges ranges.Options
+}
+
+// rangesFlags registers ranges' flags; the function it returns checks them.
+func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
+	var o rangesOptions
+	var f formatFlag
+	var pop bandPopulation
+	o.db.add(fs)
+	fs.Float64Var(&o.ranges.Width, "width", 0, "fixed band width in currency units, e.g. 500 (default: logarithmic bands)")
+	fs.IntVar(&o.ranges.PerDecade, "per-decade", 0, "logarithmic bands to a decade (default 10 when --width is not given)")
+	fs.Float64Var(&o.ranges.From, "from", 0, "start of the bands (default: 0 for fixed-width bands, the smallest tested amount for logarithmic ones)")
+	fs.Float64Var(&o.ranges.To, "to", 0, "end of the bands (default: the largest tested amount)")
+	pop.add(fs)
+	f.add(fs)
+	return func(args []string) (rangesOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		o.ranges.Spec = pop.base()
+		if err := o.ranges.Layout.Check(); err != nil {
+			return o, err
+		}
+		o.format = f.value
+		return o, nil
+	}
+}
+
+// runRanges counts the bands, stores the run and prints it.
+func runRanges(ctx context.Context, e *env, o rangesOptions) error {
+	started := time.Now()
+	ws, err := e.openWorkspace(ctx, o.db, false)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	rep, err := ranges.Run(ctx, ws, o.ranges)
+	if err != nil {
+		return err
+	}
+	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "ranges", Started: started, Params: o.ranges, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+		return err
+	}
+	return printRanges(e.stdout, o.format, rep)
 }
 
 // bandPopulation are the flags that choose the amounts tested, as in the
@@ -106,15 +123,15 @@ func (p *bandPopulation) base() population.Spec {
 // bandPopulationLine describes the amounts tested and what was left out.
 func bandPopulationLine(b population.Spec, c ranges.Counts) string {
 	other := map[string]string{"positive": "negative", "negative": "positive"}[b.Signs]
-	s := fmt.Sprintf("%s amounts tested (%s, |amount| >= %s", bf.count(c.Tested), b.Signs, b.Min)
+	s := fmt.Sprintf("%s amounts tested (%s, |amount| >= %s", numfmt.Int(c.Tested), b.Signs, b.Min)
 	if strings.TrimSpace(b.Where) != "" {
 		s += ", where " + strings.TrimSpace(b.Where)
 	}
-	s += fmt.Sprintf("); left out: %s zero", bf.count(c.Zero))
+	s += fmt.Sprintf("); left out: %s zero", numfmt.Int(c.Zero))
 	if other != "" {
-		s += fmt.Sprintf(", %s %s", bf.count(c.OtherSign), other)
+		s += fmt.Sprintf(", %s %s", numfmt.Int(c.OtherSign), other)
 	}
-	s += fmt.Sprintf(", %s below %s", bf.count(c.BelowMin), b.Min)
+	s += fmt.Sprintf(", %s below %s", numfmt.Int(c.BelowMin), b.Min)
 	return s
 }
 
@@ -137,17 +154,17 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 	} else {
 		fmt.Fprintf(w, "Bands: %d logarithmic, %d to a decade, from %s to %s", len(rep.Bands), l.PerDecade, ranges.AmountText(l.From, scale), ranges.AmountText(l.To, scale))
 	}
-	fmt.Fprintf(w, "; %s tested amounts below the first band, %s at or above the end of the last\n", bf.count(rep.BelowBands), bf.count(rep.AboveBands))
+	fmt.Fprintf(w, "; %s tested amounts below the first band, %s at or above the end of the last\n", numfmt.Int(rep.BelowBands), numfmt.Int(rep.AboveBands))
 	fmt.Fprintf(w, "Each band against a smooth expectation from its neighbours; dispersion %.2f; %d bands scored, Holm-adjusted at 5%%: %d flagged\n\n",
 		rep.Dispersion, rep.Scored, rep.Flagged)
 	t.Columns = []string{"from", "to", "count", "expected", "ratio", "z", "p_adjusted", "flag", "note"}
 	for _, b := range rep.Bands {
 		if !b.Scored {
-			t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), bf.count(b.Count), "", "", "", "", "", b.Note)
+			t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), numfmt.Int(b.Count), "", "", "", "", "", b.Note)
 			continue
 		}
-		t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), bf.count(b.Count),
-			bf.count(int64(b.Expected+0.5)), fmt.Sprintf("%.2f", b.Ratio), fmt.Sprintf("%.1f", b.Z),
+		t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), numfmt.Int(b.Count),
+			numfmt.Int(int64(b.Expected+0.5)), fmt.Sprintf("%.2f", b.Ratio), fmt.Sprintf("%.1f", b.Z),
 			bf.p(b.PAdjusted), bf.flag(b.Flagged), b.Note)
 	}
 	if err := t.WriteText(w, 0); err != nil {
@@ -165,7 +182,7 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 		}
 		fmt.Fprintf(w, "  %s to %s: %d band(s), %s amounts against %s expected (excess %s)\n    %s\n",
 			ranges.AmountText(s.From, scale), ranges.AmountText(s.To, scale), s.Bands,
-			bf.count(s.Count), bf.count(int64(s.Expected+0.5)), bf.count(int64(math.Round(s.Excess))), s.Drill)
+			numfmt.Int(s.Count), numfmt.Int(int64(s.Expected+0.5)), numfmt.Int(int64(math.Round(s.Excess))), s.Drill)
 	}
 	return nil
 }
@@ -183,24 +200,6 @@ func (bandFormat) scale(t string) int {
 		}
 	}
 	return 2
-}
-
-// count writes n with thousands separators: 1234567 -> 1,234,567.
-func (bandFormat) count(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, r := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(r)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
 }
 
 func (bandFormat) num(v float64) string { return strconv.FormatFloat(v, 'f', -1, 64) }

@@ -38,39 +38,52 @@ Examples:
   leadline report                              # ./report.html from ./leadline.duckdb
   leadline report --db acme.duckdb --out acme-fy2025.html
   leadline report 4 7 9 --out selected.html    # only runs 4, 7 and 9`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var out, title string
-			db.add(fs)
-			fs.StringVar(&out, "out", "report.html", "the HTML file to write")
-			fs.StringVar(&title, "title", "", `the report's heading (default "leadline report")`)
-			return func(ctx context.Context, args []string, e *env) error {
-				opts := report.Options{Title: title}
-				for _, a := range args {
-					id, err := strconv.ParseInt(a, 10, 64)
-					if err != nil || id <= 0 {
-						return fmt.Errorf("%q is not a run id: give run ids as whole numbers (list them with: leadline sql \"SELECT run_id, kind, started_at FROM runs\")", a)
-					}
-					opts.RunIDs = append(opts.RunIDs, id)
-				}
-				return runReport(ctx, e, db, out, opts)
-			}
-		},
+		flags: thin(reportFlags, runReport),
 	})
 }
 
-func runReport(ctx context.Context, e *env, db dbFlags, out string, opts report.Options) error {
-	ws, err := db.open(ctx, true)
+// reportOptions are what report's flags and arguments ask for.
+type reportOptions struct {
+	db     dbFlags
+	out    string
+	report report.Options
+}
+
+// reportFlags registers report's flags; the function it returns reads the
+// run ids from the arguments.
+func reportFlags(fs *pflag.FlagSet) func(args []string) (reportOptions, error) {
+	var o reportOptions
+	o.db.add(fs)
+	fs.StringVar(&o.out, "out", "report.html", "the HTML file to write")
+	fs.StringVar(&o.report.Title, "title", "", `the report's heading (default "leadline report")`)
+	return func(args []string) (reportOptions, error) {
+		for _, a := range args {
+			id, err := strconv.ParseInt(a, 10, 64)
+			if err != nil || id <= 0 {
+				return o, fmt.Errorf("%q is not a run id: give run ids as whole numbers (list them with: leadline sql \"SELECT run_id, kind, started_at FROM runs\")", a)
+			}
+			o.report.RunIDs = append(o.report.RunIDs, id)
+		}
+		return o, nil
+	}
+}
+
+// runReport writes the report file and prints its absolute path.
+func runReport(ctx context.Context, e *env, o reportOptions) error {
+	ws, err := e.openWorkspace(ctx, o.db, true)
 	if err != nil {
 		return err
 	}
 	defer ws.Close()
-	if err := report.WriteFile(ctx, ws, out, opts); err != nil {
+	if err := ws.CheckOutputFile(ctx, o.out); err != nil {
 		return err
 	}
-	abs, err := filepath.Abs(out)
+	if err := report.WriteFile(ctx, ws, o.out, o.report); err != nil {
+		return err
+	}
+	abs, err := filepath.Abs(o.out)
 	if err != nil {
-		abs = out
+		abs = o.out
 	}
 	fmt.Fprintln(e.stdout, abs)
 	return nil

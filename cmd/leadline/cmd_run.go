@@ -41,29 +41,35 @@ could not complete (the others ran and DIR was written); 1 other errors.
 Examples:
   leadline run client.toml --out results-2025q4
   leadline run client.toml --out results --fresh     # reload even if the inputs are unchanged`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var o runCmdOptions
-			fs.StringVar(&o.out, "out", "", "output folder (required)")
-			fs.BoolVar(&o.fresh, "fresh", false, "reload the workspace even when the inputs are unchanged")
-			fs.BoolVarP(&o.quiet, "quiet", "q", false, "print only problems and the output folder")
-			fs.StringVar(&o.format, "format", "text", "what to print: text, or json (the manifest)")
-			return func(ctx context.Context, args []string, e *env) error {
-				if len(args) != 1 {
-					return fmt.Errorf("give one pack file (see --help)")
-				}
-				o.pack = args[0]
-				return runPack(ctx, e, o)
-			}
-		},
+		flags: thin(runFlags, runPack),
 	})
 }
 
+// runFlags registers run's flags; the function it returns takes the pack
+// file from the one argument.
+func runFlags(fs *pflag.FlagSet) func(args []string) (runCmdOptions, error) {
+	var o runCmdOptions
+	fs.StringVar(&o.out, "out", "", "output folder (required)")
+	fs.BoolVar(&o.fresh, "fresh", false, "reload the workspace even when the inputs are unchanged")
+	fs.BoolVarP(&o.quiet, "quiet", "q", false, "print only problems and the output folder")
+	fs.StringVar(&o.format, "format", "text", "what to print: text, or json (the manifest)")
+	return func(args []string) (runCmdOptions, error) {
+		if len(args) != 1 {
+			return o, fmt.Errorf("give one pack file (see --help)")
+		}
+		o.pack = args[0]
+		return o, nil
+	}
+}
+
+// runCmdOptions are what run's flags and argument ask for.
 type runCmdOptions struct {
 	pack, out, format string
 	fresh, quiet      bool
 	extra             []output.Writer
 }
 
+// runPack checks and runs the pack and prints its summary or manifest.
 func runPack(ctx context.Context, e *env, o runCmdOptions) error {
 	if o.format != "text" && o.format != "json" {
 		return fmt.Errorf("--format %q: give text or json", o.format)

@@ -12,7 +12,10 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -31,7 +34,16 @@ query each. Digits come from the exact decimal amount, never from a float:
 0.29 has first three digits 290, 10.00 has 100, 99.99 has 999. The last
 two digits are the two rightmost digits of the amount as the ledger writes
 it (1234.56 -> 56); --last-two units reads them from the whole-currency
-part (1234.56 -> 34), as is often done for whole-number amounts.
+part (1234.56 -> 34), as is often done for whole-number amounts. The
+last-two test takes only amounts whose two digits read are the fourth
+significant digit or later (at least 100.00 at scale 2, 10,000 for whole
+numbers or --last-two units), where they are close to uniform; for 10.00
+to 99.99 the cents are the third and fourth significant digits, which
+Benford's law does not spread evenly. The output says how many amounts it
+left out; --last-two-all tests them all. In the second-order test, bins
+10, 20, ..., 90 hold every difference of 1 to 9 units of the ledger's
+scale, a surplus the discreteness of the amounts explains: they are not
+flagged.
 
 Which amounts: positive amounts by default (--signs), because debits and
 credits (invoices and credit notes, payments and refunds) are different
@@ -53,6 +65,14 @@ tested amounts (1,000 by default: below that the smallest first-two bins
 expect fewer than about four amounts each) are listed as too small to
 judge, not ranked.
 
+A bin is flagged when its count is beyond chance and material: its exact
+binomial p-value, adjusted by Holm's step-down over the test's bins, is
+below 5% (so a population that follows Benford's law has a flagged bin in
+at most 5% of tests, at any N and in any segment), and it is off by at
+least --min-excess (20%) of its expected share, or that share of 2.5
+percentage points of N when the bin expects more than 2.5%. The per-bin
+Z-statistic and its 1.96 bounds stay in the tables as the trade's
+reference: they mark about 5% of the bins of any population by chance.
 A flagged bin, test or segment is a signal for follow-up, never proof of
 fraud. Drill into a bin with: leadline drill --test first_two --bin 47.
 
@@ -73,58 +93,89 @@ and the results, rankings and notes are those of a local scan of the same
 records; the population is the query's, and the run records the engine,
 the query's SHA-256 and each file's.
   leadline scan --counts shard1.csv,shard2.csv --count-query gl.sql --by entity`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var pop bandPopulation
-			var tests []string
-			var rankRows int
-			var allBins bool
-			var counts countsFlags
-			o := battery.Options{}
-			db.add(fs)
-			fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
-			pop.add(fs)
-			fs.StringSliceVar(&o.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
-			fs.Int64Var(&o.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
-			fs.StringVar(&o.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
-			fs.IntVar(&o.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
-			fs.IntVar(&rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
-			fs.BoolVar(&allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
-			f.add(fs)
-			counts.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				var err error
-				if o.Tests, o.Duplication, err = battery.ParseTests(tests); err != nil {
-					return err
-				}
-				if counts.given() {
-					return scanCounts(ctx, fs, db, f.value, o, counts, scanPrint{rankRows: rankRows, allBins: allBins}, e)
-				}
-				o.Spec = pop.base()
-				started := time.Now()
-				ws, err := db.open(ctx, false)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				rep, err := battery.Run(ctx, ws, o)
-				if err != nil {
-					return err
-				}
-				if err := saveRun(ctx, ws, "scan", started, rep.Params, rep, func(id int64) { rep.RunID = id }); err != nil {
-					return err
-				}
-				return printScan(e.stdout, f.value, rep, scanPrint{rankRows: rankRows, allBins: allBins})
-			}
-		},
+		flags: thin(scanFlags, runScan),
 	})
+}
+
+// scanOptions are what scan's flags ask for.
+type scanOptions struct {
+	db      dbFlags
+	format  string
+	battery battery.Options
+	print   scanPrint
+	counts  countsFlags // --counts, --count-query: the battery on counts made elsewhere
+}
+
+// scanFlags registers scan's flags; the function it returns checks them.
+func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
+	var o scanOptions
+	var f formatFlag
+	var pop bandPopulation
+	var tests []string
+	o.db.add(fs)
+	fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
+	pop.add(fs)
+	fs.StringSliceVar(&o.battery.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+	fs.Int64Var(&o.battery.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
+	fs.StringVar(&o.battery.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
+	fs.IntVar(&o.battery.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
+	fs.BoolVar(&o.battery.LastTwoAll, "last-two-all", false, "last-two digits test on every amount (default: only where the two digits read are the fourth significant digit or later, e.g. amounts of 100.00 and more at scale 2)")
+	minExcess := fs.Float64("min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin is off by at least this share of its expectation (capped at this times 2.5 percentage points of N); 0 flags on significance alone")
+	fs.IntVar(&o.print.rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
+	fs.BoolVar(&o.print.allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
+	f.add(fs)
+	o.counts.add(fs)
+	return func(args []string) (scanOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		var err error
+		if o.battery.Tests, o.battery.Duplication, err = battery.ParseTests(tests); err != nil {
+			return o, err
+		}
+		if o.counts.given() {
+			if err := o.counts.check(fs); err != nil {
+				return o, err
+			}
+			if !fs.Changed("tests") {
+				o.battery.Tests, o.battery.Duplication = battery.CountTests(), false
+			}
+		}
+		o.battery.Spec = pop.base()
+		m := *minExcess
+		o.battery.MinExcess = &m
+		o.format = f.value
+		return o, nil
+	}
+}
+
+// runScan runs the battery, stores the run and prints it.
+func runScan(ctx context.Context, e *env, o scanOptions) error {
+	if o.counts.given() {
+		return scanCounts(ctx, e, o)
+	}
+	started := time.Now()
+	ws, err := e.openWorkspace(ctx, o.db, false)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	rep, err := battery.Run(ctx, ws, o.battery)
+	if err != nil {
+		return err
+	}
+	in, err := load.Inputs(ctx, ws)
+	if err != nil {
+		return err
+	}
+	rep.Input = &battery.Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
+	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+		return err
+	}
+	return printScan(e.stdout, o.format, rep, o.print)
 }
 
 type scanPrint struct {
@@ -175,23 +226,27 @@ func scanBinsTable(rep *battery.Report) *tabular.Table {
 func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 	p := rep.Params
 	x := rep.Exclusions
-	fmt.Fprintf(w, "Digit battery (run %d): %s amounts tested (%s, |amount| >= %s", rep.RunID, bf.count(rep.Tested), p.Signs, p.Min)
+	fmt.Fprintf(w, "Digit battery (run %d): %s amounts tested (%s, |amount| >= %s", rep.RunID, numfmt.Int(rep.Tested), p.Signs, p.Min)
 	if strings.TrimSpace(p.Where) != "" {
 		fmt.Fprintf(w, ", where %s", strings.TrimSpace(p.Where))
 	}
-	fmt.Fprintf(w, ") of %s rows\n", bf.count(rep.Rows))
+	fmt.Fprintf(w, ") of %s rows\n", numfmt.Int(rep.Rows))
+	if in := rep.Input; in != nil {
+		fmt.Fprintf(w, "Input: %s rows read from %d file(s) = %s loaded + %s rejected at load (%.2f%% rejected).\n",
+			numfmt.Int(in.RowsRead), in.Files, numfmt.Int(in.RowsLoaded), numfmt.Int(in.RowsRejected), 100*in.RejectedShare)
+	}
 	var left []string
 	if x.Filtered > 0 {
-		left = append(left, bf.count(x.Filtered)+" by the filter")
+		left = append(left, numfmt.Int(x.Filtered)+" by the filter")
 	}
-	left = append(left, bf.count(x.Zero)+" zero")
+	left = append(left, numfmt.Int(x.Zero)+" zero")
 	if p.Signs != "both" {
 		other := map[string]string{"positive": "negative", "negative": "positive"}[p.Signs]
-		left = append(left, bf.count(x.OtherSign)+" "+other)
+		left = append(left, numfmt.Int(x.OtherSign)+" "+other)
 	}
-	left = append(left, bf.count(x.BelowMin)+" below "+p.Min)
+	left = append(left, numfmt.Int(x.BelowMin)+" below "+p.Min)
 	if x.NoAmount > 0 {
-		left = append(left, bf.count(x.NoAmount)+" without an amount")
+		left = append(left, numfmt.Int(x.NoAmount)+" without an amount")
 	}
 	fmt.Fprintf(w, "Left out: %s. Amounts as %s; last two digits %s.\n", strings.Join(left, ", "), rep.AmountType,
 		map[string]string{battery.LastTwoScale: "at the ledger's scale", battery.LastTwoUnits: "of the whole-currency part"}[p.LastTwo])
@@ -211,10 +266,10 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 		}
 	}
 	if d := rep.Duplication; d != nil {
-		fmt.Fprintf(w, "\nNumber duplication: the %d most frequent of %s distinct amounts (N %s)\n", len(d.Top), bf.count(d.Distinct), bf.count(d.N))
+		fmt.Fprintf(w, "\nNumber duplication: the %d most frequent of %s distinct amounts (N %s)\n", len(d.Top), numfmt.Int(d.Distinct), numfmt.Int(d.N))
 		t := &tabular.Table{Columns: []string{"rank", "amount", "count", "share_%"}}
 		for _, x := range d.Top {
-			t.Add(x.Rank, x.Amount, bf.count(x.Count), pct(x.Share))
+			t.Add(x.Rank, x.Amount, numfmt.Int(x.Count), pct(x.Share))
 		}
 		if err := t.WriteText(w, 0); err != nil {
 			return err
@@ -222,7 +277,7 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 	}
 	if s := rep.Segments; s != nil {
 		fmt.Fprintf(w, "\nSegments by %s: %s found, %s with at least %s amounts ranked\n", strings.Join(s.By, ", "),
-			bf.count(int64(s.Count)), bf.count(int64(s.Ranked)), bf.count(s.MinRows))
+			numfmt.Int(int64(s.Count)), numfmt.Int(int64(s.Ranked)), numfmt.Int(s.MinRows))
 		for _, rk := range s.Rankings {
 			fmt.Fprintf(w, "\n%s by segment, most distorted first (sorted by %s)\n", capitalize(rk.Test.Name()), strings.ReplaceAll(rk.SortBy, "_", " "))
 			t := &tabular.Table{Columns: []string{"rank", "segment", "n", "mad", "conformity", "excess_mad", "chi2_p", "flagged", "runs", "runs_p"}}
@@ -239,7 +294,7 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 				if rk.Test == benford.Summation {
 					chi, excess = nil, nil
 				}
-				t.Add(r.Rank, r.Segment, bf.count(r.N), fmt.Sprintf("%.5f", r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
+				t.Add(r.Rank, r.Segment, numfmt.Int(r.N), fmt.Sprintf("%.5f", r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
 			}
 			if err := t.WriteText(w, 40); err != nil {
 				return err
@@ -255,9 +310,9 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 					names = append(names, "...")
 					break
 				}
-				names = append(names, fmt.Sprintf("%s (%s)", ts.Segment, bf.count(ts.Tested)))
+				names = append(names, fmt.Sprintf("%s (%s)", ts.Segment, numfmt.Int(ts.Tested)))
 			}
-			fmt.Fprintf(w, "\nToo small to judge (fewer than %s amounts), not ranked: %d segments: %s\n", bf.count(s.MinRows), len(s.TooSmall), strings.Join(names, ", "))
+			fmt.Fprintf(w, "\nToo small to judge (fewer than %s amounts), not ranked: %d segments: %s\n", numfmt.Int(s.MinRows), len(s.TooSmall), strings.Join(names, ", "))
 		}
 	}
 	fmt.Fprintln(w, "\nFlags are signals for follow-up, never proof of fraud.")
@@ -265,7 +320,7 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 }
 
 func printTestText(w io.Writer, r benford.Result, allBins bool) error {
-	fmt.Fprintf(w, "%s (N %s)\n", capitalize(r.Test.Name()), bf.count(r.N))
+	fmt.Fprintf(w, "%s (N %s)\n", capitalize(r.Test.Name()), numfmt.Int(r.N))
 	if r.N == 0 && r.Test != benford.Summation {
 		fmt.Fprintln(w, "  no amounts")
 		return nil
@@ -304,9 +359,9 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		}
 		bar := scanBar(b.Actual, b.Expected, maxP, 30)
 		if summation {
-			t.Add(b.Label, bf.count(b.Count), strconv.FormatFloat(b.Amount, 'f', 2, 64), pct(b.Actual), pct(b.Expected), flag, bar)
+			t.Add(b.Label, numfmt.Int(b.Count), strconv.FormatFloat(b.Amount, 'f', 2, 64), pct(b.Actual), pct(b.Expected), flag, bar)
 		} else {
-			t.Add(b.Label, bf.count(b.Count), pct(b.Actual), pct(b.Expected), fmt.Sprintf("%.2f", b.Z), flag, bar)
+			t.Add(b.Label, numfmt.Int(b.Count), pct(b.Actual), pct(b.Expected), fmt.Sprintf("%.2f", b.Z), flag, bar)
 		}
 	}
 	if r.Test == benford.FirstThree && !allBins {

@@ -2,12 +2,12 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"os"
 	"time"
 
+	"github.com/leadline/leadline/engine/jsondoc"
 	"github.com/leadline/leadline/engine/progress"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -37,8 +37,20 @@ func (d *dbFlags) add(fs *pflag.FlagSet) {
 	fs.StringVar(&d.tempDir, "temp-dir", "", "folder where DuckDB spills when memory runs short (default: beside the workspace)")
 }
 
+// open opens the existing workspace (every command but load: a mistyped
+// --db must never leave an empty workspace behind).
 func (d *dbFlags) open(ctx context.Context, readOnly bool) (*workspace.Workspace, error) {
-	ws, err := workspace.Open(ctx, d.path, workspace.Options{ReadOnly: readOnly, MemoryLimit: d.memory, Threads: d.threads, TempDir: d.tempDir})
+	return d.openWith(ctx, workspace.Options{ReadOnly: readOnly, MustExist: true})
+}
+
+// openOrCreate opens the workspace, creating it when there is none (load).
+func (d *dbFlags) openOrCreate(ctx context.Context) (*workspace.Workspace, error) {
+	return d.openWith(ctx, workspace.Options{})
+}
+
+func (d *dbFlags) openWith(ctx context.Context, o workspace.Options) (*workspace.Workspace, error) {
+	o.MemoryLimit, o.Threads, o.TempDir = d.memory, d.threads, d.tempDir
+	ws, err := workspace.Open(ctx, d.path, o)
 	if err != nil {
 		return nil, err
 	}
@@ -65,11 +77,8 @@ func (f *formatFlag) check() error {
 	return fmt.Errorf("--format %q: give text, csv or json", f.value)
 }
 
-func writeJSON(w io.Writer, v any) error {
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(v)
-}
+// writeJSON writes a command's JSON document.
+func writeJSON(w io.Writer, v any) error { return jsondoc.Write(w, v) }
 
 func writeTable(w io.Writer, format string, t *tabular.Table) error {
 	switch format {
@@ -79,24 +88,4 @@ func writeTable(w io.Writer, format string, t *tabular.Table) error {
 		return t.WriteJSON(w)
 	}
 	return t.WriteText(w, 60)
-}
-
-// saveRun reserves the next run id, hands it to setID (the report carries
-// its id) and stores the run: params as its parameters and the report as
-// its result, the document --format json prints.
-func saveRun(ctx context.Context, ws *workspace.Workspace, kind string, started time.Time, params, rep any, setID func(int64)) error {
-	id, err := ws.NextRunID(ctx)
-	if err != nil {
-		return fmt.Errorf("saving the run: %w", err)
-	}
-	setID(id)
-	p, err := json.Marshal(params)
-	if err != nil {
-		return err
-	}
-	r, err := json.Marshal(rep)
-	if err != nil {
-		return err
-	}
-	return ws.SaveRunWithID(ctx, id, kind, started, p, r)
 }

@@ -2,9 +2,10 @@
 // loads ledger extracts into a DuckDB workspace, proves their completeness
 // and runs the Benford's-law digit battery and its companions on them.
 //
-// Each command lives in its own file with an options struct, a flag set and
-// a run function that takes its writers, so it can be tested without a
-// terminal.
+// Each command lives in its own file with an options struct, a flag layer
+// that fills it (NAMEFlags) and a run function (runNAME) that takes the
+// options and an env (writers and the workspace opener), so flag parsing
+// is tested without a database and the run without flags.
 package main
 
 import (
@@ -18,6 +19,7 @@ import (
 	"strings"
 	"syscall"
 
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
 
@@ -29,11 +31,49 @@ type command struct {
 	flags   func(fs *pflag.FlagSet) func(ctx context.Context, args []string, env *env) error
 }
 
-// env carries what a command writes to.
+// env carries what a command writes to and how it opens its workspace.
 type env struct {
 	stdout io.Writer
 	stderr io.Writer
 	isTTY  bool
+	// open opens the workspace of the --db flags; nil opens the file
+	// they name (dbFlags.open).
+	open func(ctx context.Context, db dbFlags, readOnly bool) (*workspace.Workspace, error)
+}
+
+// openWorkspace opens the workspace the db flags name, through e.open
+// when it is set.
+func (e *env) openWorkspace(ctx context.Context, db dbFlags, readOnly bool) (*workspace.Workspace, error) {
+	if e.open != nil {
+		return e.open(ctx, db, readOnly)
+	}
+	return db.open(ctx, readOnly)
+}
+
+// thin joins a command's flag layer and its run function: flags registers
+// the flags on fs and returns the function that checks them and the
+// arguments into the options; run does the work with them.
+func thin[O any](flags func(fs *pflag.FlagSet) func(args []string) (O, error), run func(ctx context.Context, e *env, o O) error) func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+	return func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
+		parse := flags(fs)
+		return func(ctx context.Context, args []string, e *env) error {
+			o, err := parse(args)
+			if err != nil {
+				return err
+			}
+			return run(ctx, e, o)
+		}
+	}
+}
+
+// newFlagSet is the flag set of one command: errors are returned, not
+// printed, and flags keep the order they were registered in.
+func newFlagSet(name string) *pflag.FlagSet {
+	fs := pflag.NewFlagSet(name, pflag.ContinueOnError)
+	fs.SortFlags = false
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() {}
+	return fs
 }
 
 var commands = map[string]*command{}
@@ -73,11 +113,8 @@ func run(ctx context.Context, args []string, e *env) int {
 		printOverview(e.stderr)
 		return 2
 	}
-	fs := pflag.NewFlagSet("leadline "+c.name, pflag.ContinueOnError)
-	fs.SortFlags = false
-	fs.SetOutput(io.Discard)
+	fs := newFlagSet("leadline " + c.name)
 	runFn := c.flags(fs)
-	fs.Usage = func() {}
 	if err := fs.Parse(args[1:]); err != nil {
 		if errors.Is(err, pflag.ErrHelp) {
 			printCommandHelp(e.stdout, c, fs)

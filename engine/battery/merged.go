@@ -5,6 +5,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // FromCounts runs the battery's statistics on bin-count tables counted
@@ -13,7 +14,7 @@ import (
 // key order, as Plan.Scan returns them. The report is the one Run makes
 // from the same tables: results, rankings and notes. The second-order test
 // and number duplication need the rows, so they cannot run on counts.
-func FromCounts(o Options, amountType string, by []string, all *Counts, segs []SegmentCounts) (*Report, error) {
+func FromCounts(o Options, scale int, amountType string, by []string, all *Counts, segs []SegmentCounts) (*Report, error) {
 	start := time.Now()
 	o = o.WithDefaults()
 	if err := o.Check(); err != nil {
@@ -23,23 +24,13 @@ func FromCounts(o Options, amountType string, by []string, all *Counts, segs []S
 		return nil, fmt.Errorf("--tests: the second-order test and number duplication need the records, not counts; leave them out with counts (--tests first,second,first_two,first_three,last_two,summation)")
 	}
 	o.By = by
-	rep := &Report{Kind: "scan", Params: o, AmountType: amountType, Tests: []benford.Result{}}
-	rep.Counts = all
-	rep.Tested = all.N()
-	rep.Exclusions = all.Left
-	rep.Rows = rep.Tested + all.Left.Total()
-	var err error
-	if rep.Tests, err = AnalyzeAll(all, o.Tests); err != nil {
-		return nil, err
+	p := &Plan{Options: o, AmountType: population.AmountType{Scale: scale}, Segments: make([]Segment, len(by))}
+	for i, b := range by {
+		p.Segments[i].Name = b
 	}
-	if len(by) > 0 {
-		p := &Plan{Options: o, Segments: make([]Segment, len(by))}
-		for i, b := range by {
-			p.Segments[i].Name = b
-		}
-		if rep.Segments, rep.SegmentResults, err = rankSegments(p, segs); err != nil {
-			return nil, err
-		}
+	rep := &Report{Kind: "scan", Params: o, AmountType: amountType, Tests: []benford.Result{}}
+	if err := rep.statistics(p, all, segs); err != nil {
+		return nil, err
 	}
 	rep.Seconds.Statistics = time.Since(start).Seconds()
 	rep.Seconds.Total = rep.Seconds.Statistics

@@ -82,7 +82,7 @@ func benchMerge(b *testing.B, files, segs int) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		if _, err := battery.FromCounts(battery.Options{Tests: battery.CountTests(), By: by}, "test", by, all, sc); err != nil {
+		if _, err := battery.FromCounts(battery.Options{Tests: battery.CountTests(), By: by}, 2, "test", by, all, sc); err != nil {
 			b.Fatal(err)
 		}
 	}

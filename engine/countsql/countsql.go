@@ -9,6 +9,7 @@ import (
 	"regexp"
 	"strings"
 
+	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/queries"
 )
@@ -39,6 +40,10 @@ type Spec struct {
 	Signs   string    `json:"signs"`
 	Min     string    `json:"min"`
 	LastTwo string    `json:"last_two"`
+	// LastTwoAll counts the last two digits of every tested amount, not
+	// only of those at or above the local scan's last-two minimum
+	// (scan --last-two-all).
+	LastTwoAll bool `json:"last_two_all"`
 }
 
 // header starts the first line of every emitted query.
@@ -305,12 +310,22 @@ func Query(s Spec) (string, error) {
 		"by_names": list(names), "by_select": list(sel), "table": strings.Join(table, "."),
 		"filter": filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
 		"min_units": fmt.Sprint(minU), "first3": d.first3("a"), "last2": d.int64(last2),
+		"last2_min": s.lastTwoMinUnits().String(),
 	})
 	spec, err := json.Marshal(s)
 	if err != nil {
 		return "", err
 	}
 	return header + string(spec) + "\n" + q + "\n", nil
+}
+
+// lastTwoMinUnits is the smallest |units| counted under kind l: the local
+// scan's rule (drill.LastTwoMinUnits), or 0 with LastTwoAll.
+func (s Spec) lastTwoMinUnits() *big.Int {
+	if s.LastTwoAll {
+		return new(big.Int)
+	}
+	return drill.LastTwoMinUnits(s.LastTwo, population.AmountType{Scale: s.Scale})
 }
 
 // ReadQuery reads the spec back from a query's first line.

@@ -87,35 +87,51 @@ func TestEveryRowCountedOnce(t *testing.T) {
 	defer db.Close()
 	ctx := context.Background()
 	if _, err := db.ExecContext(ctx, `CREATE TABLE t AS SELECT * FROM (VALUES
-		('A', 12.34), ('A', NULL), ('A', 0), ('A', -5.00), ('A', 0.29), ('B', 99.99), ('B', 10.00), ('C', 1000.00), (NULL, NULL)) v(ent, amt)`); err != nil {
+		('A', 12.34), ('A', NULL), ('A', 0), ('A', -5.00), ('A', 0.29), ('B', 99.99), ('B', 10.00), ('B', 250.07), ('C', 1000.00), (NULL, NULL)) v(ent, amt)`); err != nil {
 		t.Fatal(err)
 	}
-	q, err := Query(Spec{Engine: "duckdb", Table: "t", Amount: "amt", Scale: 2, Min: "1", Where: "ent <> 'C'",
-		By: []Segment{{Name: "ent", Column: "ent"}}})
-	if err != nil {
-		t.Fatal(err)
+	count := func(lastTwoAll bool) (*battery.Counts, []battery.SegmentCounts) {
+		q, err := Query(Spec{Engine: "duckdb", Table: "t", Amount: "amt", Scale: 2, Min: "1", Where: "ent <> 'C'",
+			By: []Segment{{Name: "ent", Column: "ent"}}, LastTwoAll: lastTwoAll})
+		if err != nil {
+			t.Fatal(err)
+		}
+		path := filepath.Join(t.TempDir(), "c.csv")
+		if _, err := db.ExecContext(ctx, "COPY ("+stripQuery(q)+") TO '"+path+"' (HEADER)"); err != nil {
+			t.Fatal(err)
+		}
+		m, err := ReadFiles([]string{path})
+		if err != nil {
+			t.Fatal(err)
+		}
+		all, segs, err := m.Counts([]string{"ent"}, 2)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return all, segs
 	}
-	path := filepath.Join(t.TempDir(), "c.csv")
-	if _, err := db.ExecContext(ctx, "COPY ("+stripQuery(q)+") TO '"+path+"' (HEADER)"); err != nil {
-		t.Fatal(err)
-	}
-	m, err := ReadFiles([]string{path})
-	if err != nil {
-		t.Fatal(err)
-	}
-	all, segs, err := m.Counts([]string{"ent"}, 2)
-	if err != nil {
-		t.Fatal(err)
-	}
-	// Rows: 9. Tested 12.34, 99.99, 10.00; zero 1; other sign 1; below
-	// 1.00: 0.29; NULL amount 1 (A; the NULL-entity row is filtered, as
-	// NULL <> 'C' is not true); filtered: C and the NULL entity.
+	all, segs := count(false)
+	// Rows: 10. Tested 12.34, 99.99, 10.00, 250.07; zero 1; other sign 1;
+	// below 1.00: 0.29; NULL amount 1 (A; the NULL-entity row is filtered,
+	// as NULL <> 'C' is not true); filtered: C and the NULL entity.
 	want := battery.Left{Filtered: 2, Zero: 1, OtherSign: 1, BelowMin: 1, NoAmount: 1}
-	if all.Left != want || all.N() != 3 || all.N()+all.Left.Total() != 9 {
-		t.Errorf("left %+v (want %+v), tested %d (want 3)", all.Left, want, all.N())
+	if all.Left != want || all.N() != 4 || all.N()+all.Left.Total() != 10 {
+		t.Errorf("left %+v (want %+v), tested %d (want 4)", all.Left, want, all.N())
 	}
-	if all.FirstThree[123-100] != 1 || all.FirstThree[999-100] != 1 || all.FirstThree[100-100] != 1 || all.LastTwo[34] != 1 || all.LastTwo[99] != 1 || all.LastTwo[0] != 1 {
-		t.Errorf("bins: 12.34 -> 123/34, 99.99 -> 999/99, 10.00 -> 100/00 expected")
+	if all.FirstThree[123-100] != 1 || all.FirstThree[999-100] != 1 || all.FirstThree[100-100] != 1 || all.FirstThree[250-100] != 1 {
+		t.Errorf("first three: 12.34 -> 123, 99.99 -> 999, 10.00 -> 100, 250.07 -> 250 expected")
+	}
+	// The last-two test takes amounts of 100.00 and more only, as the
+	// local scan does (battery.LastTwoMin), unless LastTwoAll.
+	var lastN int64
+	for _, n := range all.LastTwo {
+		lastN += n
+	}
+	if all.LastTwo[7] != 1 || lastN != 1 {
+		t.Errorf("last two: only 250.07 -> 07 expected, got %d amounts", lastN)
+	}
+	if every, _ := count(true); every.LastTwo[34] != 1 || every.LastTwo[99] != 1 || every.LastTwo[0] != 1 || every.LastTwo[7] != 1 {
+		t.Errorf("last two with LastTwoAll: 12.34 -> 34, 99.99 -> 99, 10.00 -> 00, 250.07 -> 07 expected")
 	}
 	if all.FirstThreeSum[999-100] != 99.99 {
 		t.Errorf("sum of bin 999: %v, want 99.99", all.FirstThreeSum[999-100])
@@ -145,7 +161,7 @@ func TestBadCountFiles(t *testing.T) {
 		{"bin.csv", "kind,bin,n,sum_hi,sum_lo\nf,1000,2,0,0\n", "bin.csv line 2: kind \"f\" with bin 1000"},
 		{"neg.csv", "kind,bin,n,sum_hi,sum_lo\nf,123,-2,0,0\n", "neg.csv line 2"},
 		{"text.csv", "kind,bin,n,sum_hi,sum_lo\nl,12,x,0,0\n", "text.csv line 2"},
-		{"short.csv", "kind,bin,n,sum_hi,sum_lo\nf,123,2,0,2468\n", "cut short"},
+		{"short.csv", "kind,bin,n,sum_hi,sum_lo\nf,123,2,0,2468\nl,34,3,0,0\n", "cut short"},
 		{"overflow.csv", "kind,bin,n,sum_hi,sum_lo\nf,-1,9223372036854775807,0,0\nf,-1,1,0,0\n", "overflow.csv line 3: the counts add up beyond a 64-bit integer"},
 	} {
 		_, err := ReadFiles([]string{write(c.name, c.text)})

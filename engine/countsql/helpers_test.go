@@ -33,7 +33,7 @@ func testLedger() []row {
 	for _, r := range drilltest.Generate(6000, 20).Rows {
 		out = append(out, row{r.Entity, r.Posted.Format("2006-01-02"), r.Cents})
 	}
-	extra := []int64{29, 1000, 9999, 100000, 0, 0, 0, -29, -100000, -999, 1, 99, 101, 999, 1001,
+	extra := []int64{29, 1000, 9999, 10000, -10000, 100000, 0, 0, 0, -29, -100000, -999, 1, 99, 101, 999, 1001,
 		999999999999999999, 100000000000000000, 123456789012345, 98765432109876543, -999999999999999999,
 		10000000000, 9999999999, 1000000000, 999999999}
 	for i, c := range extra {
@@ -99,6 +99,7 @@ type variant struct {
 func variants() []variant {
 	return []variant{
 		{name: "whole", spec: Spec{Amount: "amount", Scale: 2}},
+		{name: "whole_last_two_all", spec: Spec{Amount: "amount", Scale: 2, LastTwoAll: true}},
 		{name: "entity", spec: Spec{Amount: "amount", Scale: 2, By: []Segment{{Name: "entity", Column: "entity"}}}, local: []string{"entity"}},
 		{name: "both_min0_units_month", spec: Spec{Amount: "amount", Scale: 2, Signs: "both", Min: "0", LastTwo: "units",
 			By: []Segment{{Name: "entity", Column: "entity"}, {Name: "month", Column: "posted", Month: true}}}, local: []string{"entity", "month"}},
@@ -112,7 +113,7 @@ func variants() []variant {
 func localReport(t *testing.T, ws *workspace.Workspace, v variant) *battery.Report {
 	t.Helper()
 	s := v.spec.WithDefaults()
-	o := battery.Options{Tests: battery.CountTests(), By: v.local, LastTwo: s.LastTwo, MinSegmentRows: 50}
+	o := battery.Options{Tests: battery.CountTests(), By: v.local, LastTwo: s.LastTwo, LastTwoAll: s.LastTwoAll, MinSegmentRows: 50}
 	o.Signs, o.Min, o.Where = s.Signs, s.Min, s.Where
 	rep, err := battery.Run(context.Background(), ws, o)
 	if err != nil {

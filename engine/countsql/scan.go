@@ -52,6 +52,7 @@ func Scan(queryPath string, files []string, o battery.Options) (*battery.Report,
 	}
 	o.Spec = population.Spec{Where: spec.Where, Signs: spec.Signs, Min: spec.Min}
 	o.LastTwo = spec.LastTwo
+	o.LastTwoAll = spec.LastTwoAll
 	by := o.By
 	if by == nil {
 		by = []string{}
@@ -64,7 +65,7 @@ func Scan(queryPath string, files []string, o battery.Options) (*battery.Report,
 			}
 		}
 	}
-	rep, err := battery.FromCounts(o, AmountType(spec), names, all, segs)
+	rep, err := battery.FromCounts(o, spec.Scale, AmountType(spec), names, all, segs)
 	if err != nil {
 		return nil, nil, err
 	}

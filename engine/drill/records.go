@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/duckdb/duckdb-go/v2"
+	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -112,6 +113,13 @@ func recordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o Reco
 		"where": b.Where.SQL, "file_col": quoteIdent(fileCol), "order": order, "limit": limit,
 	})
 	return q, args, nil
+}
+
+// RecordsQuery returns one query that lists the selection's records in
+// order (o.Limit of them; 0 = all), with the columns Records returns, and
+// its arguments: for writers that have DuckDB stream every record.
+func RecordsQuery(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOptions) (string, []any, error) {
+	return recordsQuery(ctx, ws, b, o)
 }
 
 // Records returns up to o.Limit records of the selection, in order, with
@@ -288,7 +296,9 @@ var copyOptions = map[string]string{
 }
 
 // Export writes the selection's records (o.Limit of them, 0 = all) to the
-// file at path, in the format its extension names. DuckDB writes the file
+// file at path, in the format its extension names. In CSV, text that a
+// spreadsheet would run as a formula gets a leading quote
+// (output.NeutralizeText); Parquet and JSON keep it as it is. DuckDB writes the file
 // straight from the query: no row passes through Go. Amounts keep their
 // exact type in Parquet and are written as exact decimal text in CSV and
 // JSON.
@@ -303,6 +313,11 @@ func Export(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOpti
 	}
 	if format != "parquet" {
 		q = queries.Render("drill_export_text_amounts", map[string]string{"query": strings.TrimSuffix(strings.TrimSpace(q), ";")})
+	}
+	if format == "csv" {
+		if q, err = output.NeutralCSVQuery(ctx, ws.Conn, q, args); err != nil {
+			return fmt.Errorf("--out %s: %s", path, firstLine(err.Error()))
+		}
 	}
 	return copyTo(ctx, ws, q, args, path, format)
 }
@@ -332,6 +347,11 @@ func ExportGroups(ctx context.Context, ws *workspace.Workspace, b *Built, o Grou
 		limit = 1 << 62
 	}
 	args := append(append([]any(nil), b.Where.Args...), o.Top, limit)
+	if format == "csv" {
+		if q, err = output.NeutralCSVQuery(ctx, ws.Conn, q, args); err != nil {
+			return fmt.Errorf("--out %s: %s", path, firstLine(err.Error()))
+		}
+	}
 	return copyTo(ctx, ws, q, args, path, format)
 }
 

@@ -307,26 +307,16 @@ func runTest(ctx context.Context, ws *workspace.Workspace, test string, o Option
 // Save stores the result as a run of kind "duplicates" and gives it and its
 // groups their run id and references.
 func Save(ctx context.Context, ws *workspace.Workspace, res *Result) error {
-	id, err := ws.NextRunID(ctx)
-	if err != nil {
-		return fmt.Errorf("saving the duplicates run: %w", err)
-	}
-	res.RunID = id
-	for i := range res.Tests {
-		for j := range res.Tests[i].Groups {
-			g := &res.Tests[i].Groups[j]
-			g.Ref = fmt.Sprintf("%d:%s:%d", id, res.Tests[i].Test, g.ID)
+	_, err := ws.SaveRun(ctx, workspace.Run{Kind: Kind, Started: res.StartedAt, Params: res.Options, Result: res, SetID: func(id int64) {
+		res.RunID = id
+		for i := range res.Tests {
+			for j := range res.Tests[i].Groups {
+				g := &res.Tests[i].Groups[j]
+				g.Ref = fmt.Sprintf("%d:%s:%d", id, res.Tests[i].Test, g.ID)
+			}
 		}
-	}
-	params, err := json.Marshal(res.Options)
-	if err != nil {
-		return err
-	}
-	doc, err := json.Marshal(res)
-	if err != nil {
-		return err
-	}
-	return ws.SaveRunWithID(ctx, id, Kind, res.StartedAt, params, doc)
+	}})
+	return err
 }
 
 // Ref is a reference to one group of a stored run.

@@ -131,49 +131,19 @@ func TestParquet(t *testing.T) {
 	}
 }
 
+// Sheet names are the tables' full names where they fit Excel's 31
+// characters; where they do not (or clash), the cut name ends with the
+// table's position, which the summary's sheet list shows.
 func TestSheetNames(t *testing.T) {
 	long := strings.Repeat("a", 40)
-	names := SheetNames([]*Table{{Name: long}, {Name: long + "b"}, {Name: "summary"}, {Name: "x"}})
-	if names[long] != strings.Repeat("a", 31) || names[long+"b"] != strings.Repeat("a", 29)+"_2" || names["summary"] != "summary_2" || names["x"] != "x" {
-		t.Errorf("sheet names: %v", names)
-	}
-}
-
-func TestPrepareDir(t *testing.T) {
-	dir := t.TempDir()
-	a := PackInfo{Name: "a", Client: "Client A"}
-	out := filepath.Join(dir, "out")
-	if err := PrepareDir(out, a); err != nil {
-		t.Fatalf("new folder: %v", err)
-	}
-	run := &Run{Pack: a, Manifest: &Manifest{Pack: a}, Tables: []*Table{sampleTable()}}
-	if _, err := WriteAll(context.Background(), out, run, Options{NoRegistered: true}); err != nil {
-		t.Fatal(err)
-	}
-	// An earlier run of the same pack: its files go, so no stale table survives.
-	os.WriteFile(filepath.Join(out, "tables", "stale.csv"), []byte("x"), 0o644)
-	if err := PrepareDir(out, a); err != nil {
-		t.Fatalf("same pack: %v", err)
-	}
-	left, _ := os.ReadDir(filepath.Join(out, "tables"))
-	if len(left) != 0 {
-		t.Errorf("left behind: %v", left)
-	}
-	if _, err := os.Stat(filepath.Join(out, ResultsFile)); err == nil {
-		t.Error("results.json survived")
-	}
-	// Another pack's results are refused.
-	WriteAll(context.Background(), out, run, Options{NoRegistered: true})
-	err := PrepareDir(out, PackInfo{Name: "a", Client: "Client B"})
-	if err == nil || !strings.Contains(err.Error(), `holds the results of pack "a" (client "Client A")`) {
-		t.Errorf("another client's folder: %v", err)
-	}
-	// A folder with other files is refused.
-	other := filepath.Join(dir, "other")
-	os.MkdirAll(other, 0o755)
-	os.WriteFile(filepath.Join(other, "notes.txt"), []byte("x"), 0o644)
-	if err := PrepareDir(other, a); err == nil || !strings.Contains(err.Error(), "not empty") {
-		t.Errorf("foreign folder: %v", err)
+	full := strings.Repeat("b", 31)
+	names := SheetNames([]*Table{{Name: long}, {Name: long + "b"}, {Name: "summary"}, {Name: "x"}, {Name: full}})
+	want := map[string]string{long: strings.Repeat("a", 29) + "~1", long + "b": strings.Repeat("a", 29) + "~2",
+		"summary": "summary~3", "x": "x", full: full}
+	for k, v := range want {
+		if names[k] != v {
+			t.Errorf("sheet of %s: %q, want %q", k, names[k], v)
+		}
 	}
 }
 

@@ -107,6 +107,9 @@ func (p *ParquetWriter) Write(ctx context.Context, path string, t *Table) error 
 	if len(t.Columns) == 0 {
 		return fmt.Errorf("table %s has no columns", t.Name)
 	}
+	if t.Source != nil {
+		return writeSourceParquet(ctx, path, t)
+	}
 	defs := make([]string, len(t.Columns))
 	casts := make([]string, len(t.Columns))
 	for i, c := range t.Columns {
@@ -147,6 +150,27 @@ func (p *ParquetWriter) Write(ctx context.Context, path string, t *Table) error 
 	}
 	q := "COPY (SELECT " + strings.Join(casts, ", ") + " FROM ll_out) TO " + queries.QuoteString(path) + " (FORMAT parquet, COMPRESSION zstd)"
 	if _, err := p.conn.ExecContext(ctx, q); err != nil {
+		return fmt.Errorf("parquet %s: %w", t.Name, err)
+	}
+	return nil
+}
+
+// writeSourceParquet has DuckDB write every row of the table's source to
+// path with COPY, keeping the source's own column types (an extract's
+// amounts stay exact DECIMAL). Parquet is a typed format that no
+// spreadsheet runs formulas from, so text is written as it is.
+func writeSourceParquet(ctx context.Context, path string, t *Table) error {
+	types, err := sourceColumns(ctx, t)
+	if err != nil {
+		return err
+	}
+	cols := make([]string, len(types))
+	for i, ct := range types {
+		cols[i] = "src." + queries.QuoteIdent(ct.Name()) + " AS " + queries.QuoteIdent(t.Columns[i].Name)
+	}
+	q := "SELECT " + strings.Join(cols, ", ") + " FROM " + t.Source.from()
+	stmt := queries.Render("output_copy_parquet", map[string]string{"query": q, "path": queries.QuoteString(path)})
+	if _, err := t.Source.DB.ExecContext(ctx, stmt, t.Source.Args...); err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
 	return nil

@@ -10,6 +10,8 @@
 package output
 
 import (
+	"context"
+	"database/sql"
 	"fmt"
 	"math"
 	"math/big"
@@ -72,6 +74,102 @@ type Table struct {
 	Rows      [][]any  `json:"rows"`
 	RowsTotal int64    `json:"rows_total"` // rows the step produced; more than len(Rows) when truncated
 	Truncated bool     `json:"truncated"`
+
+	// Complete says that tables/NAME.csv and .parquet hold all RowsTotal
+	// rows even when Rows holds only the first of them (a table with a
+	// Source).
+	Complete bool `json:"complete,omitempty"`
+	// SheetRows is how many rows the workbook's sheet holds, and CellsCut
+	// how many of its text cells were cut at the cell limit (32,767
+	// characters); WriteXLSX fills both in.
+	SheetRows int64 `json:"sheet_rows,omitempty"`
+	CellsCut  int64 `json:"cells_cut,omitempty"`
+
+	// Source, when set, yields all the table's rows; Rows then holds the
+	// first of them only (for results.json and the report). The CSV,
+	// Parquet and workbook writers read the source.
+	Source *Source `json:"-"`
+	// KeepFormulas writes text cells to CSV as they are, without
+	// neutralising those that a spreadsheet would read as a formula.
+	KeepFormulas bool `json:"-"`
+}
+
+// Querier runs SQL: a *sql.Conn or *sql.DB.
+type Querier interface {
+	QueryContext(ctx context.Context, query string, args ...any) (*sql.Rows, error)
+	ExecContext(ctx context.Context, query string, args ...any) (sql.Result, error)
+}
+
+// Source is a query that returns every row of a table, in order, with the
+// table's columns. DB must stay open until the output folder is written.
+type Source struct {
+	DB   Querier
+	SQL  string // one SELECT, without a trailing semicolon
+	Args []any
+}
+
+// from returns the source as a subquery that other clauses can wrap.
+func (s *Source) from() string {
+	return "(\n" + strings.TrimSuffix(strings.TrimSpace(s.SQL), ";") + "\n) AS src"
+}
+
+// eachRow calls fn with every row of the table (normalised), at most limit
+// rows when limit > 0: the source's rows when it has one, else Rows.
+func (t *Table) eachRow(ctx context.Context, limit int64, fn func(row []any) error) error {
+	if t.Source == nil {
+		for i, r := range t.Rows {
+			if limit > 0 && int64(i) >= limit {
+				break
+			}
+			if err := fn(r); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	q := "SELECT * FROM " + t.Source.from()
+	args := append([]any(nil), t.Source.Args...)
+	if limit > 0 {
+		q += " LIMIT ?"
+		args = append(args, limit)
+	}
+	rows, err := t.Source.DB.QueryContext(ctx, q, args...)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	cols, err := rows.Columns()
+	if err != nil {
+		return err
+	}
+	if len(cols) != len(t.Columns) {
+		return fmt.Errorf("table %s: the source returns %d columns, the table has %d", t.Name, len(cols), len(t.Columns))
+	}
+	vals := make([]any, len(cols))
+	ptrs := make([]any, len(cols))
+	for i := range vals {
+		ptrs[i] = &vals[i]
+	}
+	row := make([]any, len(cols))
+	for rows.Next() {
+		if err := rows.Scan(ptrs...); err != nil {
+			return err
+		}
+		for i, v := range vals {
+			row[i] = Normalize(v)
+			if t.Columns[i].Kind == Money {
+				if s, ok := row[i].(string); ok {
+					if d, ok := NewDecimal(s); ok {
+						row[i] = d
+					}
+				}
+			}
+		}
+		if err := fn(row); err != nil {
+			return err
+		}
+	}
+	return rows.Err()
 }
 
 // Decimal is an exact decimal number held as its text ("1234.50"), so that

@@ -1,7 +1,6 @@
 package output
 
 import (
-	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -11,11 +10,14 @@ import (
 	"io"
 	"io/fs"
 	"os"
+	"path"
 	"path/filepath"
 	"sort"
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/leadline/leadline/engine/jsondoc"
 )
 
 // File names inside an output folder.
@@ -158,7 +160,7 @@ func WriteAll(ctx context.Context, dir string, run *Run, opts Options) ([]Output
 		m = *run.Manifest
 	}
 	m.Outputs = outs
-	if err := writeFile(filepath.Join(dir, ManifestFile), func(w io.Writer) error { return writeIndented(w, m) }); err != nil {
+	if err := writeFile(filepath.Join(dir, ManifestFile), func(w io.Writer) error { return jsondoc.Write(w, m) }); err != nil {
 		return nil, err
 	}
 	return outs, nil
@@ -173,19 +175,7 @@ func trace(step string, since time.Time) {
 
 // WriteJSON writes the run as one indented JSON document. Maps are written
 // with sorted keys, so the same run gives the same bytes.
-func WriteJSON(w io.Writer, run *Run) error { return writeIndented(w, run) }
-
-func writeIndented(w io.Writer, v any) error {
-	var buf bytes.Buffer
-	enc := json.NewEncoder(&buf)
-	enc.SetIndent("", "  ")
-	enc.SetEscapeHTML(false)
-	if err := enc.Encode(v); err != nil {
-		return err
-	}
-	_, err := w.Write(buf.Bytes())
-	return err
-}
+func WriteJSON(w io.Writer, run *Run) error { return jsondoc.Write(w, run) }
 
 func writeFile(path string, fn func(io.Writer) error) error {
 	f, err := os.Create(path)
@@ -217,9 +207,15 @@ func hashFile(path string) (int64, string, error) {
 // anything: a missing or empty folder may, and so may an earlier output
 // folder of the same pack (same name and client in its manifest.json). A
 // folder that holds another pack's results, or files that are not a
-// leadline output, may not, so that two clients' results never mix. It
+// leadline output, may not, so that two clients' results never mix; nor
+// may a folder that is itself a symbolic link or holds one where leadline
+// writes (a link leadline did not create is never written through). It
 // returns the earlier run's manifest, if any.
 func CheckDir(dir string, pack PackInfo) (*Manifest, error) {
+	if fi, err := os.Lstat(dir); err == nil && fi.Mode()&fs.ModeSymlink != 0 {
+		real, _ := filepath.EvalSymlinks(dir)
+		return nil, fmt.Errorf("output folder %s is a symbolic link (to %s): leadline replaces the folder it writes and never writes through a link; give the folder's real path", dir, real)
+	}
 	entries, err := os.ReadDir(dir)
 	if errors.Is(err, fs.ErrNotExist) || err == nil && len(entries) == 0 {
 		return nil, nil
@@ -227,49 +223,334 @@ func CheckDir(dir string, pack PackInfo) (*Manifest, error) {
 	if err != nil {
 		return nil, err
 	}
-	data, err := os.ReadFile(filepath.Join(dir, ManifestFile))
+	old, err := readManifest(dir)
 	if err != nil {
-		return nil, fmt.Errorf("output folder %s is not empty and holds no %s: give an empty or new folder (leadline never mixes its results with other files)", dir, ManifestFile)
+		return nil, err
 	}
-	var old Manifest
-	if err := json.Unmarshal(data, &old); err != nil {
-		return nil, fmt.Errorf("output folder %s: %s is not a leadline manifest (%v); give another folder", dir, ManifestFile, err)
+	if old == nil {
+		return nil, fmt.Errorf("output folder %s is not empty and holds no %s: give an empty or new folder (leadline never mixes its results with other files)", dir, ManifestFile)
 	}
 	if old.Pack.Name != pack.Name || old.Pack.Client != pack.Client {
 		return nil, fmt.Errorf("output folder %s holds the results of pack %q (client %q); this pack is %q (client %q): give another --out so that the two never mix",
 			dir, old.Pack.Name, old.Pack.Client, pack.Name, pack.Client)
 	}
+	for _, rel := range append([]string{ManifestFile, TablesDir}, outputPaths(old)...) {
+		if fi, err := os.Lstat(filepath.Join(dir, filepath.FromSlash(rel))); err == nil && fi.Mode()&fs.ModeSymlink != 0 {
+			return nil, fmt.Errorf("output folder %s: %s is a symbolic link, which leadline did not create; remove the link (leadline never writes through one)", dir, rel)
+		}
+	}
+	return old, nil
+}
+
+// readManifest reads dir's manifest.json (nil when there is none).
+func readManifest(dir string) (*Manifest, error) {
+	data, err := os.ReadFile(filepath.Join(dir, ManifestFile))
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, nil
+	}
+	if err != nil {
+		return nil, err
+	}
+	var old Manifest
+	if err := json.Unmarshal(data, &old); err != nil {
+		return nil, fmt.Errorf("output folder %s: %s is not a leadline manifest (%v); give another folder", dir, ManifestFile, err)
+	}
 	return &old, nil
 }
 
-// PrepareDir makes dir ready for a run of the pack (see CheckDir): it
-// creates it when missing, and when it holds an earlier run of the same
-// pack removes the files that run wrote (and any stray tables/*.csv and
-// *.parquet), so that no stale table survives.
-func PrepareDir(dir string, pack PackInfo) error {
+// outputPaths are the paths an earlier run listed, those that stay inside
+// its folder.
+func outputPaths(m *Manifest) []string {
+	var out []string
+	for _, o := range m.Outputs {
+		p := filepath.ToSlash(filepath.Clean(filepath.FromSlash(o.Path)))
+		if p == "." || p == ".." || strings.HasPrefix(p, "../") || filepath.IsAbs(filepath.FromSlash(p)) {
+			continue
+		}
+		out = append(out, p)
+	}
+	return out
+}
+
+// Names beside an output folder OUT: the new results being written, the
+// earlier results while they are swapped out, and the lock of the folder.
+func stagingDir(dir string) string  { return sibling(dir, "leadline-new") }
+func replacedDir(dir string) string { return sibling(dir, "leadline-old") }
+
+// LockName is the path whose lock (see workspace.AcquireLock) guards the
+// output folder dir.
+func LockName(dir string) string { return sibling(dir, "leadline") }
+
+func sibling(dir, what string) string {
+	return filepath.Join(filepath.Dir(dir), "."+filepath.Base(dir)+"."+what)
+}
+
+// stagingMark is in a folder of new results while they are written; it
+// goes just before the folder is swapped in, so a folder with a manifest
+// and without the mark is complete.
+const stagingMark = ".leadline-writing.json"
+
+// swapStep, when set (tests), is called after each step of WriteDir's
+// swap; an error stops there, leaving the files as a killed process would.
+var swapStep func(step string) error
+
+func step(name string) error {
+	if swapStep == nil {
+		return nil
+	}
+	return swapStep(name)
+}
+
+// WriteDir writes the run as the output folder dir of the pack: into a new
+// folder beside it first, swapped in only when every file is written, so
+// that a run that fails, is killed or fills the disk leaves the earlier
+// results as they were. Files in dir that no leadline run wrote are moved
+// into the new folder; the earlier run's files (and any stray
+// tables/*.csv and *.parquet) go, so that no stale table survives. The
+// caller holds the folder's lock (LockName) and has called RecoverDir.
+func WriteDir(ctx context.Context, dir string, pack PackInfo, run *Run, opts Options) ([]OutputFile, error) {
 	old, err := CheckDir(dir, pack)
+	if err != nil {
+		return nil, err
+	}
+	var keep []string
+	if old != nil {
+		if err := foreign(dir, old, "", &keep); err != nil {
+			return nil, err
+		}
+	}
+	staged := stagingDir(dir)
+	if err := os.RemoveAll(staged); err != nil {
+		return nil, err
+	}
+	if err := os.MkdirAll(staged, 0o755); err != nil {
+		return nil, fmt.Errorf("output folder %s: creating %s beside it: %w", dir, staged, err)
+	}
+	fail := func(err error) ([]OutputFile, error) {
+		os.RemoveAll(staged)
+		return nil, fmt.Errorf("%w; the output folder %s is as it was", err, dir)
+	}
+	mark, _ := json.Marshal(pack)
+	if err := os.WriteFile(filepath.Join(staged, stagingMark), mark, 0o644); err != nil {
+		return fail(err)
+	}
+	outs, err := WriteAll(ctx, staged, run, opts)
+	if err != nil {
+		return fail(err)
+	}
+	if err := step("written"); err != nil {
+		return nil, err
+	}
+	for _, r := range keep {
+		if _, err := os.Lstat(filepath.Join(staged, filepath.FromSlash(r))); err == nil {
+			return fail(fmt.Errorf("output folder %s: %s was not written by leadline and this run writes a file of that name: move it away", dir, r))
+		}
+	}
+	if err := syncTree(staged); err != nil {
+		return fail(fmt.Errorf("writing the results to disk: %w", err))
+	}
+	if err := os.Remove(filepath.Join(staged, stagingMark)); err != nil {
+		return fail(err)
+	}
+	syncPath(staged)
+	if err := step("complete"); err != nil {
+		return nil, err
+	}
+	replaced := replacedDir(dir)
+	hadDir := false
+	if _, err := os.Lstat(dir); err == nil {
+		hadDir = true
+		if err := os.RemoveAll(replaced); err != nil {
+			return fail(err)
+		}
+		if err := os.Rename(dir, replaced); err != nil {
+			return fail(fmt.Errorf("moving the earlier results aside: %w", err))
+		}
+		if err := step("old moved"); err != nil {
+			return nil, err
+		}
+	}
+	if err := os.Rename(staged, dir); err != nil {
+		if hadDir {
+			os.Rename(replaced, dir)
+		}
+		return fail(fmt.Errorf("putting the new results in place: %w", err))
+	}
+	syncPath(filepath.Dir(dir))
+	if err := step("new moved"); err != nil {
+		return nil, err
+	}
+	if hadDir {
+		if err := retire(replaced, dir, old); err != nil {
+			return outs, err
+		}
+	}
+	return outs, nil
+}
+
+// retire moves the files of the replaced folder that no leadline run
+// wrote into the new folder dir, then removes it. Links are moved as
+// links, never followed.
+func retire(replaced, dir string, old *Manifest) error {
+	if old != nil {
+		var keep []string
+		if err := foreign(replaced, old, "", &keep); err != nil {
+			return err
+		}
+		for _, r := range keep {
+			to := filepath.Join(dir, filepath.FromSlash(r))
+			if err := os.MkdirAll(filepath.Dir(to), 0o755); err != nil {
+				return err
+			}
+			if err := os.Rename(filepath.Join(replaced, filepath.FromSlash(r)), to); err != nil {
+				return fmt.Errorf("the new results are in %s; moving %s there from the earlier folder %s (kept): %w", dir, r, replaced, err)
+			}
+		}
+	}
+	if err := os.RemoveAll(replaced); err != nil {
+		return fmt.Errorf("the new results are in %s; removing the earlier ones (%s): %w", dir, replaced, err)
+	}
+	return nil
+}
+
+// foreign lists the files of dir (under rel) that no leadline run wrote:
+// not listed in the earlier run's manifest, not a stray table.
+func foreign(dir string, old *Manifest, rel string, out *[]string) error {
+	listed := map[string]bool{ManifestFile: true, stagingMark: true}
+	for _, p := range outputPaths(old) {
+		listed[p] = true
+	}
+	entries, err := os.ReadDir(filepath.Join(dir, filepath.FromSlash(rel)))
 	if err != nil {
 		return err
 	}
-	if old == nil {
-		return os.MkdirAll(dir, 0o755)
-	}
-	for _, o := range old.Outputs {
-		p := filepath.Join(dir, filepath.FromSlash(o.Path))
-		if !strings.HasPrefix(filepath.Clean(p), filepath.Clean(dir)+string(filepath.Separator)) {
+	for _, e := range entries {
+		r := path.Join(rel, e.Name())
+		if listed[r] {
 			continue
 		}
-		if err := os.Remove(p); err != nil && !errors.Is(err, fs.ErrNotExist) {
-			return err
+		if e.IsDir() {
+			ours := r == TablesDir
+			for p := range listed {
+				ours = ours || strings.HasPrefix(p, r+"/")
+			}
+			if ours {
+				if err := foreign(dir, old, r, out); err != nil {
+					return err
+				}
+				continue
+			}
+		}
+		if rel == TablesDir && e.Type().IsRegular() && (strings.HasSuffix(e.Name(), ".csv") || strings.HasSuffix(e.Name(), ".parquet")) {
+			continue // a stray table of an earlier run
+		}
+		*out = append(*out, r)
+	}
+	return nil
+}
+
+// RecoverDir tidies what an interrupted run of the pack left beside dir
+// (the caller holds the folder's lock): complete new results are put in
+// place when dir is missing, else the earlier results are put back; a
+// half-written folder goes. Leftovers of another pack are refused, never
+// removed.
+func RecoverDir(dir string, pack PackInfo, log io.Writer) error {
+	staged, replaced := stagingDir(dir), replacedDir(dir)
+	say := func(format string, args ...any) {
+		if log != nil {
+			fmt.Fprintf(log, format+"\n", args...)
 		}
 	}
-	for _, pat := range []string{"*.csv", "*.parquet"} {
-		m, _ := filepath.Glob(filepath.Join(dir, TablesDir, pat))
-		for _, p := range m {
-			if err := os.Remove(p); err != nil {
+	_, dirErr := os.Lstat(dir)
+	missing := errors.Is(dirErr, fs.ErrNotExist)
+	if _, err := os.Lstat(staged); err == nil {
+		complete, err := leftoverOf(staged, pack)
+		if err != nil {
+			return err
+		}
+		if complete && missing {
+			if err := os.Rename(staged, dir); err != nil {
+				return err
+			}
+			say("Finished an interrupted swap of the output folder: %s put in place", dir)
+			missing = false
+		} else {
+			say("Removing %s, left by an interrupted run of this pack", staged)
+			if err := os.RemoveAll(staged); err != nil {
 				return err
 			}
 		}
 	}
-	return os.Remove(filepath.Join(dir, ManifestFile))
+	if _, err := os.Lstat(replaced); err == nil {
+		if _, err := leftoverOf(replaced, pack); err != nil {
+			return err
+		}
+		if missing {
+			if err := os.Rename(replaced, dir); err != nil {
+				return err
+			}
+			say("Put the earlier results back in %s after an interrupted run", dir)
+			return nil
+		}
+		say("Removing %s, the earlier results replaced by an interrupted run", replaced)
+		old, err := readManifest(replaced)
+		if err != nil {
+			return err
+		}
+		return retire(replaced, dir, old)
+	}
+	return nil
+}
+
+// leftoverOf says whether a folder beside an output folder was left by a
+// run of pack (complete: it holds a manifest and no staging mark); a
+// folder of another pack, or of unknown content, is an error.
+func leftoverOf(folder string, pack PackInfo) (complete bool, err error) {
+	if entries, err := os.ReadDir(folder); err == nil && len(entries) == 0 {
+		return false, nil // an empty folder: nothing to lose
+	}
+	var who PackInfo
+	if b, err := os.ReadFile(filepath.Join(folder, stagingMark)); err == nil {
+		if json.Unmarshal(b, &who) != nil {
+			return false, fmt.Errorf("%s holds a damaged %s: remove the folder by hand", folder, stagingMark)
+		}
+	} else if m, err := readManifest(folder); err == nil && m != nil {
+		who, complete = m.Pack, true
+	} else {
+		return false, fmt.Errorf("%s is not a leadline output folder; leadline uses that name beside its output folder: move it away", folder)
+	}
+	if who.Name != pack.Name || who.Client != pack.Client {
+		return false, fmt.Errorf("%s was left by a run of pack %q (client %q), not of this pack: run that pack again to tidy it, or remove it by hand", folder, who.Name, who.Client)
+	}
+	return complete, nil
+}
+
+// syncTree flushes every file under root to disk.
+func syncTree(root string) error {
+	return filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.Type().IsRegular() {
+			f, err := os.Open(p)
+			if err != nil {
+				return err
+			}
+			err = f.Sync()
+			f.Close()
+			return err
+		}
+		if d.IsDir() {
+			syncPath(p)
+		}
+		return nil
+	})
+}
+
+// syncPath flushes a folder's entries (best effort: not every system can).
+func syncPath(p string) {
+	if f, err := os.Open(p); err == nil {
+		f.Sync()
+		f.Close()
+	}
 }

@@ -1,6 +1,7 @@
 package output
 
 import (
+	"context"
 	"fmt"
 	"strings"
 	"time"
@@ -12,29 +13,31 @@ import (
 // SummarySheet is the name of the workbook's first sheet.
 const SummarySheet = "summary"
 
-// maxSheetRows leaves room for the header within a worksheet's 1,048,576 rows.
-const maxSheetRows = 1_048_575
+// maxSheetRows leaves room for the header within a worksheet's 1,048,576
+// rows (a variable only so that a test can lower it).
+var maxSheetRows int64 = 1_048_575
 
 // XLSXHook adds to the workbook after the sheets are written, e.g. native
 // charts. sheetOf maps each table's name to its sheet's name.
 type XLSXHook func(f *excelize.File, run *Run, sheetOf map[string]string) error
 
-// SheetNames gives each table a sheet name: its name cut to Excel's 31
-// characters, made unique. The summary sheet comes first.
+// maxSheetName is Excel's limit on a sheet name's length.
+const maxSheetName = 31
+
+// SheetNames gives each table a sheet name: its full name when it fits
+// Excel's 31 characters, else its name cut with "~N" at the end, N being
+// the table's position among the data sheets (the summary's sheet list
+// shows the full name beside it). Names are unique, case-insensitively.
 func SheetNames(tables []*Table) map[string]string {
 	used := map[string]bool{strings.ToLower(SummarySheet): true}
 	out := map[string]string{}
-	for _, t := range tables {
-		base := t.Name
-		if utf8.RuneCountInString(base) > 31 {
-			base = string([]rune(base)[:31])
-		}
-		name := base
-		for k := 2; used[strings.ToLower(name)]; k++ {
-			suf := fmt.Sprintf("_%d", k)
-			r := []rune(base)
-			if len(r)+len(suf) > 31 {
-				r = r[:31-len(suf)]
+	for i, t := range tables {
+		name := t.Name
+		if utf8.RuneCountInString(name) > maxSheetName || used[strings.ToLower(name)] {
+			suf := fmt.Sprintf("~%d", i+1)
+			r := []rune(t.Name)
+			if len(r)+len(suf) > maxSheetName {
+				r = r[:maxSheetName-len(suf)]
 			}
 			name = string(r) + suf
 		}
@@ -44,12 +47,110 @@ func SheetNames(tables []*Table) map[string]string {
 	return out
 }
 
-type styles struct {
-	header, title, label, wrap, bold int
-	kind                             map[string]int
+// headings are the workbook's column headings for leadline's own column
+// names; other names are written with spaces for underscores and a
+// capital first letter (see Heading).
+var headings = map[string]string{
+	"n": "N", "z": "Z", "p": "p", "p_value": "p-value", "p_adjusted": "p (adjusted)", "runs_p": "Runs p-value",
+	"chi2": "Chi-square", "df": "Degrees of freedom", "ks_d": "KS D", "ks_critical": "KS critical value",
+	"mad": "MAD", "expected_mad": "Expected MAD", "excess_mad": "Excess MAD",
+	"goodman_lower": "Goodman lower bound", "goodman_upper": "Goodman upper bound", "outside_goodman": "Outside Goodman bounds",
+	"row_id": "Row id", "file_id": "File id", "doc_id": "Document id", "sha256": "SHA-256", "size_bytes": "Size (bytes)",
+	"rsf": "RSF", "first_line": "First line", "top_flagged": "Top flagged bins",
 }
 
-func numFmt(k Kind, scale int) string {
+// Heading is a column's heading in the workbook: words for the JSON name
+// that CSV, Parquet and JSON keep.
+func Heading(name string) string {
+	if h, ok := headings[strings.ToLower(name)]; ok {
+		return h
+	}
+	s := strings.TrimSpace(strings.ReplaceAll(name, "_", " "))
+	if s == "" {
+		return name
+	}
+	r, n := utf8.DecodeRuneInString(s)
+	return strings.ToUpper(string(r)) + s[n:]
+}
+
+// IsPValue says whether a column of statistics holds p-values, by its name
+// (p, p_value, p_adjusted, runs_p...).
+func IsPValue(name string) bool {
+	n := strings.ToLower(name)
+	return n == "p" || strings.HasPrefix(n, "p_") || strings.HasSuffix(n, "_p")
+}
+
+// FlagWord is how the workbook writes a true/false cell: a column named
+// flagged reads "flagged" or stays empty, so that the flagged rows stand
+// out and filter; other flags read yes or no.
+func FlagWord(column string, v bool) string {
+	if strings.EqualFold(column, "flagged") {
+		if v {
+			return "flagged"
+		}
+		return ""
+	}
+	if v {
+		return "yes"
+	}
+	return "no"
+}
+
+// CellLimit is the most characters (UTF-16 code units) a workbook cell
+// holds.
+const CellLimit = 32767
+
+// cutText cuts s to the workbook's cell limit, ending it with a note that
+// says so and where the full text is. It reports whether it cut.
+func cutText(s, table string) (string, bool) {
+	if utf16Len(s) <= CellLimit {
+		return s, false
+	}
+	mark := fmt.Sprintf(" [cut at the workbook's cell limit of %d characters; the full text of %d characters is in %s/%s.csv]",
+		CellLimit, utf16Len(s), TablesDir, table)
+	keep := CellLimit - utf16Len(mark)
+	n := 0
+	for i, r := range s {
+		w := 1
+		if r >= 0x10000 {
+			w = 2
+		}
+		if n+w > keep {
+			return s[:i] + mark, true
+		}
+		n += w
+	}
+	return s, false
+}
+
+func utf16Len(s string) int {
+	n := 0
+	for _, r := range s {
+		n++
+		if r >= 0x10000 {
+			n++
+		}
+	}
+	return n
+}
+
+type styles struct {
+	header, title, label, wrap, bold, link int
+	kind                                   map[string]int
+}
+
+// PValueFormat shows a p-value to four places, in scientific notation
+// below 0.0001, and a p-value of 0 (one that underflowed the floating
+// point range: no p-value is exactly 0) as "< 1e-300", as the terminal
+// and the report do.
+const PValueFormat = `[=0]"< 1e-300";[<0.0001]0.00E+00;0.0000`
+
+// numFmt is the number format of a column: p-values as PValueFormat,
+// proportions and percentages as percent (as the report shows them).
+func numFmt(k Kind, scale int, name string) string {
+	if (k == Number || k == Proportion) && IsPValue(name) {
+		return PValueFormat
+	}
 	switch k {
 	case Count:
 		return "#,##0"
@@ -58,9 +159,9 @@ func numFmt(k Kind, scale int) string {
 			return "#,##0"
 		}
 		return "#,##0." + strings.Repeat("0", scale)
-	case Number, Proportion:
+	case Number:
 		return "0.0000"
-	case Percent:
+	case Proportion, Percent:
 		return "0.00%"
 	case Date:
 		return "yyyy-mm-dd"
@@ -71,7 +172,11 @@ func numFmt(k Kind, scale int) string {
 }
 
 func (s *styles) forKind(f *excelize.File, k Kind, scale int) (int, error) {
-	code := numFmt(k, scale)
+	return s.forColumn(f, k, scale, "")
+}
+
+func (s *styles) forColumn(f *excelize.File, k Kind, scale int, name string) (int, error) {
+	code := numFmt(k, scale, name)
 	if code == "" {
 		return 0, nil
 	}
@@ -104,6 +209,9 @@ func newStyles(f *excelize.File) (*styles, error) {
 		return nil, err
 	}
 	if s.label, err = f.NewStyle(&excelize.Style{Font: &excelize.Font{Bold: true}, Alignment: &excelize.Alignment{Vertical: "top"}}); err != nil {
+		return nil, err
+	}
+	if s.link, err = f.NewStyle(&excelize.Style{Font: &excelize.Font{Color: "0563C1", Underline: "single"}}); err != nil {
 		return nil, err
 	}
 	if s.wrap, err = f.NewStyle(&excelize.Style{Alignment: &excelize.Alignment{Vertical: "top", WrapText: true}}); err != nil {
@@ -141,13 +249,20 @@ func WriteXLSX(path string, run *Run, hooks ...XLSXHook) error {
 		return err
 	}
 	sheetOf := SheetNames(run.Tables)
-	if err := writeSummarySheet(f, st, run, sheetOf); err != nil {
-		return err
-	}
-	for _, t := range run.Tables {
-		if err := writeTableSheet(f, st, sheetOf[t.Name], t); err != nil {
+	for i, t := range run.Tables {
+		if err := writeTableSheet(context.Background(), f, st, sheetOf[t.Name], i+1, t); err != nil {
 			return fmt.Errorf("sheet %s: %w", sheetOf[t.Name], err)
 		}
+	}
+	var cut int64
+	for _, t := range run.Tables {
+		cut += t.CellsCut
+	}
+	if cut > 0 {
+		run.Summary.Notes = append(run.Summary.Notes, fmt.Sprintf("Workbook: %d text cell(s) longer than the cell limit of %d characters were cut and marked in the cell; the sheet list names the tables, whose CSV files hold the full text.", cut, CellLimit))
+	}
+	if err := writeSummarySheet(f, st, run, sheetOf); err != nil {
+		return err
 	}
 	for _, h := range hooks {
 		if err := h(f, run, sheetOf); err != nil {
@@ -167,7 +282,13 @@ func WriteXLSX(path string, run *Run, hooks ...XLSXHook) error {
 	return f.SaveAs(path)
 }
 
-func writeTableSheet(f *excelize.File, st *styles, sheet string, t *Table) error {
+// writeTableSheet writes one table's sheet: a frozen header row of
+// headings in words, the rows (from the table's source when it has one, up
+// to the sheet's row limit) with number formats by column, flags as words,
+// text cut at the cell limit marked, and an autofilter over all of it (as
+// a worksheet table, which a streamed sheet can carry). It records on the
+// table the rows written and the cells cut.
+func writeTableSheet(ctx context.Context, f *excelize.File, st *styles, sheet string, index int, t *Table) error {
 	if _, err := f.NewSheet(sheet); err != nil {
 		return err
 	}
@@ -177,21 +298,26 @@ func writeTableSheet(f *excelize.File, st *styles, sheet string, t *Table) error
 	}
 	colStyle := make([]int, len(t.Columns))
 	widths := make([]int, len(t.Columns))
+	head := make([]any, len(t.Columns))
+	seen := map[string]int{}
 	for i, c := range t.Columns {
 		scale := 0
 		if c.Kind == Money {
 			scale, _ = t.moneyScale(i)
 		}
-		if colStyle[i], err = st.forKind(f, c.Kind, scale); err != nil {
+		if colStyle[i], err = st.forColumn(f, c.Kind, scale, c.Name); err != nil {
 			return err
 		}
-		widths[i] = utf8.RuneCountInString(c.Name) + 2
+		h := Heading(c.Name)
+		// A worksheet table needs unique headings.
+		if k := seen[strings.ToLower(h)]; k > 0 {
+			h = fmt.Sprintf("%s (%d)", h, k+1)
+		}
+		seen[strings.ToLower(h)]++
+		head[i] = excelize.Cell{StyleID: st.header, Value: h}
+		widths[i] = utf8.RuneCountInString(h) + 4
 	}
-	rows := t.Rows
-	if len(rows) > maxSheetRows {
-		rows = rows[:maxSheetRows]
-	}
-	for _, r := range rows[:min(len(rows), 200)] {
+	for _, r := range t.Rows[:min(len(t.Rows), 200)] {
 		for i := range t.Columns {
 			n := utf8.RuneCountInString(FormatValue(r[i])) + 2
 			if t.Columns[i].Kind == Money || t.Columns[i].Kind == Count {
@@ -209,28 +335,47 @@ func writeTableSheet(f *excelize.File, st *styles, sheet string, t *Table) error
 		Selection: []excelize.Selection{{SQRef: "A2", ActiveCell: "A2", Pane: "bottomLeft"}}}); err != nil {
 		return err
 	}
-	head := make([]any, len(t.Columns))
-	for i, c := range t.Columns {
-		head[i] = excelize.Cell{StyleID: st.header, Value: c.Name}
-	}
 	if err := sw.SetRow("A1", head); err != nil {
 		return err
 	}
-	for n, r := range rows {
-		vals := make([]any, len(t.Columns))
-		for i := range t.Columns {
-			v := cellValue(r[i])
-			if v == nil {
+	var n, cut int64
+	vals := make([]any, len(t.Columns))
+	err = t.eachRow(ctx, maxSheetRows, func(r []any) error {
+		for i, c := range t.Columns {
+			vals[i] = nil
+			if i >= len(r) || r[i] == nil {
 				continue
 			}
-			if s, ok := v.(string); ok && t.Columns[i].Kind != Text {
-				vals[i] = s
+			v := cellValue(r[i])
+			switch x := v.(type) {
+			case bool:
+				vals[i] = FlagWord(c.Name, x)
 				continue
+			case string:
+				// Text is always a string cell, never a formula.
+				s, was := cutText(x, t.Name)
+				if was {
+					cut++
+				}
+				if c.Kind != Text {
+					vals[i] = s
+					continue
+				}
+				v = s
 			}
 			vals[i] = excelize.Cell{StyleID: colStyle[i], Value: v}
 		}
-		cell, _ := excelize.CoordinatesToCellName(1, n+2)
-		if err := sw.SetRow(cell, vals); err != nil {
+		cell, _ := excelize.CoordinatesToCellName(1, int(n)+2)
+		n++
+		return sw.SetRow(cell, vals)
+	})
+	if err != nil {
+		return err
+	}
+	t.SheetRows, t.CellsCut = n, cut
+	if len(t.Columns) > 0 {
+		last, _ := excelize.CoordinatesToCellName(len(t.Columns), int(max(n, 1))+1)
+		if err := sw.AddTable(&excelize.Table{Range: "A1:" + last, Name: fmt.Sprintf("table_%d", index), StyleName: "TableStyleLight1"}); err != nil {
 			return err
 		}
 	}
@@ -249,6 +394,14 @@ func writeSummarySheet(f *excelize.File, st *styles, run *Run, sheetOf map[strin
 			return f.SetCellStyle(sh, cell, cell, style)
 		}
 		return nil
+	}
+	// link writes text that opens the named sheet when clicked.
+	link := func(col int, text, sheet string) error {
+		cell, _ := excelize.CoordinatesToCellName(col, row)
+		if err := set(col, text, st.link); err != nil {
+			return err
+		}
+		return f.SetCellHyperLink(sh, cell, "'"+strings.ReplaceAll(sheet, "'", "''")+"'!A1", "Location")
 	}
 	pair := func(label string, v any, style int) error {
 		if err := set(1, label, st.label); err != nil {
@@ -347,8 +500,8 @@ func writeSummarySheet(f *excelize.File, st *styles, run *Run, sheetOf map[strin
 		if err := set(2, fd.Text, st.wrap); err != nil {
 			return err
 		}
-		if fd.Table != "" {
-			if err := set(3, "see sheet "+sheetOf[fd.Table], 0); err != nil {
+		if sheet, ok := sheetOf[fd.Table]; ok {
+			if err := link(3, "see sheet "+sheet, sheet); err != nil {
 				return err
 			}
 		}
@@ -372,24 +525,29 @@ func writeSummarySheet(f *excelize.File, st *styles, run *Run, sheetOf map[strin
 		return err
 	}
 	row++
-	for i, h := range []string{"sheet", "title", "rows"} {
+	for i, h := range []string{"Sheet", "Title", "Rows in the sheet", "Rows in all", "Table (CSV, Parquet)", "Note"} {
 		if err := set(i+1, h, st.header); err != nil {
 			return err
 		}
 	}
 	row++
 	for _, t := range run.Tables {
-		if err := set(1, sheetOf[t.Name], 0); err != nil {
+		if err := link(1, sheetOf[t.Name], sheetOf[t.Name]); err != nil {
 			return err
 		}
-		title := t.Title
-		if t.Truncated {
-			title += fmt.Sprintf(" (first %d of %d rows)", len(t.Rows), t.RowsTotal)
-		}
-		if err := set(2, title, 0); err != nil {
+		if err := set(2, t.Title, st.wrap); err != nil {
 			return err
 		}
-		if err := set(3, int64(len(t.Rows)), countStyle); err != nil {
+		if err := set(3, t.SheetRows, countStyle); err != nil {
+			return err
+		}
+		if err := set(4, max(t.RowsTotal, int64(len(t.Rows))), countStyle); err != nil {
+			return err
+		}
+		if err := set(5, TablesDir+"/"+t.Name+".csv", 0); err != nil {
+			return err
+		}
+		if err := set(6, SheetNote(t), st.wrap); err != nil {
 			return err
 		}
 		row++
@@ -400,7 +558,30 @@ func writeSummarySheet(f *excelize.File, st *styles, run *Run, sheetOf map[strin
 	if err := f.SetColWidth(sh, "B", "B", 90); err != nil {
 		return err
 	}
-	return f.SetColWidth(sh, "C", "C", 28)
+	if err := f.SetColWidth(sh, "C", "E", 20); err != nil {
+		return err
+	}
+	return f.SetColWidth(sh, "F", "F", 60)
+}
+
+// SheetNote says what a table's sheet leaves out: rows beyond the sheet's
+// limit or beyond what the step kept, and text cut at the cell limit.
+func SheetNote(t *Table) string {
+	var parts []string
+	total := max(t.RowsTotal, int64(len(t.Rows)))
+	switch {
+	case t.SheetRows < total && t.Complete:
+		parts = append(parts, fmt.Sprintf("the sheet holds the first %d of %d rows (the sheet's row limit); all %d are in %s/%s.csv and .parquet",
+			t.SheetRows, total, total, TablesDir, t.Name))
+	case t.SheetRows < total && t.Note != "":
+		parts = append(parts, t.Note)
+	case t.SheetRows < total:
+		parts = append(parts, fmt.Sprintf("the first %d of %d rows", t.SheetRows, total))
+	}
+	if t.CellsCut > 0 {
+		parts = append(parts, fmt.Sprintf("%d text cell(s) cut at the cell limit of %d characters and marked; the CSV holds the full text", t.CellsCut, CellLimit))
+	}
+	return strings.Join(parts, "; ")
 }
 
 func moneyCell(s string) any {

@@ -7,6 +7,7 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/tabular"
 )
@@ -140,7 +141,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 		}
 		parts = append(parts, fmt.Sprintf("%s MAD %.4f (%s)", t.Test, t.MAD, t.Conformity))
 	}
-	r.finding("battery", "digit_tests", "Digit tests on %s amounts: %s.", thousands(rep.Tested), strings.Join(parts, "; "))
+	r.finding("battery", "digit_tests", "Digit tests on %s amounts: %s.", numfmt.Int(rep.Tested), strings.Join(parts, "; "))
 	for _, t := range rep.Tests {
 		if t.Test == benford.FirstTwo && len(t.TopFlagged) > 0 {
 			r.finding("battery", "digits_first_two", "First-two digits test: %d bin(s) flagged; follow up first: %s.", t.Flagged, binsText(t.Test, t.TopFlagged))
@@ -156,7 +157,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 	if d := rep.Duplication; d != nil && len(d.Top) > 0 {
 		var top []string
 		for _, x := range d.Top[:min(3, len(d.Top))] {
-			top = append(top, fmt.Sprintf("%s × %s", x.Amount, thousands(x.Count)))
+			top = append(top, fmt.Sprintf("%s × %s", x.Amount, numfmt.Int(x.Count)))
 		}
 		r.finding("battery", "number_duplication", "Number duplication: most frequent amounts %s.", strings.Join(top, ", "))
 	}

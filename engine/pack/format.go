@@ -58,9 +58,10 @@ type Header struct {
 	Client      string `toml:"client" json:"client"`
 	Period      string `toml:"period" json:"period"`
 	Description string `toml:"description" json:"description,omitempty"`
-	Workspace   string `toml:"workspace" json:"workspace"` // relative to the pack; default: the pack file's name with .duckdb, beside it
-	Scale       Number `toml:"scale" json:"scale"`         // decimal places of amounts, 1 to 6 (default 2)
-	Precision   Number `toml:"precision" json:"precision"` // 18 or 38 (default 18)
+	Workspace   string `toml:"workspace" json:"workspace"`                 // relative to the pack; default: the pack file's name with .duckdb, beside it
+	Scale       Number `toml:"scale" json:"scale"`                         // decimal places of amounts, 1 to 6 (default 2)
+	Precision   Number `toml:"precision" json:"precision"`                 // 18 or 38 (default 18)
+	CSVFormulas string `toml:"csv_formulas" json:"csv_formulas,omitempty"` // quote (default) or keep
 }
 
 // Source is one [[source]]: files and how to read them.
@@ -74,6 +75,9 @@ type Source struct {
 	Delimiter    string            `toml:"delimiter" json:"delimiter,omitempty"`
 	Encoding     string            `toml:"encoding" json:"encoding,omitempty"`
 	DateFormat   string            `toml:"date_format" json:"date_format,omitempty"`
+	DecimalPoint bool              `toml:"decimal_point" json:"decimal_point,omitempty"` // settles amounts such as 1.234 that read both ways
+	MaxRejects   string            `toml:"max_rejects" json:"max_rejects,omitempty"`     // largest share of a file's rows rejected, "5%"
+	TimeZone     string            `toml:"time_zone" json:"time_zone,omitempty"`         // zone of Parquet timestamps with a time zone (default UTC)
 }
 
 // Population is the [population] table: who is tested unless a step says
@@ -141,6 +145,10 @@ type Extract struct {
 	Top     Number `toml:"top" json:"top"`
 	GroupBy string `toml:"group_by" json:"group_by,omitempty"`
 	MaxRows Number `toml:"max_rows" json:"max_rows"`
+	// A reproducible sample of the extract's records to vouch.
+	Sample     string `toml:"sample" json:"sample,omitempty"` // random or monetary
+	SampleSize Number `toml:"sample_size" json:"sample_size"`
+	Seed       Number `toml:"seed" json:"seed"`
 }
 
 // SQLCheck is one [[check]]: a named read-only SELECT whose result is a

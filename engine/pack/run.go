@@ -2,9 +2,9 @@ package pack
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"time"
 
@@ -34,7 +34,7 @@ type Result struct {
 
 // Run checks the pack and the output folder, loads the sources or reuses
 // the workspace, runs every step and writes the output folder (replacing
-// an earlier run's files only once every result is in hand). A
+// an earlier run's folder only once every file of the new one is written). A
 // pack with problems returns *Problems and runs nothing.
 func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	now := o.Now
@@ -59,6 +59,19 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		return nil, err
 	}
 	info := output.PackInfo{Name: p.Pack.Name, Client: p.Pack.Client, Period: p.Pack.Period, File: p.File, SHA256: p.SHA256}
+	// One run at a time writes an output folder; a run killed while
+	// writing it left files beside it that are tidied here.
+	if err := os.MkdirAll(filepath.Dir(out), 0o755); err != nil {
+		return nil, err
+	}
+	outLock, err := workspace.AcquireLock(ctx, output.LockName(out), o.Log)
+	if err != nil {
+		return nil, err
+	}
+	defer outLock.Unlock()
+	if err := output.RecoverDir(out, info, o.Log); err != nil {
+		return nil, err
+	}
 	if _, err := output.CheckDir(out, info); err != nil {
 		return nil, err
 	}
@@ -67,10 +80,11 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		return nil, err
 	}
 	t0 = time.Now()
-	ws, action, reason, err := openWorkspace(ctx, pl, inputs, o.Fresh, o.Log)
+	ws, action, reason, release, err := openWorkspace(ctx, pl, inputs, o.Fresh, o.Log)
 	if err != nil {
 		return nil, err
 	}
+	defer release()
 	defer ws.Close()
 	if o.Log != nil {
 		fmt.Fprintf(o.Log, "Workspace %s: %s (%s) in %.1fs\n", pl.Workspace, action, reason, time.Since(t0).Seconds())
@@ -160,11 +174,9 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	}
 	run.Manifest.Run.FinishedAt = now().UTC()
 	t0 = time.Now()
-	// Only now, with every result in hand, the earlier run's files go.
-	if err := output.PrepareDir(out, info); err != nil {
-		return nil, err
-	}
-	outs, err := output.WriteAll(ctx, out, run, o.Output)
+	// Written beside the earlier results, which are replaced only once
+	// every file is written.
+	outs, err := output.WriteDir(ctx, out, info, run, o.Output)
 	if err != nil {
 		return nil, err
 	}
@@ -173,9 +185,8 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	}
 	run.Manifest.Outputs = outs
 	res.Run, res.Outputs, res.StepErrors = run, outs, r.errs
-	params, _ := json.Marshal(map[string]any{"pack": info, "parameters": pl.Parameters(), "out": out})
-	doc, _ := json.Marshal(run)
-	if err := ws.SaveRunWithID(ctx, runID, "pack", started, params, doc); err != nil {
+	params := map[string]any{"pack": info, "parameters": pl.Parameters(), "out": out}
+	if _, err := ws.SaveRun(ctx, workspace.Run{ID: runID, Kind: "pack", Started: started, Params: params, Result: run}); err != nil {
 		return res, err
 	}
 	return res, nil

@@ -73,6 +73,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("workspace = %s  # the DuckDB workspace, beside this file", q(strings.TrimSuffix(filepath.Base(packPath), filepath.Ext(packPath))+".duckdb"))
 	w("scale = 2                 # decimal places of amounts (1 to 6)")
 	w("precision = 18            # total digits: 18 (fast) or 38")
+	w("csv_formulas = \"quote\"    # CSV text a spreadsheet would run (=, +, -, @) gets a leading ': \"quote\" or \"keep\"")
 	w("")
 	w("[[source]]")
 	w("name = %s", q(base))
@@ -91,8 +92,11 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	} else {
 		w("decimal_comma = %v     # true when amounts read 1.234,56", dc)
 	}
+	w("# decimal_point = true  # settles amounts such as 1.234 that read both ways, as 1.234 (decimal_comma = true reads 1234)")
 	df, dfNote := guessDateFormat(in)
 	w("date_format = %s        # %s", q(df), dfNote)
+	w("# time_zone = \"UTC\"     # zone in which Parquet timestamps with a time zone become posting dates")
+	w("# max_rejects = \"1%%\"    # largest share of a file's rows that may be rejected; more fails the load")
 	if in.Mapping.Debit != "" {
 		w("debit = %s   # amount = debit - credit", q(in.Mapping.Debit))
 		w("credit = %s", q(in.Mapping.Credit))
@@ -208,7 +212,10 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	} else {
 		w("# group_by = \"user_id\"   # also a table of the records grouped by this column")
 	}
-	w("max_rows = 1000")
+	w("max_rows = 1000            # records in results.json and the report; tables/ hold every record")
+	w("# sample = \"monetary\"      # a sample to vouch: \"random\" (simple random) or \"monetary\" (by |amount|)")
+	w("# sample_size = 25")
+	w("# seed = 1                 # the same seed draws the same sample again")
 	w("")
 	w("# Extra checks: one read-only SELECT each over ledger, files and rejects;")
 	w("# values are bound as $name from [check.params], never pasted into the SQL.")

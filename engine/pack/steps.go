@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"encoding/json"
 	"fmt"
+	"math/big"
 	"sort"
 	"strconv"
 	"strings"
@@ -15,10 +16,13 @@ import (
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
 )
 
 // runner carries one pack run's state between its steps.
@@ -37,7 +41,10 @@ type runner struct {
 	duplicates *duplicates.Result
 }
 
-func (r *runner) add(t *output.Table) { r.run.Tables = append(r.run.Tables, t) }
+func (r *runner) add(t *output.Table) {
+	t.KeepFormulas = r.pl.KeepFormulas
+	r.run.Tables = append(r.run.Tables, t)
+}
 
 func (r *runner) finding(section, table, format string, args ...any) {
 	r.run.Summary.Findings = append(r.run.Summary.Findings, output.Finding{Section: section, Table: table, Text: fmt.Sprintf(format, args...)})
@@ -69,23 +76,6 @@ func dec(s string) any {
 func (r *runner) amountDec(v float64) output.Decimal {
 	d, _ := output.NewDecimal(strconv.FormatFloat(v, 'f', r.scale, 64))
 	return d
-}
-
-func thousands(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
 }
 
 // completeness: per input file, rejects by reason, control totals per entity.
@@ -204,7 +194,7 @@ func (r *runner) completeness(ctx context.Context) error {
 		"files": c.Files, "rows_read": c.RowsRead, "rows_loaded": c.RowsLoaded, "rows_rejected": c.RowsRejected,
 		"balanced": c.Balanced, "sum_positive": c.SumPositive, "sum_negative": c.SumNegative, "net": c.Net,
 	}
-	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, thousands(c.RowsRead), thousands(c.RowsLoaded), thousands(c.RowsRejected))
+	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, numfmt.Int(c.RowsRead), numfmt.Int(c.RowsLoaded), numfmt.Int(c.RowsRejected))
 	if !c.Balanced {
 		text += "; WARNING: a file does not balance, see the inputs table"
 	}
@@ -280,7 +270,7 @@ func (r *runner) limitsStep(ctx context.Context) error {
 	for _, row := range rep.Rows {
 		if row.Flagged && len(top) < 3 {
 			top = append(top, fmt.Sprintf("limit %s in %s: %s just below against %s just above",
-				r.amountDec(row.Limit).Text, segmentText(row.Segment), thousands(row.Below), thousands(row.Above)))
+				r.amountDec(row.Limit).Text, segmentText(row.Segment), numfmt.Int(row.Below), numfmt.Int(row.Above)))
 		}
 	}
 	r.finding("limits", "limits", "Limit clustering: %d of %d (segment, limit) pairs flagged (expected ratio below/above %.3f at width %.0f%%); strongest: %s.",
@@ -323,7 +313,7 @@ func (r *runner) rangesStep(ctx context.Context) error {
 	}
 	s := rep.Stretches[0]
 	r.finding("ranges", "ranges_inflated", "Amount ranges: %d of %d bands flagged in %d inflated range(s); largest excess %s to %s: %s amounts against %.0f expected.",
-		rep.Flagged, rep.Scored, len(rep.Stretches), r.amountDec(s.From).Text, r.amountDec(s.To).Text, thousands(s.Count), s.Expected)
+		rep.Flagged, rep.Scored, len(rep.Stretches), r.amountDec(s.From).Text, r.amountDec(s.To).Text, numfmt.Int(s.Count), s.Expected)
 	return nil
 }
 
@@ -421,7 +411,7 @@ func (r *runner) duplicatesStep(ctx context.Context) error {
 		}
 		r.add(ot)
 		if tr.GroupsTotal > 0 {
-			parts = append(parts, fmt.Sprintf("%s %s", tr.Test, thousands(tr.GroupsTotal)))
+			parts = append(parts, fmt.Sprintf("%s %s", tr.Test, numfmt.Int(tr.GroupsTotal)))
 		}
 	}
 	cp := *res
@@ -475,7 +465,7 @@ func (r *runner) checkStep(ctx context.Context, c CheckPlan) error {
 	checks, _ := r.run.Results["checks"].([]map[string]any)
 	r.run.Results["checks"] = append(checks, res)
 	if c.Finding == "rows" && t.RowsTotal > 0 {
-		r.finding("check", t.Name, "%s: %s row(s).", c.Title, thousands(t.RowsTotal))
+		r.finding("check", t.Name, "%s: %s row(s).", c.Title, numfmt.Int(t.RowsTotal))
 	}
 	return nil
 }
@@ -545,7 +535,9 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	var grpCols []string
 	var grpRows [][]any
 	var total int64
-	for _, it := range items {
+	var parts []string // one query per item, for the source of every record
+	var args []any
+	for n, it := range items {
 		b, err := drill.Build(ctx, r.ws, it.sel)
 		if err != nil {
 			return fmt.Errorf("%s: %w", it.label, err)
@@ -555,6 +547,13 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			return err
 		}
 		total += sum.Records
+		q, a, err := drill.RecordsQuery(ctx, r.ws, b, drill.RecordOptions{})
+		if err != nil {
+			return err
+		}
+		parts = append(parts, queries.Render("extract_item", map[string]string{
+			"n": strconv.Itoa(n + 1), "records": strings.TrimSuffix(strings.TrimSpace(q), ";")}))
+		args = append(append(args, it.label), a...)
 		limit := e.MaxRows - len(recRows)
 		if limit > 0 {
 			t, _, err := drill.Records(ctx, r.ws, b, drill.RecordOptions{Limit: limit})
@@ -588,10 +587,41 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	rt := output.NewTable("extract_"+e.Name, fmt.Sprintf("Extract %s: records behind the top %d result(s) of %s", e.Name, e.Top, e.From), "extract", recCols, recRows, kinds)
 	rt.RowsTotal = total
 	rt.Truncated = total > int64(len(recRows))
+	stage := queries.QuoteIdent("ll_extract_" + e.Name)
+	if len(parts) > 0 && len(recCols) > 1 {
+		// Every record goes to tables/ (and the workbook, up to its row
+		// limit) straight from DuckDB, from a temporary table filled once;
+		// Rows keeps the first max_rows for results.json and the report.
+		q := queries.Render("extract_stage", map[string]string{"table": stage, "items": strings.Join(parts, "\nUNION ALL\n")})
+		if _, err := r.ws.Conn.ExecContext(ctx, q, args...); err != nil {
+			return err
+		}
+		rt.Source = &output.Source{DB: r.ws.Conn, SQL: "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM " + stage + " ORDER BY ll_pos"}
+		rt.Complete = true
+	}
+	var drawn *SampleDrawn
+	var sampleTable *output.Table
+	if e.Sample != "" && rt.Source != nil && total > 0 {
+		var err error
+		if sampleTable, drawn, err = r.drawSample(ctx, e, stage, total, kinds); err != nil {
+			return fmt.Errorf("sample: %w", err)
+		}
+		for i := range r.pl.Extracts {
+			if r.pl.Extracts[i].Name == e.Name {
+				r.pl.Extracts[i].Drawn = drawn
+			}
+		}
+	}
 	if rt.Truncated {
-		rt.Note = fmt.Sprintf("the first %d of %d records (max_rows)", len(recRows), total)
+		rt.Note = fmt.Sprintf("results.json and the report list the first %s of %s records (max_rows)", numfmt.Int(int64(len(recRows))), numfmt.Int(total))
+		if rt.Complete {
+			rt.Note += fmt.Sprintf("; all %s are in %s/%s.csv and %s/%s.parquet", numfmt.Int(total), output.TablesDir, rt.Name, output.TablesDir, rt.Name)
+		}
 	}
 	r.add(rt)
+	if sampleTable != nil {
+		r.add(sampleTable)
+	}
 	if e.GroupBy != "" {
 		if len(grpCols) == 0 {
 			grpCols = []string{"item", e.GroupBy, "records", "total", "distinct_amounts", "repeated_amounts"}
@@ -610,9 +640,13 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 	for i, it := range items {
 		labels[i] = it.label
 	}
-	r.run.Results["extracts"] = append(ex, map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy})
+	doc := map[string]any{"name": e.Name, "from": e.From, "test": e.Test, "items": labels, "records": total, "group_by": e.GroupBy}
+	if drawn != nil {
+		doc["sample"] = drawn
+	}
+	r.run.Results["extracts"] = append(ex, doc)
 	if len(items) > 0 {
-		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, thousands(total), len(items), e.From)
+		r.finding("extract", rt.Name, "Extract %s: %s record(s) behind %d result(s) of %s.", e.Name, numfmt.Int(total), len(items), e.From)
 	}
 	return nil
 }
@@ -622,4 +656,95 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 	b := bin
 	return drill.Selection{Spec: o.Spec, Test: test, Bin: &b}
+}
+
+// drawSample draws the extract's sample from the table stage, the
+// extract's records with their position (ll_pos, from 0), and returns its table
+// and what was drawn. Simple random: sample_size records with equal
+// probability; monetary: by |amount| (see engine/sample).
+func (r *runner) drawSample(ctx context.Context, e ExtractPlan, stage string, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
+	d := &SampleDrawn{Method: e.Sample, Seed: e.Seed, Size: e.SampleSize, PopulationRecords: records,
+		Order: "the extract's records in its order: by item, then row_id (file order)"}
+	rows, err := r.ws.Conn.QueryContext(ctx, "SELECT CAST(abs(amount) AS VARCHAR) FROM "+stage+" ORDER BY ll_pos")
+	if err != nil {
+		return nil, nil, err
+	}
+	var sizes []*big.Int
+	total := new(big.Int)
+	for rows.Next() {
+		var a sql.NullString
+		if err := rows.Scan(&a); err != nil {
+			rows.Close()
+			return nil, nil, err
+		}
+		u := new(big.Int)
+		if a.Valid {
+			if _, ok := u.SetString(strings.Replace(a.String, ".", "", 1), 10); !ok {
+				rows.Close()
+				return nil, nil, fmt.Errorf("amount %q is not a decimal", a.String)
+			}
+		}
+		sizes = append(sizes, u)
+		total.Add(total, u)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, nil, err
+	}
+	d.PopulationTotal = r.unitsText(total)
+	var positions []int64
+	switch e.Sample {
+	case "random":
+		positions = sample.Random(int64(len(sizes)), e.SampleSize, uint64(e.Seed))
+	case "monetary":
+		res, err := sample.Monetary(sizes, e.SampleSize, uint64(e.Seed))
+		if err != nil {
+			return nil, nil, err
+		}
+		positions = res.Positions
+		d.Interval, d.Start = r.unitsText(res.Interval), r.unitsText(res.Start)
+	default:
+		return nil, nil, fmt.Errorf("unknown sampling method %q", e.Sample)
+	}
+	d.Selected = len(positions)
+	marks := "NULL"
+	var sargs []any
+	if len(positions) > 0 {
+		marks = strings.TrimSuffix(strings.Repeat("?, ", len(positions)), ", ")
+		for _, p := range positions {
+			sargs = append(sargs, p)
+		}
+	}
+	srows, err := r.ws.Conn.QueryContext(ctx, "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM "+stage+" WHERE ll_pos IN ("+marks+") ORDER BY ll_pos", sargs...)
+	if err != nil {
+		return nil, nil, err
+	}
+	tt, _, err := tabular.FromRows(srows, len(positions)+1)
+	if err != nil {
+		return nil, nil, err
+	}
+	how := "simple random sample (each record equally likely)"
+	if e.Sample == "monetary" {
+		how = fmt.Sprintf("monetary-unit sample (probability proportional to |amount|; interval %s, random start %s)", d.Interval, d.Start)
+	}
+	t := output.NewTable("extract_"+e.Name+"_sample", fmt.Sprintf("Extract %s: sample of %d record(s) to vouch", e.Name, len(tt.Rows)), "extract", tt.Columns, tt.Rows, kinds)
+	t.Note = fmt.Sprintf("%s of %s record(s) asked, %s selected, from the extract's %s records totalling %s (|amount|), seed %d; drawn again by the same pack on the same records",
+		how, numfmt.Int(int64(e.SampleSize)), numfmt.Int(int64(d.Selected)), numfmt.Int(records), d.PopulationTotal, e.Seed)
+	return t, d, nil
+}
+
+// unitsText writes an amount in the ledger's smallest units as decimal
+// text at the ledger's scale.
+func (r *runner) unitsText(u *big.Int) string {
+	s := new(big.Int).Abs(u).String()
+	if r.scale > 0 {
+		if len(s) <= r.scale {
+			s = strings.Repeat("0", r.scale-len(s)+1) + s
+		}
+		s = s[:len(s)-r.scale] + "." + s[len(s)-r.scale:]
+	}
+	if u.Sign() < 0 {
+		s = "-" + s
+	}
+	return s
 }

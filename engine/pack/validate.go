@@ -23,6 +23,7 @@ import (
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/workspace"
@@ -33,6 +34,7 @@ import (
 const (
 	DefaultScale          = 2
 	DefaultPrecision      = 18
+	DefaultSampleSize     = 25
 	DefaultMinSegmentRows = 1000
 	DefaultExtractTop     = 4
 	DefaultExtractRows    = 1000
@@ -56,6 +58,8 @@ type Plan struct {
 	Duplicates *duplicates.Options
 	Extracts   []ExtractPlan
 	Checks     []CheckPlan
+	// KeepFormulas writes CSV text cells as they are (csv_formulas = "keep").
+	KeepFormulas bool
 }
 
 // PlannedSource is a [[source]] with its files found and read.
@@ -83,6 +87,26 @@ type ExtractPlan struct {
 	Top     int    `json:"top"`
 	GroupBy string `json:"group_by,omitempty"`
 	MaxRows int    `json:"max_rows"`
+	// The sample drawn from the extract's records, if any; Drawn is filled
+	// in by the run, so that the manifest's parameters record the draw.
+	Sample     string       `json:"sample,omitempty"`
+	SampleSize int          `json:"sample_size,omitempty"`
+	Seed       int64        `json:"seed,omitempty"`
+	Drawn      *SampleDrawn `json:"drawn,omitempty"`
+}
+
+// SampleDrawn records a sample as drawn: enough for a reviewer to draw it
+// again from the same records in the same order.
+type SampleDrawn struct {
+	Method            string `json:"method"`
+	Seed              int64  `json:"seed"`
+	Size              int    `json:"size"`               // asked for
+	Selected          int    `json:"selected"`           // records selected
+	PopulationRecords int64  `json:"population_records"` // the extract's records
+	PopulationTotal   string `json:"population_total"`   // sum of |amount| over them
+	Interval          string `json:"interval,omitempty"` // monetary: the sampling interval
+	Start             string `json:"start,omitempty"`    // monetary: the random start
+	Order             string `json:"order"`              // the population's order
 }
 
 // CheckPlan is one extra SQL check, checked read-only, with its bound
@@ -151,13 +175,14 @@ func (pl *Plan) Parameters() map[string]any {
 		})
 	}
 	out := map[string]any{
-		"workspace":   pl.Workspace,
-		"amount_type": pl.AmountType,
-		"sources":     src,
-		"filters":     pl.Filters,
-		"population":  pl.Pack.Population,
-		"extracts":    pl.Extracts,
-		"checks":      pl.Checks,
+		"workspace":    pl.Workspace,
+		"amount_type":  pl.AmountType,
+		"sources":      src,
+		"filters":      pl.Filters,
+		"population":   pl.Pack.Population,
+		"extracts":     pl.Extracts,
+		"checks":       pl.Checks,
+		"csv_formulas": map[bool]string{false: "quote", true: "keep"}[pl.KeepFormulas],
 	}
 	if pl.Battery != nil {
 		out["battery"] = pl.Battery
@@ -232,6 +257,7 @@ func Check(ctx context.Context, p *Pack) (*Plan, *Problems) {
 	c.filters(ctx, mem, pl, schemaOK)
 	c.steps(ctx, mem, pl, schemaOK)
 	c.checks(ctx, mem, pl, schemaOK)
+	c.tableNames(pl)
 	c.out.sort()
 	return pl, c.out
 }
@@ -316,6 +342,13 @@ func (c *checker) header(pl *Plan) {
 	}
 	c.amountType = population.AmountType{Precision: pl.Precision, Scale: pl.Scale}
 	pl.AmountType = c.amountType.SQL()
+	switch strings.ToLower(strings.TrimSpace(h.CSVFormulas)) {
+	case "", "quote":
+	case "keep":
+		pl.KeepFormulas = true
+	default:
+		c.errf("pack.csv_formulas", "csv_formulas %q: give \"quote\" (the default: text a spreadsheet would run as a formula gets a leading ') or \"keep\" (text as it is)", h.CSVFormulas)
+	}
 	switch ws := strings.TrimSpace(h.Workspace); {
 	case ws == ":memory:":
 		pl.Workspace = ws
@@ -328,8 +361,8 @@ func (c *checker) header(pl *Plan) {
 		pl.Workspace = filepath.Join(c.p.Dir, ws)
 	}
 	if pl.Workspace != ":memory:" {
-		if st, err := os.Stat(pl.Workspace); err == nil && st.IsDir() {
-			c.errf("pack.workspace", "%s is a folder: give the workspace file's path, e.g. %q", pl.Workspace, "client.duckdb")
+		if _, err := workspace.CheckFile(pl.Workspace); err != nil {
+			c.errf("pack.workspace", "%v", err)
 		}
 	}
 }
@@ -347,8 +380,8 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		if ps.Name == "" {
 			ps.Name = fmt.Sprintf("source %d", i+1)
 		}
-		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma,
-			Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
+		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma, DecimalPoint: s.DecimalPoint,
+			MaxRejects: s.MaxRejects, TimeZone: s.TimeZone, Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
 			Map: map[string]string{}}
 		if len(s.Files) == 0 {
 			c.errf(key+".files", "no files: give files = [\"extract.csv\"] or a pattern such as \"extracts/*.csv\" (relative to the pack file)")
@@ -427,6 +460,20 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		default:
 			c.errf(key+".encoding", "encoding %q: give utf-8, utf-16 or latin-1", s.Encoding)
 		}
+		if s.DecimalComma && s.DecimalPoint {
+			c.errf(key+".decimal_point", "decimal_comma and decimal_point contradict each other: give one")
+		}
+		if s.MaxRejects != "" {
+			if _, err := load.ParseShare(s.MaxRejects); err != nil {
+				c.errf(key+".max_rejects", "max_rejects %v", err)
+			}
+		}
+		if s.TimeZone != "" {
+			var known bool
+			if err := mem.Conn.QueryRowContext(ctx, queries.Get("load_time_zone_known"), s.TimeZone).Scan(&known); err != nil || !known {
+				c.errf(key+".time_zone", "time_zone %q: not a time zone name; give one such as \"UTC\" or \"Europe/Berlin\"", s.TimeZone)
+			}
+		}
 		if s.DateFormat != "" && !strings.Contains(s.DateFormat, "%") {
 			c.errf(key+".date_format", "date_format %q: write a strptime format such as %%d/%%m/%%Y", s.DateFormat)
 		}
@@ -496,7 +543,7 @@ func fileColumns(ctx context.Context, mem *workspace.Workspace, path string, o l
 		}
 		return src.Columns, nil
 	}
-	rows, err := mem.Conn.QueryContext(ctx, "SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(path)+"))")
+	rows, err := mem.Conn.QueryContext(ctx, "SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(load.ExactPath(path))+"))")
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, firstLine(err.Error()))
 	}
@@ -939,6 +986,17 @@ func (c *checker) extracts(ctx context.Context, mem *workspace.Workspace, pl *Pl
 		}
 		ep.Top = int(c.intParam(key+".top", e.Top, DefaultExtractTop, 1, "top"))
 		ep.MaxRows = int(c.intParam(key+".max_rows", e.MaxRows, DefaultExtractRows, 1, "max_rows"))
+		switch m := strings.ToLower(strings.TrimSpace(e.Sample)); {
+		case m == "" && (e.SampleSize.Set() || e.Seed.Set()):
+			c.errf(key+".sample", "sample_size and seed need sample = \"random\" or \"monetary\"")
+		case m == "":
+		case !contains(sample.Methods, m):
+			c.errf(key+".sample", "sample %q: give \"random\" (simple random, seeded) or \"monetary\" (monetary-unit: probability proportional to |amount|)", e.Sample)
+		default:
+			ep.Sample = m
+			ep.SampleSize = int(c.intParam(key+".sample_size", e.SampleSize, DefaultSampleSize, 1, "sample_size"))
+			ep.Seed = c.intParam(key+".seed", e.Seed, 1, 1, "seed")
+		}
 		if e.GroupBy != "" && schemaOK {
 			if _, err := segment.Resolve(ctx, mem, []string{e.GroupBy}); err != nil {
 				c.errf(key+".group_by", "%s", strings.ReplaceAll(err.Error(), "--by ", "group_by "))

@@ -15,10 +15,12 @@ import (
 )
 
 // The workbook read back with excelize: the summary sheet first, then one
-// sheet per table in order, each with a frozen header row, the CSV's
-// header and the CSV's values (numbers as numbers, equal to 15 significant
-// digits, which is what a spreadsheet keeps), and number formats by column
-// kind.
+// sheet per table in order, each with a frozen header row of headings in
+// words (the CSV keeps the JSON names), an autofilter over the whole
+// table, the CSV's values (numbers as numbers, equal to 15 significant
+// digits, which is what a spreadsheet keeps; flags as words), and number
+// formats by column (percent for proportions, the p-value format for
+// p-values). The summary's references to sheets are links to them.
 func TestWorkbookMatchesCSV(t *testing.T) {
 	_, out, res := exampleRun(t)
 	f, err := excelize.OpenFile(filepath.Join(out, output.WorkbookFile))
@@ -69,8 +71,15 @@ func TestWorkbookMatchesCSV(t *testing.T) {
 			t.Errorf("%s: %d sheet rows, %d CSV rows", sheet, len(rows), len(recs))
 			continue
 		}
-		if strings.Join(rows[0], ",") != strings.Join(recs[0], ",") {
-			t.Errorf("%s: header %v, CSV %v", sheet, rows[0], recs[0])
+		for c, col := range tb.Columns {
+			if recs[0][c] != col.Name || c >= len(rows[0]) || rows[0][c] != output.Heading(col.Name) {
+				t.Errorf("%s: column %s: CSV header %q, sheet heading %q", sheet, col.Name, recs[0][c], rows[0])
+			}
+		}
+		tables, err := f.GetTables(sheet)
+		last, _ := excelize.CoordinatesToCellName(len(tb.Columns), max(len(recs), 2))
+		if err != nil || len(tables) != 1 || tables[0].Range != "A1:"+last {
+			t.Errorf("%s: autofilter table %+v (%v), want A1:%s", sheet, tables, err, last)
 		}
 		panes, err := f.GetPanes(sheet)
 		if err != nil || !panes.Freeze || panes.YSplit != 1 {
@@ -82,7 +91,7 @@ func TestWorkbookMatchesCSV(t *testing.T) {
 				if c < len(rows[r]) {
 					got = rows[r][c]
 				}
-				if !sameCell(tb.Columns[c].Kind, got, want) {
+				if !sameCell(tb.Columns[c], got, want) {
 					t.Errorf("%s row %d column %s: sheet %q, CSV %q", sheet, r, tb.Columns[c].Name, got, want)
 				}
 				cells++
@@ -101,7 +110,10 @@ func TestWorkbookMatchesCSV(t *testing.T) {
 				if st != nil && st.CustomNumFmt != nil {
 					code = *st.CustomNumFmt
 				}
-				wantCode := map[output.Kind]string{output.Count: "#,##0", output.Money: "#,##0.00", output.Proportion: "0.0000", output.Number: "0.0000", output.Percent: "0.00%", output.Date: "yyyy-mm-dd"}[col.Kind]
+				wantCode := map[output.Kind]string{output.Count: "#,##0", output.Money: "#,##0.00", output.Proportion: "0.00%", output.Number: "0.0000", output.Percent: "0.00%", output.Date: "yyyy-mm-dd"}[col.Kind]
+				if (col.Kind == output.Number || col.Kind == output.Proportion) && output.IsPValue(col.Name) {
+					wantCode = output.PValueFormat
+				}
 				if code != wantCode {
 					t.Errorf("%s column %s (%s): format %q, want %q", sheet, col.Name, col.Kind, code, wantCode)
 				}
@@ -111,14 +123,39 @@ func TestWorkbookMatchesCSV(t *testing.T) {
 	if cells < 5_000 {
 		t.Errorf("only %d cells compared", cells)
 	}
+	// "see sheet X" and the sheet list link to the sheets.
+	links, list := 0, false
+	for r, row := range summary {
+		list = list || len(row) > 0 && row[0] == "Sheet"
+		for c, v := range row {
+			name, ok := strings.CutPrefix(v, "see sheet ")
+			if !ok && !(list && c == 0 && contains(want[1:], v)) {
+				continue
+			}
+			if !ok {
+				name = v
+			}
+			cell, _ := excelize.CoordinatesToCellName(c+1, r+1)
+			isLink, target, _ := f.GetCellHyperLink(output.SummarySheet, cell)
+			if !isLink || target != "'"+name+"'!A1" || !contains(sheets, name) {
+				t.Errorf("summary %s %q: link %v to %q", cell, v, isLink, target)
+			}
+			links++
+		}
+	}
+	if links < len(res.Run.Tables)+len(res.Run.Summary.Findings) {
+		t.Errorf("only %d links on the summary sheet", links)
+	}
 }
 
-// sameCell compares a raw spreadsheet value with the CSV text.
-func sameCell(k output.Kind, got, want string) bool {
+// sameCell compares a raw spreadsheet value with the CSV text: flags are
+// words in the sheet, and text that the CSV neutralised with a leading '
+// is the text itself in the sheet.
+func sameCell(col output.Column, got, want string) bool {
 	if got == want {
 		return true
 	}
-	switch k {
+	switch col.Kind {
 	case output.Count, output.Money, output.Number, output.Proportion, output.Percent:
 		g, err1 := strconv.ParseFloat(got, 64)
 		w, err2 := strconv.ParseFloat(want, 64)
@@ -137,7 +174,9 @@ func sameCell(k output.Kind, got, want string) bool {
 		d, err := excelize.ExcelDateToTime(g, false)
 		return err == nil && d.Equal(w)
 	case output.Bool:
-		return (got == "1") == (want == "true") && (got == "1" || got == "0")
+		return (want == "true" || want == "false") && got == output.FlagWord(col.Name, want == "true")
+	case output.Text:
+		return output.NeutralizeText(got) == want
 	}
 	return false
 }

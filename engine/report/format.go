@@ -7,6 +7,8 @@ import (
 	"math"
 	"strconv"
 	"strings"
+
+	"github.com/leadline/leadline/engine/numfmt"
 )
 
 // Number formats of the report. Each is a name the templates pass to
@@ -25,14 +27,14 @@ func formatValue(v any, kind string) string {
 	switch x := v.(type) {
 	case string:
 		if kind == "money" {
-			return typoMinus(groupThousands(x))
+			return typoMinus(numfmt.Group(x))
 		}
 		return x
 	case int:
 		return formatFloat(float64(x), kind)
 	case int64:
 		if kind == "int" || kind == "" {
-			return typoMinus(groupThousands(strconv.FormatInt(x, 10)))
+			return typoMinus(numfmt.Group(strconv.FormatInt(x, 10)))
 		}
 		return formatFloat(float64(x), kind)
 	case float64:
@@ -52,15 +54,15 @@ func formatFloat(x float64, kind string) string {
 	var s string
 	switch name {
 	case "int":
-		s = groupThousands(strconv.FormatFloat(math.Round(x), 'f', 0, 64))
+		s = numfmt.Group(strconv.FormatFloat(math.Round(x), 'f', 0, 64))
 	case "pct":
 		if arg == "~" { // as few decimals as the value needs, up to four
-			s = groupThousands(trimZeros(strconv.FormatFloat(x*100, 'f', 4, 64))) + "%"
+			s = numfmt.Group(trimZeros(strconv.FormatFloat(x*100, 'f', 4, 64))) + "%"
 			break
 		}
-		s = groupThousands(strconv.FormatFloat(x*100, 'f', dec, 64)) + "%"
+		s = numfmt.Group(strconv.FormatFloat(x*100, 'f', dec, 64)) + "%"
 	case "f":
-		s = groupThousands(strconv.FormatFloat(x, 'f', dec, 64))
+		s = numfmt.Group(strconv.FormatFloat(x, 'f', dec, 64))
 	case "p":
 		switch {
 		case x == 0:
@@ -80,7 +82,7 @@ func formatFloat(x float64, kind string) string {
 			if d < 0 {
 				d = 0
 			}
-			s = groupThousands(strconv.FormatFloat(x, 'f', d, 64))
+			s = numfmt.Group(strconv.FormatFloat(x, 'f', d, 64))
 		default:
 			s = strconv.FormatFloat(x, 'e', 3, 64)
 		}
@@ -94,39 +96,6 @@ func typoMinus(s string) string {
 		return "−" + s[1:]
 	}
 	return s
-}
-
-// groupThousands puts commas between groups of three digits of the
-// integer part of a plain decimal number ("-1234567.89" ->
-// "-1,234,567.89"); other text is returned unchanged.
-func groupThousands(s string) string {
-	start := 0
-	if strings.HasPrefix(s, "-") || strings.HasPrefix(s, "+") {
-		start = 1
-	}
-	end := len(s)
-	if i := strings.IndexByte(s, '.'); i >= 0 {
-		end = i
-	}
-	intPart := s[start:end]
-	if len(intPart) <= 3 {
-		return s
-	}
-	for _, r := range intPart {
-		if r < '0' || r > '9' {
-			return s
-		}
-	}
-	var b strings.Builder
-	b.WriteString(s[:start])
-	for i, r := range intPart {
-		if i > 0 && (len(intPart)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(r)
-	}
-	b.WriteString(s[end:])
-	return b.String()
 }
 
 // rawValue is the exact stored form written into data-value.

@@ -2,7 +2,6 @@ package report
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -131,9 +130,5 @@ func buildDemo() (*demo, error) {
 }
 
 func saveRun(ctx context.Context, ws *workspace.Workspace, kind string, doc any) (int64, error) {
-	b, err := json.Marshal(doc)
-	if err != nil {
-		return 0, err
-	}
-	return ws.SaveRun(ctx, kind, time.Now(), []byte(`{}`), b)
+	return ws.SaveRun(ctx, workspace.Run{Kind: kind, Started: time.Now(), Params: struct{}{}, Result: doc})
 }

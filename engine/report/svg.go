@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/numfmt"
 )
 
 // Colours (Okabe-Ito palette, safe for the common colour-vision
@@ -121,7 +122,7 @@ func tickLabel(v, step float64, percent bool) string {
 	if percent {
 		return s + "%"
 	}
-	return groupThousands(s)
+	return numfmt.Group(s)
 }
 
 // labelEvery returns how often an x label is written for k bins.
@@ -697,7 +698,7 @@ func compactAmount(v float64) string {
 	case a >= 1e6:
 		return trimZeros(strconv.FormatFloat(v/1e6, 'f', 2, 64)) + "M"
 	}
-	return groupThousands(trimZeros(strconv.FormatFloat(v, 'f', 2, 64)))
+	return numfmt.Group(trimZeros(strconv.FormatFloat(v, 'f', 2, 64)))
 }
 
 func trimZeros(s string) string {

@@ -35,12 +35,12 @@ func AddDigitChart(f *excelize.File, sheet string, r *benford.Result) (string, e
 	if _, err := f.NewSheet(name); err != nil {
 		return "", err
 	}
-	head := []any{"bin", "count", "observed (within bounds)", "observed (flagged)", "expected", "lower bound", "upper bound", "flagged"}
+	head := []any{"Bin", "Count", "Observed (within bounds)", "Observed (flagged)", "Expected", "Lower bound", "Upper bound", "Flagged"}
 	if err := f.SetSheetRow(name, "A1", &head); err != nil {
 		return "", err
 	}
 	for i, b := range r.Bins {
-		row := []any{b.Label, b.Count, nil, nil, b.Expected, b.Lower, b.Upper, b.Flagged}
+		row := []any{b.Label, b.Count, nil, nil, b.Expected, b.Lower, b.Upper, output.FlagWord("flagged", b.Flagged)}
 		if b.Flagged {
 			row[3] = b.Actual
 		} else {
@@ -67,6 +67,9 @@ func AddDigitChart(f *excelize.File, sheet string, r *benford.Result) (string, e
 		return "", err
 	}
 	if err := f.SetPanes(name, &excelize.Panes{Freeze: true, YSplit: 1, TopLeftCell: "A2", ActivePane: "bottomLeft"}); err != nil {
+		return "", err
+	}
+	if err := f.AutoFilter(name, fmt.Sprintf("A1:H%d", max(n, 2)), nil); err != nil {
 		return "", err
 	}
 	_ = f.SetColWidth(name, "A", "A", 6)

@@ -77,8 +77,17 @@ func TestAddDigitCharts(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if len(rows) != len(r.Bins)+1 || rows[0][0] != "bin" {
-			t.Fatalf("%s: %d rows", sheets[i], len(rows))
+		if len(rows) != len(r.Bins)+1 || rows[0][0] != "Bin" || rows[0][7] != "Flagged" {
+			t.Fatalf("%s: %d rows, header %v", sheets[i], len(rows), rows[0])
+		}
+		// The data sheet filters and reads its flags as words.
+		filter := false
+		for _, dn := range g.GetDefinedName() {
+			filter = filter || dn.Name == "_xlnm._FilterDatabase" && dn.Scope == sheets[i] &&
+				strings.HasSuffix(dn.RefersTo, "$A$1:$H$"+strconv.Itoa(len(r.Bins)+1))
+		}
+		if !filter {
+			t.Errorf("%s: no autofilter over the bins: %+v", sheets[i], g.GetDefinedName())
 		}
 		flagged := 0
 		for j, b := range r.Bins {
@@ -99,6 +108,9 @@ func TestAddDigitCharts(t *testing.T) {
 			}
 			if b.Flagged {
 				flagged++
+			}
+			if want := map[bool]string{true: "flagged", false: ""}[b.Flagged]; len(row) > 7 && row[7] != want || len(row) <= 7 && want != "" {
+				t.Errorf("%s bin %s: flag %v, want %q", sheets[i], b.Label, row, want)
 			}
 		}
 		if flagged != r.Flagged || flagged == 0 {

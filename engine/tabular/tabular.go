@@ -6,7 +6,6 @@ package tabular
 import (
 	"database/sql"
 	"encoding/csv"
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
@@ -15,6 +14,8 @@ import (
 	"strings"
 	"time"
 	"unicode/utf8"
+
+	"github.com/leadline/leadline/engine/jsondoc"
 )
 
 // Table is a named grid of values.
@@ -194,9 +195,7 @@ func jsonValue(v any) any {
 
 // WriteJSON writes {"columns": [...], "rows": [{col: value}...]}.
 func (t *Table) WriteJSON(w io.Writer) error {
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(map[string]any{"columns": t.Columns, "rows": t.Records()})
+	return jsondoc.Write(w, map[string]any{"columns": t.Columns, "rows": t.Records()})
 }
 
 // FromRows reads a query result into a table, holding at most limit rows

@@ -8,10 +8,8 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
-	"os"
 	"strings"
 	"sync/atomic"
-	"time"
 
 	duckdb "github.com/duckdb/duckdb-go/v2"
 	"github.com/duckdb/duckdb-go/v2/mapping"
@@ -27,6 +25,10 @@ type Options struct {
 	MemoryLimit string // e.g. "4GB"; DuckDB's memory_limit
 	Threads     int    // DuckDB worker threads
 	TempDir     string // where DuckDB spills when memory runs short
+	// MustExist refuses to create a workspace: every command but load
+	// works on one that exists, and a mistyped --db must not leave an
+	// empty workspace behind.
+	MustExist bool
 }
 
 // Workspace is an open workspace. It holds a single connection: DuckDB
@@ -51,15 +53,23 @@ func (ws *Workspace) OnClose(f func()) { ws.onClose = append(ws.onClose, f) }
 // ErrInUse is returned when another process holds the workspace open.
 var ErrInUse = errors.New("workspace is in use by another process")
 
-// Open opens (creating if needed, unless read-only) the workspace at path.
-// ":memory:" gives a workspace that lives only as long as the process.
+// Open opens (creating if needed, unless read-only or MustExist) the
+// workspace at path. ":memory:" gives a workspace that lives only as long
+// as the process. An existing file that is not a leadline workspace is
+// refused before DuckDB opens it (ErrNotWorkspace).
 func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 	dsn := path
+	mustExist := opts.ReadOnly || opts.MustExist
 	if path == ":memory:" {
 		dsn = ""
-	} else if opts.ReadOnly {
-		if _, err := os.Stat(path); err != nil {
-			return nil, fmt.Errorf("workspace %s: %w (load some files first with `leadline load`)", path, err)
+		mustExist = false
+	} else {
+		exists, err := CheckFile(path)
+		if err != nil {
+			return nil, err
+		}
+		if !exists && mustExist {
+			return nil, noWorkspace(path, "there is no such file")
 		}
 	}
 	params := []string{}
@@ -86,10 +96,27 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 		ws.Close()
 		return nil, err
 	}
+	empty, err := ws.checkSchema(ctx)
+	if err != nil {
+		ws.Close()
+		return nil, err
+	}
+	if empty && mustExist {
+		ws.Close()
+		return nil, noWorkspace(path, "the file is a DuckDB database without any table")
+	}
 	if !opts.ReadOnly {
 		if _, err := conn.ExecContext(ctx, queries.Get("create_schema")); err != nil {
 			ws.Close()
 			return nil, fmt.Errorf("workspace %s: creating the schema: %w", path, err)
+		}
+		marked, err := ws.Marked(ctx)
+		if err == nil && !marked {
+			_, err = conn.ExecContext(ctx, queries.Get("workspace_mark"))
+		}
+		if err != nil {
+			ws.Close()
+			return nil, fmt.Errorf("workspace %s: marking it as a leadline workspace: %w", path, err)
 		}
 	}
 	if _, err := conn.ExecContext(ctx, queries.Get("create_amount_macros")); err != nil {
@@ -97,6 +124,10 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 		return nil, fmt.Errorf("workspace %s: creating the amount macros: %w", path, err)
 	}
 	return ws, nil
+}
+
+func noWorkspace(path, why string) error {
+	return fmt.Errorf("%w at %s (%s): check the --db path, or create the workspace by loading files with `leadline load --db %s FILE...`", ErrNoWorkspace, path, why, path)
 }
 
 func classifyOpenError(path string, err error) error {
@@ -208,31 +239,4 @@ func (ws *Workspace) DuckDBVersion(ctx context.Context) (string, error) {
 	var v string
 	err := ws.Conn.QueryRowContext(ctx, "SELECT version()").Scan(&v)
 	return v, err
-}
-
-// SaveRun stores a finished run (its parameters and its JSON result) and
-// returns the run id.
-func (ws *Workspace) SaveRun(ctx context.Context, kind string, started time.Time, params, result []byte) (int64, error) {
-	id, err := ws.NextRunID(ctx)
-	if err != nil {
-		return 0, fmt.Errorf("saving run: %w", err)
-	}
-	return id, ws.SaveRunWithID(ctx, id, kind, started, params, result)
-}
-
-// NextRunID reserves a run id before the run starts, so that results can
-// carry it; SaveRunWithID stores the run under it.
-func (ws *Workspace) NextRunID(ctx context.Context) (int64, error) {
-	var id int64
-	err := ws.Conn.QueryRowContext(ctx, queries.Get("next_run_id")).Scan(&id)
-	return id, err
-}
-
-// SaveRunWithID stores a run under an id from NextRunID.
-func (ws *Workspace) SaveRunWithID(ctx context.Context, id int64, kind string, started time.Time, params, result []byte) error {
-	_, err := ws.Conn.ExecContext(ctx, queries.Get("insert_run"), id, kind, started.UTC(), time.Now().UTC(), Version, string(params), string(result))
-	if err != nil {
-		return fmt.Errorf("saving run %d: %w", id, err)
-	}
-	return nil
 }

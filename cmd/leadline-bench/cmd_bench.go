@@ -22,10 +22,10 @@ func init() {
 	register(&command{
 		name:    "bench",
 		summary: "measure loads, the battery, segments, duplicates and a drill side by side, with peak memory",
-		usage: `Usage: leadline bench [options]
+		usage: `Usage: leadline-bench bench [options]
 
 Generates one synthetic ledger as CSV and as Parquet, then runs each step
-as a separate leadline process on the same files, in one run, and reports
+as a separate process on the same files, in one run, and reports
 its wall time and peak resident memory (from the operating system's
 accounting of that process):
 
@@ -46,9 +46,14 @@ and the ratios the sizing goals are stated in: load throughput against the
 bare read, battery against the single query, segments against the battery.
 --memory-limit, --threads and --temp-dir pass on to every step.
 
+The leadline steps run the leadline program given by --leadline (by
+default the one beside this program, else the one on the PATH); the bare
+DuckDB steps run this program's bench-step.
+
 Examples:
-  leadline bench --rows 5000000
-  leadline bench --rows 50000000 --dir /data/bench --keep`,
+  go build -o leadline ./cmd/leadline
+  go run ./cmd/leadline-bench bench --rows 5000000 --leadline ./leadline
+  leadline-bench bench --rows 50000000 --dir /data/bench --keep`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var o benchOptions
 			fs.Int64Var(&o.rows, "rows", 5_000_000, "ledger rows to generate")
@@ -57,6 +62,7 @@ Examples:
 			fs.StringVar(&o.memory, "memory-limit", "", "DuckDB memory limit for every step, e.g. 2GB")
 			fs.IntVar(&o.threads, "threads", 0, "DuckDB threads for every step")
 			fs.StringVar(&o.tempDir, "temp-dir", "", "DuckDB spill folder for every step")
+			fs.StringVar(&o.leadline, "leadline", "", "the leadline program of the load, scan, dups and drill steps (default: beside this program, else on the PATH)")
 			return func(ctx context.Context, args []string, e *env) error {
 				return runBench(ctx, e, o)
 			}
@@ -65,9 +71,9 @@ Examples:
 	register(&command{
 		name:    "bench-step",
 		summary: "(used by bench) run one bare DuckDB step: gen, bare-csv, bare-parquet or first-two",
-		usage:   "Usage: leadline bench-step STEP ARGS... (see leadline bench)",
+		usage:   "Usage: leadline-bench bench-step STEP ARGS... (see leadline-bench bench)",
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
+			var db stepDB
 			db.add(fs)
 			var rows int64
 			fs.Int64Var(&rows, "rows", 0, "gen: rows")
@@ -82,10 +88,41 @@ Examples:
 }
 
 type benchOptions struct {
-	rows                 int64
-	dir, memory, tempDir string
-	threads              int
-	keep                 bool
+	rows                           int64
+	dir, memory, tempDir, leadline string
+	threads                        int
+	keep                           bool
+}
+
+// stepDB are the workspace flags of bench-step, as leadline's own.
+type stepDB struct {
+	path, memory, tempDir string
+	threads               int
+}
+
+func (d *stepDB) add(fs *pflag.FlagSet) {
+	fs.StringVar(&d.path, "db", ":memory:", "workspace file")
+	// leadline's default limit, so that the bare steps run under the
+	// limit the leadline steps run under.
+	fs.StringVar(&d.memory, "memory-limit", "1280MB", "DuckDB memory limit")
+	fs.IntVar(&d.threads, "threads", 0, "DuckDB worker threads (default: one per core)")
+	fs.StringVar(&d.tempDir, "temp-dir", "", "DuckDB spill folder")
+}
+
+// findLeadline returns the leadline program: the one given, else the one
+// beside this program, else the one on the PATH.
+func findLeadline(given, self string) (string, error) {
+	if given != "" {
+		return exec.LookPath(given)
+	}
+	beside := filepath.Join(filepath.Dir(self), "leadline")
+	if st, err := os.Stat(beside); err == nil && !st.IsDir() {
+		return beside, nil
+	}
+	if p, err := exec.LookPath("leadline"); err == nil {
+		return p, nil
+	}
+	return "", fmt.Errorf("no leadline program beside %s or on the PATH: build it (go build -o leadline ./cmd/leadline) and give --leadline ./leadline", self)
 }
 
 type benchResult struct {
@@ -98,6 +135,10 @@ type benchResult struct {
 
 func runBench(ctx context.Context, e *env, o benchOptions) error {
 	self, err := os.Executable()
+	if err != nil {
+		return err
+	}
+	leadline, err := findLeadline(o.leadline, self)
 	if err != nil {
 		return err
 	}
@@ -130,14 +171,20 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 		}
 		return a
 	}
+	// step runs leadline with args, or this program's bench-step when
+	// args start with it.
 	step := func(name string, args ...string) (benchResult, error) {
-		cmd := exec.CommandContext(ctx, self, args...)
+		prog, label := leadline, "leadline "
+		if args[0] == "bench-step" {
+			prog, label = self, "leadline-bench "
+		}
+		cmd := exec.CommandContext(ctx, prog, args...)
 		cmd.Env = append(os.Environ(), "LEADLINE_NO_PROGRESS=1")
 		var out, errb bytes.Buffer
 		cmd.Stdout, cmd.Stderr = &out, &errb
 		t0 := time.Now()
 		err := cmd.Run()
-		r := benchResult{name: name, command: "leadline " + joinArgs(args), seconds: time.Since(t0).Seconds(), output: out.String()}
+		r := benchResult{name: name, command: label + joinArgs(args), seconds: time.Since(t0).Seconds(), output: out.String()}
 		if ru, ok := cmd.ProcessState.SysUsage().(*syscall.Rusage); ok {
 			r.peakMB = float64(ru.Maxrss) / 1024 // Linux reports kilobytes
 		}
@@ -224,7 +271,7 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	fmt.Fprintf(e.stdout, "leadline bench: %d rows, %s\n\n", o.rows, dir)
 	t.WriteText(e.stdout, 0)
 	ratio := func(a, b string) float64 { return by[a].seconds / by[b].seconds }
-	fmt.Fprintf(e.stdout, "\nRatios (goals from the sizing issue):\n")
+	fmt.Fprintf(e.stdout, "\nRatios (and the sizing goals):\n")
 	fmt.Fprintf(e.stdout, "  load CSV throughput / bare CSV read:         %.2f   (goal at least 0.8)\n", 1/ratio("load CSV", "bare CSV read"))
 	fmt.Fprintf(e.stdout, "  load Parquet throughput / bare Parquet read: %.2f   (goal at least 0.8)\n", 1/ratio("load Parquet", "bare Parquet read"))
 	fmt.Fprintf(e.stdout, "  load CSV throughput / DuckDB's own copy:     %.2f   (the floor of any load: every column written)\n", 1/ratio("load CSV", "copy CSV"))
@@ -253,7 +300,7 @@ func joinArgs(a []string) string {
 	return b.String()
 }
 
-func benchOneStep(ctx context.Context, e *env, db *dbFlags, stepName, path string, rows int64) error {
+func benchOneStep(ctx context.Context, e *env, db *stepDB, stepName, path string, rows int64) error {
 	if stepName == "gen" {
 		cfg := fixtures.Config{Rows: rows, Seed: 2025, Plants: rows >= 10_000}
 		if _, err := fixtures.WriteCSV(filepath.Join(path, "ledger.csv"), cfg); err != nil {

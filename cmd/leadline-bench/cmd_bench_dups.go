@@ -8,6 +8,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/spf13/pflag"
 )
 
@@ -15,7 +16,7 @@ func init() {
 	register(&command{
 		name:    "bench-dups",
 		summary: "time the duplicate tests and a grouped drill on a generated ledger",
-		usage: `Usage: leadline bench-dups [options]
+		usage: `Usage: leadline-bench bench-dups [options]
 
 Generates a synthetic ledger (the demo's generator, Parquet), loads it into
 a fresh workspace and times, on the same workspace:
@@ -31,9 +32,9 @@ Generation and loading are timed too but are not the benchmark. Nothing is
 held in Go memory beyond the groups and rows printed.
 
 Examples:
-  leadline bench-dups                       # 20,000,000 rows in a temporary folder
-  leadline bench-dups --rows 2000000 --repeat 3
-  leadline bench-dups --dir /data/bench --keep   # keep the Parquet file and workspace`,
+  leadline-bench bench-dups                       # 20,000,000 rows in a temporary folder
+  leadline-bench bench-dups --rows 2000000 --repeat 3
+  leadline-bench bench-dups --dir /data/bench --keep   # keep the Parquet file and workspace`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			o := benchDupsOptions{benchData: benchData{prefix: "leadline-bench-dups-"}}
 			var f formatFlag
@@ -80,7 +81,7 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 			if s != "" {
 				s += ", "
 			}
-			s += fmt.Sprintf("%s %s (%.1fs)", t.Test, drillCount(t.GroupsTotal), t.Seconds)
+			s += fmt.Sprintf("%s %s (%.1fs)", t.Test, numfmt.Int(t.GroupsTotal), t.Seconds)
 		}
 		return s + " groups (seconds of the last run)"
 	}
@@ -117,7 +118,7 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 		if err != nil {
 			return "", err
 		}
-		return fmt.Sprintf("%s records in %s groups", drillCount(s.Records), drillCount(g.GroupsTotal)), nil
+		return fmt.Sprintf("%s records in %s groups", numfmt.Int(s.Records), numfmt.Int(g.GroupsTotal)), nil
 	}); err != nil {
 		return err
 	}
@@ -134,7 +135,7 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 		if err != nil {
 			return "", err
 		}
-		return fmt.Sprintf("%s records, %d shown", drillCount(s.Records), len(t.Rows)), nil
+		return fmt.Sprintf("%s records, %d shown", numfmt.Int(s.Records), len(t.Rows)), nil
 	}); err != nil {
 		return err
 	}
@@ -144,7 +145,7 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 
 func printBenchDups(w io.Writer, format string, o benchDupsOptions, rows int64, duckdbVersion string, steps []benchStep, dir string) error {
 	if format == "json" {
-		return drillWriteJSON(w, o.describe(rows, duckdbVersion, steps))
+		return writeJSON(w, o.describe(rows, duckdbVersion, steps))
 	}
 	if err := o.printSteps(w, format, "Duplicate tests and drill", rows, duckdbVersion, steps); err != nil || format == "csv" {
 		return err

@@ -10,6 +10,7 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/queries"
 	"github.com/spf13/pflag"
 )
@@ -18,7 +19,7 @@ func init() {
 	register(&command{
 		name:    "bench-battery",
 		summary: "time the one-scan digit battery against a single first-two digits GROUP BY",
-		usage: `Usage: leadline bench-battery [options]
+		usage: `Usage: leadline-bench bench-battery [options]
 
 Generates a synthetic ledger (the demo's generator, Parquet), loads it into
 a fresh workspace and times, in the same run and on the same workspace:
@@ -39,10 +40,10 @@ of one invocation (the machine's other load moves all figures together).
 Generation and loading are timed too but are not the benchmark.
 
 Examples:
-  leadline bench-battery                        # 20,000,000 rows in a temporary folder
-  leadline bench-battery --rows 2000000 --repeat 3
-  leadline bench-battery --dir /data/bench --keep   # keep the Parquet file and workspace
-  leadline bench-battery --by counterparty      # 5,000-odd segments`,
+  leadline-bench bench-battery                        # 20,000,000 rows in a temporary folder
+  leadline-bench bench-battery --rows 2000000 --repeat 3
+  leadline-bench bench-battery --dir /data/bench --keep   # keep the Parquet file and workspace
+  leadline-bench bench-battery --by counterparty      # 5,000-odd segments`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			o := benchBatteryOptions{benchData: benchData{prefix: "leadline-bench-battery-"}}
 			var f formatFlag
@@ -104,9 +105,9 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 			if err != nil {
 				return "", err
 			}
-			s := fmt.Sprintf("%s amounts tested; scan %.2fs, statistics %.2fs", drillCount(r.Tested), r.Seconds.Scan, r.Seconds.Statistics)
+			s := fmt.Sprintf("%s amounts tested; scan %.2fs, statistics %.2fs", numfmt.Int(r.Tested), r.Seconds.Scan, r.Seconds.Statistics)
 			if r.Segments != nil {
-				s += fmt.Sprintf("; %s segments, %s ranked", drillCount(int64(r.Segments.Count)), drillCount(int64(r.Segments.Ranked)))
+				s += fmt.Sprintf("; %s segments, %s ranked", numfmt.Int(int64(r.Segments.Count)), numfmt.Int(int64(r.Segments.Ranked)))
 			}
 			return s, nil
 		}
@@ -128,7 +129,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 				k++
 				total += c
 			}
-			return fmt.Sprintf("%s amounts in %d bins", drillCount(total), k), rows.Err()
+			return fmt.Sprintf("%s amounts in %d bins", numfmt.Int(total), k), rows.Err()
 		}},
 		{"a", "(a) battery: one scan, six count-based tests", "leadline scan --tests " + testNames(countTests), runBattery(nil)},
 		{"c", "(c) battery by " + strings.Join(o.by, ", "), "leadline scan --tests " + testNames(countTests) + " --by " + strings.Join(o.by, " --by "), runBattery(o.by)},
@@ -163,7 +164,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 			if err != nil {
 				return "", err
 			}
-			return fmt.Sprintf("%s differences", drillCount(r.Tests[0].N)), nil
+			return fmt.Sprintf("%s differences", numfmt.Int(r.Tests[0].N)), nil
 		}); err != nil {
 			return err
 		}
@@ -172,7 +173,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 			if err != nil {
 				return "", err
 			}
-			return fmt.Sprintf("%s distinct amounts", drillCount(r.Duplication.Distinct)), nil
+			return fmt.Sprintf("%s distinct amounts", numfmt.Int(r.Duplication.Distinct)), nil
 		}); err != nil {
 			return err
 		}
@@ -229,7 +230,7 @@ func printBenchBattery(w io.Writer, format string, o benchBatteryOptions, rows i
 	if format == "json" {
 		doc := o.describe(rows, duckdbVersion, steps)
 		doc["by"], doc["ratios"] = o.by, ratios
-		return drillWriteJSON(w, doc)
+		return writeJSON(w, doc)
 	}
 	if err := o.printSteps(w, format, "Digit battery", rows, duckdbVersion, steps); err != nil || format == "csv" {
 		return err

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
@@ -94,7 +95,7 @@ func openBenchWorkspace(ctx context.Context, e *env, d benchData) (*workspace.Wo
 			return nil, "", nil, nil, err
 		}
 		steps = append(steps, benchStep{Step: "load (not the benchmark)", Command: "leadline load " + filepath.Base(pq),
-			Runs: []float64{time.Since(t0).Seconds()}, Result: fmt.Sprintf("%s rows loaded", drillCount(rep.RowsLoaded))})
+			Runs: []float64{time.Since(t0).Seconds()}, Result: fmt.Sprintf("%s rows loaded", numfmt.Int(rep.RowsLoaded))})
 	}
 	return ws, dir, steps, done, nil
 }
@@ -153,7 +154,7 @@ func (d benchData) printSteps(w io.Writer, format, what string, rows int64, duck
 		return t.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "%s on %s generated rows (seed %d), %d run(s) each, %d DuckDB threads on %d CPUs, DuckDB %s\n\n",
-		what, drillCount(rows), d.seed, d.repeat, d.threadsUsed(), runtime.NumCPU(), duckdbVersion)
+		what, numfmt.Int(rows), d.seed, d.repeat, d.threadsUsed(), runtime.NumCPU(), duckdbVersion)
 	return t.WriteText(w, 0)
 }
 
