@@ -105,18 +105,3 @@ SELECT coalesce(entity, '') AS entity,
 FROM ledger
 GROUP BY ALL
 ORDER BY entity;
-
--- name: file_totals
-SELECT f.file_id, f.name, f.rows_read, f.rows_loaded, f.rows_rejected, f.size_bytes, f.sha256,
-       CAST(coalesce(sum(l.amount) FILTER (WHERE l.amount > 0), 0) AS VARCHAR) AS positive,
-       CAST(coalesce(sum(l.amount) FILTER (WHERE l.amount < 0), 0) AS VARCHAR) AS negative,
-       CAST(coalesce(sum(l.amount), 0) AS VARCHAR) AS net
-FROM files f LEFT JOIN ledger l USING (file_id)
-GROUP BY ALL
-ORDER BY f.file_id;
-
--- name: reject_reasons
-SELECT file_id, reason, count(*) AS rows, min(line) AS first_line
-FROM rejects
-GROUP BY ALL
-ORDER BY file_id, rows DESC, reason;

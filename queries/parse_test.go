@@ -21,6 +21,9 @@ func fragments(dir string, segmented bool) map[string]string {
 		"amount_expr":    `TRY_CAST("amt" AS DECIMAL(18,2))`,
 		"amount_type":    "DECIMAL(18,2)",
 		"base":           "amount > 0",
+		"col":            `src."descr"`,
+		"column":         `"extra"`,
+		"column_defs":    `"descr" VARCHAR, "amount" VARCHAR`,
 		"columns":        `"ent" AS entity`,
 		"fast":           ", 1 AS ll_fast",
 		"file_col":       `"file"`,
@@ -30,9 +33,12 @@ func fragments(dir string, segmented bool) map[string]string {
 		"group_by":       "",
 		"group_expr":     "entity",
 		"ids":            "1, 2",
+		"items":          "SELECT 1 AS ll_item_no, 'x' AS item, 0 AS row_id",
 		"last2":          "ll_a % 100",
 		"limit":          "LIMIT 10",
 		"line_offset":    "1",
+		"memory_limit":   "'1GB'",
+		"n":              "1",
 		"options":        "FORMAT csv, HEADER",
 		"order":          "row_id",
 		"partition":      "",
@@ -44,6 +50,7 @@ func fragments(dir string, segmented bool) map[string]string {
 		"raw_expr":       `"amt"`,
 		"reader":         "read_csv(" + queries.QuoteString(filepath.Join(dir, "missing.csv")) + ")",
 		"reason_expr":    "'not an amount'",
+		"records":        "SELECT row_id, amount FROM ledger",
 		"rejects_table":  `"ll_rejects"`,
 		"row_id_base":    "0",
 		"row_number":     "row_number() OVER ()",
@@ -54,7 +61,10 @@ func fragments(dir string, segmented bool) map[string]string {
 		"sign_ok":        "ll_u > 0",
 		"sign_where":     "amount IS NOT NULL",
 		"stage":          `"ll_stage"`,
+		"table":          `"ll_extract_x"`,
+		"temp_directory": queries.QuoteString(dir),
 		"tested":         "ll_amount > 0",
+		"threads":        "2",
 		"units":          "CAST(amount * 100 AS BIGINT)",
 		"where":          "descr = 'x'",
 		"wide_type":      "DECIMAL(38,2)",
@@ -70,6 +80,10 @@ func fragments(dir string, segmented bool) map[string]string {
 	}
 	return f
 }
+
+// expressions are the named blocks that are SQL expressions, not statements:
+// the test parses them inside a SELECT.
+var expressions = map[string]bool{"output_neutral_text": true}
 
 // TestEveryStatementParses renders every named statement with representative
 // fragments (with and without segments) and runs it on an empty workspace
@@ -110,6 +124,9 @@ func TestEveryStatementParses(t *testing.T) {
 				repl[k] = v
 			}
 			q := queries.Render(name, repl)
+			if expressions[name] {
+				q = "SELECT " + q + " AS v FROM (SELECT 'x' AS descr) AS src"
+			}
 			tx, err := db.BeginTx(ctx, nil)
 			if err != nil {
 				t.Fatal(err)
