@@ -27,12 +27,16 @@ FROM (
 );
 
 -- name: load_reject_amounts
+-- Rows whose amount did not parse, with the reason: ? = the amount's
+-- column name, ? = file_id.
 INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
 SELECT file_id, line, ?, {{raw_expr}}, {{reason_expr}}, NULL
 FROM ledger
 WHERE file_id = ? AND amount IS NULL;
 
 -- name: load_reject_dates
+-- Rows whose posting date did not parse: ? = the date's column name,
+-- ? = the reason, ? = file_id.
 INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
 SELECT file_id, line, ?, {{raw_expr}}, ?, NULL
 FROM ledger
@@ -40,11 +44,13 @@ WHERE file_id = ? AND amount IS NOT NULL AND posted IS NULL
   AND nullif(trim(CAST({{raw_expr}} AS VARCHAR)), '') IS NOT NULL;
 
 -- name: load_delete_rejected
+-- The rows just moved to rejects leave the ledger (? = file_id).
 DELETE FROM ledger
 WHERE file_id = ?
   AND (amount IS NULL OR (posted IS NULL AND nullif(trim(CAST({{raw_expr}} AS VARCHAR)), '') IS NOT NULL));
 
 -- name: load_delete_rejected_no_date
+-- The same without a posting date column (? = file_id).
 DELETE FROM ledger WHERE file_id = ? AND amount IS NULL;
 
 -- name: load_structural_rejects
@@ -69,24 +75,30 @@ FROM duckdb_tables()
 WHERE table_name = 'ledger' AND schema_name = 'main' AND database_name = current_database();
 
 -- name: load_file_counts
+-- Rows of one file (? = file_id) the reader gave, and the last line.
 SELECT count(*) AS rows_in_ledger, coalesce(max(line), 0) FROM ledger WHERE file_id = ?;
 
 -- name: load_rejected_count
+-- ? = file_id.
 SELECT count(*) FROM rejects WHERE file_id = ?;
 
 -- name: load_next_row_id
 SELECT coalesce(max(row_id), 0) FROM ledger;
 
 -- name: load_insert_file
+-- The file's completeness record, bound in the order of the columns.
 INSERT INTO files (file_id, load_id, path, name, format, size_bytes, sha256,
                    rows_read, rows_loaded, rows_rejected, mapping, dialect, loaded_at)
 VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?);
 
 -- name: load_insert_load
+-- ? = load_id, started, finished, tool version, options as JSON.
 INSERT INTO loads (load_id, started_at, finished_at, tool_version, options)
 VALUES (?, ?, ?, ?, ?);
 
 -- name: load_forget_ledger
+-- --replace takes out an earlier file's rows, rejects and record
+-- (? = its file_id), in the load's transaction.
 DELETE FROM ledger WHERE file_id = ?;
 
 -- name: load_forget_rejects
@@ -105,3 +117,137 @@ SELECT coalesce(entity, '') AS entity,
 FROM ledger
 GROUP BY ALL
 ORDER BY entity;
+
+-- name: load_separator_evidence
+-- What the amount texts of one file say about its decimal mark, by kind
+-- (see engine/load/separators.go): how many, the first record holding one
+-- and its text; and the same for those of them that a decimal reading
+-- would round: the last ? digits (3 minus the scale, at least 0) are not
+-- all zero, bound twice. {{texts}} selects (pos, text). Only digits and
+-- the two marks are kept (spaces, signs and currencies dropped); texts
+-- with digits in more than one run (12,3x4, and exponents: 1.5E+03) say
+-- nothing.
+--
+-- The common shape, one point followed by one or two digits at the end
+-- (1234.56), is told without a regular expression: it is most rows, and
+-- the expression would cost about as much as reading the file.
+WITH t AS (
+    SELECT pos, text, strpos(text, '.') AS p
+    FROM ({{texts}})
+    WHERE contains(text, '.') OR contains(text, ',')
+), s AS (
+    SELECT pos, text, CASE
+        WHEN NOT contains(text, ',') AND length(text) - p IN (1, 2) THEN '0.5'
+        ELSE regexp_replace(regexp_extract(text, '^[^0-9]*?([0-9.,][0-9.,'' \x{00A0}\x{202F}]*)[^0-9]*$', 1), '[^0-9.,]', '', 'g')
+        END AS s
+    FROM t
+), k AS (
+    SELECT pos, text, s, CASE
+        WHEN contains(s, '.') AND contains(s, ',') THEN
+            CASE WHEN strpos(reverse(s), '.') < strpos(reverse(s), ',') THEN 'point' ELSE 'comma' END
+        WHEN regexp_full_match(s, '[1-9][0-9]{0,2}\.[0-9]{3}') THEN 'ambiguous_point'
+        WHEN regexp_full_match(s, '[1-9][0-9]{0,2},[0-9]{3}') THEN 'ambiguous_comma'
+        WHEN length(s) - length(replace(s, '.', '')) > 1 THEN 'comma'
+        WHEN length(s) - length(replace(s, ',', '')) > 1 THEN 'point'
+        WHEN contains(s, '.') THEN 'point'
+        WHEN contains(s, ',') THEN 'comma'
+        END AS kind
+    FROM s
+)
+SELECT kind, count(*), min(pos), arg_min(text, pos),
+       count(*) FILTER (WHERE right(s, ?) <> repeat('0', ?)),
+       coalesce(min(pos) FILTER (WHERE right(s, ?) <> repeat('0', ?)), 0),
+       coalesce(arg_min(text, pos) FILTER (WHERE right(s, ?) <> repeat('0', ?)), '')
+FROM k
+WHERE kind IS NOT NULL
+GROUP BY kind;
+
+-- name: load_rounded_count
+-- Loaded rows of one file (? = file_id) whose amount text had more
+-- decimal places than the scale; {{test}} is built by engine/load from
+-- the stored text columns of the amount.
+SELECT count(*) FROM ledger WHERE file_id = ? AND ({{test}});
+
+-- name: load_file_by_path
+-- The latest earlier load of a path (? = the absolute path).
+SELECT file_id, load_id, sha256 FROM files WHERE path = ? ORDER BY file_id DESC LIMIT 1;
+
+-- name: load_files_to_replace
+-- Files that --replace takes out: the same content ($1 = SHA-256) or the
+-- same path ($2 = the absolute path); whether each had the same content.
+SELECT file_id, sha256 = $1 FROM files WHERE sha256 = $1 OR path = $2 ORDER BY file_id;
+
+-- name: load_time_zone_known
+-- Whether ? names a time zone DuckDB knows.
+SELECT count(*) > 0 FROM pg_timezone_names() WHERE name = ?;
+
+-- name: load_input_totals
+-- What every load of the workspace read, loaded and rejected.
+SELECT count(*), coalesce(sum(rows_read), 0), coalesce(sum(rows_loaded), 0), coalesce(sum(rows_rejected), 0) FROM files;
+
+-- name: load_next_load_id
+SELECT nextval('load_seq');
+
+-- name: load_next_file_id
+SELECT nextval('file_seq');
+
+-- name: load_drop_new_ledger
+-- The ledger a load has just created, still empty, before it is created
+-- again with every column of its files (see widenNewLedger).
+DROP TABLE ledger;
+
+-- name: load_describe_parquet
+-- The columns and types of a Parquet file; {{path}} is the quoted,
+-- glob-escaped path.
+DESCRIBE SELECT * FROM read_parquet({{path}});
+
+-- name: load_threads
+SELECT CAST(current_setting('threads') AS INTEGER);
+
+-- name: load_insertion_order
+-- {{keep}} is true or false, decided by engine/load.
+SET preserve_insertion_order = {{keep}};
+
+-- name: load_loaded_count
+-- Rows of one file (? = file_id) in the ledger.
+SELECT count(*) FROM ledger WHERE file_id = ?;
+
+-- name: load_file_sums
+-- Control totals of one file (? = file_id), exact decimals as text.
+SELECT CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount), 0) AS VARCHAR)
+FROM ledger WHERE file_id = ?;
+
+-- name: load_stage_first
+-- The first rowid of a stage table.
+SELECT coalesce(min(rowid), 0) FROM {{stage}};
+
+-- name: load_drop_temp
+-- A stage or reader-rejects table of the load.
+DROP TABLE IF EXISTS {{table}};
+
+-- name: load_insert_structural_reject
+-- A record the CSV reader could not take: file_id, line, the columns it
+-- names, the reason, the record's text as the reader kept it.
+INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line) VALUES (?, ?, ?, NULL, ?, ?);
+
+-- name: load_renumber_lines
+-- Good rows after the i-th rejected record move down by i: {{ranges}} are
+-- (lo, hi, i) rows built by engine/load, lines of good rows (less the
+-- header) in (lo, hi]; ? = file_id.
+UPDATE ledger SET line = ledger.line + r.j
+FROM (VALUES {{ranges}}) AS r(lo, hi, j)
+WHERE ledger.file_id = ? AND ledger.line - 1 > r.lo AND ledger.line - 1 <= r.hi;
+
+-- name: load_add_column
+-- A ledger column for an original column, kept as text.
+ALTER TABLE ledger ADD COLUMN {{column}} VARCHAR;
+
+-- name: load_file_reasons
+-- Rejected rows of one file (? = file_id) by reason, with the first line.
+SELECT reason, count(*), min(line) FROM rejects WHERE file_id = ? GROUP BY reason ORDER BY count(*) DESC, reason;
+
+-- name: load_rejected_lines
+-- The lines of the records the CSV reader rejected while staging.
+SELECT DISTINCT line FROM {{rejects_table}} ORDER BY line;

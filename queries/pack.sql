@@ -55,7 +55,8 @@ SELECT * EXCLUDE (ll_item_no, ll_pos) FROM {{table}} WHERE ll_pos IN ({{ids}}) O
 -- name: pack_parquet_columns
 -- The column names of a Parquet input, for checking a pack without a
 -- workspace. No bound parameters: DuckDB takes none as a table-function
--- argument here. Placeholder {{path}}: the file, quoted with QuoteString.
+-- argument here. Placeholder {{path}}: the file, its glob characters
+-- escaped (load.ExactPath) and quoted with QuoteString.
 SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet({{path}}));
 
 -- name: pack_shape_add_column

@@ -21,8 +21,6 @@ func fragments(dir string, segmented bool) map[string]string {
 		"amount_expr":    `TRY_CAST("amt" AS DECIMAL(18,2))`,
 		"amount_type":    "DECIMAL(18,2)",
 		"base":           "amount > 0",
-		"col":            `src."descr"`,
-		"column":         `"extra"`,
 		"column_defs":    `"descr" VARCHAR, "amount" VARCHAR`,
 		"columns":        `"ent" AS entity`,
 		"fast":           ", 1 AS ll_fast",
@@ -33,24 +31,31 @@ func fragments(dir string, segmented bool) map[string]string {
 		"group_by":       "",
 		"group_expr":     "entity",
 		"ids":            "1, 2",
-		"items":          "SELECT 1 AS ll_item_no, 'x' AS item, 0 AS row_id",
 		"last2":          "ll_a % 100",
 		"limit":          "LIMIT 10",
 		"line_offset":    "1",
 		"memory_limit":   "'1GB'",
-		"n":              "1",
 		"options":        "FORMAT csv, HEADER",
 		"order":          "row_id",
 		"partition":      "",
 		"parts":          ", 1 AS ll_parts",
 		"predicate":      "(descr = 'x'\n)",
+		"col":            `"descr"`,
+		"column":         `"client_ref"`,
+		"keep":           "false",
+		"ranges":         "(0, 10, 1), (10, 20, 2)",
+		"test":           "length(descr) > 2",
+		"texts":          "SELECT 1 AS pos, '1.234' AS text",
+		"n":              "1",
+		"records":        "SELECT * FROM ledger",
+		"table":          `"ll_extract"`,
+		"items":          "SELECT 1 AS ll_item_no, 'a' AS item, 1 AS row_id",
 		"label":          `"group"`,
 		"path":           queries.QuoteString(filepath.Join(dir, "out.csv")),
 		"query":          "SELECT 1 AS one",
 		"raw_expr":       `"amt"`,
 		"reader":         "read_csv(" + queries.QuoteString(filepath.Join(dir, "missing.csv")) + ")",
 		"reason_expr":    "'not an amount'",
-		"records":        "SELECT row_id, amount FROM ledger",
 		"rejects_table":  `"ll_rejects"`,
 		"row_id_base":    "0",
 		"row_number":     "row_number() OVER ()",
@@ -61,7 +66,6 @@ func fragments(dir string, segmented bool) map[string]string {
 		"sign_ok":        "ll_u > 0",
 		"sign_where":     "amount IS NOT NULL",
 		"stage":          `"ll_stage"`,
-		"table":          `"ll_extract_x"`,
 		"temp_directory": queries.QuoteString(dir),
 		"tested":         "ll_amount > 0",
 		"threads":        "2",
@@ -81,8 +85,8 @@ func fragments(dir string, segmented bool) map[string]string {
 	return f
 }
 
-// expressions are the named blocks that are SQL expressions, not statements:
-// the test parses them inside a SELECT.
+// expressions are named fragments that are not statements of their own:
+// the test parses each as the one expression of a SELECT.
 var expressions = map[string]bool{"output_neutral_text": true}
 
 // TestEveryStatementParses renders every named statement with representative
@@ -125,7 +129,7 @@ func TestEveryStatementParses(t *testing.T) {
 			}
 			q := queries.Render(name, repl)
 			if expressions[name] {
-				q = "SELECT " + q + " AS v FROM (SELECT 'x' AS descr) AS src"
+				q = "SELECT " + q + " FROM ledger"
 			}
 			tx, err := db.BeginTx(ctx, nil)
 			if err != nil {

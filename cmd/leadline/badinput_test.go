@@ -48,6 +48,7 @@ func TestLoadBadInputCorpus(t *testing.T) {
 				RowsRead     int64  `json:"rows_read"`
 				RowsLoaded   int64  `json:"rows_loaded"`
 				RowsRejected int64  `json:"rows_rejected"`
+				RowsRounded  int64  `json:"rows_rounded"`
 				SHA256       string `json:"sha256"`
 			} `json:"files"`
 		}
@@ -58,6 +59,9 @@ func TestLoadBadInputCorpus(t *testing.T) {
 			t.Fatalf("files in the report: %+v", rep.Files)
 		}
 		f := rep.Files[0]
+		if c.RowsRounded != nil && f.RowsRounded != *c.RowsRounded {
+			t.Errorf("JSON rows_rounded %d, want %d", f.RowsRounded, *c.RowsRounded)
+		}
 		if f.RowsRead != c.RowsRead || f.RowsLoaded != c.RowsLoaded || f.RowsRejected != c.RowsRejected ||
 			rep.RowsRead != f.RowsRead || rep.RowsLoaded != f.RowsLoaded || rep.RowsRejected != f.RowsRejected {
 			t.Fatalf("JSON read %d loaded %d rejected %d (totals %d %d %d); want %d %d %d", f.RowsRead, f.RowsLoaded, f.RowsRejected,

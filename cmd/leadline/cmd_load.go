@@ -44,12 +44,17 @@ Examples:
 			fs.StringVar(&o.Debit, "debit", "", "debit column of a two-column ledger (amount = debit - credit)")
 			fs.StringVar(&o.Credit, "credit", "", "credit column of a two-column ledger")
 			fs.BoolVar(&o.DecimalComma, "decimal-comma", false, "amounts write the decimal mark as a comma (1.234,56)")
+			fs.BoolVar(&o.DecimalPoint, "decimal-point", false, "amounts write the decimal mark as a point (1,234.56): settles amounts such as 1.234 that read both ways")
 			fs.IntVar(&o.Scale, "scale", 2, "decimal places kept in amounts (fixed by a workspace's first load)")
 			fs.IntVar(&o.Precision, "precision", 18, "total digits of amounts: 18 (fast) or 38")
 			fs.StringVar(&o.Delimiter, "delimiter", "", `CSV field delimiter (default: guessed from the header among , ; tab |; "\t" for tab)`)
 			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8 (default), utf-16 or latin-1")
+			fs.StringVar(&o.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
 			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
-			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of an earlier load of the same content")
+			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of its earlier load (same content, or the same path with new content), in one transaction")
+			fs.StringVar(&o.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")
+			var acceptRejects bool
+			fs.BoolVar(&acceptRejects, "accept-rejects", false, "accept any share of rejected rows (same as --max-rejects 100%)")
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
@@ -63,6 +68,12 @@ Examples:
 					return err
 				}
 				o.Map = m
+				if acceptRejects {
+					if o.MaxRejects != "" {
+						return fmt.Errorf("give --max-rejects or --accept-rejects, not both")
+					}
+					o.MaxRejects = "100%"
+				}
 				ws, err := db.openOrCreate(ctx)
 				if err != nil {
 					return err
@@ -112,7 +123,11 @@ func printLoad(w io.Writer, format string, rep *load.Report) error {
 	if err := files.WriteText(w, 0); err != nil {
 		return err
 	}
-	fmt.Fprintf(w, "\nTotal: %d rows read = %d loaded + %d rejected\n", rep.RowsRead, rep.RowsLoaded, rep.RowsRejected)
+	fmt.Fprintf(w, "\nTotal: %d rows read = %d loaded + %d rejected", rep.RowsRead, rep.RowsLoaded, rep.RowsRejected)
+	if rep.RowsRounded > 0 {
+		fmt.Fprintf(w, "; %d amounts rounded to the scale", rep.RowsRounded)
+	}
+	fmt.Fprintln(w)
 	for _, f := range rep.Files {
 		fmt.Fprintf(w, "\n%s: mapping %s", f.Name, f.Mapping.Describe())
 		if f.Format == "csv" {

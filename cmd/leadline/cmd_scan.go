@@ -12,6 +12,7 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -33,7 +34,16 @@ query each. Digits come from the exact decimal amount, never from a float:
 0.29 has first three digits 290, 10.00 has 100, 99.99 has 999. The last
 two digits are the two rightmost digits of the amount as the ledger writes
 it (1234.56 -> 56); --last-two units reads them from the whole-currency
-part (1234.56 -> 34), as is often done for whole-number amounts.
+part (1234.56 -> 34), as is often done for whole-number amounts. The
+last-two test takes only amounts whose two digits read are the fourth
+significant digit or later (at least 100.00 at scale 2, 10,000 for whole
+numbers or --last-two units), where they are close to uniform; for 10.00
+to 99.99 the cents are the third and fourth significant digits, which
+Benford's law does not spread evenly. The output says how many amounts it
+left out; --last-two-all tests them all. In the second-order test, bins
+10, 20, ..., 90 hold every difference of 1 to 9 units of the ledger's
+scale, a surplus the discreteness of the amounts explains: they are not
+flagged.
 
 Which amounts: positive amounts by default (--signs), because debits and
 credits (invoices and credit notes, payments and refunds) are different
@@ -55,6 +65,14 @@ tested amounts (1,000 by default: below that the smallest first-two bins
 expect fewer than about four amounts each) are listed as too small to
 judge, not ranked.
 
+A bin is flagged when its count is beyond chance and material: its exact
+binomial p-value, adjusted by Holm's step-down over the test's bins, is
+below 5% (so a population that follows Benford's law has a flagged bin in
+at most 5% of tests, at any N and in any segment), and it is off by at
+least --min-excess (20%) of its expected share, or that share of 2.5
+percentage points of N when the bin expects more than 2.5%. The per-bin
+Z-statistic and its 1.96 bounds stay in the tables as the trade's
+reference: they mark about 5% of the bins of any population by chance.
 A flagged bin, test or segment is a signal for follow-up, never proof of
 fraud. Drill into a bin with: leadline drill --test first_two --bin 47.
 
@@ -93,6 +111,8 @@ func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
 	fs.Int64Var(&o.battery.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
 	fs.StringVar(&o.battery.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
 	fs.IntVar(&o.battery.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
+	fs.BoolVar(&o.battery.LastTwoAll, "last-two-all", false, "last-two digits test on every amount (default: only where the two digits read are the fourth significant digit or later, e.g. amounts of 100.00 and more at scale 2)")
+	minExcess := fs.Float64("min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin is off by at least this share of its expectation (capped at this times 2.5 percentage points of N); 0 flags on significance alone")
 	fs.IntVar(&o.print.rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
 	fs.BoolVar(&o.print.allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
 	f.add(fs)
@@ -108,6 +128,8 @@ func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
 			return o, err
 		}
 		o.battery.Spec = pop.base()
+		m := *minExcess
+		o.battery.MinExcess = &m
 		o.format = f.value
 		return o, nil
 	}
@@ -125,6 +147,11 @@ func runScan(ctx context.Context, e *env, o scanOptions) error {
 	if err != nil {
 		return err
 	}
+	in, err := load.Inputs(ctx, ws)
+	if err != nil {
+		return err
+	}
+	rep.Input = &battery.Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
 	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
 		return err
 	}
@@ -184,6 +211,10 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 		fmt.Fprintf(w, ", where %s", strings.TrimSpace(p.Where))
 	}
 	fmt.Fprintf(w, ") of %s rows\n", numfmt.Int(rep.Rows))
+	if in := rep.Input; in != nil {
+		fmt.Fprintf(w, "Input: %s rows read from %d file(s) = %s loaded + %s rejected at load (%.2f%% rejected).\n",
+			numfmt.Int(in.RowsRead), in.Files, numfmt.Int(in.RowsLoaded), numfmt.Int(in.RowsRejected), 100*in.RejectedShare)
+	}
 	var left []string
 	if x.Filtered > 0 {
 		left = append(left, numfmt.Int(x.Filtered)+" by the filter")

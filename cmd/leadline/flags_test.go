@@ -55,11 +55,20 @@ func TestScanFlags(t *testing.T) {
 			MinSegmentRows: battery.DefaultMinSegmentRows,
 			LastTwo:        battery.LastTwoScale,
 			Top:            battery.DefaultTop,
+			MinExcess:      ptrTo(benford.DefaultMinExcess),
 		},
 		print: scanPrint{rankRows: 20},
 	}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("scan options\n got %+v\nwant %+v", got, want)
+	}
+
+	got, err = parseFlags(scanFlags, "--min-excess", "0.5", "--last-two-all")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.battery.MinExcess == nil || *got.battery.MinExcess != 0.5 || !got.battery.LastTwoAll {
+		t.Errorf("--min-excess 0.5 --last-two-all: %+v", got.battery)
 	}
 
 	got, err = parseFlags(scanFlags, "--db", "x.duckdb", "--threads", "2", "--by", "entity", "--by", "month", "--format", "json", "--all-bins", "--rank-rows", "0")
@@ -317,3 +326,5 @@ func TestHelpListsNoBenchmarks(t *testing.T) {
 		}
 	}
 }
+
+func ptrTo[T any](v T) *T { return &v }

@@ -68,7 +68,7 @@ func TestBoundaryAmounts(t *testing.T) {
 	}
 
 	// Every sign, no minimum: each non-zero amount is tested once.
-	r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}})
+	r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}, LastTwoAll: true})
 	want := NewCounts()
 	for _, b := range boundaries {
 		if b.f3 == 0 {
@@ -182,7 +182,7 @@ func TestDoubleColumn(t *testing.T) {
 	if _, err := load.Load(context.Background(), ws, []string{path}, load.Options{}); err != nil {
 		t.Fatal(err)
 	}
-	r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}})
+	r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}, LastTwoAll: true})
 	// Hand-worked: 0.29 -> 290/29, 0.1 -> 100/10, 10 -> 100/00,
 	// 99.99 -> 999/99, 4999.99 -> 499/99, 5000 -> 500/00, 1e12 -> 100/00,
 	// 0.57 -> 570/57, 1.15 -> 115/15; 2.675 (2.67499999... in binary)
@@ -230,7 +230,7 @@ func TestOtherScales(t *testing.T) {
 			lines = append(lines, b.text)
 		}
 		loadCSV(t, ws, "wide.csv", lines, load.Options{Precision: 38, Scale: 2})
-		r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}})
+		r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}, LastTwoAll: true})
 		want := NewCounts()
 		for _, b := range amounts {
 			want.FirstThree[b.f3-100]++
@@ -256,7 +256,7 @@ func TestOtherScales(t *testing.T) {
 			lines = append(lines, b.text)
 		}
 		loadCSV(t, ws, "scale6.csv", lines, load.Options{Scale: 6})
-		r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}})
+		r := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}, LastTwoAll: true})
 		want := NewCounts()
 		for _, b := range amounts {
 			want.FirstThree[b.f3-100]++
@@ -264,7 +264,7 @@ func TestOtherScales(t *testing.T) {
 		}
 		assertCounts(t, "DECIMAL(18,6)", r.Counts, want)
 		// Last two digits of the whole-currency part instead.
-		u := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}, LastTwo: LastTwoUnits})
+		u := run(t, ws, Options{Spec: population.Spec{Signs: "both", Min: "0"}, LastTwo: LastTwoUnits, LastTwoAll: true})
 		// 1234567 -> 67, 999999 -> 99, 1000000 -> 00, 0 -> 00, 9999999999 -> 99, 42 -> 42
 		wantU := map[int]int64{67: 1, 99: 2, 0: 2, 42: 1}
 		for bin, n := range wantU {

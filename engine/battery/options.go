@@ -49,6 +49,12 @@ type Options struct {
 	MinSegmentRows int64 `json:"min_segment_rows"`
 	// LastTwo is LastTwoScale (default) or LastTwoUnits.
 	LastTwo string `json:"last_two"`
+	// MinExcess is the materiality margin of the bin flag
+	// (benford.Flagging; nil: benford.DefaultMinExcess, 0: none).
+	MinExcess *float64 `json:"min_excess"`
+	// LastTwoAll tests the last two digits of every amount, not only of
+	// those where they are the fourth significant digit or later.
+	LastTwoAll bool `json:"last_two_all,omitempty"`
 }
 
 // WithDefaults fills empty fields with the defaults.
@@ -70,6 +76,10 @@ func (o Options) WithDefaults() Options {
 	if o.LastTwo == "" {
 		o.LastTwo = LastTwoScale
 	}
+	if o.MinExcess == nil {
+		m := benford.DefaultMinExcess
+		o.MinExcess = &m
+	}
 	return o
 }
 
@@ -89,12 +99,24 @@ func (o Options) Check() error {
 	if o.MinSegmentRows < 1 {
 		return fmt.Errorf("--min-segment %d: give 1 or more", o.MinSegmentRows)
 	}
+	if err := o.Flagging().Check(); err != nil {
+		return err
+	}
 	switch o.LastTwo {
 	case LastTwoScale, LastTwoUnits:
 	default:
 		return fmt.Errorf("--last-two %q: give scale (the two rightmost digits as the ledger writes the amount, 1234.56 -> 56) or units (of the whole-currency part, 1234.56 -> 34)", o.LastTwo)
 	}
 	return nil
+}
+
+// Flagging returns the bin flag's settings.
+func (o Options) Flagging() benford.Flagging {
+	f := benford.DefaultFlagging
+	if o.MinExcess != nil {
+		f.MinExcess = *o.MinExcess
+	}
+	return f
 }
 
 // Has reports whether test t is selected.

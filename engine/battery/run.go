@@ -16,23 +16,38 @@ import (
 // --format json` prints and the workspace stores with the run (see
 // docs/json.md, section scan).
 type Report struct {
-	Kind        string           `json:"kind"` // "scan"
-	RunID       int64            `json:"run_id"`
-	Params      Options          `json:"params"`
-	AmountType  string           `json:"amount_type"`
-	Rows        int64            `json:"rows"`       // rows in the ledger
-	Tested      int64            `json:"tested"`     // amounts tested (N of the count-based tests)
-	Exclusions  Left             `json:"exclusions"` // rows = tested + the sum of these
-	Tests       []benford.Result `json:"tests"`      // the whole selection, in canonical test order
-	Duplication *Duplication     `json:"duplication,omitempty"`
-	Segments    *Segments        `json:"segments,omitempty"`
-	Seconds     Timing           `json:"seconds"`
+	Kind       string           `json:"kind"` // "scan"
+	RunID      int64            `json:"run_id"`
+	Params     Options          `json:"params"`
+	AmountType string           `json:"amount_type"`
+	Rows       int64            `json:"rows"`            // rows in the ledger
+	Input      *Input           `json:"input,omitempty"` // what the loads read and rejected, beside N
+	Tested     int64            `json:"tested"`          // amounts tested (N of the count-based tests)
+	Exclusions Left             `json:"exclusions"`      // rows = tested + the sum of these
+	Tests      []benford.Result `json:"tests"`           // the whole selection, in canonical test order
+	// LastTwoMin is the smallest |amount| the last-two digits test takes
+	// ("" when it takes all: --last-two-all).
+	LastTwoMin  string       `json:"last_two_min"`
+	Duplication *Duplication `json:"duplication,omitempty"`
+	Segments    *Segments    `json:"segments,omitempty"`
+	Seconds     Timing       `json:"seconds"`
 
 	// Counts is the bin-count table of the whole selection, and
 	// SegmentResults each segment's table and test results (for the CSV
 	// long format); neither is part of the JSON document.
 	Counts         *Counts         `json:"-"`
 	SegmentResults []SegmentResult `json:"-"`
+}
+
+// Input is what the workspace's loads read and rejected, so that N is
+// read beside the share of the client's rows that never reached the
+// ledger.
+type Input struct {
+	Files         int64   `json:"files"`
+	RowsRead      int64   `json:"rows_read"`
+	RowsLoaded    int64   `json:"rows_loaded"`
+	RowsRejected  int64   `json:"rows_rejected"`
+	RejectedShare float64 `json:"rejected_share"` // rows_rejected / rows_read
 }
 
 // Timing records where the time went, in seconds.
@@ -143,11 +158,12 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	}
 
 	t = time.Now()
-	if rep.Tests, err = AnalyzeAll(all, o.Tests); err != nil {
+	rep.LastTwoMin = LastTwoMin(o, p.AmountType)
+	if rep.Tests, err = analyzeNoted(all, o, rep.LastTwoMin); err != nil {
 		return nil, err
 	}
 	if len(p.Segments) > 0 {
-		rep.Segments, rep.SegmentResults, err = rankSegments(p, segs)
+		rep.Segments, rep.SegmentResults, err = rankSegments(p, segs, rep.LastTwoMin)
 		if err != nil {
 			return nil, err
 		}
@@ -157,20 +173,52 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	return rep, nil
 }
 
-// AnalyzeAll runs the tests on one bin-count table, in canonical order.
+// AnalyzeAll runs the tests on one bin-count table, in canonical order,
+// with the default bin flag.
 func AnalyzeAll(c *Counts, tests []benford.Test) ([]benford.Result, error) {
+	return AnalyzeAllWith(c, tests, benford.DefaultFlagging)
+}
+
+// AnalyzeAllWith is AnalyzeAll with the bin flag's settings f.
+func AnalyzeAllWith(c *Counts, tests []benford.Test, f benford.Flagging) ([]benford.Result, error) {
 	out := []benford.Result{}
 	for _, t := range benford.AllTests() {
 		if !contains(tests, t) {
 			continue
 		}
-		r, err := c.Analyze(t)
+		var r benford.Result
+		var err error
+		if b := c.Bins(t); t != benford.Summation && b != nil {
+			r, err = benford.AnalyzeWith(t, b, f)
+		} else {
+			r, err = c.Analyze(t)
+		}
 		if err != nil {
 			return nil, err
 		}
 		out = append(out, r)
 	}
 	return out, nil
+}
+
+// analyzeNoted runs the battery's tests on one table with the options'
+// flag and adds the battery's own notes and rules: which amounts the
+// last-two digits test took, and the second-order bins that the
+// discreteness of the amounts explains.
+func analyzeNoted(c *Counts, o Options, lastTwoMin string) ([]benford.Result, error) {
+	res, err := AnalyzeAllWith(c, o.Tests, o.Flagging())
+	if err != nil {
+		return nil, err
+	}
+	for i := range res {
+		switch res[i].Test {
+		case benford.LastTwo:
+			noteLastTwo(&res[i], lastTwoMin, c.N())
+		case benford.SecondOrder:
+			noteSecondOrder(&res[i])
+		}
+	}
+	return res, nil
 }
 
 func contains(ts []benford.Test, t benford.Test) bool {
@@ -182,7 +230,7 @@ func contains(ts []benford.Test, t benford.Test) bool {
 	return false
 }
 
-func rankSegments(p *Plan, segs []SegmentCounts) (*Segments, []SegmentResult, error) {
+func rankSegments(p *Plan, segs []SegmentCounts, lastTwoMin string) (*Segments, []SegmentResult, error) {
 	o := p.Options
 	out := &Segments{By: make([]string, len(p.Segments)), MinRows: o.MinSegmentRows, Count: len(segs),
 		Rankings: []Ranking{}, TooSmall: []SegmentInfo{}, All: []SegmentInfo{}}
@@ -190,7 +238,7 @@ func rankSegments(p *Plan, segs []SegmentCounts) (*Segments, []SegmentResult, er
 		out.By[i] = s.Name
 	}
 	results := make([]SegmentResult, len(segs))
-	analysed, err := analyzeSegments(segs, o)
+	analysed, err := analyzeSegments(segs, o, lastTwoMin)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -244,7 +292,7 @@ func rankSegments(p *Plan, segs []SegmentCounts) (*Segments, []SegmentResult, er
 // spread over the machine's cores: each segment is independent, and at
 // 1,000 segments the statistics took as long as the scan. Results keep
 // the segments' order, so the output does not depend on the scheduling.
-func analyzeSegments(segs []SegmentCounts, o Options) ([][]benford.Result, error) {
+func analyzeSegments(segs []SegmentCounts, o Options, lastTwoMin string) ([][]benford.Result, error) {
 	out := make([][]benford.Result, len(segs))
 	errs := make([]error, len(segs))
 	next := make(chan int)
@@ -254,7 +302,7 @@ func analyzeSegments(segs []SegmentCounts, o Options) ([][]benford.Result, error
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				out[i], errs[i] = AnalyzeAll(segs[i].Counts, o.Tests)
+				out[i], errs[i] = analyzeNoted(segs[i].Counts, o, lastTwoMin)
 			}
 		}()
 	}

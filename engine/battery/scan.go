@@ -87,10 +87,7 @@ func Prepare(ctx context.Context, ws *workspace.Workspace, o Options) (*Plan, er
 		p.first3 = "ll_first3_i128"
 	}
 	p.signOK, p.signMay, p.absU = pop.Sign("ll_u"), pop.SignOrZero("amount"), pop.Abs("ll_u")
-	p.last2 = "ll_a % 100"
-	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
-		p.last2 = fmt.Sprintf("(ll_a // %s) %% 100", pow10Text(at.Scale))
-	}
+	p.last2 = lastTwoSQL(o, at)
 	return p, nil
 }
 

@@ -33,10 +33,15 @@ type Bin struct {
 	Actual         float64 `json:"actual"`           // p̂ = count/N (Summation: amount/total)
 	Expected       float64 `json:"expected"`         // p
 	Diff           float64 `json:"diff"`             // actual - expected
-	Z              float64 `json:"z"`                // ZStat, never negative (0 for Summation)
-	Lower          float64 `json:"lower"`            // p - (1.96 sqrt(p(1-p)/N) + 1/(2N))
-	Upper          float64 `json:"upper"`            // p + (1.96 sqrt(p(1-p)/N) + 1/(2N))
-	Flagged        bool    `json:"flagged"`          // actual outside [Lower, Upper]
+	Z              float64 `json:"z"`                // ZStat, never negative (0 for Summation): the trade's reference
+	Lower          float64 `json:"lower"`            // p - (1.96 sqrt(p(1-p)/N) + 1/(2N)): reference bound
+	Upper          float64 `json:"upper"`            // p + (1.96 sqrt(p(1-p)/N) + 1/(2N)): reference bound
+	ZFlagged       bool    `json:"z_flagged"`        // actual outside [Lower, Upper]: the per-bin reference, about 5% of bins by chance
+	P              float64 `json:"p"`                // exact two-sided binomial p-value of the count (1 for Summation)
+	PAdjusted      float64 `json:"p_adjusted"`       // P adjusted by Holm's step-down over the test's bins
+	MinDiff        float64 `json:"min_diff"`         // the materiality margin: smallest |Diff| that is material
+	Material       bool    `json:"material"`         // |Diff| >= MinDiff
+	Flagged        bool    `json:"flagged"`          // the flag: PAdjusted < alpha and Material (Summation: its own rule)
 	GoodmanLower   float64 `json:"goodman_lower"`    // simultaneous 95% interval for the bin's proportion
 	GoodmanUpper   float64 `json:"goodman_upper"`
 	OutsideGoodman bool    `json:"outside_goodman"` // expected outside [GoodmanLower, GoodmanUpper]
@@ -57,39 +62,60 @@ type Result struct {
 	PValue         float64  `json:"p_value"`
 	KSD            float64  `json:"ks_d"`
 	KSCritical     float64  `json:"ks_critical"` // 0: not computed (N == 0, Summation)
-	Flagged        int      `json:"flagged"`     // bins outside the per-bin 95% bounds
+	Flagged        int      `json:"flagged"`     // bins flagged (Bin.Flagged)
+	ZFlagged       int      `json:"z_flagged"`   // bins outside the per-bin 95% reference bounds
+	FlagRule       Flagging `json:"flag_rule"`   // the family-wise alpha and the materiality margin of Flagged
 	OutsideGoodman int      `json:"outside_goodman"`
-	TopFlagged     []int    `json:"top_flagged"` // up to four flagged bins: surplus first, each kind by Z descending
-	Runs           *Runs    `json:"runs,omitempty"`
-	Notes          []string `json:"notes"`
+	// GoodmanHolds is false when some bin expects fewer than
+	// GoodmanMinExpected amounts: there the simultaneous intervals flag
+	// conforming populations far more often than 5% (measured in
+	// TestFalseAlarmRates), and OutsideGoodman is not a family-wise signal.
+	GoodmanHolds bool     `json:"goodman_holds"`
+	TopFlagged   []int    `json:"top_flagged"` // up to four flagged bins: surplus first, each kind by Z descending
+	Runs         *Runs    `json:"runs,omitempty"`
+	Notes        []string `json:"notes"`
 }
 
-// Analyze runs digit test t from its bin counts: counts[i] is the count of
-// bin lo+i, where lo, hi := t.Bins() and len(counts) == hi-lo+1. Counts are
-// additive, so counts of partitions can be merged (Merge) before testing.
-// Use AnalyzeSummation for the summation test.
+// Analyze runs digit test t from its bin counts with DefaultFlagging: see
+// AnalyzeWith.
+func Analyze(t Test, counts []int64) (Result, error) {
+	return AnalyzeWith(t, counts, DefaultFlagging)
+}
+
+// AnalyzeWith runs digit test t from its bin counts: counts[i] is the count
+// of bin lo+i, where lo, hi := t.Bins() and len(counts) == hi-lo+1. Counts
+// are additive, so counts of partitions can be merged (Merge) before
+// testing. Use AnalyzeSummation for the summation test.
 //
-// Per bin it reports the proportion, the Z-statistic and 95% bounds
-// (ZStat, Bounds) and Goodman's simultaneous 95% interval (Goodman); over
-// the bins the MAD with its published conformity range (Conformity), the
-// MAD expected for N (ExpectedMAD) and the excess over it, the chi-square
-// test (ChiSquare), the Kolmogorov-Smirnov distance with its 5% critical
-// value (KS, KSCritical) and, for the first-two, first-three and
-// second-order tests, the runs test over the ordered bins (RunsTest).
+// Per bin it reports the proportion; the flag (Flagging: the exact
+// binomial p-value, Holm-adjusted over the bins, and the materiality
+// margin); as the trade's reference, the Z-statistic and 95% bounds
+// (ZStat, Bounds; ZFlagged, about 5% of the bins of a conforming
+// population by chance) and Goodman's simultaneous 95% interval (Goodman).
+// Over the bins: the MAD with its published conformity range
+// (Conformity), the MAD expected for N (ExpectedMAD) and the excess over
+// it, the chi-square test (ChiSquare), the Kolmogorov-Smirnov distance
+// with its 5% critical value (KS, KSCritical) and, for the first-two,
+// first-three and second-order tests, the runs test over the ordered bins
+// (RunsTest).
 //
 // Notes carry the rules of thumb of the trade (common practice, no
 // source): fewer than MinAmounts amounts; more than MaxFlaggedFirstTwo
 // flagged first-two bins; fewer than FewRunsFirstTwo runs over the
-// first-two bins; and "no amounts" when N == 0, in which case only the
-// bins' expected proportions are filled and Conformity is NoAmounts.
+// first-two bins; Goodman's intervals where bins expect too few amounts;
+// and "no amounts" when N == 0, in which case only the bins' expected
+// proportions are filled and Conformity is NoAmounts.
 //
 // No field of the result is NaN or infinite, so it always encodes as JSON.
-func Analyze(t Test, counts []int64) (Result, error) {
+func AnalyzeWith(t Test, counts []int64, f Flagging) (Result, error) {
 	if !t.Valid() {
 		return Result{}, fmt.Errorf("benford: unknown test %q", t)
 	}
 	if t == Summation {
 		return Result{}, fmt.Errorf("benford: the summation test needs amounts per bin: use AnalyzeSummation")
+	}
+	if err := f.Check(); err != nil {
+		return Result{}, fmt.Errorf("benford: %w", err)
 	}
 	lo, hi := t.Bins()
 	if len(counts) != hi-lo+1 {
@@ -105,29 +131,34 @@ func Analyze(t Test, counts []int64) (Result, error) {
 	}
 
 	exp := Expected(t)
-	res := Result{Test: t, N: n, Bins: make([]Bin, len(counts)), TopFlagged: []int{}, Notes: []string{}}
+	res := Result{Test: t, N: n, Bins: make([]Bin, len(counts)), TopFlagged: []int{}, Notes: []string{}, FlagRule: f}
 	actual := make([]float64, len(counts))
 	gl, gu := Goodman(counts, GoodmanAlpha)
+	minExp := math.Inf(1)
 	for i, c := range counts {
 		b := Bin{Bin: lo + i, Label: t.Label(lo + i), Count: c, Expected: exp[i],
-			GoodmanLower: gl[i], GoodmanUpper: gu[i]}
+			GoodmanLower: gl[i], GoodmanUpper: gu[i], P: 1, PAdjusted: 1}
 		b.Lower, b.Upper = Bounds(exp[i], n)
+		b.MinDiff = MaterialDiff(exp[i], f.MinExcess)
 		if n > 0 {
 			b.Actual = float64(c) / float64(n)
 			b.Diff = b.Actual - b.Expected
 			b.Z = ZStat(b.Actual, b.Expected, n)
-			b.Flagged = b.Actual < b.Lower || b.Actual > b.Upper
+			b.ZFlagged = b.Actual < b.Lower || b.Actual > b.Upper
 			b.OutsideGoodman = b.Expected < b.GoodmanLower || b.Expected > b.GoodmanUpper
 		}
+		minExp = math.Min(minExp, float64(n)*exp[i])
 		actual[i] = b.Actual
 		res.Bins[i] = b
 	}
+	res.GoodmanHolds = n > 0 && minExp >= GoodmanMinExpected
 	if n == 0 {
 		res.Conformity = NoAmounts
 		res.PValue = 1
 		res.Notes = append(res.Notes, "no amounts")
 		return res, nil
 	}
+	res.flagBins(f)
 
 	res.MAD = MAD(actual, exp)
 	res.Conformity = Conformity(t, res.MAD)
@@ -139,13 +170,19 @@ func Analyze(t Test, counts []int64) (Result, error) {
 	res.countFlags()
 	if t == FirstTwo || t == FirstThree || t == SecondOrder {
 		r := RunsTest(actual, exp, lo)
+		calibrateRuns(&r, t, n)
 		res.Runs = &r
 	}
 
 	if n < MinAmounts {
 		res.Notes = append(res.Notes, fmt.Sprintf(
-			"only %d amounts: digit tests want about %d or more; with fewer, expect more flagged bins by chance (common practice, no source)",
+			"only %d amounts: digit tests want about %d or more; with fewer, only large deviations can be told from chance (common practice, no source)",
 			n, MinAmounts))
+	}
+	if !res.GoodmanHolds {
+		res.Notes = append(res.Notes, fmt.Sprintf(
+			"some bins expect fewer than %d amounts (the smallest %.1f): Goodman's simultaneous intervals flag conforming populations far more often than 5%% here, so bins outside them are not a family-wise signal; the bin flag (exact binomial tails with Holm's step-down) still holds its 5%%",
+			GoodmanMinExpected, minExp))
 	}
 	if t == FirstTwo && res.Flagged > MaxFlaggedFirstTwo {
 		res.Notes = append(res.Notes, fmt.Sprintf(
@@ -153,8 +190,8 @@ func Analyze(t Test, counts []int64) (Result, error) {
 			res.Flagged, MaxFlaggedFirstTwo))
 	}
 	if t == FirstTwo && res.Runs != nil && res.Runs.Runs < FewRunsFirstTwo {
-		msg := fmt.Sprintf("%d runs over the 90 first-two bins (fewer than %d; about 46 expected when overs and unders balance): long stretches of surplus and shortfall, look for a threshold at work",
-			res.Runs.Runs, FewRunsFirstTwo)
+		msg := fmt.Sprintf("%d runs over the 90 first-two bins (fewer than %d; %.1f expected; conforming populations of this size have fewer than %d runs in %.1f%% of draws, by simulation): long stretches of surplus and shortfall, look for a threshold at work",
+			res.Runs.Runs, FewRunsFirstTwo, res.Runs.Expected, FewRunsFirstTwo, 100*res.Runs.FewRunsRate)
 		if s, ok := res.Runs.LargestSurplus(); ok {
 			msg += fmt.Sprintf(", starting with the surplus in bins %d to %d", s.From, s.To)
 		}
@@ -170,6 +207,9 @@ func (res *Result) countFlags() {
 		if b.Flagged {
 			res.Flagged++
 			flagged = append(flagged, b)
+		}
+		if b.ZFlagged {
+			res.ZFlagged++
 		}
 		if b.OutsideGoodman {
 			res.OutsideGoodman++
@@ -242,7 +282,7 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 	upper := SummationFactor * exp[0]
 	for i := range sums {
 		b := Bin{Bin: lo + i, Label: t.Label(lo + i), Amount: sums[i], Expected: exp[i],
-			Lower: 0, Upper: upper, GoodmanLower: 0, GoodmanUpper: 1}
+			Lower: 0, Upper: upper, GoodmanLower: 0, GoodmanUpper: 1, P: 1, PAdjusted: 1}
 		if counts != nil {
 			b.Count = counts[i]
 		}

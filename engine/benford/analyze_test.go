@@ -66,8 +66,9 @@ func TestAnalyzeNoAmounts(t *testing.T) {
 }
 
 // TestAnalyzeConsistency checks, on random conforming and non-conforming
-// counts of every test, that Flagged agrees with the bounds, the counts of
-// flags add up, the proportions sum to 1 and the result encodes as JSON.
+// counts of every test, that ZFlagged agrees with the reference bounds,
+// Flagged with the Holm-adjusted exact p-value and the materiality margin,
+// the counts of flags add up, the proportions sum to 1 and the result encodes as JSON.
 func TestAnalyzeConsistency(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	for _, tt := range AllTests() {
@@ -86,20 +87,27 @@ func TestAnalyzeConsistency(t *testing.T) {
 				t.Fatal(err)
 			}
 			var sum float64
-			flagged, outside := 0, 0
+			flagged, zflagged, outside := 0, 0, 0
 			for _, b := range r.Bins {
 				sum += b.Actual
-				if b.Flagged != (b.Actual < b.Lower || b.Actual > b.Upper) {
-					t.Errorf("%s bin %d: flagged %v, actual %v bounds [%v, %v]", tt, b.Bin, b.Flagged, b.Actual, b.Lower, b.Upper)
+				if b.ZFlagged != (b.Actual < b.Lower || b.Actual > b.Upper) {
+					t.Errorf("%s bin %d: z_flagged %v, actual %v bounds [%v, %v]", tt, b.Bin, b.ZFlagged, b.Actual, b.Lower, b.Upper)
+				}
+				want := b.PAdjusted < FlagAlpha && math.Abs(b.Diff) >= MaterialDiff(b.Expected, DefaultMinExcess)*(1-1e-12)
+				if b.Flagged != want || b.PAdjusted < b.P || b.P <= 0 || b.P > 1 {
+					t.Errorf("%s bin %d: flagged %v, p %v, p_adjusted %v, diff %v", tt, b.Bin, b.Flagged, b.P, b.PAdjusted, b.Diff)
 				}
 				if b.Flagged {
 					flagged++
+				}
+				if b.ZFlagged {
+					zflagged++
 				}
 				if b.OutsideGoodman {
 					outside++
 				}
 			}
-			if math.Abs(sum-1) > 1e-9 || flagged != r.Flagged || outside != r.OutsideGoodman || len(r.TopFlagged) != min(flagged, 4) {
+			if math.Abs(sum-1) > 1e-9 || flagged != r.Flagged || zflagged != r.ZFlagged || outside != r.OutsideGoodman || len(r.TopFlagged) != min(flagged, 4) {
 				t.Errorf("%s N %d: sum %v flagged %d/%d outside %d/%d top %v", tt, n, sum, flagged, r.Flagged, outside, r.OutsideGoodman, r.TopFlagged)
 			}
 			if _, err := json.Marshal(r); err != nil {

@@ -1,6 +1,10 @@
 package benford
 
-import "gonum.org/v1/gonum/mathext"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mathext"
+)
 
 // BinomialUpperTail returns P(X >= k) for X ~ Binomial(n, q), through the
 // identity
@@ -41,4 +45,38 @@ func PoissonUpperTail(k, lambda float64) float64 {
 		return 0
 	}
 	return mathext.GammaIncReg(k, lambda)
+}
+
+// BinomialLowerTail returns P(X <= k) for X ~ Binomial(n, q), through the
+// mirror of the identity above,
+//
+//	P(X <= k) = I_{1-q}(n - k, k + 1)     (0 <= k < n)
+//
+// so that it, too, keeps its relative precision deep in the tail.
+func BinomialLowerTail(k, n int64, q float64) float64 {
+	switch {
+	case k < 0:
+		return 0
+	case k >= n:
+		return 1
+	case q <= 0:
+		return 1
+	case q >= 1:
+		return 0
+	}
+	return mathext.RegIncBeta(float64(n-k), float64(k+1), 1-q)
+}
+
+// BinomialTwoSided returns the two-sided exact p-value of observing k
+// successes in n trials of probability q: twice the smaller tail,
+//
+//	p = min(1, 2 min(P(X <= k), P(X >= k))),
+//
+// the "doubled tail" convention. It is never smaller than the probability
+// of a result at least as far out on the same side, so under the null it
+// is super-uniform (P(p <= a) <= a), which Holm's procedure needs.
+func BinomialTwoSided(k, n int64, q float64) float64 {
+	lo := BinomialLowerTail(k, n, q)
+	hi := BinomialUpperTail(k, n, q)
+	return math.Min(1, 2*math.Min(lo, hi))
 }

@@ -67,3 +67,11 @@ func Goodman(counts []int64, alpha float64) (lower, upper []float64) {
 func GoodmanA(K int, alpha float64) float64 {
 	return distuv.ChiSquared{K: 1}.Quantile(1 - alpha/float64(K))
 }
+
+// GoodmanMinExpected is the fewest amounts every bin must expect for
+// Goodman's intervals to hold their family-wise rate near 5%. Measured on
+// 1,000 conforming populations per size (TestFalseAlarmRates -full): the
+// first-three digits are outside in 78% at N = 1,000, 32% at 5,000 and 10%
+// at 50,000 (bins expecting 22 amounts or more), 6.5% at 500,000; the
+// last-two digits in 14% at N = 1,000 (10 each) and 5% at 5,000 (50 each).
+const GoodmanMinExpected = 50

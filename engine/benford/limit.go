@@ -42,6 +42,13 @@ type LimitResult struct {
 	P             float64 `json:"p"`               // one-sided exact binomial P(X >= below | n, q)
 	PAdjusted     float64 `json:"p_adjusted"`      // Holm over the limits adjusted together
 	Flagged       bool    `json:"flagged"`         // PAdjusted < 0.05
+	// With the density modelled from the flanking bands
+	// (LimitProbeFlanked): their counts and the fitted exponent of the
+	// local density x^β (−1 is the 1/x of LimitProbe).
+	Flanked bool    `json:"flanked"`
+	Left    int64   `json:"left,omitempty"`  // amounts in [T(1-2w), T(1-w))
+	Right   int64   `json:"right,omitempty"` // amounts in [T(1+w), T(1+2w))
+	Beta    float64 `json:"beta"`
 }
 
 // CheckLimit reports whether limit and width can be probed: limit must be
@@ -57,7 +64,7 @@ func CheckLimit(limit, w float64) error {
 }
 
 // LimitProbe tests for amounts clustered just below a limit T (a method of
-// this project's own, DESIGN.md section 3): with below the count of amounts
+// this project's own, see docs/design.md): with below the count of amounts
 // in [T(1-w), T) and above the count in [T, T(1+w)), under f(x) ∝ 1/x each
 // of the n = below+above amounts falls below with probability
 //
@@ -91,7 +98,7 @@ func LimitProbe(limit, w float64, below, above int64) LimitResult {
 	n := below + above
 	res := LimitResult{
 		Limit: limit, Width: w, From: limit * (1 - w), To: limit * (1 + w),
-		Below: below, Above: above, ExpectedRatio: r,
+		Below: below, Above: above, ExpectedRatio: r, Beta: -1,
 		ExpectedBelow: float64(n) * q,
 	}
 	if above > 0 {

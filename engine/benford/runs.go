@@ -18,6 +18,19 @@ type Runs struct {
 	Z         float64   `json:"z"`         // (R - E[R]) / SD; negative for few runs
 	P         float64   `json:"p"`         // one-sided P(R <= observed) ≈ Φ(Z): small when there are few runs
 	Stretches []Stretch `json:"stretches"` // the runs as stretches of bins, largest surplus first
+
+	// Filled by Analyze, which calibrates the test by simulation: Expected,
+	// SD, Z and P above are then those of the number of runs in
+	// Simulations conforming populations of SimulatedN amounts (multinomial
+	// draws from the expected proportions), and the textbook values given
+	// the marks move here.
+	ExpectedGivenMarks float64 `json:"expected_given_marks,omitempty"` // 1 + 2 n1 n2 / n
+	PNormal            float64 `json:"p_normal,omitempty"`             // Φ(Z) of the textbook formula
+	Simulations        int     `json:"simulations,omitempty"`
+	SimulatedN         int64   `json:"simulated_n,omitempty"` // N, rounded to two significant digits above 10,000
+	// FewRunsRate (first-two only) is the share of conforming populations
+	// of this N with fewer than FewRunsFirstTwo runs.
+	FewRunsRate float64 `json:"few_runs_rate,omitempty"`
 }
 
 // Stretch is one run of the runs test: a maximal stretch of consecutive

@@ -37,6 +37,25 @@ const (
 	LastTwoUnits = "units" // the two rightmost digits of the whole-currency part: 1234.56 -> 34
 )
 
+// LastTwoMinDigits: the last-two digits test takes only whole numbers
+// (amounts in units of the scale, or their whole-currency part with the
+// units reading) of at least this many digits, so that the two digits read
+// are the fourth significant digit or later, where Benford-distributed
+// amounts have them close to uniform (the digit battery's rule; a drill
+// into a last-two bin selects the same amounts unless LastTwoAll is set).
+const LastTwoMinDigits = 5
+
+// LastTwoMinUnits returns the smallest |amount|, in units of the scale,
+// that the last-two digits test takes under a reading: 10^4 units, or
+// 10^(4+scale) with the units reading.
+func LastTwoMinUnits(reading string, at population.AmountType) *big.Int {
+	e := LastTwoMinDigits - 1
+	if reading == LastTwoUnits {
+		e += at.Scale
+	}
+	return pow10(e)
+}
+
 // DrillTests are the tests whose bins hold records and can be drilled.
 var DrillTests = []benford.Test{benford.FirstDigit, benford.SecondDigit, benford.FirstTwo, benford.FirstThree, benford.LastTwo}
 

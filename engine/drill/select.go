@@ -15,12 +15,15 @@ import (
 // selection (they are joined with AND).
 type Selection struct {
 	population.Spec
-	Test     string   `json:"test,omitempty"` // digit test: first, second, first_two, first_three, last_two
-	Bin      *int     `json:"bin,omitempty"`
-	LastTwo  string   `json:"last_two,omitempty"` // reading of the last_two test: scale (default) or units
-	Amount   string   `json:"amount,omitempty"`   // exact amount; compared with |amount| under Signs (a leading minus selects negative amounts)
-	Range    string   `json:"range,omitempty"`    // FROM:TO, |amount| in [FROM, TO)
-	Segments []string `json:"segments,omitempty"` // COLUMN=VALUE, exact text match; COLUMN= matches blanks; month=YYYY-MM uses posted
+	Test    string `json:"test,omitempty"` // digit test: first, second, first_two, first_three, last_two
+	Bin     *int   `json:"bin,omitempty"`
+	LastTwo string `json:"last_two,omitempty"` // reading of the last_two test: scale (default) or units
+	// LastTwoAll drills a last-two bin over every amount, as the battery's
+	// --last-two-all; by default only amounts of at least LastTwoMinUnits.
+	LastTwoAll bool     `json:"last_two_all,omitempty"`
+	Amount     string   `json:"amount,omitempty"`   // exact amount; compared with |amount| under Signs (a leading minus selects negative amounts)
+	Range      string   `json:"range,omitempty"`    // FROM:TO, |amount| in [FROM, TO)
+	Segments   []string `json:"segments,omitempty"` // COLUMN=VALUE, exact text match; COLUMN= matches blanks; month=YYYY-MM uses posted
 	// Extra predicates built by leadline itself, e.g. a duplicate group's key.
 	Extra []population.Predicate `json:"-"`
 	// Described says in words what Extra selects, for headings and JSON.
@@ -82,9 +85,15 @@ func Build(ctx context.Context, ws *workspace.Workspace, s Selection) (*Built, e
 			return nil, err
 		}
 		ps = append(ps, population.Predicate{SQL: p})
+		if t == benford.LastTwo && !s.LastTwoAll {
+			ps = append(ps, population.Predicate{SQL: fmt.Sprintf("%s >= %s", x, at.Literal(LastTwoMinUnits(reading, at)))})
+		}
 		d := fmt.Sprintf("%s bin %d", t.Name(), *s.Bin)
 		if t == benford.LastTwo && reading == LastTwoUnits {
 			d += " (whole-currency units)"
+		}
+		if t == benford.LastTwo && !s.LastTwoAll {
+			d += " (amounts of at least " + at.Text(LastTwoMinUnits(reading, at)) + ")"
 		}
 		desc = append(desc, d)
 	}

@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/ranges"
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -128,8 +129,8 @@ func TestFalseAlarmsSegments(t *testing.T) {
 func TestProbeStatus(t *testing.T) {
 	limits := []float64{1000, 5000}
 	edges := Edges(limits, 0.1)
-	b, _ := ranges.NewBins(edges) // 900 1000 1100 4500 5000 5500
-	copy(b.Counts, []int64{0, 20, 5, 0, 300, 100, 0})
+	b, _ := ranges.NewBins(edges) // 800 900 1000 1100 1200 4000 4500 5000 5500 6000: bands and their flanks
+	copy(b.Counts, []int64{0, 0, 20, 5, 0, 0, 0, 300, 100, 0, 0})
 	g := ranges.Group{Counts: ranges.Counts{Tested: 425, Min: 850, Max: 5600}, Bins: b}
 	rows, err := Probe(g, nil, nil, limits, 0.1, 30)
 	if err != nil {
@@ -141,6 +142,18 @@ func TestProbeStatus(t *testing.T) {
 	}
 	if rows[1].Status != StatusTooFew || rows[1].Rank != 0 || rows[1].PAdjusted != 1 || rows[1].Below != 20 {
 		t.Errorf("1000: %+v", rows[1])
+	}
+	if rows[0].Flanked || rows[0].Beta != -1 {
+		t.Errorf("5000: the flank [5500, 6000) reaches past the largest amount (5600), yet the probe modelled the density from it: %+v", rows[0])
+	}
+	// Flanks within the amounts and holding some: the density is modelled
+	// from them (falling here: 200 amounts in [4000, 4500), 60 in
+	// [5500, 6000), so below/above expects more than 1/x gives).
+	copy(b.Counts, []int64{0, 0, 20, 5, 0, 0, 200, 300, 100, 60, 0})
+	gf := ranges.Group{Counts: ranges.Counts{Tested: 685, Min: 700, Max: 7000}, Bins: b}
+	rows, _ = Probe(gf, nil, nil, []float64{5000}, 0.1, 30)
+	if r := rows[0]; !r.Flanked || r.Left != 200 || r.Right != 60 || r.Beta >= -1 || r.ExpectedRatio <= benford.ExpectedBelowAboveRatio(0.1) {
+		t.Errorf("5000 with flanks: %+v", r)
 	}
 	g.Max = 5400 // the band of 5000 reaches past the largest amount
 	rows, _ = Probe(g, nil, nil, limits, 0.1, 10)

@@ -94,8 +94,19 @@ func Edges(limits []float64, w float64) []float64 {
 	for _, t := range limits {
 		lo, hi := Band(t, w)
 		e = append(e, lo, t, hi)
+		if w < 0.5 {
+			flo, fhi := Flanks(t, w)
+			e = append(e, flo, fhi)
+		}
 	}
 	return ranges.SortedEdges(e)
+}
+
+// Flanks returns the outer ends of the flanking bands of a limit,
+// T(1-2w) and T(1+2w) (rounded like Band): the probe models the density
+// near T from the amounts in [T(1-2w), T(1-w)) and [T(1+w), T(1+2w)).
+func Flanks(limit, w float64) (lo, hi float64) {
+	return ranges.CleanEdge(limit * (1 - 2*w)), ranges.CleanEdge(limit * (1 + 2*w))
 }
 
 // ScanLimits returns the round limits whose whole band lies within the
@@ -140,7 +151,22 @@ func Probe(all ranges.Group, groups []ranges.Group, segs []ranges.Segment, limit
 			if err != nil {
 				return err
 			}
-			r := Row{LimitResult: benford.LimitProbe(t, w, below, above), key: g.Key}
+			// The density near T is modelled from the flanking bands when
+			// both lie within the group's amounts; otherwise the probe
+			// falls back to the 1/x density (Flanked false).
+			res := benford.LimitProbe(t, w, below, above)
+			if flo, fhi := Flanks(t, w); w < 0.5 && g.Tested > 0 && flo >= g.Min && fhi <= g.Max {
+				left, err := g.Bins.Between(flo, lo)
+				if err != nil {
+					return err
+				}
+				right, err := g.Bins.Between(hi, fhi)
+				if err != nil {
+					return err
+				}
+				res = benford.LimitProbeFlanked(t, w, below, above, left, right)
+			}
+			r := Row{LimitResult: res, key: g.Key}
 			r.From, r.To = lo, hi
 			switch {
 			case g.Tested == 0 || lo < g.Min || hi > g.Max:

@@ -21,7 +21,7 @@ func TestBadInputCorpus(t *testing.T) {
 		t.Fatal(err)
 	}
 	if len(cases) < 40 {
-		t.Fatalf("the corpus has %d cases; the issue asks for at least 40", len(cases))
+		t.Fatalf("the corpus has %d cases; the corpus should hold at least 40", len(cases))
 	}
 	loadtest.ForEach(t, func(t *testing.T, c loadtest.Case, path string) {
 		ctx := context.Background()
@@ -52,6 +52,9 @@ func TestBadInputCorpus(t *testing.T) {
 		if f.RowsRead != c.RowsRead || f.RowsLoaded != c.RowsLoaded || f.RowsRejected != c.RowsRejected {
 			t.Fatalf("read %d loaded %d rejected %d; want %d, %d, %d (reasons %+v)", f.RowsRead, f.RowsLoaded, f.RowsRejected,
 				c.RowsRead, c.RowsLoaded, c.RowsRejected, f.RejectReasons)
+		}
+		if c.RowsRounded != nil && f.RowsRounded != *c.RowsRounded {
+			t.Errorf("%d amounts rounded, want %d", f.RowsRounded, *c.RowsRounded)
 		}
 		// The workspace agrees with the report.
 		if n := count(t, ws.Conn, "SELECT count(*) FROM ledger"); n != f.RowsLoaded {
@@ -112,7 +115,7 @@ func checkRejects(t *testing.T, ws interface {
 }
 
 func caseOptions(o loadtest.Options) Options {
-	return Options{Map: o.Map, Debit: o.Debit, Credit: o.Credit, DecimalComma: o.DecimalComma, Scale: o.Scale,
+	return Options{Map: o.Map, Debit: o.Debit, Credit: o.Credit, DecimalComma: o.DecimalComma, DecimalPoint: o.DecimalPoint, MaxRejects: o.MaxRejects, Scale: o.Scale,
 		Precision: o.Precision, Delimiter: o.Delimiter, Encoding: o.Encoding, DateFormat: o.DateFormat}
 }
 

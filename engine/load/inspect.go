@@ -79,7 +79,7 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	// Detected types: DuckDB's own sniffer on a sample (CSV), the schema (Parquet).
 	detected := map[string]string{}
 	if format == "csv" {
-		q := "DESCRIBE SELECT * FROM read_csv(" + queries.QuoteString(path) + ", delim = " + queries.QuoteString(src.Delimiter) +
+		q := "DESCRIBE SELECT * FROM read_csv(" + queries.QuoteString(ExactPath(path)) + ", delim = " + queries.QuoteString(src.Delimiter) +
 			", header = true, encoding = " + queries.QuoteString(src.Encoding) + ", sample_size = 20480, ignore_errors = true)"
 		if rows, err := ws.Conn.QueryContext(ctx, q); err == nil {
 			cols, _ := rows.Columns()
@@ -112,7 +112,7 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	reader = strings.Replace(reader, ", rejects_table = 'll_rejects_0', rejects_scan = 'll_rejects_0_scan'", "", 1)
 	var sel []string
 	for _, c := range src.Columns {
-		sel = append(sel, "CAST("+queries.QuoteIdent(c)+" AS VARCHAR)")
+		sel = append(sel, "CAST("+src.ref(c)+" AS VARCHAR)")
 	}
 	rows, err := ws.Conn.QueryContext(ctx, fmt.Sprintf("SELECT %s FROM %s LIMIT %d", strings.Join(sel, ", "), reader, sampleRows))
 	if err != nil {
@@ -143,7 +143,7 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 		q := fmt.Sprintf(`SELECT count(*),
 			count(TRY_CAST(ll_amount_canonical(v, false) AS DECIMAL(38,6))),
 			count(TRY_CAST(ll_amount_canonical(v, true) AS DECIMAL(38,6)))
-			FROM (SELECT CAST(%s AS VARCHAR) AS v FROM %s LIMIT 10000)`, queries.QuoteIdent(a), reader)
+			FROM (SELECT CAST(%s AS VARCHAR) AS v FROM %s LIMIT 10000)`, src.ref(a), reader)
 		if err := ws.Conn.QueryRowContext(ctx, q).Scan(&ac.Sampled, &ac.ParsePoint, &ac.ParseComma); err == nil {
 			ac.SuggestDecComma = ac.ParseComma > ac.ParsePoint
 			in.AmountCheck = ac

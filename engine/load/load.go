@@ -7,14 +7,18 @@ package load
 import (
 	"bufio"
 	"bytes"
+	"compress/gzip"
 	"context"
 	"database/sql"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
+	"path/filepath"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 
@@ -28,12 +32,68 @@ type Options struct {
 	Debit        string            `json:"debit,omitempty"`
 	Credit       string            `json:"credit,omitempty"`
 	DecimalComma bool              `json:"decimal_comma"`
-	Scale        int               `json:"scale"`     // decimal places of amounts (default 2)
-	Precision    int               `json:"precision"` // total digits (18 or 38; default 18)
+	DecimalPoint bool              `json:"decimal_point,omitempty"` // the decimal mark is a point: settles amounts such as 1.234
+	Scale        int               `json:"scale"`                   // decimal places of amounts (default 2)
+	Precision    int               `json:"precision"`               // total digits (18 or 38; default 18)
 	Delimiter    string            `json:"delimiter,omitempty"`
 	Encoding     string            `json:"encoding,omitempty"`
 	DateFormat   string            `json:"date_format,omitempty"` // strptime format of posted, e.g. %d/%m/%Y
-	Replace      bool              `json:"replace"`               // reload a file already in the workspace
+	// TimeZone is the zone in which a Parquet TIMESTAMP WITH TIME ZONE
+	// becomes a posting date ("" for UTC), never the machine's own.
+	TimeZone string `json:"time_zone,omitempty"`
+	Replace  bool   `json:"replace"` // reload a file already in the workspace
+	// MaxRejects is the largest share of a file's rows that may be
+	// rejected, as "5%" ("" for DefaultMaxRejects, "100%" to accept any).
+	MaxRejects string `json:"max_rejects,omitempty"`
+}
+
+// DefaultMaxRejects is the share of a file's rows a load may reject unless
+// told otherwise: more means the file or the options are wrong (common
+// practice, no source).
+const DefaultMaxRejects = "1%"
+
+// ParseShare reads a share of rows written as a percentage ("5%", "0.5%",
+// "100%"); a plain number is read as a percentage too.
+func ParseShare(s string) (float64, error) {
+	t := strings.TrimSpace(strings.TrimSuffix(strings.TrimSpace(s), "%"))
+	v, err := strconv.ParseFloat(t, 64)
+	if err != nil || v < 0 || v > 100 || t == "" {
+		return 0, fmt.Errorf("%q: give a percentage from 0%% to 100%%, e.g. 5%%", s)
+	}
+	return v / 100, nil
+}
+
+// timeZone is the zone dates are taken in.
+func timeZone(o Options) string {
+	if o.TimeZone == "" {
+		return "UTC"
+	}
+	return o.TimeZone
+}
+
+// checkTimeZone refuses a zone DuckDB does not know, before anything is
+// read.
+func checkTimeZone(ctx context.Context, ws *workspace.Workspace, o Options) error {
+	if o.TimeZone == "" {
+		return nil
+	}
+	var ok bool
+	if err := ws.Conn.QueryRowContext(ctx, queries.Get("load_time_zone_known"), o.TimeZone).Scan(&ok); err != nil || !ok {
+		return fmt.Errorf("--time-zone %q: not a time zone name; give one such as UTC, Europe/Berlin or America/New_York", o.TimeZone)
+	}
+	return nil
+}
+
+// maxRejects is the share of rows a file may have rejected.
+func (o Options) maxRejects() (float64, error) {
+	if o.MaxRejects == "" {
+		return ParseShare(DefaultMaxRejects)
+	}
+	v, err := ParseShare(o.MaxRejects)
+	if err != nil {
+		return 0, fmt.Errorf("--max-rejects %w", err)
+	}
+	return v, nil
 }
 
 func (o *Options) defaults() {
@@ -69,6 +129,7 @@ type FileReport struct {
 	RowsRead      int64         `json:"rows_read"`
 	RowsLoaded    int64         `json:"rows_loaded"`
 	RowsRejected  int64         `json:"rows_rejected"`
+	RowsRounded   int64         `json:"rows_rounded"` // loaded rows whose amount had more decimal places than the scale
 	Positive      string        `json:"sum_positive"`
 	Negative      string        `json:"sum_negative"`
 	Net           string        `json:"net"`
@@ -98,6 +159,7 @@ type Report struct {
 	RowsRead     int64         `json:"rows_read"`
 	RowsLoaded   int64         `json:"rows_loaded"`
 	RowsRejected int64         `json:"rows_rejected"`
+	RowsRounded  int64         `json:"rows_rounded"`
 	Seconds      float64       `json:"seconds"`
 }
 
@@ -132,6 +194,15 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	}
 	if opts.Precision != 18 && opts.Precision != 38 {
 		return nil, fmt.Errorf("--precision %d: give 18 (fast, amounts below 10^%d) or 38", opts.Precision, 18-opts.Scale)
+	}
+	if opts.DecimalComma && opts.DecimalPoint {
+		return nil, errors.New("--decimal-comma and --decimal-point contradict each other: give one")
+	}
+	if _, err := opts.maxRejects(); err != nil {
+		return nil, err
+	}
+	if err := checkTimeZone(ctx, ws, opts); err != nil {
+		return nil, err
 	}
 	paths, err := ExpandPaths(args)
 	if err != nil {
@@ -177,6 +248,12 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 		}
 	}
 	trace("stage", started)
+	for _, src := range sources {
+		if err := checkSeparators(ctx, ws, src, opts, scaleOf(amountType)); err != nil {
+			return nil, err
+		}
+	}
+	trace("marks", started)
 	hadLedger, err := ws.HasLedger(ctx)
 	if err != nil {
 		return nil, err
@@ -200,6 +277,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	if err != nil {
 		return nil, err
 	}
+	if err := checkUnchanged(sources); err != nil {
+		return nil, err
+	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -209,6 +289,30 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	committed = true
 	trace("commit", started)
 	return rep, nil
+}
+
+// afterRead, when set (by tests), runs once every file has been read and
+// before they are hashed again.
+var afterRead func()
+
+// checkUnchanged hashes every file again once its rows are read: a file
+// that changed while it was loaded (an export still being written, a copy
+// over the network) would otherwise be recorded with the SHA-256 and size
+// of other bytes than its rows came from.
+func checkUnchanged(sources []*Source) error {
+	if afterRead != nil {
+		afterRead()
+	}
+	for _, src := range sources {
+		size, sum, err := Hash(src.Path)
+		if err != nil {
+			return fmt.Errorf("%s: reading it again after the load: %w; nothing was loaded", src.Path, err)
+		}
+		if size != src.Size || sum != src.SHA256 {
+			return fmt.Errorf("%s: the file changed while it was being loaded (%d bytes, SHA-256 %s before; %d bytes, %s after); nothing was loaded. Load it again once whatever writes it has finished", src.Path, src.Size, src.SHA256[:12], size, sum[:12])
+		}
+	}
+	return nil
 }
 
 // interrupted turns an error that follows a cancelled context into the
@@ -247,7 +351,7 @@ func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, a
 	}
 	trace("create", started)
 	var loadID int64
-	if err := tx.QueryRowContext(ctx, "SELECT nextval('load_seq')").Scan(&loadID); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_next_load_id")).Scan(&loadID); err != nil {
 		return nil, err
 	}
 	rep := &Report{LoadID: loadID, AmountType: amountType}
@@ -260,6 +364,7 @@ func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, a
 		rep.RowsRead += fr.RowsRead
 		rep.RowsLoaded += fr.RowsLoaded
 		rep.RowsRejected += fr.RowsRejected
+		rep.RowsRounded += fr.RowsRounded
 	}
 	optsJSON, _ := json.Marshal(opts)
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_load"), loadID, started.UTC(), time.Now().UTC(), workspace.Version, string(optsJSON)); err != nil {
@@ -297,7 +402,7 @@ func widenNewLedger(ctx context.Context, tx *sql.Tx, sources []*Source) error {
 	if n != 0 || !strings.HasSuffix(ddl, ");") {
 		return nil
 	}
-	if _, err := tx.ExecContext(ctx, "DROP TABLE ledger"); err != nil {
+	if _, err := tx.ExecContext(ctx, queries.Get("load_drop_new_ledger")); err != nil {
 		return err
 	}
 	wide := strings.TrimSuffix(ddl, ");") + ", " + strings.Join(extra, ", ") + ");"
@@ -383,13 +488,26 @@ func examine(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	case !opts.Replace:
 		return nil, fmt.Errorf("%s: already loaded as file %d (%s, same SHA-256 %s); give --replace to load it again in its place", path, fileID, old, src.SHA256[:12])
 	}
+	// The same path with other content: a corrected or re-sent extract.
+	// Loading it beside the first would count its rows twice.
+	var oldSHA string
+	var oldLoad int64
+	err = ws.Conn.QueryRowContext(ctx, queries.Get("load_file_by_path"), path).Scan(&fileID, &oldLoad, &oldSHA)
+	switch {
+	case errors.Is(err, sql.ErrNoRows):
+	case err != nil:
+		return nil, err
+	case !opts.Replace && oldSHA != src.SHA256:
+		return nil, fmt.Errorf("%s: this path was loaded before as file %d (load %d) with other content (SHA-256 %s then, %s now), and its rows are in the workspace; give --replace to replace that file's rows with this version in one transaction, or copy the file under another name if both versions belong in the ledger; nothing was loaded",
+			path, fileID, oldLoad, oldSHA[:12], src.SHA256[:12])
+	}
 	return src, nil
 }
 
 // ParquetTypes maps column name to DuckDB type for a Parquet file.
 func examineParquet(ctx context.Context, ws *workspace.Workspace, path string) (*Source, error) {
 	src := &Source{Path: path, Name: baseName(path), Format: "parquet"}
-	rows, err := ws.Conn.QueryContext(ctx, "DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(path)+")")
+	rows, err := ws.Conn.QueryContext(ctx, queries.Render("load_describe_parquet", map[string]string{"path": queries.QuoteString(ExactPath(path))}))
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, oneLine(err))
 	}
@@ -477,20 +595,40 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	fr := &FileReport{Path: src.Path, Name: src.Name, Format: src.Format, SizeBytes: src.Size, SHA256: src.SHA256,
 		Mapping: m, Delimiter: src.Delimiter, Encoding: src.Encoding, Warnings: src.Warnings}
 	if opts.Replace {
-		var oldID int64
-		err := tx.QueryRowContext(ctx, queries.Get("file_by_sha"), src.SHA256).Scan(&oldID, new(string))
-		if err == nil {
+		// Earlier loads of the same content, or of the same path.
+		rows, err := tx.QueryContext(ctx, queries.Get("load_files_to_replace"), src.SHA256, src.Path)
+		if err != nil {
+			return nil, err
+		}
+		var old []int64
+		var same []bool
+		for rows.Next() {
+			var id int64
+			var sameContent bool
+			if err := rows.Scan(&id, &sameContent); err != nil {
+				rows.Close()
+				return nil, err
+			}
+			old, same = append(old, id), append(same, sameContent)
+		}
+		rows.Close()
+		if err := rows.Err(); err != nil {
+			return nil, err
+		}
+		for i, oldID := range old {
 			for _, q := range []string{"load_forget_ledger", "load_forget_rejects", "load_forget_file"} {
 				if _, err := tx.ExecContext(ctx, queries.Get(q), oldID); err != nil {
 					return nil, err
 				}
 			}
-			fr.Warnings = append(fr.Warnings, fmt.Sprintf("replaced file %d loaded earlier with the same content", oldID))
-		} else if !errors.Is(err, sql.ErrNoRows) {
-			return nil, err
+			if same[i] {
+				fr.Warnings = append(fr.Warnings, fmt.Sprintf("replaced file %d loaded earlier with the same content", oldID))
+			} else {
+				fr.Warnings = append(fr.Warnings, fmt.Sprintf("replaced file %d loaded earlier from the same path with other content", oldID))
+			}
 		}
 	}
-	if err := tx.QueryRowContext(ctx, "SELECT nextval('file_seq')").Scan(&fr.FileID); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_next_file_id")).Scan(&fr.FileID); err != nil {
 		return nil, err
 	}
 	cols := plan(src, m)
@@ -504,7 +642,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	// The select list: canonical text columns and every original column kept as text.
 	var sel []string
 	for _, c := range cols {
-		expr := "CAST(" + queries.QuoteIdent(c.original) + " AS VARCHAR)"
+		expr := "CAST(" + src.ref(c.original) + " AS VARCHAR)"
 		if c.canon != "" {
 			sel = append(sel, expr+" AS "+queries.QuoteIdent(c.canon))
 		} else {
@@ -516,9 +654,11 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if p, ok := m.Columns["posted"]; ok {
 		st := storedOf[p]
 		postedRaw = queries.QuoteIdent(st.stored)
-		orig := queries.QuoteIdent(p)
+		orig := src.ref(p)
 		var expr string
 		switch {
+		case strings.Contains(strings.ToUpper(st.typ), "WITH TIME ZONE"):
+			expr = "TRY_CAST(timezone(" + queries.QuoteString(timeZone(opts)) + ", " + orig + ") AS DATE)"
 		case isDateLike(st.typ):
 			expr = "TRY_CAST(" + orig + " AS DATE)"
 		case opts.DateFormat != "":
@@ -537,7 +677,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	}
 	var amountExpr, fast, parts, rawExpr, reasonExpr, amountColName string
 	if m.Debit != "" {
-		d, c := queries.QuoteIdent(m.Debit), queries.QuoteIdent(m.Credit)
+		d, c := src.ref(m.Debit), src.ref(m.Credit)
 		// Each side: a typed number as it is; text through the fast cast
 		// and the grammar (projections ll_fast_d, ll_parts_d and so on);
 		// a blank side counts as zero unless both are blank.
@@ -569,7 +709,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	} else {
 		a := m.Columns["amount"]
 		st := storedOf[a]
-		orig := queries.QuoteIdent(a)
+		orig := src.ref(a)
 		rawExpr = queries.QuoteIdent(st.stored)
 		amountColName = a
 		if isNumeric(st.typ) {
@@ -591,10 +731,13 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		lineOffset = "0"
 	}
 	// Parquet rows come numbered by the reader; CSV records from the stage.
-	reader, rejTable, rowNumber := readerSQL(src, ""), "", "file_row_number + 1"
-	if src.Format == "csv" {
-		reader, rejTable = queries.QuoteIdent(src.stage), src.rejects
+	reader, rejTable, rowNumber := readerSQL(src, ""), "", "ll_file_row + 1"
+	if src.stage != "" {
+		reader = queries.QuoteIdent(src.stage)
 		rowNumber = fmt.Sprintf("rowid - %d + 1", src.stageFirst)
+	}
+	if src.Format == "csv" {
+		rejTable = src.rejects
 	}
 	insert := queries.Render("load_insert", map[string]string{
 		"row_number":  rowNumber,
@@ -619,15 +762,15 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	// a block per column: a 5,000-column file then needs more than a
 	// 1280MB memory limit, so wide files keep the order.
 	var threads int
-	if err := tx.QueryRowContext(ctx, "SELECT CAST(current_setting('threads') AS INTEGER)").Scan(&threads); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_threads")).Scan(&threads); err != nil {
 		return nil, err
 	}
 	keepOrder := len(src.Columns)*max(threads, 1) > 1024
-	if _, err := tx.ExecContext(ctx, fmt.Sprintf("SET preserve_insertion_order = %t", keepOrder)); err != nil {
+	if _, err := tx.ExecContext(ctx, queries.Render("load_insertion_order", map[string]string{"keep": fmt.Sprint(keepOrder)})); err != nil {
 		return nil, err
 	}
 	_, err := tx.ExecContext(ctx, insert)
-	if _, rerr := tx.ExecContext(context.WithoutCancel(ctx), "SET preserve_insertion_order = true"); rerr != nil && err == nil {
+	if _, rerr := tx.ExecContext(context.WithoutCancel(ctx), queries.Render("load_insertion_order", map[string]string{"keep": "true"})); rerr != nil && err == nil {
 		err = rerr
 	}
 	if err != nil {
@@ -669,7 +812,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	if err := tx.QueryRowContext(ctx, queries.Get("load_rejected_count"), fr.FileID).Scan(&fr.RowsRejected); err != nil {
 		return nil, err
 	}
-	if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM ledger WHERE file_id = ?", fr.FileID).Scan(&fr.RowsLoaded); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("load_loaded_count"), fr.FileID).Scan(&fr.RowsLoaded); err != nil {
 		return nil, err
 	}
 	if fr.RowsLoaded+fr.RowsRejected != fr.RowsRead {
@@ -692,20 +835,95 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		}
 		return nil, fmt.Errorf("%s: none of its %d rows could be loaded%s; check --delimiter, --decimal-comma, --date-format and the mapping (leadline inspect %s); nothing was loaded", src.Path, fr.RowsRead, top, src.Path)
 	}
-	if err := tx.QueryRowContext(ctx, `SELECT CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
-		CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR), CAST(coalesce(sum(amount), 0) AS VARCHAR)
-		FROM ledger WHERE file_id = ?`, fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
+	if err := checkRejectShare(fr, opts); err != nil {
+		return nil, err
+	}
+	rounded := queries.Render("load_rounded_count", map[string]string{"test": roundedTest(src, m, storedOf, opts.DecimalComma, scaleOf(amountType))})
+	if err := tx.QueryRowContext(ctx, rounded, fr.FileID).Scan(&fr.RowsRounded); err != nil {
+		return nil, fmt.Errorf("%s: counting rounded amounts: %w", src.Path, err)
+	}
+	if fr.RowsRounded > 0 {
+		fr.Warnings = append(fr.Warnings, fmt.Sprintf("%d amounts had more decimal places than the scale of %d and were rounded half away from zero; their text as sent is kept in the ledger beside the amount", fr.RowsRounded, scaleOf(amountType)))
+	}
+	if err := tx.QueryRowContext(ctx, queries.Get("load_file_sums"), fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
 		return nil, err
 	}
 	trace("counts", t0)
 	mapJSON, _ := json.Marshal(m)
 	dialect, _ := json.Marshal(map[string]any{"delimiter": src.Delimiter, "encoding": src.Encoding, "gzip": src.Gzip,
-		"decimal_comma": opts.DecimalComma, "amount_type": amountType, "date_format": opts.DateFormat})
+		"decimal_comma": opts.DecimalComma, "decimal_point": opts.DecimalPoint, "time_zone": timeZone(opts), "amount_type": amountType, "date_format": opts.DateFormat,
+		"rows_rounded": fr.RowsRounded, "max_rejects": maxRejectsText(opts)})
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_file"), fr.FileID, loadID, src.Path, src.Name, src.Format,
 		src.Size, src.SHA256, fr.RowsRead, fr.RowsLoaded, fr.RowsRejected, string(mapJSON), string(dialect), time.Now().UTC()); err != nil {
 		return nil, err
 	}
 	return fr, nil
+}
+
+// checkRejectShare fails a file whose rejected rows exceed the share the
+// options allow: rows read = loaded + rejected is necessary, not
+// sufficient, and a load that lost most of a file is no success.
+func checkRejectShare(fr *FileReport, opts Options) error {
+	limit, err := opts.maxRejects()
+	if err != nil {
+		return err
+	}
+	if fr.RowsRead == 0 || float64(fr.RowsRejected) <= limit*float64(fr.RowsRead) {
+		return nil
+	}
+	share := float64(fr.RowsRejected) / float64(fr.RowsRead)
+	top, hint := "", ""
+	if len(fr.RejectReasons) > 0 {
+		r := fr.RejectReasons[0]
+		top = fmt.Sprintf(" (most common reason, %d rows: %s, first at line %d)", r.Rows, r.Reason, deref(r.FirstLine))
+		switch {
+		case strings.Contains(r.Reason, "decimal comma?"):
+			hint = " If the amounts write a decimal comma, give --decimal-comma."
+		case strings.Contains(r.Reason, "too many fields"):
+			hint = " Too many fields often means a delimiter inside unquoted values (a thousands separator, a comma in a text), or the wrong --delimiter."
+		case strings.Contains(r.Reason, "invalid date"):
+			hint = " Give the dates' format with --date-format."
+		}
+	}
+	return fmt.Errorf("%s: %d of %d rows (%s) were rejected, more than the %s a load accepts%s.%s Fix the file or the options (leadline inspect shows how the file reads), or accept the rejects with --max-rejects %s or --accept-rejects; nothing was loaded",
+		fr.Path, fr.RowsRejected, fr.RowsRead, percent(share), maxRejectsText(opts), top, hint, percent(share))
+}
+
+func maxRejectsText(o Options) string {
+	if o.MaxRejects == "" {
+		return DefaultMaxRejects
+	}
+	v, _ := ParseShare(o.MaxRejects)
+	return percent(v)
+}
+
+// percent writes a share as a percentage rounded up to one decimal place
+// (so that --max-rejects with it accepts the share).
+func percent(share float64) string {
+	return strconv.FormatFloat(math.Ceil(share*1000-1e-9)/10, 'f', -1, 64) + "%"
+}
+
+// roundedTest is the condition, on a loaded ledger row, that its amount
+// text as sent had a nonzero digit beyond the scale: the texts that
+// could hold one (a run of more than scale digits after a mark, or an
+// exponent) are parsed again and their exact decimal text examined.
+func roundedTest(src *Source, m Mapping, storedOf map[string]storage, decimalComma bool, scale int) string {
+	cols := []string{m.Columns["amount"]}
+	if m.Debit != "" {
+		cols = []string{m.Debit, m.Credit}
+	}
+	var tests []string
+	for _, c := range cols {
+		st := storedOf[c]
+		x := queries.QuoteIdent(st.stored)
+		dc := decimalComma && !isNumeric(st.typ)
+		// Candidates without a regular expression: an exponent, or more
+		// than scale characters after the last mark.
+		pre := fmt.Sprintf("(contains(%s, 'e') OR contains(%s, 'E') OR least(nullif(strpos(reverse(%s), '.'), 0), nullif(strpos(reverse(%s), ','), 0)) > %d)", x, x, x, x, scale+1)
+		beyond := queries.QuoteString(fmt.Sprintf(`\.[0-9]{%d}[0-9]*[1-9]`, scale))
+		tests = append(tests, fmt.Sprintf("(%s AND regexp_matches(coalesce(ll_amount_canonical(%s, %t), ''), %s))", pre, x, dc, beyond))
+	}
+	return strings.Join(tests, " OR ")
 }
 
 func deref(p *int64) int64 {
@@ -761,16 +979,23 @@ func isDateLike(t string) bool {
 // as fast as a committed one (14 s against 6 s for the insert of
 // 5,000,000 rows). The records the reader cannot take go to a second
 // temporary table, src.rejects.
+//
+// A Parquet file is read directly, numbered by the reader's
+// file_row_number, unless it has a column of that name itself, which the
+// reader then refuses to add: such a file is staged too.
 func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) error {
-	if src.Format != "csv" {
+	if src.Format != "csv" && !src.ownRowNumber() {
 		return nil
 	}
 	src.stage, src.rejects = fmt.Sprintf("ll_stage_%d", i), fmt.Sprintf("ll_rejects_%d", i)
 	q := queries.Render("load_stage", map[string]string{"stage": queries.QuoteIdent(src.stage), "reader": readerSQL(src, src.rejects)})
 	if _, err := ws.Conn.ExecContext(ctx, q); err != nil {
+		if hint := windows1252Hint(src, err); hint != "" {
+			return fmt.Errorf("%s: %s", src.Path, hint)
+		}
 		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
-	return ws.Conn.QueryRowContext(ctx, "SELECT coalesce(min(rowid), 0) FROM "+queries.QuoteIdent(src.stage)).Scan(&src.stageFirst)
+	return ws.Conn.QueryRowContext(ctx, queries.Render("load_stage_first", map[string]string{"stage": queries.QuoteIdent(src.stage)})).Scan(&src.stageFirst)
 }
 
 // unstage drops the temporary tables of stageCSV.
@@ -780,9 +1005,54 @@ func unstage(ws *workspace.Workspace, sources []*Source) {
 			continue
 		}
 		for _, t := range []string{src.stage, src.rejects, src.rejects + "_scan"} {
-			ws.Conn.ExecContext(context.Background(), "DROP TABLE IF EXISTS "+queries.QuoteIdent(t))
+			ws.Conn.ExecContext(context.Background(), queries.Render("load_drop_temp", map[string]string{"table": queries.QuoteIdent(t)}))
 		}
 	}
+}
+
+// The reader names the file's columns by their position (ll_c1, ll_c2 ...)
+// and the statements refer to them so: a client's column may be called
+// anything, rowid or ll_rn or file_row_number included, without meeting
+// a name the load uses itself.
+func colName(i int) string { return fmt.Sprintf("ll_c%d", i+1) }
+
+// ref is the reader's name of the file's column original.
+func (s *Source) ref(original string) string {
+	for i, c := range s.Columns {
+		if c == original {
+			return queries.QuoteIdent(colName(i))
+		}
+	}
+	return queries.QuoteIdent(original)
+}
+
+// originalNames turns the reader's names in a list such as "ll_c2, ll_c3"
+// back into the file's own, in name order.
+func (s *Source) originalNames(list string) string {
+	if list == "" {
+		return list
+	}
+	names := strings.Split(list, ", ")
+	for i, n := range names {
+		if k, err := strconv.Atoi(strings.TrimPrefix(n, "ll_c")); err == nil && strings.HasPrefix(n, "ll_c") && k >= 1 && k <= len(s.Columns) {
+			names[i] = s.Columns[k-1]
+		}
+	}
+	sort.Strings(names)
+	return strings.Join(names, ", ")
+}
+
+// ownRowNumber tells a Parquet file with a column named file_row_number.
+func (s *Source) ownRowNumber() bool {
+	if s.Format != "parquet" {
+		return false
+	}
+	for _, c := range s.Columns {
+		if strings.EqualFold(c, "file_row_number") {
+			return true
+		}
+	}
+	return false
 }
 
 // readerSQL is the table function that reads src; a CSV reader stores the
@@ -790,14 +1060,21 @@ func unstage(ws *workspace.Workspace, sources []*Source) {
 // Parquet).
 func readerSQL(src *Source, rejTable string) string {
 	if src.Format == "parquet" {
-		return "read_parquet(" + queries.QuoteString(src.Path) + ", file_row_number = true)"
+		var names []string
+		for i := range src.Columns {
+			names = append(names, src.ref(src.Columns[i]))
+		}
+		if src.ownRowNumber() {
+			return "read_parquet(" + queries.QuoteString(ExactPath(src.Path)) + ") AS ll_file(" + strings.Join(names, ", ") + ")"
+		}
+		return "read_parquet(" + queries.QuoteString(ExactPath(src.Path)) + ", file_row_number = true) AS ll_file(" + strings.Join(names, ", ") + ", ll_file_row)"
 	}
 	var cols []string
-	for _, c := range src.Columns {
-		cols = append(cols, queries.QuoteString(c)+": 'VARCHAR'")
+	for i := range src.Columns {
+		cols = append(cols, queries.QuoteString(colName(i))+": 'VARCHAR'")
 	}
 	opts := []string{
-		queries.QuoteString(src.Path),
+		queries.QuoteString(ExactPath(src.Path)),
 		"auto_detect = false",
 		"header = true",
 		"columns = {" + strings.Join(cols, ", ") + "}",
@@ -818,6 +1095,44 @@ func readerSQL(src *Source, rejTable string) string {
 		opts = append(opts, "compression = 'gzip'")
 	}
 	return "read_csv(" + strings.Join(opts, ", ") + ")"
+}
+
+// windows1252Hint explains DuckDB's "File is not latin-1 encoded": Latin-1
+// (ISO-8859-1) leaves bytes 0x80 to 0x9F to control codes, where
+// Windows-1252 puts the euro sign, curly quotes and dashes. It names the
+// first line holding one.
+func windows1252Hint(src *Source, err error) string {
+	if src.Encoding != "latin-1" || !strings.Contains(strings.ToLower(err.Error()), "not latin-1") {
+		return ""
+	}
+	f, ferr := os.Open(src.Path)
+	if ferr != nil {
+		return ""
+	}
+	defer f.Close()
+	var r io.Reader = f
+	if src.Gzip {
+		gz, gerr := gzip.NewReader(f)
+		if gerr != nil {
+			return ""
+		}
+		r = gz
+	}
+	br := bufio.NewReaderSize(r, 1<<20)
+	line := int64(1)
+	for {
+		b, rerr := br.ReadByte()
+		if rerr != nil {
+			return ""
+		}
+		switch {
+		case b == '\n':
+			line++
+		case b >= 0x80 && b <= 0x9F:
+			return fmt.Sprintf("line %d: byte 0x%02X is a control code in Latin-1 (ISO-8859-1), which --encoding latin-1 reads; the file is most likely Windows-1252 (cp1252), where it is a letter or sign such as the euro sign or a curly quote. Convert it to UTF-8 first, e.g. iconv -f WINDOWS-1252 -t UTF-8 %s > %s, and load the copy without --encoding; nothing was loaded",
+				line, b, shellQuote(src.Name), shellQuote(strings.TrimSuffix(src.Name, filepath.Ext(src.Name))+"_utf8.csv"))
+		}
+	}
 }
 
 func explainReadError(err error) string {
@@ -851,6 +1166,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 			rows.Close()
 			return 0, err
 		}
+		r.columns.String = src.originalNames(r.columns.String)
 		rejs = append(rejs, r)
 	}
 	rows.Close()
@@ -858,7 +1174,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		return 0, err
 	}
 	for _, t := range []string{table, table + "_scan"} {
-		if _, err := tx.ExecContext(ctx, "DROP TABLE IF EXISTS "+queries.QuoteIdent(t)); err != nil {
+		if _, err := tx.ExecContext(ctx, queries.Render("load_drop_temp", map[string]string{"table": queries.QuoteIdent(t)})); err != nil {
 			return 0, err
 		}
 	}
@@ -881,7 +1197,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		}
 		swallowed = true
 	}
-	app, err := tx.PrepareContext(ctx, "INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line) VALUES (?, ?, ?, NULL, ?, ?)")
+	app, err := tx.PrepareContext(ctx, queries.Get("load_insert_structural_reject"))
 	if err != nil {
 		return 0, err
 	}
@@ -907,8 +1223,7 @@ func takeStructuralRejects(ctx context.Context, tx *sql.Tx, table string, fileID
 		}
 	}
 	if len(vals) > 0 {
-		q := "UPDATE ledger SET line = ledger.line + r.j FROM (VALUES " + strings.Join(vals, ", ") +
-			") AS r(lo, hi, j) WHERE ledger.file_id = ? AND ledger.line - 1 > r.lo AND ledger.line - 1 <= r.hi"
+		q := queries.Render("load_renumber_lines", map[string]string{"ranges": strings.Join(vals, ", ")})
 		if _, err := tx.ExecContext(ctx, q, fileID); err != nil {
 			return 0, fmt.Errorf("numbering lines: %w", err)
 		}
@@ -996,7 +1311,7 @@ func ensureColumns(ctx context.Context, tx *sql.Tx, cols []storage) error {
 		if c.stored == "" || have[strings.ToLower(c.stored)] {
 			continue
 		}
-		if _, err := tx.ExecContext(ctx, "ALTER TABLE ledger ADD COLUMN "+queries.QuoteIdent(c.stored)+" VARCHAR"); err != nil {
+		if _, err := tx.ExecContext(ctx, queries.Render("load_add_column", map[string]string{"column": queries.QuoteIdent(c.stored)})); err != nil {
 			return fmt.Errorf("adding column %q: %w", c.stored, err)
 		}
 		have[strings.ToLower(c.stored)] = true
@@ -1005,7 +1320,7 @@ func ensureColumns(ctx context.Context, tx *sql.Tx, cols []storage) error {
 }
 
 func reasons(ctx context.Context, tx *sql.Tx, fileID int64) ([]ReasonCount, error) {
-	rows, err := tx.QueryContext(ctx, `SELECT reason, count(*), min(line) FROM rejects WHERE file_id = ? GROUP BY reason ORDER BY count(*) DESC, reason`, fileID)
+	rows, err := tx.QueryContext(ctx, queries.Get("load_file_reasons"), fileID)
 	if err != nil {
 		return nil, err
 	}
@@ -1135,4 +1450,25 @@ func trace(step string, since time.Time) {
 	if tracing {
 		fmt.Fprintf(os.Stderr, "trace: %-10s %6.2fs\n", step, time.Since(since).Seconds())
 	}
+}
+
+// InputTotals is what every load of the workspace read, loaded and
+// rejected: the files, and rows read = loaded + rejected.
+type InputTotals struct {
+	Files, RowsRead, RowsLoaded, RowsRejected int64
+}
+
+// Inputs sums the workspace's file records.
+func Inputs(ctx context.Context, ws *workspace.Workspace) (InputTotals, error) {
+	var t InputTotals
+	err := ws.Conn.QueryRowContext(ctx, queries.Get("load_input_totals")).Scan(&t.Files, &t.RowsRead, &t.RowsLoaded, &t.RowsRejected)
+	return t, err
+}
+
+// RejectedShare is rows rejected over rows read (0 when nothing was read).
+func (t InputTotals) RejectedShare() float64 {
+	if t.RowsRead == 0 {
+		return 0
+	}
+	return float64(t.RowsRejected) / float64(t.RowsRead)
 }

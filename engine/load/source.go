@@ -51,7 +51,11 @@ func ExpandPaths(args []string) ([]string, error) {
 	var out []string
 	for _, a := range args {
 		var matches []string
-		if strings.ContainsAny(a, "*?[") {
+		// A name that is a file is that file, whatever characters it
+		// holds: data[1].csv is not a pattern for data1.csv.
+		if st, err := os.Stat(a); err == nil && !st.IsDir() {
+			matches = []string{a}
+		} else if strings.ContainsAny(a, "*?[") {
 			m, err := filepath.Glob(a)
 			if err != nil {
 				return nil, fmt.Errorf("pattern %q: %w", a, err)
@@ -86,6 +90,29 @@ func ExpandPaths(args []string) ([]string, error) {
 		return nil, errors.New("no input files given")
 	}
 	return out, nil
+}
+
+// ExactPath escapes the glob characters of a path, so that DuckDB's
+// readers, which expand * ? [ in the names they are given, read that one
+// file: leadline has expanded the patterns itself, once. Each of the
+// three becomes a bracket class holding it alone ([[], [?], [*]), which
+// DuckDB's glob reads as the character.
+func ExactPath(p string) string {
+	if !strings.ContainsAny(p, "*?[") {
+		return p
+	}
+	var b strings.Builder
+	for _, r := range p {
+		switch r {
+		case '*', '?', '[':
+			b.WriteByte('[')
+			b.WriteRune(r)
+			b.WriteByte(']')
+		default:
+			b.WriteRune(r)
+		}
+	}
+	return b.String()
 }
 
 func unwrapPathError(err error) error {
@@ -161,6 +188,21 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 	if len(bytes.TrimSpace(head)) == 0 {
 		return nil, fmt.Errorf("%s: the file is empty", path)
 	}
+	// A header longer than the head read so far (thousands of long column
+	// names) is read on to its end, never cut.
+	if len(head) == 256<<10 && bytes.IndexAny(head, "\r\n") < 0 {
+		more, err := readHead(r, maxHeader-len(head))
+		if err != nil {
+			return nil, fmt.Errorf("%s: reading: %v", path, err)
+		}
+		head = append(head, more...)
+		if bytes.IndexAny(head, "\r\n") < 0 && len(head) == maxHeader {
+			return nil, fmt.Errorf("%s: line 1: the header has no line end within its first %d MiB; is it a CSV file? (give --delimiter if the delimiter is not among , ; tab |)", path, maxHeader>>20)
+		}
+	}
+	if what := notText(head); what != "" {
+		return nil, fmt.Errorf("%s: %s", path, what)
+	}
 	// Encoding: a byte-order mark decides; otherwise the option; otherwise UTF-8.
 	var text []byte
 	switch {
@@ -186,6 +228,16 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 	firstLine := text
 	if i := bytes.IndexAny(text, "\r\n"); i >= 0 {
 		firstLine = text[:i]
+	}
+	// A spreadsheet's delimiter hint: the reader would take it for the
+	// header, and the real header for data.
+	if t := bytes.TrimSpace(firstLine); len(t) >= 4 && len(t) <= 6 && strings.EqualFold(string(t[:4]), "sep=") {
+		d := string(t[4:])
+		if d == "" || d == "\t" {
+			d = `\t`
+		}
+		return nil, fmt.Errorf("%s: line 1: %q is a spreadsheet's delimiter hint, not a header; delete that line (e.g. tail -n +2 %s > %s) and load the copy with --delimiter %s",
+			path, string(t), shellQuote(s.Name), shellQuote(strings.TrimSuffix(s.Name, filepath.Ext(s.Name))+"_nosep.csv"), shellQuote(d))
 	}
 	// A NUL byte in the header means a binary file or UTF-16 without a
 	// byte-order mark. A NUL further down is data: the reader keeps it as
@@ -233,6 +285,30 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 		return nil, fmt.Errorf("%s: has a header but no data rows", path)
 	}
 	return s, nil
+}
+
+// maxHeader is the longest header line read (the reader's max_line_size).
+const maxHeader = 16 << 20
+
+// notText recognises files of another kind under a CSV name by their first
+// bytes, and says what they look like.
+func notText(head []byte) string {
+	t := bytes.TrimLeft(bytes.TrimPrefix(head, []byte{0xEF, 0xBB, 0xBF}), " \t\r\n")
+	switch {
+	case bytes.HasPrefix(head, []byte("PK\x03\x04")):
+		return "line 1: the file is a ZIP archive, as an Excel workbook (.xlsx) is, not CSV text; save the sheet as CSV (UTF-8) and load that"
+	case bytes.HasPrefix(head, []byte{0xD0, 0xCF, 0x11, 0xE0}):
+		return "line 1: the file is an old Excel workbook (.xls), not CSV text; save the sheet as CSV (UTF-8) and load that"
+	case bytes.HasPrefix(head, []byte("PAR1")):
+		return "line 1: the file is Parquet, not CSV text; give it a .parquet name and load it again"
+	case bytes.HasPrefix(head, []byte{0x1F, 0x8B}):
+		return "line 1: the file is gzip-compressed; give it a .gz name (e.g. ledger.csv.gz) and load it again"
+	case bytes.HasPrefix(head, []byte("%PDF")):
+		return "line 1: the file is a PDF document, not CSV text; export the data as CSV"
+	case len(t) > 0 && (t[0] == '{' || t[0] == '[' && len(t) > 1 && (t[1] == '{' || t[1] == '"' || t[1] == '\n' || t[1] == '\r' || t[1] == ' ')):
+		return "line 1: the file looks like JSON, not CSV text (it starts with " + string(t[:1]) + "); export the data as CSV, or convert it first"
+	}
+	return ""
 }
 
 // readHead reads up to max bytes, telling a short file (no error) from a

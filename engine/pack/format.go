@@ -75,6 +75,9 @@ type Source struct {
 	Delimiter    string            `toml:"delimiter" json:"delimiter,omitempty"`
 	Encoding     string            `toml:"encoding" json:"encoding,omitempty"`
 	DateFormat   string            `toml:"date_format" json:"date_format,omitempty"`
+	DecimalPoint bool              `toml:"decimal_point" json:"decimal_point,omitempty"` // settles amounts such as 1.234 that read both ways
+	MaxRejects   string            `toml:"max_rejects" json:"max_rejects,omitempty"`     // largest share of a file's rows rejected, "5%"
+	TimeZone     string            `toml:"time_zone" json:"time_zone,omitempty"`         // zone of Parquet timestamps with a time zone (default UTC)
 }
 
 // Population is the [population] table: who is tested unless a step says

@@ -92,8 +92,11 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	} else {
 		w("decimal_comma = %v     # true when amounts read 1.234,56", dc)
 	}
+	w("# decimal_point = true  # settles amounts such as 1.234 that read both ways, as 1.234 (decimal_comma = true reads 1234)")
 	df, dfNote := guessDateFormat(in)
 	w("date_format = %s        # %s", q(df), dfNote)
+	w("# time_zone = \"UTC\"     # zone in which Parquet timestamps with a time zone become posting dates")
+	w("# max_rejects = \"1%%\"    # largest share of a file's rows that may be rejected; more fails the load")
 	if in.Mapping.Debit != "" {
 		w("debit = %s   # amount = debit - credit", q(in.Mapping.Debit))
 		w("credit = %s", q(in.Mapping.Credit))

@@ -380,8 +380,8 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		if ps.Name == "" {
 			ps.Name = fmt.Sprintf("source %d", i+1)
 		}
-		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma,
-			Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
+		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma, DecimalPoint: s.DecimalPoint,
+			MaxRejects: s.MaxRejects, TimeZone: s.TimeZone, Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
 			Map: map[string]string{}}
 		if len(s.Files) == 0 {
 			c.errf(key+".files", "no files: give files = [\"extract.csv\"] or a pattern such as \"extracts/*.csv\" (relative to the pack file)")
@@ -460,6 +460,20 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		default:
 			c.errf(key+".encoding", "encoding %q: give utf-8, utf-16 or latin-1", s.Encoding)
 		}
+		if s.DecimalComma && s.DecimalPoint {
+			c.errf(key+".decimal_point", "decimal_comma and decimal_point contradict each other: give one")
+		}
+		if s.MaxRejects != "" {
+			if _, err := load.ParseShare(s.MaxRejects); err != nil {
+				c.errf(key+".max_rejects", "max_rejects %v", err)
+			}
+		}
+		if s.TimeZone != "" {
+			var known bool
+			if err := mem.Conn.QueryRowContext(ctx, queries.Get("load_time_zone_known"), s.TimeZone).Scan(&known); err != nil || !known {
+				c.errf(key+".time_zone", "time_zone %q: not a time zone name; give one such as \"UTC\" or \"Europe/Berlin\"", s.TimeZone)
+			}
+		}
 		if s.DateFormat != "" && !strings.Contains(s.DateFormat, "%") {
 			c.errf(key+".date_format", "date_format %q: write a strptime format such as %%d/%%m/%%Y", s.DateFormat)
 		}
@@ -529,7 +543,7 @@ func fileColumns(ctx context.Context, mem *workspace.Workspace, path string, o l
 		}
 		return src.Columns, nil
 	}
-	rows, err := mem.Conn.QueryContext(ctx, queries.Render("pack_parquet_columns", map[string]string{"path": queries.QuoteString(path)}))
+	rows, err := mem.Conn.QueryContext(ctx, queries.Render("pack_parquet_columns", map[string]string{"path": queries.QuoteString(load.ExactPath(path))}))
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, firstLine(err.Error()))
 	}

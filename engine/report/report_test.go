@@ -509,7 +509,7 @@ func TestReportStaleRun(t *testing.T) {
 	if err := os.WriteFile(csv, []byte("amount\n12.50\n99.99\nN/A\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := load.Load(ctx, ws, []string{csv}, load.Options{}); err != nil {
+	if _, err := load.Load(ctx, ws, []string{csv}, load.Options{MaxRejects: "100%"}); err != nil {
 		t.Fatal(err)
 	}
 	after, err := saveRun(ctx, ws, "notes2", map[string]any{"n": 2})

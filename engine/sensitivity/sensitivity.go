@@ -3,7 +3,7 @@
 // at several rates over many seeds and reports, per signal and rate, the
 // share of trials in which the signal fired.
 //
-// It works on bin counts only (DESIGN.md: counts are additive). The
+// It works on bin counts only (counts are additive; docs/design.md). The
 // population's counts are read once; each trial adds the counts of its
 // injected amounts to them in memory. The loaded ledger is never copied or
 // touched.
@@ -123,6 +123,10 @@ func (o *Options) Validate() error {
 
 // Signal names, each a flag the engagement team would act on.
 const (
+	SigFirstTwoFlag  = "first_two bin flagged"   // the battery's bin flag: exact binomial, Holm, material
+	SigRunsP         = "first_two runs p < 0.05" // the runs test against its simulated null
+	SigFirstThreeFlg = "first_three bin flagged"
+	SigLastTwoFlag   = "last_two bin flagged"
 	SigFirstTwoMAD   = "first_two MAD nonconforming"
 	SigFirstTwoChi   = "first_two chi-square p < 0.01"
 	SigGoodman       = "first_two bin outside Goodman 95%"
@@ -160,7 +164,7 @@ func Run(pop Population, o Options) (*Result, error) {
 	if n == 0 {
 		return nil, fmt.Errorf("the population has no amounts to test")
 	}
-	signals := []string{SigFirstTwoMAD, SigFirstTwoChi, SigGoodman, SigRuns, SigFirstThreeMAD, SigLastTwoChi}
+	signals := []string{SigFirstTwoFlag, SigRunsP, SigFirstThreeFlg, SigLastTwoFlag, SigFirstTwoMAD, SigFirstTwoChi, SigGoodman, SigRuns, SigFirstThreeMAD, SigLastTwoChi}
 	if o.Kind == BelowLimit {
 		signals = append(signals, SigLimit)
 	}
@@ -227,7 +231,7 @@ func Run(pop Population, o Options) (*Result, error) {
 	} else {
 		res.Notes = append(res.Notes, "baseline: the workspace's own counts, the same in every seed; the rate-0 column says whether a signal already fires on the population itself")
 	}
-	res.Notes = append(res.Notes, "rules of thumb used as signals (MAD ranges, runs < 35, top 10) are common practice, no source; see DESIGN.md")
+	res.Notes = append(res.Notes, "rules of thumb used as signals (MAD ranges, runs < 35, top 10) are common practice, no source")
 	return res, nil
 }
 
@@ -301,14 +305,18 @@ func evaluate(f3, l2 []int64) map[string]bool {
 	}
 	out := map[string]bool{}
 	r2, _ := benford.Analyze(benford.FirstTwo, f2)
+	out[SigFirstTwoFlag] = r2.Flagged > 0
+	out[SigRunsP] = r2.Runs != nil && r2.Runs.P < 0.05
 	out[SigFirstTwoMAD] = r2.Conformity == "nonconforming"
 	out[SigFirstTwoChi] = r2.DF > 0 && r2.PValue < 0.01
 	out[SigGoodman] = r2.OutsideGoodman > 0
 	out[SigRuns] = r2.Runs != nil && r2.Runs.Runs < 35
 	r3, _ := benford.Analyze(benford.FirstThree, f3)
 	out[SigFirstThreeMAD] = r3.Conformity == "nonconforming"
+	out[SigFirstThreeFlg] = r3.Flagged > 0
 	rl, _ := benford.Analyze(benford.LastTwo, l2)
 	out[SigLastTwoChi] = rl.DF > 0 && rl.PValue < 0.01
+	out[SigLastTwoFlag] = rl.Flagged > 0
 	return out
 }
 

@@ -35,9 +35,10 @@ type Case struct {
 	RowsRead     int64    `toml:"rows_read"`
 	RowsLoaded   int64    `toml:"rows_loaded"`
 	RowsRejected int64    `toml:"rows_rejected"`
-	Warnings     []string `toml:"warnings"` // substrings, each found in some warning
-	Rejects      []Reject `toml:"reject"`   // every rejected row, in line order
-	Checks       []Check  `toml:"check"`    // queries on the workspace after the load
+	RowsRounded  *int64   `toml:"rows_rounded"` // checked when given
+	Warnings     []string `toml:"warnings"`     // substrings, each found in some warning
+	Rejects      []Reject `toml:"reject"`       // every rejected row, in line order
+	Checks       []Check  `toml:"check"`        // queries on the workspace after the load
 
 	// Heavy marks a large generated input, skipped by go test -short.
 	Heavy bool `toml:"heavy"`
@@ -46,6 +47,8 @@ type Case struct {
 // Options are the load options a case gives, as the command's flags.
 type Options struct {
 	DecimalComma bool              `toml:"decimal_comma"`
+	DecimalPoint bool              `toml:"decimal_point"`
+	MaxRejects   string            `toml:"max_rejects"`
 	Delimiter    string            `toml:"delimiter"`
 	Encoding     string            `toml:"encoding"`
 	DateFormat   string            `toml:"date_format"`
@@ -61,6 +64,12 @@ func (o Options) Args() []string {
 	var a []string
 	if o.DecimalComma {
 		a = append(a, "--decimal-comma")
+	}
+	if o.DecimalPoint {
+		a = append(a, "--decimal-point")
+	}
+	if o.MaxRejects != "" {
+		a = append(a, "--max-rejects", o.MaxRejects)
 	}
 	if o.Delimiter != "" {
 		a = append(a, "--delimiter", o.Delimiter)

@@ -20,6 +20,7 @@ type Generator struct {
 // with parquet-go, an independent writer) and files too large to check in.
 var Generators = map[string]Generator{
 	"wide_row":            {"wide_5000_columns.csv", writeWide},
+	"long_header":         {"long_header.csv", writeLongHeader},
 	"megabyte_field":      {"one_megabyte_field.csv", writeMegabyteField},
 	"unclosed_quote_big":  {"unclosed_quote_big.csv", writeUnclosedBig},
 	"nul_late":            {"nul_late_in_body.csv", writeNulLate},
@@ -49,6 +50,29 @@ func writeLines(path string, n int, line func(i int, w *bufio.Writer)) error {
 		return err
 	}
 	return f.Close()
+}
+
+// writeLongHeader: a header of 2,000 columns with names of 150 characters
+// (about 300 KB, longer than the head examined first) and three rows.
+func writeLongHeader(path string) error {
+	return writeLines(path, 4, func(i int, w *bufio.Writer) {
+		for c := 1; c <= 2000; c++ {
+			if c > 1 {
+				w.WriteByte(',')
+			}
+			switch {
+			case i == 0 && c == 1:
+				w.WriteString("amount")
+			case i == 0:
+				fmt.Fprintf(w, "%s_%04d", strings.Repeat("column_with_a_long_name_", 6), c)
+			case c == 1:
+				fmt.Fprintf(w, "%d.25", i)
+			default:
+				fmt.Fprintf(w, "r%dc%d", i, c)
+			}
+		}
+		w.WriteByte('\n')
+	})
 }
 
 // writeWide: a header of 5,000 columns (amount and c0002..c5000) and three rows.
@@ -259,7 +283,7 @@ type decimal3Row struct {
 }
 
 // writeDecimalScale3: DECIMAL(18,3) amounts, to be rounded to 2 places
-// half away from zero (DESIGN.md, "Exact amounts").
+// half away from zero (docs/design.md, "Exact amounts").
 func writeDecimalScale3(path string) error {
 	return writeParquet(path, []decimal3Row{{"E1", 1235}, {"E2", -1235}, {"E3", 99995}, {"E4", 1234}})
 }

@@ -1,0 +1,87 @@
+package battery
+
+import (
+	"fmt"
+
+	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
+)
+
+// lastTwoMinUnits returns the smallest |amount|, in units of 10^-scale,
+// whose last two digits the test reads ("": every amount). The rule is
+// drill.LastTwoMinUnits, shared with the drill-down: the two digits read
+// must be the fourth significant digit or later. The third significant
+// digit of Benford-distributed amounts runs from 10.2% for 0 to 9.8% for 9
+// (Hill 1995, from memory), which a few million amounts detect: at scale 2
+// the cents of 10.00 to 99.99 are the third and fourth significant digits
+// (measured in engine/benford TestLastTwoNeedsFourthDigit).
+func lastTwoMinUnits(o Options, at population.AmountType) string {
+	if o.LastTwoAll {
+		return ""
+	}
+	return drill.LastTwoMinUnits(o.LastTwo, at).String()
+}
+
+// lastTwoSQL returns the SQL over ll_a (|amount| in units) of the last-two
+// bin, or -4 for an amount below the test's minimum: the scan's reader
+// skips negative last-two codes, so those amounts stay in every other test
+// and are left out of this one only.
+func lastTwoSQL(o Options, at population.AmountType) string {
+	bin := "ll_a % 100"
+	if o.LastTwo == LastTwoUnits && at.Scale > 0 {
+		bin = fmt.Sprintf("(ll_a // %s) %% 100", pow10Text(at.Scale))
+	}
+	min := lastTwoMinUnits(o, at)
+	if min == "" {
+		return bin
+	}
+	return fmt.Sprintf("(CASE WHEN ll_a >= %s THEN %s ELSE -4 END)", min, bin)
+}
+
+// LastTwoMin returns the smallest |amount| the last-two digits test takes,
+// as the ledger writes it ("100.00" at scale 2), or "" when it takes all.
+func LastTwoMin(o Options, at population.AmountType) string {
+	u := lastTwoMinUnits(o, at)
+	if u == "" {
+		return ""
+	}
+	if at.Scale == 0 {
+		return u
+	}
+	for len(u) <= at.Scale {
+		u = "0" + u
+	}
+	return u[:len(u)-at.Scale] + "." + u[len(u)-at.Scale:]
+}
+
+// noteLastTwo adds to a last-two result the note saying which amounts it
+// took; tested is the population's N for the other tests.
+func noteLastTwo(r *benford.Result, min string, tested int64) {
+	if min == "" {
+		return
+	}
+	r.Notes = append(r.Notes, fmt.Sprintf(
+		"last-two digits: only amounts of at least %s are tested, whose two digits read are the fourth significant digit or later (uniform there); %d of %d amounts are smaller and left out of this test only (--last-two-all tests them all)",
+		min, tested-r.N, tested))
+}
+
+// secondOrderDiscrete lists the second-order bins that differences of 1 to
+// 9 units of the ledger's scale fall in: a difference of k units has first
+// two digits 10k. Amounts are whole units (cents at scale 2), so the
+// differences are discrete and these bins hold a surplus that the
+// discreteness alone explains.
+var secondOrderDiscrete = []int{10, 20, 30, 40, 50, 60, 70, 80, 90}
+
+// noteSecondOrder tests the second-order bins with those that
+// discreteness explains left out (benford.Result.FlagExcluding), with a
+// note.
+func noteSecondOrder(r *benford.Result) {
+	if r.N == 0 {
+		return
+	}
+	n := r.FlagExcluding(secondOrderDiscrete)
+	r.Notes = append(r.Notes, fmt.Sprintf(
+		"second-order test: bins 10, 20, ..., 90 also hold every difference of 1 to 9 units of the ledger's scale (amounts are whole units, so their differences are discrete and pile on these bins): they are left out of the flag (%d would have been flagged), and the other bins are flagged against their expected shares among the differences outside them",
+		n))
+}
