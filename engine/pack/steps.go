@@ -188,6 +188,9 @@ func (r *runner) completeness(ctx context.Context) error {
 		"balanced": c.Balanced, "sum_positive": c.SumPositive, "sum_negative": c.SumNegative, "net": c.Net,
 	}
 	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, numfmt.Int(c.RowsRead), numfmt.Int(c.RowsLoaded), numfmt.Int(c.RowsRejected))
+	if c.RowsRead > 0 {
+		text += fmt.Sprintf(" (%.2f%% rejected)", 100*float64(c.RowsRejected)/float64(c.RowsRead))
+	}
 	if !c.Balanced {
 		text += "; WARNING: a file does not balance, see the inputs table"
 	}
