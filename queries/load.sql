@@ -118,12 +118,6 @@ FROM ledger
 GROUP BY ALL
 ORDER BY entity;
 
--- name: reject_reasons
-SELECT file_id, reason, count(*) AS rows, min(line) AS first_line
-FROM rejects
-GROUP BY ALL
-ORDER BY file_id, rows DESC, reason;
-
 -- name: load_separator_evidence
 -- What the amount texts of one file say about its decimal mark, by kind
 -- (see engine/load/separators.go): how many, the first record holding one

@@ -116,3 +116,36 @@ WHERE database_name = current_database() AND schema_name = 'main' AND table_name
 
 -- name: workspace_mark
 COMMENT ON TABLE meta IS 'leadline workspace';
+
+-- name: workspace_progress
+-- DuckDB tracks query progress only with its progress bar on; its own
+-- drawing stays off (it would write to standard output) and leadline draws
+-- its bar on standard error. No bound parameters, no placeholders.
+SET enable_progress_bar = true;
+SET enable_progress_bar_print = false;
+SET progress_bar_time = 500;
+
+-- name: workspace_memory_limit
+-- No bound parameters: DuckDB takes no bound value in SET. Placeholder
+-- {{memory_limit}}: the limit as given (e.g. '2GB'), quoted with
+-- queries.QuoteString; DuckDB checks its form.
+SET memory_limit = {{memory_limit}};
+
+-- name: workspace_threads
+-- No bound parameters: DuckDB takes no bound value in SET. Placeholder
+-- {{threads}}: a positive whole number written by leadline (%d).
+SET threads = {{threads}};
+
+-- name: workspace_temp_directory
+-- No bound parameters: DuckDB takes no bound value in SET. Placeholder
+-- {{temp_directory}}: the directory, quoted with queries.QuoteString.
+SET temp_directory = {{temp_directory}};
+
+-- name: ledger_exists
+-- Whether anything has been loaded: 1 when the ledger table exists, else 0.
+-- No bound parameters, no placeholders.
+SELECT count(*) FROM information_schema.tables WHERE table_name = 'ledger' AND table_schema = 'main';
+
+-- name: duckdb_version
+-- The embedded DuckDB's version. No bound parameters, no placeholders.
+SELECT version();

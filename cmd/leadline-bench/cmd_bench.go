@@ -320,9 +320,9 @@ func benchOneStep(ctx context.Context, e *env, db *stepDB, stepName, path string
 	var q string
 	switch stepName {
 	case "bare-csv":
-		q = "SELECT count(*), sum(amount) FROM read_csv(" + queries.QuoteString(path) + ")"
+		q = queries.Render("bench_read_csv", map[string]string{"path": queries.QuoteString(path)})
 	case "bare-parquet":
-		q = "SELECT count(*), sum(amount) FROM read_parquet(" + queries.QuoteString(path) + ")"
+		q = queries.Render("bench_read_parquet", map[string]string{"path": queries.QuoteString(path)})
 	case "copy-csv", "copy-parquet":
 		// DuckDB's own copy of every column into the workspace file: the
 		// floor of any load, which must write every column.
@@ -330,10 +330,10 @@ func benchOneStep(ctx context.Context, e *env, db *stepDB, stepName, path string
 		if stepName == "copy-csv" {
 			reader = "read_csv(" + queries.QuoteString(path) + ", all_varchar = true)"
 		}
-		if _, err := ws.Conn.ExecContext(ctx, "CREATE TABLE bench_copy AS SELECT * FROM "+reader); err != nil {
+		if _, err := ws.Conn.ExecContext(ctx, queries.Render("bench_copy_table", map[string]string{"reader": reader})); err != nil {
 			return err
 		}
-		q = "SELECT count(*), sum(CAST(amount AS DECIMAL(18,2))) FROM bench_copy"
+		q = queries.Get("bench_copy_totals")
 	case "first-two":
 		q = queries.Get("bench_first_two")
 	default:

@@ -84,7 +84,7 @@ func benchBattery(ctx context.Context, e *env, o benchBatteryOptions, format str
 	defer done()
 	say := func(msg string, a ...any) { fmt.Fprintf(e.stderr, msg, a...) }
 	var n int64
-	if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ledger").Scan(&n); err != nil {
+	if err := ws.Conn.QueryRowContext(ctx, queries.Get("bench_ledger_rows")).Scan(&n); err != nil {
 		return err
 	}
 	if err := battery.CreateMacros(ctx, ws); err != nil {

@@ -9,6 +9,7 @@ import (
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/numfmt"
+	"github.com/leadline/leadline/queries"
 	"github.com/spf13/pflag"
 )
 
@@ -69,7 +70,7 @@ func benchDups(ctx context.Context, e *env, o benchDupsOptions, format string) e
 	}
 	defer done()
 	var n int64
-	if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ledger").Scan(&n); err != nil {
+	if err := ws.Conn.QueryRowContext(ctx, queries.Get("bench_ledger_rows")).Scan(&n); err != nil {
 		return err
 	}
 	time1 := func(name, cmd string, fn func() (string, error)) error {

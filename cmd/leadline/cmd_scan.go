@@ -12,7 +12,6 @@ import (
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -167,11 +166,6 @@ func runScan(ctx context.Context, e *env, o scanOptions) error {
 	if err != nil {
 		return err
 	}
-	in, err := load.Inputs(ctx, ws)
-	if err != nil {
-		return err
-	}
-	rep.Input = &battery.Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
 	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
 		return err
 	}

@@ -51,4 +51,16 @@ func TestScanStatesRejectedShare(t *testing.T) {
 	if rep.Input.RowsRead != 50 || rep.Input.RowsRejected != 3 || rep.Input.RejectedShare != 0.06 {
 		t.Errorf("scan JSON input: %+v", rep.Input)
 	}
+	// The report states the same beside N.
+	html := filepath.Join(dir, "report.html")
+	cmd("report", "--db", db, "--out", html)
+	page, err := os.ReadFile(html)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"rows rejected at load", "share rejected at load", "6.00%"} {
+		if !strings.Contains(string(page), want) {
+			t.Errorf("the report does not state %q beside N", want)
+		}
+	}
 }

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -145,6 +146,14 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		}
 		rep.Seconds.SecondOrder = time.Since(t).Seconds()
 	}
+	// What the loads read and rejected, stated beside N in every output
+	// that shows this run (terminal, JSON, report, pack results). A run
+	// on counts made elsewhere (FromCounts) has no such input.
+	in, err := load.Inputs(ctx, ws)
+	if err != nil {
+		return nil, err
+	}
+	rep.Input = &Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
 	if o.Duplication {
 		t = time.Now()
 		if rep.Duplication, err = p.Duplicates(ctx, ws, all.N(), o.Top); err != nil {

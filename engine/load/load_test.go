@@ -34,7 +34,7 @@ func writeFile(t *testing.T, dir, name, body string) string {
 
 // amountCase is one amount text with its exact expected value at scale 2, or
 // the reason it is rejected. The shapes are those ledgers really export
-// (DESIGN.md, "Exact amounts"); each expected value is worked by hand.
+// (docs/design.md, "Exact amounts"); each expected value is worked by hand.
 type amountCase struct {
 	text   string
 	comma  bool
@@ -71,7 +71,7 @@ var amountCases = []amountCase{
 	{"1.23456E+03", false, "1234.56", ""},
 	{"1.5e3", false, "1500.00", ""},
 	{"2.5E-1", false, "0.25", ""},
-	{"99.995", false, "100.00", ""}, // rounded half away from zero (DESIGN.md)
+	{"99.995", false, "100.00", ""}, // rounded half away from zero (docs/design.md)
 	{"-99.995", false, "-100.00", ""},
 	{"12.344", false, "12.34", ""},
 	{"9999999999999999.99", false, "9999999999999999.99", ""}, // largest DECIMAL(18,2)
@@ -100,7 +100,7 @@ var amountCases = []amountCase{
 
 func TestAmountTable(t *testing.T) {
 	if len(amountCases) < 40 {
-		t.Fatalf("the issue asks for at least 40 cases, have %d", len(amountCases))
+		t.Fatalf("the amount table should hold at least 40 cases, have %d", len(amountCases))
 	}
 	ctx := context.Background()
 	ws := openWS(t, ":memory:")

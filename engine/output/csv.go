@@ -85,8 +85,8 @@ func WriteCSV(w io.Writer, t *Table) error {
 
 // queryColumns returns the name and DuckDB type of each column a query
 // returns.
-func queryColumns(ctx context.Context, db Querier, from string, args []any) ([]*sql.ColumnType, error) {
-	rows, err := db.QueryContext(ctx, "SELECT * FROM "+from+" LIMIT 0", args...)
+func queryColumns(ctx context.Context, db Querier, query string, args []any) ([]*sql.ColumnType, error) {
+	rows, err := db.QueryContext(ctx, queries.Render("output_query_columns", map[string]string{"query": query}), args...)
 	if err != nil {
 		return nil, err
 	}
@@ -100,7 +100,7 @@ func queryColumns(ctx context.Context, db Querier, from string, args []any) ([]*
 
 // sourceColumns returns the DuckDB type of each column the source returns.
 func sourceColumns(ctx context.Context, t *Table) ([]*sql.ColumnType, error) {
-	types, err := queryColumns(ctx, t.Source.DB, t.Source.from(), t.Source.Args)
+	types, err := queryColumns(ctx, t.Source.DB, t.Source.query(), t.Source.Args)
 	if err != nil {
 		return nil, err
 	}
@@ -114,8 +114,8 @@ func sourceColumns(ctx context.Context, t *Table) ([]*sql.ColumnType, error) {
 // neutralises its text columns for CSV, naming column i names[i] (its own
 // name when names is nil).
 func neutralSelect(ctx context.Context, db Querier, query string, args []any, names []string) (string, error) {
-	from := "(\n" + strings.TrimSuffix(strings.TrimSpace(query), ";") + "\n) AS src"
-	types, err := queryColumns(ctx, db, from, args)
+	query = strings.TrimSuffix(strings.TrimSpace(query), ";")
+	types, err := queryColumns(ctx, db, query, args)
 	if err != nil {
 		return "", err
 	}
@@ -131,7 +131,7 @@ func neutralSelect(ctx context.Context, db Querier, query string, args []any, na
 		}
 		cols[i] = src + " AS " + queries.QuoteIdent(name)
 	}
-	return "SELECT " + strings.Join(cols, ", ") + " FROM " + from, nil
+	return queries.Render("output_select_columns", map[string]string{"columns": strings.Join(cols, ", "), "query": query}), nil
 }
 
 // NeutralCSVQuery wraps a query whose rows DuckDB will write to a CSV
@@ -160,7 +160,7 @@ func sourceCSVQuery(ctx context.Context, t *Table) (string, error) {
 	for i, ct := range types {
 		cols[i] = "src." + queries.QuoteIdent(ct.Name()) + " AS " + queries.QuoteIdent(names[i])
 	}
-	return "SELECT " + strings.Join(cols, ", ") + " FROM " + t.Source.from(), nil
+	return queries.Render("output_select_columns", map[string]string{"columns": strings.Join(cols, ", "), "query": t.Source.query()}), nil
 }
 
 // writeSourceCSV has DuckDB write the source's rows (no header) to a

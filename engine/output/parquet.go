@@ -35,7 +35,7 @@ func NewParquetWriter(ctx context.Context) (*ParquetWriter, error) {
 		return nil, err
 	}
 	// One thread keeps row groups, and so the file's bytes, the same on every run.
-	if _, err := conn.ExecContext(ctx, "SET threads = 1"); err != nil {
+	if _, err := conn.ExecContext(ctx, queries.Get("output_single_thread")); err != nil {
 		conn.Close()
 		db.Close()
 		return nil, err
@@ -117,10 +117,10 @@ func (p *ParquetWriter) Write(ctx context.Context, path string, t *Table) error 
 		defs[i] = q + " VARCHAR"
 		casts[i] = "CAST(" + q + " AS " + p.columnType(t, i) + ") AS " + q
 	}
-	if _, err := p.conn.ExecContext(ctx, "CREATE OR REPLACE TABLE ll_out ("+strings.Join(defs, ", ")+")"); err != nil {
+	if _, err := p.conn.ExecContext(ctx, queries.Render("output_stage_create", map[string]string{"column_defs": strings.Join(defs, ", ")})); err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
-	defer p.conn.ExecContext(context.WithoutCancel(ctx), "DROP TABLE IF EXISTS ll_out")
+	defer p.conn.ExecContext(context.WithoutCancel(ctx), queries.Get("output_stage_drop"))
 	err := p.conn.Raw(func(dc any) error {
 		conn, ok := dc.(driver.Conn)
 		if !ok {
@@ -148,7 +148,10 @@ func (p *ParquetWriter) Write(ctx context.Context, path string, t *Table) error 
 	if err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
-	q := "COPY (SELECT " + strings.Join(casts, ", ") + " FROM ll_out) TO " + queries.QuoteString(path) + " (FORMAT parquet, COMPRESSION zstd)"
+	q := queries.Render("output_copy_parquet", map[string]string{
+		"query": queries.Render("output_stage_rows", map[string]string{"columns": strings.Join(casts, ", ")}),
+		"path":  queries.QuoteString(path),
+	})
 	if _, err := p.conn.ExecContext(ctx, q); err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)
 	}
@@ -168,7 +171,7 @@ func writeSourceParquet(ctx context.Context, path string, t *Table) error {
 	for i, ct := range types {
 		cols[i] = "src." + queries.QuoteIdent(ct.Name()) + " AS " + queries.QuoteIdent(t.Columns[i].Name)
 	}
-	q := "SELECT " + strings.Join(cols, ", ") + " FROM " + t.Source.from()
+	q := queries.Render("output_select_columns", map[string]string{"columns": strings.Join(cols, ", "), "query": t.Source.query()})
 	stmt := queries.Render("output_copy_parquet", map[string]string{"query": q, "path": queries.QuoteString(path)})
 	if _, err := t.Source.DB.ExecContext(ctx, stmt, t.Source.Args...); err != nil {
 		return fmt.Errorf("parquet %s: %w", t.Name, err)

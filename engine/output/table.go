@@ -22,6 +22,7 @@ import (
 
 	duckdb "github.com/duckdb/duckdb-go/v2"
 	"github.com/leadline/leadline/engine/tabular"
+	"github.com/leadline/leadline/queries"
 )
 
 // Kind says what a column holds, which decides its XLSX number format and
@@ -109,8 +110,8 @@ type Source struct {
 }
 
 // from returns the source as a subquery that other clauses can wrap.
-func (s *Source) from() string {
-	return "(\n" + strings.TrimSuffix(strings.TrimSpace(s.SQL), ";") + "\n) AS src"
+func (s *Source) query() string {
+	return strings.TrimSuffix(strings.TrimSpace(s.SQL), ";")
 }
 
 // eachRow calls fn with every row of the table (normalised), at most limit
@@ -127,12 +128,13 @@ func (t *Table) eachRow(ctx context.Context, limit int64, fn func(row []any) err
 		}
 		return nil
 	}
-	q := "SELECT * FROM " + t.Source.from()
 	args := append([]any(nil), t.Source.Args...)
+	lim := ""
 	if limit > 0 {
-		q += " LIMIT ?"
+		lim = "LIMIT ?"
 		args = append(args, limit)
 	}
+	q := queries.Render("output_source_rows", map[string]string{"query": t.Source.query(), "limit": lim})
 	rows, err := t.Source.DB.QueryContext(ctx, q, args...)
 	if err != nil {
 		return err

@@ -2,6 +2,7 @@ package pack
 
 import (
 	"fmt"
+	"github.com/leadline/leadline/engine/numfmt"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -163,7 +164,16 @@ func TestJournalEntryChecks(t *testing.T) {
 	for _, f := range res.Run.Summary.Findings {
 		text = append(text, f.Text)
 	}
-	for _, want := range []string{fmt.Sprintf("Entries posted on a Saturday or Sunday: %d row(s).", sum(weekend))} {
+	// The completeness finding states the share rejected at load beside the
+	// rows read (it goes to the report and the workbook's summary).
+	comp, _ := res.Run.Results["completeness"].(map[string]any)
+	read, _ := comp["rows_read"].(int64)
+	rejected, _ := comp["rows_rejected"].(int64)
+	if read == 0 {
+		t.Fatalf("completeness results: %v", comp)
+	}
+	share := fmt.Sprintf("rows read = %s loaded + %s rejected (%.2f%% rejected)", numfmt.Int(read-rejected), numfmt.Int(rejected), 100*float64(rejected)/float64(read))
+	for _, want := range []string{share, fmt.Sprintf("Entries posted on a Saturday or Sunday: %d row(s).", sum(weekend))} {
 		if !strings.Contains(strings.Join(text, "\n"), want) {
 			t.Errorf("findings lack %q: %v", want, text)
 		}

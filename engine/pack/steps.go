@@ -84,13 +84,7 @@ func (r *runner) completeness(ctx context.Context) error {
 	for _, in := range r.inputs {
 		bySHA[in.SHA256] = in
 	}
-	rows, err := r.ws.Conn.QueryContext(ctx, `
-		SELECT f.file_id, f.sha256, f.format, f.size_bytes, f.rows_read, f.rows_loaded, f.rows_rejected,
-		       coalesce(sum(l.amount) FILTER (WHERE l.amount > 0), 0),
-		       coalesce(sum(l.amount) FILTER (WHERE l.amount < 0), 0),
-		       coalesce(sum(l.amount), 0)
-		FROM files f LEFT JOIN ledger l ON l.file_id = f.file_id
-		GROUP BY ALL ORDER BY f.file_id`)
+	rows, err := r.ws.Conn.QueryContext(ctx, queries.Get("pack_input_files"))
 	if err != nil {
 		return err
 	}
@@ -149,15 +143,14 @@ func (r *runner) completeness(ctx context.Context) error {
 
 	// Totals over the workspace, exact.
 	var pos, neg, net any
-	if err := r.ws.Conn.QueryRowContext(ctx, `SELECT coalesce(sum(amount) FILTER (WHERE amount > 0), 0), coalesce(sum(amount) FILTER (WHERE amount < 0), 0), coalesce(sum(amount), 0) FROM ledger`).Scan(&pos, &neg, &net); err != nil {
+	if err := r.ws.Conn.QueryRowContext(ctx, queries.Get("pack_ledger_totals")).Scan(&pos, &neg, &net); err != nil {
 		return err
 	}
 	c.SumPositive = output.FormatValue(output.Normalize(pos))
 	c.SumNegative = output.FormatValue(output.Normalize(neg))
 	c.Net = output.FormatValue(output.Normalize(net))
 
-	rj, err := r.ws.Conn.QueryContext(ctx, `SELECT sha256, reason, count(*) AS rows, min(line) AS first_line
-		FROM rejects JOIN files USING (file_id) GROUP BY file_id, sha256, reason ORDER BY file_id, rows DESC, reason`)
+	rj, err := r.ws.Conn.QueryContext(ctx, queries.Get("pack_rejects_by_file"))
 	if err != nil {
 		return err
 	}
@@ -195,6 +188,9 @@ func (r *runner) completeness(ctx context.Context) error {
 		"balanced": c.Balanced, "sum_positive": c.SumPositive, "sum_negative": c.SumNegative, "net": c.Net,
 	}
 	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, numfmt.Int(c.RowsRead), numfmt.Int(c.RowsLoaded), numfmt.Int(c.RowsRejected))
+	if c.RowsRead > 0 {
+		text += fmt.Sprintf(" (%.2f%% rejected)", 100*float64(c.RowsRejected)/float64(c.RowsRead))
+	}
 	if !c.Balanced {
 		text += "; WARNING: a file does not balance, see the inputs table"
 	}
@@ -454,7 +450,7 @@ func (r *runner) checkStep(ctx context.Context, c CheckPlan) error {
 	t := output.FromTabular(tt, "check_"+c.Name, c.Title, "check", c.Kinds)
 	if more {
 		var n int64
-		if err := tx.QueryRowContext(ctx, "SELECT count(*) FROM ("+strings.TrimRight(strings.TrimSpace(c.SQL), ";")+"\n)", c.Args()...).Scan(&n); err == nil {
+		if err := tx.QueryRowContext(ctx, queries.Render("pack_check_count", map[string]string{"query": strings.TrimRight(strings.TrimSpace(c.SQL), ";")}), c.Args()...).Scan(&n); err == nil {
 			t.RowsTotal = n
 		}
 		t.Truncated = true
@@ -596,7 +592,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		if _, err := r.ws.Conn.ExecContext(ctx, q, args...); err != nil {
 			return err
 		}
-		rt.Source = &output.Source{DB: r.ws.Conn, SQL: "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM " + stage + " ORDER BY ll_pos"}
+		rt.Source = &output.Source{DB: r.ws.Conn, SQL: queries.Render("pack_extract_rows", map[string]string{"table": stage})}
 		rt.Complete = true
 	}
 	var drawn *SampleDrawn
@@ -665,7 +661,7 @@ func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 func (r *runner) drawSample(ctx context.Context, e ExtractPlan, stage string, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
 	d := &SampleDrawn{Method: e.Sample, Seed: e.Seed, Size: e.SampleSize, PopulationRecords: records,
 		Order: "the extract's records in its order: by item, then row_id (file order)"}
-	rows, err := r.ws.Conn.QueryContext(ctx, "SELECT CAST(abs(amount) AS VARCHAR) FROM "+stage+" ORDER BY ll_pos")
+	rows, err := r.ws.Conn.QueryContext(ctx, queries.Render("pack_extract_sizes", map[string]string{"table": stage}))
 	if err != nil {
 		return nil, nil, err
 	}
@@ -715,7 +711,7 @@ func (r *runner) drawSample(ctx context.Context, e ExtractPlan, stage string, re
 			sargs = append(sargs, p)
 		}
 	}
-	srows, err := r.ws.Conn.QueryContext(ctx, "SELECT * EXCLUDE (ll_item_no, ll_pos) FROM "+stage+" WHERE ll_pos IN ("+marks+") ORDER BY ll_pos", sargs...)
+	srows, err := r.ws.Conn.QueryContext(ctx, queries.Render("pack_extract_sample", map[string]string{"table": stage, "ids": marks}), sargs...)
 	if err != nil {
 		return nil, nil, err
 	}

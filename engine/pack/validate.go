@@ -543,7 +543,7 @@ func fileColumns(ctx context.Context, mem *workspace.Workspace, path string, o l
 		}
 		return src.Columns, nil
 	}
-	rows, err := mem.Conn.QueryContext(ctx, "SELECT column_name FROM (DESCRIBE SELECT * FROM read_parquet("+queries.QuoteString(load.ExactPath(path))+"))")
+	rows, err := mem.Conn.QueryContext(ctx, queries.Render("pack_parquet_columns", map[string]string{"path": queries.QuoteString(load.ExactPath(path))}))
 	if err != nil {
 		return nil, fmt.Errorf("%s: not a readable Parquet file: %s", path, firstLine(err.Error()))
 	}
@@ -629,7 +629,7 @@ func (c *checker) mockLedger(ctx context.Context, mem *workspace.Workspace, pl *
 					continue
 				}
 				added[strings.ToLower(name)] = true
-				if _, err := mem.Conn.ExecContext(ctx, "ALTER TABLE ledger ADD COLUMN "+queries.QuoteIdent(name)+" VARCHAR"); err != nil {
+				if _, err := mem.Conn.ExecContext(ctx, queries.Render("pack_shape_add_column", map[string]string{"column": queries.QuoteIdent(name)})); err != nil {
 					c.errf("pack", "building the ledger's shape: %v", err)
 					return false
 				}
@@ -1147,7 +1147,7 @@ func (c *checker) checks(ctx context.Context, mem *workspace.Workspace, pl *Plan
 // ORDER BY.
 func hasOrderBy(ctx context.Context, mem *workspace.Workspace, q string) bool {
 	var doc string
-	if err := mem.Conn.QueryRowContext(ctx, "SELECT CAST(json_serialize_sql(CAST(? AS VARCHAR)) AS VARCHAR)", q).Scan(&doc); err != nil {
+	if err := mem.Conn.QueryRowContext(ctx, queries.Get("pack_serialize_sql"), q).Scan(&doc); err != nil {
 		return true
 	}
 	var parsed struct {

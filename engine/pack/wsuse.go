@@ -16,6 +16,7 @@ import (
 
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/queries"
 )
 
 // Workspace settings (meta keys) that tie a workspace to its pack.
@@ -204,7 +205,7 @@ func compareWorkspace(ctx context.Context, ws *workspace.Workspace, pl *Plan, in
 			pl.Workspace, name, client, p.Name, p.Client), false, nil
 	}
 	// Compare the inputs with the files table.
-	rows, err := ws.Conn.QueryContext(ctx, "SELECT sha256, path FROM files ORDER BY file_id")
+	rows, err := ws.Conn.QueryContext(ctx, queries.Get("pack_workspace_files"))
 	if err != nil {
 		return "", false, err
 	}

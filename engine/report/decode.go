@@ -162,10 +162,19 @@ func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
 			{"population tested", template.HTML(template.HTMLEscapeString(pop))},
 			{"rows in the ledger", R.F("rows", rep.Rows, "int")},
 			{"amounts tested", R.F("tested", rep.Tested, "int")},
+		}
+		if in := rep.Input; in != nil {
+			I := R.At("input")
+			sec.Meta = append(sec.Meta,
+				Fact{"rows read by the loads", I.F("rows_read", in.RowsRead, "int")},
+				Fact{"rows rejected at load", I.F("rows_rejected", in.RowsRejected, "int")},
+				Fact{"share rejected at load", template.HTML(template.HTMLEscapeString(fmt.Sprintf("%.2f%%", 100*in.RejectedShare)))})
+		}
+		sec.Meta = append(sec.Meta, []Fact{
 			{"left out: zero", X.F("zero", rep.Exclusions.Zero, "int")},
 			{"left out: of the other sign", X.F("other_sign", rep.Exclusions.OtherSign, "int")},
 			{"left out: below the minimum", X.F("below_min", rep.Exclusions.BelowMin, "int")},
-		}
+		}...)
 		if rep.Exclusions.Filtered > 0 {
 			sec.Meta = append(sec.Meta, Fact{"left out by the filter", X.F("filtered", rep.Exclusions.Filtered, "int")})
 		}

@@ -8,6 +8,7 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
+	"strconv"
 	"strings"
 	"sync/atomic"
 
@@ -148,16 +149,18 @@ func firstLine(s string) string {
 func (ws *Workspace) configure(ctx context.Context) error {
 	// DuckDB tracks query progress only with its progress bar on; we keep
 	// its own drawing off (it would write to standard output) and draw our
-	// own bar on standard error from Progress.
-	stmts := []string{"SET enable_progress_bar = true", "SET enable_progress_bar_print = false", "SET progress_bar_time = 500"}
+	// own bar on standard error from Progress. DuckDB takes no bound value
+	// in SET: the memory limit and directory are quoted, threads is a
+	// whole number.
+	stmts := []string{queries.Get("workspace_progress")}
 	if ws.opts.MemoryLimit != "" {
-		stmts = append(stmts, "SET memory_limit = "+queries.QuoteString(ws.opts.MemoryLimit))
+		stmts = append(stmts, queries.Render("workspace_memory_limit", map[string]string{"memory_limit": queries.QuoteString(ws.opts.MemoryLimit)}))
 	}
 	if ws.opts.Threads > 0 {
-		stmts = append(stmts, fmt.Sprintf("SET threads = %d", ws.opts.Threads))
+		stmts = append(stmts, queries.Render("workspace_threads", map[string]string{"threads": strconv.Itoa(ws.opts.Threads)}))
 	}
 	if ws.opts.TempDir != "" {
-		stmts = append(stmts, "SET temp_directory = "+queries.QuoteString(ws.opts.TempDir))
+		stmts = append(stmts, queries.Render("workspace_temp_directory", map[string]string{"temp_directory": queries.QuoteString(ws.opts.TempDir)}))
 	}
 	for _, s := range stmts {
 		if _, err := ws.Conn.ExecContext(ctx, s); err != nil {
@@ -205,8 +208,7 @@ func (ws *Workspace) SetMeta(ctx context.Context, key, value string) error {
 // HasLedger reports whether anything has been loaded.
 func (ws *Workspace) HasLedger(ctx context.Context) (bool, error) {
 	var n int
-	err := ws.Conn.QueryRowContext(ctx,
-		`SELECT count(*) FROM information_schema.tables WHERE table_name = 'ledger' AND table_schema = 'main'`).Scan(&n)
+	err := ws.Conn.QueryRowContext(ctx, queries.Get("ledger_exists")).Scan(&n)
 	return n > 0, err
 }
 
@@ -237,6 +239,6 @@ func (ws *Workspace) LedgerColumns(ctx context.Context) ([]Column, error) {
 // DuckDBVersion returns the embedded DuckDB's version string.
 func (ws *Workspace) DuckDBVersion(ctx context.Context) (string, error) {
 	var v string
-	err := ws.Conn.QueryRowContext(ctx, "SELECT version()").Scan(&v)
+	err := ws.Conn.QueryRowContext(ctx, queries.Get("duckdb_version")).Scan(&v)
 	return v, err
 }

@@ -283,7 +283,7 @@ type decimal3Row struct {
 }
 
 // writeDecimalScale3: DECIMAL(18,3) amounts, to be rounded to 2 places
-// half away from zero (DESIGN.md, "Exact amounts").
+// half away from zero (docs/design.md, "Exact amounts").
 func writeDecimalScale3(path string) error {
 	return writeParquet(path, []decimal3Row{{"E1", 1235}, {"E2", -1235}, {"E3", 99995}, {"E4", 1234}})
 }
