@@ -207,8 +207,8 @@ func TestClientColumnsNamedLikeInternals(t *testing.T) {
 }
 
 // TestTimestampWithTimeZone: the posting date of a Parquet TIMESTAMP
-// WITH TIME ZONE is taken in UTC, whatever the session's (the machine's)
-// zone, or in the zone the load names.
+// WITH TIME ZONE is taken in UTC, whatever DuckDB's TimeZone setting (the
+// machine's zone by default), or in the zone the load names.
 func TestTimestampWithTimeZone(t *testing.T) {
 	ctx := context.Background()
 	dir := t.TempDir()
