@@ -18,6 +18,7 @@ import (
 	"syscall"
 
 	"github.com/leadline/leadline/engine/jsondoc"
+	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
@@ -105,12 +106,6 @@ func (f *formatFlag) add(fs *pflag.FlagSet) {
 	fs.StringVar(&f.value, "format", "text", "output format: text, csv or json")
 }
 
-func (f *formatFlag) check() error {
-	switch f.value {
-	case "text", "csv", "json":
-		return nil
-	}
-	return fmt.Errorf("--format %q: give text, csv or json", f.value)
-}
+func (f *formatFlag) check() error { return tabular.CheckFormat(f.value) }
 
 func writeJSON(w io.Writer, v any) error { return jsondoc.Write(w, v) }

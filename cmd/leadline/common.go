@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"fmt"
 	"io"
 	"os"
 	"time"
@@ -69,13 +68,7 @@ func (f *formatFlag) add(fs *pflag.FlagSet) {
 	fs.StringVar(&f.value, "format", "text", "output format: text, csv or json")
 }
 
-func (f *formatFlag) check() error {
-	switch f.value {
-	case "text", "csv", "json":
-		return nil
-	}
-	return fmt.Errorf("--format %q: give text, csv or json", f.value)
-}
+func (f *formatFlag) check() error { return tabular.CheckFormat(f.value) }
 
 // writeJSON writes a command's JSON document.
 func writeJSON(w io.Writer, v any) error { return jsondoc.Write(w, v) }

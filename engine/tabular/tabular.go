@@ -225,3 +225,12 @@ func FromRows(rows *sql.Rows, limit int) (*Table, bool, error) {
 	}
 	return t, more, rows.Err()
 }
+
+// CheckFormat accepts the output formats every command's --format takes.
+func CheckFormat(format string) error {
+	switch format {
+	case "text", "csv", "json":
+		return nil
+	}
+	return fmt.Errorf("--format %q: give text, csv or json", format)
+}
