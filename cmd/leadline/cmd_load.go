@@ -33,7 +33,8 @@ Examples:
   leadline load --db acme.duckdb 'extracts/*.parquet'
   leadline load --map amount=Betrag --map entity=Buchungskreis --decimal-comma --delimiter ';' gl.csv
   leadline load --debit Debit --credit Credit --date-format '%d/%m/%Y' journal.csv
-  leadline load --format json ledger.csv    # per file rows_read, rows_loaded, rows_rejected, sha256`,
+  leadline load --format json ledger.csv    # per file rows_read, rows_loaded, rows_rejected, sha256
+  leadline load --period 2025-01-01..2025-12-31 --control tb_2025.csv gl.csv   # reconcile to the trial balance`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var db dbFlags
 			var f formatFlag
@@ -55,6 +56,8 @@ Examples:
 			fs.StringVar(&o.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")
 			var acceptRejects bool
 			fs.BoolVar(&acceptRejects, "accept-rejects", false, "accept any share of rejected rows (same as --max-rejects 100%)")
+			var checks loadChecks
+			checks.add(fs)
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
@@ -74,6 +77,9 @@ Examples:
 					}
 					o.MaxRejects = "100%"
 				}
+				if err := checks.prepare(); err != nil {
+					return err
+				}
 				ws, err := db.openOrCreate(ctx)
 				if err != nil {
 					return err
@@ -83,7 +89,7 @@ Examples:
 				if err != nil {
 					return err
 				}
-				return printLoad(e.stdout, f.value, rep)
+				return checks.finish(ctx, ws, e.stdout, f.value, rep)
 			}
 		},
 	})
