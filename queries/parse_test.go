@@ -79,6 +79,12 @@ func fragments(dir string, segmented bool) map[string]string {
 		"wide_type":      "DECIMAL(38,2)",
 		"wide":           "DECIMAL(38,2)",
 		"x":              "abs(amount)",
+		"key_select":     "trim(coalesce(CAST(entity AS VARCHAR), '')) AS ll_k1, ",
+		"currency_count": "0",
+		"currency_key":   "",
+		"period_from":    "DATE '2025-01-01'",
+		"period_to":      "DATE '2025-12-31'",
+		"weight":         "copies",
 	}
 	if segmented {
 		f["group_by"] = "GROUP BY ll_s1"
