@@ -22,10 +22,11 @@ func init() {
 
 Generates a whole-year ledger for an invented group of five companies (the
 Skerrimoor Kelp Group; fixtures/README.md has the scenario and the answer key
-of what was planted), writes the demo pack beside it, and runs that pack:
-load with completeness checks, the digit battery per entity, source and
-user, the limit probe, the range table, the duplicate tests, drill-down
-extracts and three journal-entry checks. The output folder gets the
+of what was planted) and the group's trial balance, writes the demo pack
+beside them, and runs that pack: load with completeness checks (the journal
+checks and the reconciliation with the trial balance among them), the digit
+battery per entity, source and user, the limit probe, the range table, the
+duplicate tests, drill-down extracts and three journal-entry checks. The output folder gets the
 workbook, CSV and Parquet tables, results.json, manifest.json and
 report.html. Everything is deterministic from --seed.
 
@@ -102,6 +103,11 @@ func runDemo(ctx context.Context, e *env, o demoOptions) error {
 		return err
 	}
 	fmt.Fprintf(e.stdout, "  %s: %d rows, %d of them with a deliberately malformed amount (%.1fs)\n", csvPath, sum.Rows, sum.BadRows, time.Since(start).Seconds())
+	tbPath := filepath.Join(o.out, fixtures.TrialBalanceFile)
+	if err := fixtures.WriteTrialBalance(tbPath, o.seed, sum); err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stdout, "  the group's trial balance: %s (%d entity/account lines)\n", tbPath, len(sum.NetPerAccount))
 	packPath := filepath.Join(o.out, demoPack)
 	if err := os.WriteFile(packPath, packs.Demo(), 0o644); err != nil {
 		return err
@@ -125,6 +131,8 @@ What was planted, and where leadline shows it (answer key: fixtures/README.md):
       duplicates, one amount spread across many counterparties
   - the ALGN payment run pays some suppliers twice within days:
       duplicates, same amount and counterparty within the day window
+  - line 1 of a few SHOR supplier invoices appears twice:
+      the journal checks of the completeness section (repeated line keys, documents that do not balance)
   - GILD's fee billing (source FEE) charges five fixed prices:
       the digit battery by source: FEE is nonconforming with more than ten flagged bins,
       a population that should not follow Benford's law at all

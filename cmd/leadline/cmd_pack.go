@@ -35,7 +35,7 @@ Exit status 2 when the pack has problems.
 example writes the commented example pack (the demo's ledger).
 
 Examples:
-  leadline pack init extracts/gl_2025.csv --out acme.toml --client "Acme Group" --period FY2025
+  leadline pack init extracts/gl_2025.csv --out acme.toml --client "Acme Group" --period 2025-01-01..2025-12-31
   leadline pack check acme.toml
   leadline run acme.toml --out results`,
 		flags: thin(packFlags, runPackCmd),

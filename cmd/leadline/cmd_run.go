@@ -99,6 +99,9 @@ func runPack(ctx context.Context, e *env, o runCmdOptions) error {
 	} else {
 		printRunSummary(e.stdout, res, o)
 	}
+	if r := res.Reconciliation; r != nil && r.Failed() {
+		return &exitError{code: 3, err: fmt.Errorf("%s (or accept = true under [control]); the output folder holds the results", r.Error())}
+	}
 	if len(res.StepErrors) > 0 {
 		return &exitError{code: 3, err: fmt.Errorf("%d step(s) could not complete; the output folder holds the rest:\n  %s", len(res.StepErrors), joinLines(res.StepErrors))}
 	}

@@ -164,16 +164,53 @@ func TestDemoAnswerKey(t *testing.T) {
 	if pairs == 0 {
 		t.Error("the answer key lists no double payments")
 	}
-	// 4b. The exact duplicate lines: the identical-lines check finds each.
+	// 4b. The exact duplicate lines: the journal checks count each as a
+	// repeated line key; the year's postings all fall in the period.
 	exact := 0
 	for _, p := range key {
 		if p.Kind == "exact-duplicate-line" {
 			exact++
 		}
 	}
-	for _, c := range r.Checks {
-		if c.Name == "identical_lines" && c.Rows != exact {
-			t.Errorf("identical lines: %d rows, the answer key plants %d", c.Rows, exact)
+	var jr struct {
+		Results struct {
+			Journal struct {
+				Checks []struct {
+					Name   string `json:"name"`
+					Status string `json:"status"`
+					Count  int    `json:"count"`
+				} `json:"checks"`
+			} `json:"journal"`
+			Reconciliation struct {
+				Ties          bool   `json:"ties"`
+				Verdict       string `json:"verdict"`
+				KeysBoth      int    `json:"keys_in_both"`
+				KeysInControl int    `json:"keys_in_control"`
+			} `json:"reconciliation"`
+		} `json:"results"`
+	}
+	if err := json.Unmarshal(raw, &jr); err != nil {
+		t.Fatal(err)
+	}
+	counts := map[string]int{}
+	for _, c := range jr.Results.Journal.Checks {
+		counts[c.Name] = c.Count
+		if c.Status == "not possible" {
+			t.Errorf("journal check %s was not possible on the demo", c.Name)
 		}
+	}
+	if counts["duplicate_line_keys"] != exact || exact == 0 {
+		t.Errorf("repeated line keys: %d, the answer key plants %d", counts["duplicate_line_keys"], exact)
+	}
+	if counts["unbalanced_documents"] < exact {
+		t.Errorf("unbalanced documents: %d, fewer than the %d with a duplicated line", counts["unbalanced_documents"], exact)
+	}
+	if counts["out_of_period"] != 0 {
+		t.Errorf("%d postings outside 2025 in a 2025 ledger", counts["out_of_period"])
+	}
+	// The trial balance the generator wrote ties, key by key.
+	rc := jr.Results.Reconciliation
+	if !rc.Ties || rc.KeysBoth == 0 || rc.KeysBoth != rc.KeysInControl {
+		t.Errorf("reconciliation with the trial balance: %s", rc.Verdict)
 	}
 }

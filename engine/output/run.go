@@ -51,6 +51,28 @@ type Completeness struct {
 	SumNegative  string `json:"sum_negative"`
 	Net          string `json:"net"`
 	Balanced     bool   `json:"balanced"` // rows_read = rows_loaded + rows_rejected for every file
+	// Journal is the journal checks, a line each; Reconciliation the
+	// reconciliation with the pack's control file, if any.
+	Journal        []IntegrityLine     `json:"journal,omitempty"`
+	Reconciliation *ReconciliationLine `json:"reconciliation,omitempty"`
+}
+
+// IntegrityLine is one journal check in the summary.
+type IntegrityLine struct {
+	Check  string `json:"check"`
+	Status string `json:"status"` // ok, found or not possible
+	Count  int64  `json:"count"`
+	Text   string `json:"text"`
+}
+
+// ReconciliationLine is the reconciliation in the summary and the manifest.
+type ReconciliationLine struct {
+	ControlFile string `json:"control_file"`
+	SHA256      string `json:"sha256"`
+	Shape       string `json:"shape"` // totals or trial_balance
+	Ties        bool   `json:"ties"`
+	Accepted    bool   `json:"accepted"`
+	Verdict     string `json:"verdict"`
 }
 
 // Finding is one key finding in a sentence, with the table that holds the
@@ -77,6 +99,9 @@ type Manifest struct {
 	Parameters    any          `json:"parameters"`
 	Run           RunInfo      `json:"run"`
 	Outputs       []OutputFile `json:"outputs"` // every file of the folder but manifest.json itself
+	// Reconciliation is the reconciliation with the control file (its
+	// SHA-256 and verdict), if the pack has one.
+	Reconciliation *ReconciliationLine `json:"reconciliation,omitempty"`
 }
 
 // RunInfo is the part of the manifest that changes from run to run.

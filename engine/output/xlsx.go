@@ -483,6 +483,19 @@ func writeSummarySheet(f *excelize.File, st *styles, run *Run, sheetOf map[strin
 			return err
 		}
 	}
+	for _, j := range c.Journal {
+		if err := pair("Journal check: "+j.Check, j.Text, 0); err != nil {
+			return err
+		}
+	}
+	if rc := c.Reconciliation; rc != nil {
+		if err := pair("Reconciliation with "+rc.ControlFile, rc.Verdict, 0); err != nil {
+			return err
+		}
+		if err := pair("Control file SHA-256", rc.SHA256, 0); err != nil {
+			return err
+		}
+	}
 	row++
 	if err := set(1, "Key findings", st.bold); err != nil {
 		return err

@@ -42,6 +42,7 @@ type Pack struct {
 	Duplicates *Duplicates       `toml:"duplicates" json:"duplicates,omitempty"`
 	Extracts   []Extract         `toml:"extract" json:"extracts"`
 	Checks     []SQLCheck        `toml:"check" json:"checks"`
+	Control    *Control          `toml:"control" json:"control,omitempty"`
 
 	File   string `toml:"-" json:"-"` // absolute path of the pack file
 	Dir    string `toml:"-" json:"-"` // its folder: relative paths start here

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/output"
+	"github.com/leadline/leadline/engine/reconcile"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -30,6 +31,9 @@ type Result struct {
 	// StepErrors lists the steps that could not complete (the others ran
 	// and the outputs were written); the command exits non-zero.
 	StepErrors []string
+	// Reconciliation is the reconciliation with [control], if any; one
+	// that does not tie and is not accepted makes the command fail.
+	Reconciliation *reconcile.Result
 }
 
 // Run checks the pack and the output folder, loads the sources or reuses
@@ -170,7 +174,8 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	run.Manifest = &output.Manifest{
 		Format: output.FormatVersion, Tool: "leadline", ToolVersion: workspace.Version, DuckDBVersion: duck,
 		Pack: info, Workspace: pl.Workspace, AmountType: pl.AmountType, Inputs: manInputs, Parameters: pl.Parameters(),
-		Run: output.RunInfo{StartedAt: started, RunID: runID, WorkspaceAction: action, WorkspaceReason: reason, StepRuns: r.stepRuns},
+		Run:            output.RunInfo{StartedAt: started, RunID: runID, WorkspaceAction: action, WorkspaceReason: reason, StepRuns: r.stepRuns},
+		Reconciliation: run.Summary.Completeness.Reconciliation,
 	}
 	run.Manifest.Run.FinishedAt = now().UTC()
 	t0 = time.Now()
@@ -184,7 +189,7 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		fmt.Fprintf(o.Log, "  %-28s done in %.1fs\n", "writing the output folder", time.Since(t0).Seconds())
 	}
 	run.Manifest.Outputs = outs
-	res.Run, res.Outputs, res.StepErrors = run, outs, r.errs
+	res.Run, res.Outputs, res.StepErrors, res.Reconciliation = run, outs, r.errs, r.reconciled
 	params := map[string]any{"pack": info, "parameters": pl.Parameters(), "out": out}
 	if _, err := ws.SaveRun(ctx, workspace.Run{ID: runID, Kind: "pack", Started: started, Params: params, Result: run}); err != nil {
 		return res, err

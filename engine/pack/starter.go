@@ -68,7 +68,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("[pack]")
 	w("name = %s", q(o.Name))
 	w("client = %s", q(o.Client))
-	w("period = %s                # what the extract covers, e.g. \"1 January to 31 December 2025\"", q(o.Period))
+	w("period = %s                # what the extract covers, e.g. \"2025-01-01..2025-12-31\": postings outside it are counted", q(o.Period))
 	w("description = \"\"")
 	w("workspace = %s  # the DuckDB workspace, beside this file", q(strings.TrimSuffix(filepath.Base(packPath), filepath.Ext(packPath))+".duckdb"))
 	w("scale = 2                 # decimal places of amounts (1 to 6)")

@@ -16,7 +16,7 @@ func TestStarterFromGeneratedLedger(t *testing.T) {
 	src := generated(t)
 	dir := t.TempDir()
 	packPath := filepath.Join(dir, "client.toml")
-	text, err := Starter(context.Background(), filepath.Join(src, genCSV), packPath, StarterOptions{Client: "Skerrimoor Kelp Group", Period: "FY2025"})
+	text, err := Starter(context.Background(), filepath.Join(src, genCSV), packPath, StarterOptions{Client: "Skerrimoor Kelp Group", Period: "1 January to 31 December 2025"})
 	if err != nil {
 		t.Fatal(err)
 	}

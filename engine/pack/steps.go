@@ -19,6 +19,7 @@ import (
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/reconcile"
 	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -39,6 +40,7 @@ type runner struct {
 	limits     *limits.Report
 	ranges     *ranges.Report
 	duplicates *duplicates.Result
+	reconciled *reconcile.Result
 }
 
 func (r *runner) add(t *output.Table) {
@@ -195,6 +197,12 @@ func (r *runner) completeness(ctx context.Context) error {
 		text += "; WARNING: a file does not balance, see the inputs table"
 	}
 	r.finding("completeness", "inputs", "%s.", text)
+	if err := r.journalChecks(ctx); err != nil {
+		return fmt.Errorf("journal checks: %w", err)
+	}
+	if err := r.reconciliation(ctx); err != nil {
+		return fmt.Errorf("reconciliation: %w", err)
+	}
 	return nil
 }
 

@@ -18,6 +18,7 @@ import (
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/journal"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/output"
@@ -60,6 +61,8 @@ type Plan struct {
 	Checks     []CheckPlan
 	// KeepFormulas writes CSV text cells as they are (csv_formulas = "keep").
 	KeepFormulas bool
+	Period       *journal.Period // [pack] period as dates, when it reads as one
+	Control      *ControlPlan    // [control]: the reconciliation
 }
 
 // PlannedSource is a [[source]] with its files found and read.
@@ -196,6 +199,12 @@ func (pl *Plan) Parameters() map[string]any {
 	if pl.Duplicates != nil {
 		out["duplicates"] = pl.Duplicates
 	}
+	if pl.Period != nil {
+		out["period"] = pl.Period.String()
+	}
+	if pl.Control != nil {
+		out["control"] = pl.Control
+	}
 	return out
 }
 
@@ -245,6 +254,8 @@ func Check(ctx context.Context, p *Pack) (*Plan, *Problems) {
 	pl := &Plan{Pack: p, Filters: map[string]string{}}
 	c.unknownKeys()
 	c.header(pl)
+	c.period(pl)
+	c.control(pl)
 	mem, err := workspace.Open(ctx, ":memory:", workspace.Options{})
 	if err != nil {
 		c.errf("", "opening a scratch database to check the pack: %v", err)

@@ -231,7 +231,7 @@ func (r *Result) Failed() bool { return !r.Ties && !r.Accepted }
 
 // Error is the message of a reconciliation that does not tie.
 func (r *Result) Error() string {
-	return fmt.Sprintf("the ledger does not tie to the control file %s: %d key(s) differ; see the table above (stored as reconciliation %d: leadline sql --db %s \"SELECT * FROM ll_reconciliation_rows WHERE reconciliation_id = %d AND status <> 'ties' ORDER BY seq\"). Give --accept-differences to accept them",
+	return fmt.Sprintf("the ledger does not tie to the control file %s: %d key(s) differ (reconciliation %d, stored in the workspace: leadline sql --db %s \"SELECT * FROM ll_reconciliation_rows WHERE reconciliation_id = %d AND status <> 'ties' ORDER BY seq\"). Give --accept-differences to accept them",
 		r.Control.Name, r.KeysDiffering, r.ID, r.workspace, r.ID)
 }
 

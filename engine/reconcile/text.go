@@ -92,3 +92,23 @@ func zeroText(s string) string {
 	}
 	return "0"
 }
+
+// DifferingLines are the lines whose difference is not zero.
+func (r *Result) DifferingLines() []Line {
+	var out []Line
+	for _, l := range r.Lines {
+		if l.Difference != zeroText(l.Difference) {
+			out = append(out, l)
+		}
+	}
+	return out
+}
+
+// ExpectedText is the expected total, or "" when the key is only in the
+// ledger.
+func (l Line) ExpectedText() string {
+	if l.Expected == nil {
+		return ""
+	}
+	return *l.Expected
+}

@@ -9,8 +9,10 @@ import (
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/journal"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/reconcile"
 	"github.com/leadline/leadline/engine/sensitivity"
 )
 
@@ -144,7 +146,11 @@ type Completeness struct {
 	// LedgerKnown is set when the ledger's row count was read from the
 	// workspace (not for a pack run's own report, built from its tables).
 	LedgerKnown bool
-	totals      ref
+	// Journal is the journal checks; Reconciliation the latest
+	// reconciliation with a control file (nil when none was made).
+	Journal        *journal.Summary
+	Reconciliation *reconcile.Result
+	totals         ref
 }
 
 // TotalRef addresses the totals over the files.

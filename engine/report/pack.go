@@ -12,7 +12,9 @@ import (
 	"strings"
 	"time"
 
+	"github.com/leadline/leadline/engine/journal"
 	"github.com/leadline/leadline/engine/output"
+	"github.com/leadline/leadline/engine/reconcile"
 )
 
 // FileName is the report's name inside a pack run's output folder.
@@ -167,7 +169,7 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 			}
 			var stepErr error
 			switch key {
-			case "completeness", "extracts", "checks":
+			case "completeness", "extracts", "checks", "journal", "reconciliation":
 				// Shown from the tables below (completeness: from the
 				// workspace, or from the tables for a pack's own report).
 			case "limits":
@@ -344,6 +346,18 @@ func (m *Model) completenessFromTables(doc json.RawMessage, base string) error {
 	if found {
 		c.totals = srcRef(base, "/summary/completeness", "total")
 		m.Completeness = c
+		if raw, err := resolvePointer(doc, "/results/journal"); err == nil {
+			c.Journal = &journal.Summary{}
+			if err := json.Unmarshal(raw, c.Journal); err != nil {
+				return fmt.Errorf("reading the journal checks: %w", err)
+			}
+		}
+		if raw, err := resolvePointer(doc, "/results/reconciliation"); err == nil {
+			c.Reconciliation = &reconcile.Result{}
+			if err := json.Unmarshal(raw, c.Reconciliation); err != nil {
+				return fmt.Errorf("reading the reconciliation: %w", err)
+			}
+		}
 	}
 	return nil
 }

@@ -9,7 +9,9 @@ import (
 	"strings"
 	"time"
 
+	"github.com/leadline/leadline/engine/journal"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/reconcile"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -226,6 +228,18 @@ func readCompleteness(ctx context.Context, ws *workspace.Workspace, samples int)
 	}
 	if c.LedgerRows != c.RowsLoaded {
 		c.Balanced = false
+	}
+	if hasLedger {
+		period, err := journal.SavedPeriod(ctx, ws)
+		if err != nil {
+			return nil, err
+		}
+		if c.Journal, err = journal.Run(ctx, ws, journal.Options{Period: period}); err != nil {
+			return nil, err
+		}
+		if c.Reconciliation, err = reconcile.Latest(ctx, ws); err != nil {
+			return nil, err
+		}
 	}
 	rows, err = ws.Conn.QueryContext(ctx, stmt("report_reject_reasons"))
 	if err != nil {
