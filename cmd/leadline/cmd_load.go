@@ -28,6 +28,12 @@ themselves; map others with --map. Amounts are parsed exactly into DECIMAL:
 thousands separators, currency symbols and ISO codes, (parentheses),
 trailing minus, CR/DR suffixes and scientific notation are understood.
 
+After the load, the journal checks count documents that do not sum to zero,
+postings outside --period and repeated line keys (entity, doc_id, line_id)
+over the whole workspace; --control reconciles the ledger against the
+client's totals or trial balance (see leadline reconcile --help), and a
+difference makes the command fail unless --accept-differences is given.
+
 Examples:
   leadline load ledger_2025.csv
   leadline load --db acme.duckdb 'extracts/*.parquet'

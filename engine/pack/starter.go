@@ -126,6 +126,13 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 		w("# %s = \"\"    # %s", c, note)
 	}
 	w("")
+	w("# The client's own totals to reconcile the ledger against (CSV): keys entity,")
+	w("# account and/or currency; totals rows, debit, credit, net, or a trial balance's")
+	w("# opening and closing. Any difference fails the run unless accept = true.")
+	w("# [control]")
+	w("# file = \"trial_balance.csv\"")
+	w("# accept = false")
+	w("")
 	w("# Named predicates over the ledger's columns (SQL, checked read-only), used")
 	w("# by [population] or a step's own filter = \"name\".")
 	w("[filters]")
