@@ -74,3 +74,8 @@ SELECT count(*) FROM information_schema.tables WHERE table_name = 'll_reconcilia
 -- The latest stored reconciliation's result document. No bound
 -- parameters, no placeholders.
 SELECT result FROM ll_reconciliation ORDER BY reconciliation_id DESC LIMIT 1;
+
+-- name: reconcile_currencies
+-- The currencies of a ledger that has a currency column: how many, and
+-- the first few. No bound parameters, no placeholders.
+SELECT count(DISTINCT currency), coalesce(string_agg(DISTINCT currency, ', ' ORDER BY currency), '') FROM ledger;

@@ -83,6 +83,19 @@ func Compare(ctx context.Context, ws *workspace.Workspace, c *Control, scale int
 	for _, col := range cols {
 		have[strings.ToLower(col.Name)] = true
 	}
+	if have["currency"] && !contains(c.Keys, "currency") {
+		// Totals over several currencies mean nothing: the control file
+		// must say which currency each total is in.
+		var n int
+		var list string
+		if err := ws.Conn.QueryRowContext(ctx, queries.Get("reconcile_currencies")).Scan(&n, &list); err != nil {
+			return nil, err
+		}
+		if n > 1 {
+			return nil, fmt.Errorf("%s: the ledger holds amounts in %d currencies (%s), and the control file has no currency column, so its totals would add amounts of different currencies; give the control file a currency column (or map it with --control-map currency=COLUMN)",
+				c.Path, n, list)
+		}
+	}
 	var sel strings.Builder
 	for i, k := range c.Keys {
 		if !have[k] {

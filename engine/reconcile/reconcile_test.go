@@ -310,3 +310,21 @@ func TestControlFileErrors(t *testing.T) {
 		t.Errorf("credit %s, notes %v: negative credits are compared as positive sums", got, c.Notes)
 	}
 }
+
+// TestPerCurrency: a ledger with a currency column is reconciled per
+// currency; a control file without one is refused, since its totals would
+// add euros to dollars.
+func TestPerCurrency(t *testing.T) {
+	l := &ledger{text: "entity,currency,amount\n" +
+		"A,EUR,100.00\nA,EUR,-40.00\nA,USD,70.00\nA,USD,-0.50\nB,EUR,5.00\n"}
+	ws, dir := loadLedger(t, l)
+	// Written from the lines above: A/EUR 60.00, A/USD 69.50, B/EUR 5.00.
+	res := run(t, ws, write(t, dir, "cur.csv", "entity,currency,net,rows\nA,EUR,60.00,2\nA,USD,69.50,2\nB,EUR,5.00,1\n"), false)
+	if !res.Ties || res.KeysBoth != 3 || strings.Join(res.Keys, ",") != "entity,currency" {
+		t.Fatalf("per currency: %s (keys %v)", res.Verdict, res.Keys)
+	}
+	_, err := reconcile.Run(context.Background(), ws, write(t, dir, "nocur.csv", "entity,net\nA,129.50\nB,5.00\n"), reconcile.Options{}, false)
+	if err == nil || !strings.Contains(err.Error(), "2 currencies (EUR, USD)") {
+		t.Errorf("no currency column: %v", err)
+	}
+}
