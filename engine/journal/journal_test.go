@@ -177,3 +177,20 @@ func TestParsePeriod(t *testing.T) {
 		}
 	}
 }
+
+// TestUnbalancedPerCurrency: with a currency column a document balances
+// per currency: 100 EUR against 100 USD does not, counted once per
+// currency; a document balanced within each currency does.
+func TestUnbalancedPerCurrency(t *testing.T) {
+	ws := loadText(t, "entity,doc_id,line_id,currency,amount\n"+
+		"E1,D1,1,EUR,100.00\nE1,D1,2,USD,-100.00\n"+
+		"E1,D2,1,EUR,50.00\nE1,D2,2,EUR,-50.00\nE1,D2,3,USD,7.00\nE1,D2,4,USD,-7.00\n")
+	s, err := journal.Run(context.Background(), ws, journal.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	u := byName(t, s, journal.Unbalanced)
+	if u.Count != 2 || u.Rows != 2 || !strings.Contains(u.Title, "currency") || !strings.Contains(u.Command, "currency") {
+		t.Errorf("per currency: %d (%d rows), title %q", u.Count, u.Rows, u.Title)
+	}
+}
