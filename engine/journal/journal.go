@@ -186,14 +186,17 @@ func shellQuote(s string) string {
 }
 
 // Text is one line per check for the terminal and the summaries.
-func (c Check) Text() string {
+func (c Check) Text() string { return c.Title + ": " + c.Outcome() }
+
+// Outcome is what the check found, without its title.
+func (c Check) Outcome() string {
 	switch c.Status {
 	case StatusNotRun:
-		return fmt.Sprintf("%s: not possible: %s", c.Title, c.Reason)
+		return "not possible: " + c.Reason
 	case StatusOK:
-		return fmt.Sprintf("%s: none", c.Title)
+		return "none"
 	}
-	return fmt.Sprintf("%s: %d %s (%d ledger rows)", c.Title, c.Count, c.Unit, c.Rows)
+	return fmt.Sprintf("%d %s (%d ledger rows)", c.Count, c.Unit, c.Rows)
 }
 
 // FirstTable is the check's first rows as a table.

@@ -204,6 +204,20 @@ func (m *Model) glance() []glance {
 				c.TotalRef().F("rows_loaded", c.RowsLoaded, "int"), len(c.Files),
 				c.TotalRef().F("rows_rejected", c.RowsRejected, "int"))),
 			Flags: c.TotalRef().F("rows_rejected", c.RowsRejected, "int")})
+		if r := c.Reconciliation; r != nil {
+			g = append(g, glance{What: "Reconciliation with " + r.Control.Name, Anchor: "completeness", Section: 2, Flagged: !r.Ties,
+				Result: template.HTML(template.HTMLEscapeString(r.Verdict)), Flags: template.HTML(fmt.Sprint(r.KeysDiffering))})
+		}
+		if j := c.Journal; j != nil {
+			for _, ch := range j.Checks {
+				flags := ""
+				if ch.Status != "not possible" {
+					flags = fmt.Sprint(ch.Count)
+				}
+				g = append(g, glance{What: ch.Title, Anchor: "completeness", Section: 2, Flagged: ch.Status == "found",
+					Result: template.HTML(template.HTMLEscapeString(ch.Outcome())), Flags: template.HTML(flags)})
+			}
+		}
 	}
 	if d := m.Digits; d != nil {
 		for _, t := range d.Tests {
