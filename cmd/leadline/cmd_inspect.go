@@ -30,6 +30,7 @@ Examples:
 			fs.IntVar(&rows, "rows", 5, "sample rows to show")
 			fs.StringVar(&o.Delimiter, "delimiter", "", "CSV field delimiter (default: guessed)")
 			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8, utf-16 or latin-1")
+			fs.StringVar(&o.Sheet, "sheet", "", "XLSX: the sheet to inspect, by name or 1-based position (default: the first sheet holding a value)")
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
@@ -71,6 +72,7 @@ Examples:
 					fmt.Fprintf(w, ", delimiter %q, %s", in.Delimiter, in.Encoding)
 				}
 				fmt.Fprintf(w, ")\nSHA-256 %s\n\n", in.SHA256)
+				printInspectSheets(w, in.Sheet)
 				cols.WriteText(w, 0)
 				sample := &tabular.Table{}
 				for _, c := range in.Columns {
