@@ -3,7 +3,6 @@ package main
 import (
 	"fmt"
 	"io"
-	"strings"
 
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/tabular"
@@ -41,10 +40,7 @@ func printInspectSheets(w io.Writer, t *xlsxin.Table) {
 		tab.Add(s.Index, s.Name, s.Kind, s.Rows, mark)
 	}
 	tab.WriteText(w, 0)
-	fmt.Fprintf(w, "\nSheet %q: header at row %d", t.Sheet, t.HeaderRow)
-	if len(t.Skipped) > 0 {
-		fmt.Fprintf(w, "; skipped above it: %s", strings.Join(t.Skipped, "; "))
-	}
+	fmt.Fprintf(w, "\nSheet %q: header at row %d (rows above it: %d skipped as titles)", t.Sheet, t.HeaderRow, len(t.Skipped))
 	if t.Date1904 {
 		fmt.Fprint(w, "; 1904 date system")
 	}

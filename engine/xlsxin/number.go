@@ -2,7 +2,9 @@ package xlsxin
 
 import (
 	"fmt"
+	"math"
 	"math/big"
+	"strconv"
 	"strings"
 	"time"
 )
@@ -116,33 +118,20 @@ func stripQuoted(code string) string {
 const shownDigits = 15
 
 // Number turns a number cell's text as stored (such as 1234.5600000000001,
-// 1E-7, -0.1) into the decimal text the spreadsheet shows: rounded half
-// away from zero to 15 significant digits, trailing zeros dropped, never an
-// exponent. It works on the decimal digits alone, never through a float.
-// ok is false for text that is not a number.
+// 1E-7, -0.1) into the decimal text the spreadsheet shows: the double the
+// text stands for, rounded to 15 significant digits (strconv rounds the
+// double's exact binary value correctly), trailing zeros dropped, never an
+// exponent. One cell's value is converted; nothing is summed in floating
+// point. ok is false for text that is not a number.
 func Number(stored string) (string, bool) {
-	neg, digits, exp, ok := parseDecimal(stored)
-	if !ok {
+	if _, _, _, ok := parseDecimal(stored); !ok {
 		return "", false
 	}
-	// value = 0.digits × 10^exp, digits without leading zeros
-	if len(digits) > shownDigits {
-		round := digits[shownDigits] >= '5'
-		d := []byte(digits[:shownDigits])
-		if round {
-			i := len(d) - 1
-			for ; i >= 0 && d[i] == '9'; i-- {
-				d[i] = '0'
-			}
-			if i < 0 {
-				d = append([]byte{'1'}, d...)
-				exp++
-			} else {
-				d[i]++
-			}
-		}
-		digits = strings.TrimRight(string(d), "0")
+	f, err := strconv.ParseFloat(strings.TrimSpace(stored), 64)
+	if err != nil || math.IsInf(f, 0) {
+		return "", false
 	}
+	neg, digits, exp, _ := parseDecimal(strconv.FormatFloat(f, 'e', shownDigits-1, 64))
 	if digits == "" {
 		return "0", true
 	}

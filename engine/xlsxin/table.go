@@ -88,18 +88,9 @@ func Convert(path string, o Options, out io.Writer) (*Table, error) {
 		return nil, fmt.Errorf("%s: sheet %q: %v", path, s.Name, err)
 	}
 	// Buffer the first rows holding a value, then pick the header.
-	var head []*row
-	for len(head) < scanRows {
-		rw, err := r.next()
-		if err != nil {
-			return fail(err)
-		}
-		if rw == nil {
-			break
-		}
-		if rw.nonEmpty() > 0 {
-			head = append(head, rw)
-		}
+	head, err := r.head()
+	if err != nil {
+		return fail(err)
 	}
 	h := pickHeader(head)
 	if h < 0 {
@@ -113,9 +104,14 @@ func Convert(path string, o Options, out io.Writer) (*Table, error) {
 	if len(t.Skipped) > 0 {
 		t.Warnings = append(t.Warnings, fmt.Sprintf("%d row(s) above the header (row %d) skipped as titles: %s", len(t.Skipped), hdr.num, strings.Join(t.Skipped, "; ")))
 	}
+	// The table is as wide as its header, or as the rows read with it
+	// when they reach further (a header cell left blank at the end, or
+	// merged with the one before it).
 	width := 0
-	for _, c := range hdr.cells {
-		width = max(width, c.col+1)
+	for _, rw := range head[h:] {
+		for _, c := range rw.cells {
+			width = max(width, c.col+1)
+		}
 	}
 	names := make([]string, width)
 	var blank []int
@@ -269,6 +265,24 @@ func unambiguous(s string) string {
 		return s + "0"
 	}
 	return s
+}
+
+// head reads the first rows holding a value.
+func (r *rowReader) head() ([]*row, error) {
+	var head []*row
+	for len(head) < scanRows {
+		rw, err := r.next()
+		if err != nil {
+			return nil, err
+		}
+		if rw == nil {
+			break
+		}
+		if rw.nonEmpty() > 0 {
+			head = append(head, rw)
+		}
+	}
+	return head, nil
 }
 
 // pickHeader chooses the header among the first rows holding a value: the

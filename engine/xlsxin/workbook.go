@@ -28,8 +28,8 @@ import (
 type Sheet struct {
 	Name  string `json:"name"`
 	Index int    `json:"index"` // 1-based
-	// Rows is the last row the sheet's dimension names (or, without one,
-	// the number of row elements); 0 for a chart sheet.
+	// Rows is the sheet's last row: the one its dimension names or, without
+	// one, the last row element's number; 0 for a chart sheet.
 	Rows  int64  `json:"rows"`
 	Kind  string `json:"kind"` // worksheet or chartsheet
 	part  string
@@ -285,7 +285,9 @@ func (w *Workbook) sharedStrings() ([]string, error) {
 }
 
 // Choose picks the sheet sel names (its name, or its 1-based position when
-// no sheet has that name), or, for "", the first worksheet holding a value.
+// no sheet has that name), or, for "", the first worksheet holding a table
+// (a header row with data below it): a cover or notes sheet in front of
+// the data is passed over.
 func (w *Workbook) Choose(sel string) (Sheet, string, error) {
 	if sel != "" {
 		for _, s := range w.Sheets {
@@ -310,15 +312,15 @@ func (w *Workbook) Choose(sel string) (Sheet, string, error) {
 		if s.Kind != "worksheet" {
 			continue
 		}
-		has, err := w.hasValue(s)
+		has, err := w.hasTable(s)
 		if err != nil {
 			return Sheet{}, "", err
 		}
 		if has {
-			return s, "the first sheet holding a value", nil
+			return s, "the first sheet holding a table", nil
 		}
 	}
-	return Sheet{}, "", fmt.Errorf("%s: every sheet is empty (%s)", w.Path, w.names())
+	return Sheet{}, "", fmt.Errorf("%s: no sheet holds a table (a header row of at least two text cells with data below it) among %s; give the sheet with --sheet", w.Path, w.names())
 }
 
 func (w *Workbook) checkKind(s Sheet, how string) (Sheet, string, error) {
@@ -336,29 +338,23 @@ func (w *Workbook) names() string {
 	return strings.Join(n, ", ")
 }
 
-// hasValue reads a sheet up to its first cell with a value.
-func (w *Workbook) hasValue(s Sheet) (bool, error) {
+// hasTable reads a sheet's first rows holding a value and tells whether
+// a header row is among them.
+func (w *Workbook) hasTable(s Sheet) (bool, error) {
 	r, err := w.openRows(s)
 	if err != nil {
 		return false, err
 	}
 	defer r.close()
-	for {
-		row, err := r.next()
-		if err != nil {
-			return false, err
-		}
-		if row == nil {
-			return false, nil
-		}
-		if row.nonEmpty() > 0 {
-			return true, nil
-		}
+	head, err := r.head()
+	if err != nil {
+		return false, fmt.Errorf("%s: sheet %q: %v", w.Path, s.Name, err)
 	}
+	return pickHeader(head) >= 0, nil
 }
 
 // CountRows fills in each worksheet's Rows: the last row of its dimension,
-// or the number of row elements when it has none.
+// or of its row elements when it has none.
 func (w *Workbook) CountRows() error {
 	for i, s := range w.Sheets {
 		if s.Kind != "worksheet" {
@@ -399,7 +395,7 @@ func countRows(r io.Reader) (int64, error) {
 			}
 		}
 	}
-	// No dimension with a range: count the row elements.
+	// No dimension with a range: the last row element's number.
 	var n int64
 	for {
 		tok, err := d.RawToken()
@@ -410,7 +406,11 @@ func countRows(r io.Reader) (int64, error) {
 			return n, err
 		}
 		if t, ok := tok.(xml.StartElement); ok && t.Name.Local == "row" {
-			n++
+			if r, err := strconv.ParseInt(attr(t, "r"), 10, 64); err == nil && r > n {
+				n = r
+			} else {
+				n++
+			}
 		}
 	}
 }
