@@ -46,7 +46,7 @@ func examineXLSX(path string, opts Options) (*Source, error) {
 }
 
 func xlsxOptions(opts Options) xlsxin.Options {
-	return xlsxin.Options{Sheet: opts.Sheet, DecimalComma: opts.DecimalComma}
+	return xlsxin.Options{Sheet: opts.Sheet, DecimalComma: opts.DecimalComma, DateFormat: opts.DateFormat}
 }
 
 // XLSXColumns reads the column names of a workbook's sheet without loading

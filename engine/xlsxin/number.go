@@ -281,3 +281,46 @@ func withClock(date, clock string, sec int64) string {
 	}
 	return date + " " + clock
 }
+
+// strftime writes an ISO date or date-time (from Serial) in a strptime
+// format of the load's --date-format, so that date cells read as the
+// sheet's text dates do. Only %Y %y %m %d %H %M %S and %% are written;
+// another directive leaves the ISO text as it is (and the date parser
+// then says which rows it could not read).
+func strftime(iso, format string) string {
+	t, err := time.Parse("2006-01-02 15:04:05", iso)
+	if err != nil {
+		if t, err = time.Parse("2006-01-02", iso); err != nil {
+			return iso
+		}
+	}
+	var b strings.Builder
+	for i := 0; i < len(format); i++ {
+		if format[i] != '%' || i+1 == len(format) {
+			b.WriteByte(format[i])
+			continue
+		}
+		i++
+		switch format[i] {
+		case 'Y':
+			fmt.Fprintf(&b, "%04d", t.Year())
+		case 'y':
+			fmt.Fprintf(&b, "%02d", t.Year()%100)
+		case 'm':
+			fmt.Fprintf(&b, "%02d", int(t.Month()))
+		case 'd':
+			fmt.Fprintf(&b, "%02d", t.Day())
+		case 'H':
+			fmt.Fprintf(&b, "%02d", t.Hour())
+		case 'M':
+			fmt.Fprintf(&b, "%02d", t.Minute())
+		case 'S':
+			fmt.Fprintf(&b, "%02d", t.Second())
+		case '%':
+			b.WriteByte('%')
+		default:
+			return iso
+		}
+	}
+	return b.String()
+}

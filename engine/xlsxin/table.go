@@ -14,6 +14,9 @@ type Options struct {
 	DecimalComma bool   // write numbers with a decimal comma (the load reads amounts so)
 	MaxRows      int64  // stop after this many table rows (0: all); for a sample
 	NoLineColumn bool   // leave out the sheet row number column (a sample)
+	// DateFormat is the load's strptime format of text dates: date cells
+	// are written in it, so that both read alike ("" for ISO dates).
+	DateFormat string
 }
 
 // LineColumn names the CSV column holding each row's sheet row number.
@@ -43,9 +46,9 @@ type Table struct {
 	Skipped    []string `json:"skipped_above_header"` // rows with a value above the header, "row 1: text"
 	Warnings   []string `json:"warnings"`
 	// Filled by a full read (Convert with a writer):
-	Rows         int64       `json:"rows_read"` // table rows written, empty rows inside the table included
-	EmptyRows    int64       `json:"empty_rows"`
-	FormulaCells int64       `json:"formula_cells"`
+	Rows         int64       `json:"-"` // table rows written, empty rows inside the table included
+	EmptyRows    int64       `json:"-"`
+	FormulaCells int64       `json:"-"`
 	Rejects      []RowReject `json:"-"`
 }
 
@@ -193,6 +196,9 @@ func Convert(path string, o Options, out io.Writer) (*Table, error) {
 				continue
 			}
 			fields[c.col] = c.text
+			if c.kind == kDate && o.DateFormat != "" && strings.Count(c.text, "-") == 2 {
+				fields[c.col] = strftime(c.text, o.DateFormat)
+			}
 			if c.kind == kNumber && o.DecimalComma {
 				fields[c.col] = strings.Replace(c.text, ".", ",", 1)
 			}

@@ -393,3 +393,22 @@ func TestTableWidth(t *testing.T) {
 		t.Errorf("warnings %q", tab.Warnings)
 	}
 }
+
+// TestDateCellsInTheTextFormat: with the load's --date-format, date cells
+// are written in it, so that a column mixing date cells and text dates
+// reads alike.
+func TestDateCellsInTheTextFormat(t *testing.T) {
+	sheet := `<row r="1"><c r="A1" t="inlineStr"><is><t>posted</t></is></c><c r="B1" t="inlineStr"><is><t>amount</t></is></c></row>` +
+		`<row r="2"><c r="A2" s="1"><v>45000</v></c><c r="B2"><v>1</v></c></row>` +
+		`<row r="3"><c r="A3" t="inlineStr"><is><t>16/03/2023</t></is></c><c r="B3"><v>2</v></c></row>` +
+		`<row r="4"><c r="A4" s="1"><v>45000.75</v></c><c r="B4"><v>3</v></c></row>`
+	p := rawBook(t, t.TempDir(), map[string]string{"S": sheet}, []string{"S"}, false, "")
+	_, recs := convert(t, p, Options{DateFormat: "%d/%m/%Y"})
+	if recs[1][1] != "15/03/2023" || recs[2][1] != "16/03/2023" || recs[3][1] != "15/03/2023" {
+		t.Errorf("dates %q", recs)
+	}
+	_, recs = convert(t, p, Options{DateFormat: "%d.%m.%Y %H:%M"})
+	if recs[3][1] != "15.03.2023 18:00" {
+		t.Errorf("date-time %q", recs[3])
+	}
+}
