@@ -892,10 +892,10 @@ func checkRejectShare(fr *FileReport, opts Options) error {
 	if fr.RowsRead == 0 || float64(sharedRejects(fr)) <= limit*float64(fr.RowsRead) {
 		return nil
 	}
-	share := float64(fr.RowsRejected) / float64(fr.RowsRead)
+	share := float64(sharedRejects(fr)) / float64(fr.RowsRead)
 	top, hint := "", ""
 	if len(fr.RejectReasons) > 0 {
-		r := fr.RejectReasons[0]
+		r := topReason(fr)
 		top = fmt.Sprintf(" (most common reason, %d rows: %s, first at line %d)", r.Rows, r.Reason, deref(r.FirstLine))
 		switch {
 		case strings.Contains(r.Reason, "decimal comma?"):
@@ -907,7 +907,7 @@ func checkRejectShare(fr *FileReport, opts Options) error {
 		}
 	}
 	return fmt.Errorf("%s: %d of %d rows (%s) were rejected, more than the %s a load accepts%s.%s Fix the file or the options (leadline inspect shows how the file reads), or accept the rejects with --max-rejects %s or --accept-rejects; nothing was loaded",
-		fr.Path, fr.RowsRejected, fr.RowsRead, percent(share), maxRejectsText(opts), top, hint, percent(share))
+		fr.Path, sharedRejects(fr), fr.RowsRead, percent(share), maxRejectsText(opts), top, hint, percent(share))
 }
 
 func maxRejectsText(o Options) string {

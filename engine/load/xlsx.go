@@ -228,3 +228,14 @@ func xlsxFormat(path, lower string, gz bool) (string, bool, error) {
 	}
 	return "xlsx", false, nil
 }
+
+// topReason is the most common reject reason that counts against
+// --max-rejects (an empty sheet row does not).
+func topReason(fr *FileReport) ReasonCount {
+	for _, r := range fr.RejectReasons {
+		if fr.Sheet == nil || !strings.HasPrefix(r.Reason, xlsxin.EmptyRowReason) {
+			return r
+		}
+	}
+	return fr.RejectReasons[0]
+}

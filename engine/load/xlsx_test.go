@@ -255,3 +255,37 @@ func TestXLSXInspect(t *testing.T) {
 		t.Errorf("Journal rows %d, want 5", in.Sheet.Sheets[1].Rows)
 	}
 }
+
+// TestXLSXEmptyRowsAndShare: empty rows inside the table are read and
+// rejected but not held against --max-rejects; a real reject is, and the
+// refusal counts and names it, not the empty rows.
+func TestXLSXEmptyRowsAndShare(t *testing.T) {
+	ctx := context.Background()
+	var rows [][]any
+	for i := 0; i < 60; i++ {
+		if i%20 == 5 {
+			rows = append(rows, nil) // empty rows at sheet rows 9, 29, 49
+			continue
+		}
+		rows = append(rows, []any{"2025-01-02", "4000", float64(i) + 0.5, "x"})
+	}
+	p := xlsxLedger(t, t.TempDir(), rows)
+	ws := openWS(t, ":memory:")
+	rep, err := Load(ctx, ws, []string{p}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	fr := rep.Files[0]
+	if fr.RowsRead != 60 || fr.RowsLoaded != 57 || fr.RowsRejected != 3 || fr.Sheet.EmptyRows != 3 {
+		t.Errorf("read %d loaded %d rejected %d empty %d; want 60, 57, 3, 3", fr.RowsRead, fr.RowsLoaded, fr.RowsRejected, fr.Sheet.EmptyRows)
+	}
+	if fr.RejectReasons[0].FirstLine == nil || *fr.RejectReasons[0].FirstLine != 9 {
+		t.Errorf("reasons %+v", fr.RejectReasons)
+	}
+	rows[10] = []any{"2025-01-02", "4000", "n/a", "x"}
+	p = xlsxLedger(t, t.TempDir(), rows)
+	_, err = Load(ctx, openWS(t, ":memory:"), []string{p}, Options{})
+	if err == nil || !strings.Contains(err.Error(), "1 of 60 rows (1.7%)") || !strings.Contains(err.Error(), "not a number, first at line 14") {
+		t.Errorf("one bad amount in 57: %v", err)
+	}
+}

@@ -19,6 +19,9 @@ type Options struct {
 	DateFormat string
 }
 
+// EmptyRowReason is the reject reason of an empty row inside the table.
+const EmptyRowReason = "empty row inside the table (no value in any column)"
+
 // LineColumn names the CSV column holding each row's sheet row number.
 const LineColumn = "ll_sheet_row"
 
@@ -164,7 +167,7 @@ func Convert(path string, o Options, out io.Writer) (*Table, error) {
 			}
 			t.Rows++
 			t.EmptyRows++
-			t.Rejects = append(t.Rejects, RowReject{Line: n, Reason: "empty row inside the table (no value in any column)"})
+			t.Rejects = append(t.Rejects, RowReject{Line: n, Reason: EmptyRowReason})
 		}
 		pending = pending[:0]
 		rec = rec[:0]
