@@ -17,12 +17,14 @@ func init() {
 		summary: "show a file's columns, detected types, sample rows and suggested mapping, without loading",
 		usage: `Usage: leadline inspect [options] FILE
 
-Reads the head of a CSV, TSV or Parquet file and proposes the column mapping
-and the load command. Nothing is written anywhere.
+Reads the head of a CSV, TSV, Parquet or XLSX file and proposes the column
+mapping and the load command. For a workbook it lists the sheets and shows
+the one read and its header row. Nothing is written anywhere.
 
 Examples:
   leadline inspect gl_2025.csv
-  leadline inspect --rows 10 --format json payables.parquet`,
+  leadline inspect --rows 10 --format json payables.parquet
+  leadline inspect --sheet 2 journal.xlsx`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var f formatFlag
 			var rows int
