@@ -122,7 +122,9 @@ func Convert(path string, o Options, out io.Writer) (*Table, error) {
 	names := make([]string, width)
 	var blank []int
 	for _, c := range hdr.cells {
-		names[c.col] = strings.TrimSpace(c.text)
+		// A header wrapped onto two lines in its cell ("Posting\ndate")
+		// is named with single spaces, as it reads on screen.
+		names[c.col] = strings.Join(strings.Fields(c.text), " ")
 		if c.kind == kNoValue {
 			names[c.col] = ""
 		}

@@ -309,7 +309,7 @@ func TestSheetChoice(t *testing.T) {
 // are named in warnings, and their columns kept.
 func TestBlankAndMergedHeader(t *testing.T) {
 	f := excelize.NewFile()
-	rows := [][]any{{"account", "amount", nil, "descr", "Group", nil}, {"4000", 1, "x", "a", "g1", "h1"}, {"4010", 2, "y", "b", "g2", "h2"}}
+	rows := [][]any{{"account", "amount", nil, "descr\nof line", "Group", nil}, {"4000", 1, "x", "a", "g1", "h1"}, {"4010", 2, "y", "b", "g2", "h2"}}
 	for i, r := range rows {
 		f.SetSheetRow("Sheet1", "A"+strconv.Itoa(i+1), &r)
 	}
@@ -319,7 +319,7 @@ func TestBlankAndMergedHeader(t *testing.T) {
 		t.Fatal(err)
 	}
 	tab, recs := convert(t, p, Options{})
-	if strings.Join(recs[0], ",") != LineColumn+",account,amount,column_C,descr,Group,column_F" || recs[1][3] != "x" || recs[2][6] != "h2" {
+	if strings.Join(recs[0], ",") != LineColumn+",account,amount,column_C,descr of line,Group,column_F" || recs[1][3] != "x" || recs[2][6] != "h2" {
 		t.Fatalf("records %q", recs)
 	}
 	all := strings.Join(tab.Warnings, "\n")
