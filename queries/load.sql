@@ -251,3 +251,16 @@ SELECT reason, count(*), min(line) FROM rejects WHERE file_id = ? GROUP BY reaso
 -- name: load_rejected_lines
 -- The lines of the records the CSV reader rejected while staging.
 SELECT DISTINCT line FROM {{rejects_table}} ORDER BY line;
+
+-- name: load_sheet_rejects
+-- Sheet rows the workbook reader refused (an empty row inside the table,
+-- a formula without a cached value, a value in a column with no header):
+-- ? = file_id; {{values}} = (line, column, raw value, reason) tuples that
+-- leadline built and quoted itself.
+INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
+SELECT ?, v.line, v.col, v.raw, v.reason, NULL
+FROM (VALUES {{values}}) AS v(line, col, raw, reason);
+
+-- name: load_sheet_rejects_delete
+-- Those rows leave the ledger: ? = file_id; {{lines}} = their line numbers.
+DELETE FROM ledger WHERE file_id = ? AND line IN ({{lines}});

@@ -46,6 +46,8 @@ func fragments(dir string, segmented bool) map[string]string {
 		"column":         `"client_ref"`,
 		"keep":           "false",
 		"ranges":         "(0, 10, 1), (10, 20, 2)",
+		"values":         "(5, 'amount', '=A1', 'formula without a cached value'), (7, NULL, NULL, 'empty row')",
+		"lines":          "5, 7",
 		"test":           "length(descr) > 2",
 		"texts":          "SELECT 1 AS pos, '1.234' AS text",
 		"n":              "1",

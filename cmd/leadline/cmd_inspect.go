@@ -17,12 +17,14 @@ func init() {
 		summary: "show a file's columns, detected types, sample rows and suggested mapping, without loading",
 		usage: `Usage: leadline inspect [options] FILE
 
-Reads the head of a CSV, TSV or Parquet file and proposes the column mapping
-and the load command. Nothing is written anywhere.
+Reads the head of a CSV, TSV, Parquet or XLSX file and proposes the column
+mapping and the load command. For a workbook it lists the sheets and shows
+the one read and its header row. Nothing is written anywhere.
 
 Examples:
   leadline inspect gl_2025.csv
-  leadline inspect --rows 10 --format json payables.parquet`,
+  leadline inspect --rows 10 --format json payables.parquet
+  leadline inspect --sheet 2 journal.xlsx`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var f formatFlag
 			var rows int
@@ -30,6 +32,7 @@ Examples:
 			fs.IntVar(&rows, "rows", 5, "sample rows to show")
 			fs.StringVar(&o.Delimiter, "delimiter", "", "CSV field delimiter (default: guessed)")
 			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8, utf-16 or latin-1")
+			fs.StringVar(&o.Sheet, "sheet", "", "XLSX: the sheet to inspect, by name or 1-based position (default: the first sheet holding a value)")
 			f.add(fs)
 			return func(ctx context.Context, args []string, e *env) error {
 				if err := f.check(); err != nil {
@@ -71,6 +74,7 @@ Examples:
 					fmt.Fprintf(w, ", delimiter %q, %s", in.Delimiter, in.Encoding)
 				}
 				fmt.Fprintf(w, ")\nSHA-256 %s\n\n", in.SHA256)
+				printInspectSheets(w, in.Sheet)
 				cols.WriteText(w, 0)
 				sample := &tabular.Table{}
 				for _, c := range in.Columns {

@@ -14,7 +14,7 @@ import (
 func init() {
 	register(&command{
 		name:    "load",
-		summary: "load CSV, TSV or Parquet extracts into the workspace and prove completeness",
+		summary: "load CSV, TSV, Parquet or XLSX extracts into the workspace and prove completeness",
 		usage: `Usage: leadline load [options] FILE|PATTERN...
 
 Loads every file in one transaction: if any file fails, the workspace is left
@@ -39,6 +39,7 @@ Examples:
   leadline load --db acme.duckdb 'extracts/*.parquet'
   leadline load --map amount=Betrag --map entity=Buchungskreis --decimal-comma --delimiter ';' gl.csv
   leadline load --debit Debit --credit Credit --date-format '%d/%m/%Y' journal.csv
+  leadline load --sheet Journal ledger.xlsx  # one sheet of a workbook, by name or position
   leadline load --format json ledger.csv    # per file rows_read, rows_loaded, rows_rejected, sha256
   leadline load --period 2025-01-01..2025-12-31 --control tb_2025.csv gl.csv   # reconcile to the trial balance`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
@@ -59,6 +60,7 @@ Examples:
 			fs.StringVar(&o.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
 			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
 			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of its earlier load (same content, or the same path with new content), in one transaction")
+			fs.StringVar(&o.Sheet, "sheet", "", "XLSX: the sheet to read, by name or 1-based position (default: the first sheet holding a value)")
 			fs.StringVar(&o.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")
 			var acceptRejects bool
 			fs.BoolVar(&acceptRejects, "accept-rejects", false, "accept any share of rejected rows (same as --max-rejects 100%)")
@@ -146,6 +148,7 @@ func printLoad(w io.Writer, format string, rep *load.Report) error {
 			fmt.Fprintf(w, "; delimiter %q, %s", f.Delimiter, f.Encoding)
 		}
 		fmt.Fprintln(w)
+		printSheet(w, f.Sheet)
 		for _, warn := range f.Warnings {
 			fmt.Fprintf(w, "  note: %s\n", warn)
 		}

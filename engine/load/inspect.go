@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/engine/xlsxin"
 	"github.com/leadline/leadline/queries"
 )
 
@@ -31,6 +32,7 @@ type Inspection struct {
 	Warnings     []string            `json:"warnings"`
 	LoadCommand  string              `json:"load_command"`
 	MissingHints []string            `json:"missing"`
+	Sheet        *xlsxin.Table       `json:"sheet,omitempty"` // XLSX: the sheets, the one read and its header row
 }
 
 // AmountCheck tells how many sampled amounts parse, with and without a
@@ -57,6 +59,9 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	format, _, err := FormatOf(path)
 	if err != nil {
 		return nil, err
+	}
+	if format == "xlsx" {
+		return inspectXLSX(ctx, ws, path, opts, sampleRows)
 	}
 	var src *Source
 	if format == "csv" {

@@ -23,6 +23,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/engine/xlsxin"
 	"github.com/leadline/leadline/queries"
 )
 
@@ -45,6 +46,9 @@ type Options struct {
 	// MaxRejects is the largest share of a file's rows that may be
 	// rejected, as "5%" ("" for DefaultMaxRejects, "100%" to accept any).
 	MaxRejects string `json:"max_rejects,omitempty"`
+	// Sheet is the sheet of an .xlsx file to read: its name or 1-based
+	// position ("" for the first sheet holding a value).
+	Sheet string `json:"sheet,omitempty"`
 }
 
 // DefaultMaxRejects is the share of a file's rows a load may reject unless
@@ -138,6 +142,7 @@ type FileReport struct {
 	Encoding      string        `json:"encoding,omitempty"`
 	Warnings      []string      `json:"warnings"`
 	RejectReasons []ReasonCount `json:"reject_reasons"`
+	Sheet         *SheetReport  `json:"sheet,omitempty"` // XLSX: the sheet read
 }
 
 // EntityTotal is one entity's control totals over the whole workspace.
@@ -243,6 +248,12 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	// transaction starts (see stageCSV); they are dropped when it ends.
 	defer unstage(ws, sources)
 	for i, src := range sources {
+		if src.sheet != nil {
+			if err := stageXLSX(ctx, ws, src, opts, i); err != nil {
+				return nil, err
+			}
+			continue
+		}
 		if err := stageCSV(ctx, ws, src, i); err != nil {
 			return nil, err
 		}
@@ -465,6 +476,10 @@ func examine(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 		if err != nil {
 			return nil, err
 		}
+	} else if format == "xlsx" {
+		if src, err = examineXLSX(path, opts); err != nil {
+			return nil, err
+		}
 	} else {
 		src, err = examineParquet(ctx, ws, path)
 		if err != nil {
@@ -593,7 +608,7 @@ func plan(src *Source, m Mapping) []storage {
 func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountType string, loadID int64) (*FileReport, error) {
 	m := src.mapping
 	fr := &FileReport{Path: src.Path, Name: src.Name, Format: src.Format, SizeBytes: src.Size, SHA256: src.SHA256,
-		Mapping: m, Delimiter: src.Delimiter, Encoding: src.Encoding, Warnings: src.Warnings}
+		Mapping: m, Delimiter: src.Delimiter, Encoding: src.Encoding, Warnings: src.Warnings, Sheet: sheetReport(src)}
 	if opts.Replace {
 		// Earlier loads of the same content, or of the same path.
 		rows, err := tx.QueryContext(ctx, queries.Get("load_files_to_replace"), src.SHA256, src.Path)
@@ -736,8 +751,11 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		reader = queries.QuoteIdent(src.stage)
 		rowNumber = fmt.Sprintf("rowid - %d + 1", src.stageFirst)
 	}
-	if src.Format == "csv" {
+	if src.Format == "csv" || src.sheet != nil {
 		rejTable = src.rejects
+	}
+	if src.sheet != nil {
+		rowNumber, lineOffset = xlsxin.LineColumn, "0" // the sheet row number
 	}
 	insert := queries.Render("load_insert", map[string]string{
 		"row_number":  rowNumber,
@@ -789,6 +807,9 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		}
 	}
 	fr.RowsRead = fromReader + structural
+	if err := rejectSheetRows(ctx, tx, src, fr.FileID); err != nil {
+		return nil, err
+	}
 	if _, err := tx.ExecContext(ctx, queries.Render("load_reject_amounts", map[string]string{"raw_expr": rawExpr, "reason_expr": reasonExpr}), amountColName, fr.FileID); err != nil {
 		return nil, fmt.Errorf("%s: recording rejected amounts: %w", src.Path, err)
 	}
@@ -852,7 +873,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 	mapJSON, _ := json.Marshal(m)
 	dialect, _ := json.Marshal(map[string]any{"delimiter": src.Delimiter, "encoding": src.Encoding, "gzip": src.Gzip,
 		"decimal_comma": opts.DecimalComma, "decimal_point": opts.DecimalPoint, "time_zone": timeZone(opts), "amount_type": amountType, "date_format": opts.DateFormat,
-		"rows_rounded": fr.RowsRounded, "max_rejects": maxRejectsText(opts)})
+		"rows_rounded": fr.RowsRounded, "max_rejects": maxRejectsText(opts), "sheet": sheetName(src)})
 	if _, err := tx.ExecContext(ctx, queries.Get("load_insert_file"), fr.FileID, loadID, src.Path, src.Name, src.Format,
 		src.Size, src.SHA256, fr.RowsRead, fr.RowsLoaded, fr.RowsRejected, string(mapJSON), string(dialect), time.Now().UTC()); err != nil {
 		return nil, err
@@ -868,13 +889,13 @@ func checkRejectShare(fr *FileReport, opts Options) error {
 	if err != nil {
 		return err
 	}
-	if fr.RowsRead == 0 || float64(fr.RowsRejected) <= limit*float64(fr.RowsRead) {
+	if fr.RowsRead == 0 || float64(sharedRejects(fr)) <= limit*float64(fr.RowsRead) {
 		return nil
 	}
-	share := float64(fr.RowsRejected) / float64(fr.RowsRead)
+	share := float64(sharedRejects(fr)) / float64(fr.RowsRead)
 	top, hint := "", ""
 	if len(fr.RejectReasons) > 0 {
-		r := fr.RejectReasons[0]
+		r := topReason(fr)
 		top = fmt.Sprintf(" (most common reason, %d rows: %s, first at line %d)", r.Rows, r.Reason, deref(r.FirstLine))
 		switch {
 		case strings.Contains(r.Reason, "decimal comma?"):
@@ -886,7 +907,7 @@ func checkRejectShare(fr *FileReport, opts Options) error {
 		}
 	}
 	return fmt.Errorf("%s: %d of %d rows (%s) were rejected, more than the %s a load accepts%s.%s Fix the file or the options (leadline inspect shows how the file reads), or accept the rejects with --max-rejects %s or --accept-rejects; nothing was loaded",
-		fr.Path, fr.RowsRejected, fr.RowsRead, percent(share), maxRejectsText(opts), top, hint, percent(share))
+		fr.Path, sharedRejects(fr), fr.RowsRead, percent(share), maxRejectsText(opts), top, hint, percent(share))
 }
 
 func maxRejectsText(o Options) string {
@@ -984,7 +1005,7 @@ func isDateLike(t string) bool {
 // file_row_number, unless it has a column of that name itself, which the
 // reader then refuses to add: such a file is staged too.
 func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) error {
-	if src.Format != "csv" && !src.ownRowNumber() {
+	if src.Format != "csv" && src.sheet == nil && !src.ownRowNumber() {
 		return nil
 	}
 	src.stage, src.rejects = fmt.Sprintf("ll_stage_%d", i), fmt.Sprintf("ll_rejects_%d", i)
@@ -1069,12 +1090,12 @@ func readerSQL(src *Source, rejTable string) string {
 		}
 		return "read_parquet(" + queries.QuoteString(ExactPath(src.Path)) + ", file_row_number = true) AS ll_file(" + strings.Join(names, ", ") + ", ll_file_row)"
 	}
-	var cols []string
+	cols := src.lineColumns()
 	for i := range src.Columns {
 		cols = append(cols, queries.QuoteString(colName(i))+": 'VARCHAR'")
 	}
 	opts := []string{
-		queries.QuoteString(ExactPath(src.Path)),
+		queries.QuoteString(ExactPath(src.readPath())),
 		"auto_detect = false",
 		"header = true",
 		"columns = {" + strings.Join(cols, ", ") + "}",

@@ -422,7 +422,8 @@ func TestClearErrors(t *testing.T) {
 		"noamount.csv":   {"entity,value\nE1,3\n", "no amount column"},
 		"latin1.csv":     {"entity,amount\nCaf\xe9,3\n", "latin-1"},
 		"allbad.csv":     {"entity,amount\nE1,x\nE2,y\n", "none of its 2 rows"},
-		"unknown.xlsx":   {"PK", "unknown file type"},
+		"notzip.xlsx":    {"PK", "not an excel workbook"},
+		"unknown.ods":    {"PK", "unknown file type"},
 		"ragged_all.csv": {"a,b,amount\n1\n2\n", "none of its 2 rows"},
 	}
 	for name, c := range cases {

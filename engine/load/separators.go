@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/workspace"
+	"github.com/leadline/leadline/engine/xlsxin"
 	"github.com/leadline/leadline/queries"
 )
 
@@ -186,6 +187,9 @@ func amountTexts(src *Source) string {
 	from, pos := "", ""
 	if src.stage != "" {
 		from, pos = queries.QuoteIdent(src.stage), fmt.Sprintf("rowid - %d + 1", src.stageFirst)
+		if src.sheet != nil {
+			pos = xlsxin.LineColumn // the sheet row number: lineOf leaves it as it is
+		}
 	} else {
 		from, pos = readerSQL(src, ""), "ll_file_row + 1"
 	}

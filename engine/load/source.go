@@ -16,6 +16,7 @@ import (
 	"strings"
 	"unicode/utf8"
 
+	"github.com/leadline/leadline/engine/xlsxin"
 	"golang.org/x/text/encoding/charmap"
 	"golang.org/x/text/encoding/unicode"
 	"golang.org/x/text/transform"
@@ -41,6 +42,9 @@ type Source struct {
 	stage      string // CSV: the temporary table its records were read into
 	stageFirst int64  // the first rowid of stage
 	rejects    string // CSV: the temporary table of records the reader could not take
+
+	sheet   *xlsxin.Table // XLSX: the sheet read (see xlsx.go)
+	csvPath string        // XLSX: the temporary CSV of its rows, while staged
 }
 
 // ExpandPaths turns the command-line arguments (files and glob patterns)
@@ -138,8 +142,10 @@ func FormatOf(path string) (format string, gz bool, err error) {
 		return "parquet", false, nil
 	case ".csv", ".tsv", ".txt", ".tab", ".dsv", "":
 		return "csv", gz, nil
+	case ".xlsx", ".xlsm", ".xls":
+		return xlsxFormat(path, lower, gz)
 	}
-	return "", false, fmt.Errorf("%s: unknown file type %q (leadline reads .csv, .tsv, .txt, their .gz, and .parquet)", path, filepath.Ext(lower))
+	return "", false, fmt.Errorf("%s: unknown file type %q (leadline reads .csv, .tsv, .txt, their .gz, .parquet and .xlsx)", path, filepath.Ext(lower))
 }
 
 // Hash returns the file's size and SHA-256.
@@ -296,7 +302,7 @@ func notText(head []byte) string {
 	t := bytes.TrimLeft(bytes.TrimPrefix(head, []byte{0xEF, 0xBB, 0xBF}), " \t\r\n")
 	switch {
 	case bytes.HasPrefix(head, []byte("PK\x03\x04")):
-		return "line 1: the file is a ZIP archive, as an Excel workbook (.xlsx) is, not CSV text; save the sheet as CSV (UTF-8) and load that"
+		return "line 1: the file is a ZIP archive, as an Excel workbook (.xlsx) is, not CSV text; if it is a workbook, give it its .xlsx name (leadline reads those), or save the sheet as CSV (UTF-8) and load that"
 	case bytes.HasPrefix(head, []byte{0xD0, 0xCF, 0x11, 0xE0}):
 		return "line 1: the file is an old Excel workbook (.xls), not CSV text; save the sheet as CSV (UTF-8) and load that"
 	case bytes.HasPrefix(head, []byte("PAR1")):

@@ -79,6 +79,9 @@ type Source struct {
 	DecimalPoint bool              `toml:"decimal_point" json:"decimal_point,omitempty"` // settles amounts such as 1.234 that read both ways
 	MaxRejects   string            `toml:"max_rejects" json:"max_rejects,omitempty"`     // largest share of a file's rows rejected, "5%"
 	TimeZone     string            `toml:"time_zone" json:"time_zone,omitempty"`         // zone of Parquet timestamps with a time zone (default UTC)
+	// Sheet is the sheet of .xlsx files to read, by name or 1-based
+	// position ("" for the first sheet holding a value).
+	Sheet string `toml:"sheet" json:"sheet,omitempty"`
 }
 
 // Population is the [population] table: who is tested unless a step says

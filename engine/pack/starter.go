@@ -85,6 +85,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("delimiter = %s           # found in the header; \"\" to guess each time", q(delim))
 	enc := in.Encoding
 	w("encoding = %s       # utf-8, utf-16 or latin-1", q(enc))
+	starterSheet(w, in)
 	dc := in.AmountCheck != nil && in.AmountCheck.SuggestDecComma
 	if in.AmountCheck != nil {
 		w("decimal_comma = %v     # of %d sampled amounts, %d read with a decimal point, %d with a decimal comma",
@@ -335,4 +336,13 @@ func guessDateFormat(in *load.Inspection) (string, string) {
 		return "%m" + sep + "%d" + sep + "%Y", "month first: some sampled second numbers are above 12"
 	}
 	return "%d" + sep + "%m" + sep + "%Y", "CHECK: day first or month first? the sample cannot tell"
+}
+
+// starterSheet writes the sheet key: the sheet inspected, for a workbook.
+func starterSheet(w func(string, ...any), in *load.Inspection) {
+	if in.Sheet == nil {
+		w("# sheet = \"\"            # .xlsx: the sheet to read, by name or 1-based position (default: the first holding a table)")
+		return
+	}
+	w("sheet = %s           # of %d sheets; header at row %d (.xlsx: name or 1-based position)", q(in.Sheet.Sheet), len(in.Sheet.Sheets), in.Sheet.HeaderRow)
 }

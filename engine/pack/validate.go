@@ -393,7 +393,7 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		}
 		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma, DecimalPoint: s.DecimalPoint,
 			MaxRejects: s.MaxRejects, TimeZone: s.TimeZone, Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
-			Map: map[string]string{}}
+			Map: map[string]string{}, Sheet: s.Sheet}
 		if len(s.Files) == 0 {
 			c.errf(key+".files", "no files: give files = [\"extract.csv\"] or a pattern such as \"extracts/*.csv\" (relative to the pack file)")
 		}
@@ -553,6 +553,9 @@ func fileColumns(ctx context.Context, mem *workspace.Workspace, path string, o l
 			return nil, err
 		}
 		return src.Columns, nil
+	}
+	if format == "xlsx" {
+		return load.XLSXColumns(path, o)
 	}
 	rows, err := mem.Conn.QueryContext(ctx, queries.Render("pack_parquet_columns", map[string]string{"path": queries.QuoteString(load.ExactPath(path))}))
 	if err != nil {
