@@ -45,6 +45,9 @@ type Options struct {
 	// MaxRejects is the largest share of a file's rows that may be
 	// rejected, as "5%" ("" for DefaultMaxRejects, "100%" to accept any).
 	MaxRejects string `json:"max_rejects,omitempty"`
+	// InPlace registers Parquet files where they lie instead of copying
+	// their rows: the ledger becomes a view over them (inplace.go).
+	InPlace bool `json:"in_place,omitempty"`
 }
 
 // DefaultMaxRejects is the share of a file's rows a load may reject unless
@@ -138,6 +141,7 @@ type FileReport struct {
 	Encoding      string        `json:"encoding,omitempty"`
 	Warnings      []string      `json:"warnings"`
 	RejectReasons []ReasonCount `json:"reject_reasons"`
+	Mode          string        `json:"mode,omitempty"` // ModeInPlace for a file registered in place
 }
 
 // EntityTotal is one entity's control totals over the whole workspace.
@@ -203,6 +207,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	}
 	if err := checkTimeZone(ctx, ws, opts); err != nil {
 		return nil, err
+	}
+	if rep, done, err := inPlaceLoad(ctx, ws, args, opts, started); done {
+		return rep, err
 	}
 	paths, err := ExpandPaths(args)
 	if err != nil {
