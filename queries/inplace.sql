@@ -129,3 +129,14 @@ SELECT file_id, path, size_bytes, mtime_ns, sha256 FROM inplace_files ORDER BY f
 -- A file whose modification time changed but whose content did not:
 -- ? = the new time, ? = file_id.
 UPDATE inplace_files SET mtime_ns = ? WHERE file_id = ?;
+
+-- name: verify_files
+-- Every file's completeness record beside the rows the ledger holds for
+-- it now (for files in place, a pass over the files' amount and date
+-- columns). No bound parameters, no placeholders.
+SELECT f.file_id, f.path, f.rows_read, f.rows_loaded, f.rows_rejected,
+       (SELECT count(*) FROM rejects r WHERE r.file_id = f.file_id) AS rejects_stored,
+       coalesce(l.n, 0) AS in_ledger
+FROM files f
+LEFT JOIN (SELECT file_id, count(*) AS n FROM ledger GROUP BY file_id) l ON l.file_id = f.file_id
+ORDER BY f.file_id;
