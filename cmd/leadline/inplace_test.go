@@ -87,6 +87,11 @@ func TestInPlaceScanAndDrillMatchCopy(t *testing.T) {
 	if out := must("sql", "--db", pdb, "SELECT mode FROM files"); !strings.Contains(out, "in place") {
 		t.Errorf("files.mode: %s", out)
 	}
+	report := filepath.Join(dir, "in-place.html")
+	must("report", "--db", pdb, "--out", report)
+	if html, err := os.ReadFile(report); err != nil || !strings.Contains(string(html), "reads its Parquet files in place") || !strings.Contains(string(html), "parquet, in place") {
+		t.Errorf("the report does not say the files are in place (%v)", err)
+	}
 	if out := must("verify", "--db", pdb); !strings.Contains(out, "unchanged (hash checked)") {
 		t.Errorf("verify:\n%s", out)
 	}

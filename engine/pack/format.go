@@ -78,6 +78,7 @@ type Source struct {
 	DecimalPoint bool              `toml:"decimal_point" json:"decimal_point,omitempty"` // settles amounts such as 1.234 that read both ways
 	MaxRejects   string            `toml:"max_rejects" json:"max_rejects,omitempty"`     // largest share of a file's rows rejected, "5%"
 	TimeZone     string            `toml:"time_zone" json:"time_zone,omitempty"`         // zone of Parquet timestamps with a time zone (default UTC)
+	InPlace      bool              `toml:"in_place" json:"in_place,omitempty"`           // register Parquet files where they lie instead of copying them
 }
 
 // Population is the [population] table: who is tested unless a step says

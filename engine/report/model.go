@@ -144,7 +144,11 @@ type Completeness struct {
 	// LedgerKnown is set when the ledger's row count was read from the
 	// workspace (not for a pack run's own report, built from its tables).
 	LedgerKnown bool
-	totals      ref
+	// Mode is how the workspace holds its ledger: "copy", or "in place"
+	// (a view over Parquet files checked unchanged when the report opened
+	// the workspace).
+	Mode   string
+	totals ref
 }
 
 // TotalRef addresses the totals over the files.
