@@ -368,7 +368,7 @@ func buildInPlaceSQL(src *Source, opts Options, amountType string, fileID, base 
 		}
 	}
 	out.reasonExpr = "replace(" + out.reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
-	out.rounded = roundedTest(src, m, storedOf, opts.DecimalComma, scaleOf(amountType))
+	out.rounded = roundedInPlace(m, storedOf, opts.DecimalComma, scaleOf(amountType))
 	out.sel = queries.Render("inplace_select", map[string]string{
 		"row_id_base": fmt.Sprint(base),
 		"file_id":     fmt.Sprint(fileID),
@@ -383,6 +383,52 @@ func buildInPlaceSQL(src *Source, opts Options, amountType string, fileID, base 
 		out.keep += " AND NOT (posted IS NULL AND nullif(trim(CAST(" + out.dateRaw + " AS VARCHAR)), '') IS NOT NULL)"
 	}
 	return out
+}
+
+// roundedInPlace is roundedTest (the copy's count of amounts rounded to
+// the scale) written so that the pass stays one cheap read: the grammar's
+// parse runs only for the texts the cheap test picks (a CASE; inside an
+// aggregate's FILTER an AND evaluated the parse for every row, 100 times
+// slower), and a column whose type cannot hold more decimals than the
+// scale (integers, DECIMAL of that scale or less) has none.
+func roundedInPlace(m Mapping, storedOf map[string]storage, decimalComma bool, scale int) string {
+	cols := []string{m.Columns["amount"]}
+	if m.Debit != "" {
+		cols = []string{m.Debit, m.Credit}
+	}
+	var tests []string
+	for _, c := range cols {
+		st := storedOf[c]
+		if decimalsOf(st.typ) >= 0 && decimalsOf(st.typ) <= scale {
+			continue
+		}
+		x := queries.QuoteIdent(st.stored)
+		dc := decimalComma && !isNumeric(st.typ)
+		pre := fmt.Sprintf("(contains(%s, 'e') OR contains(%s, 'E') OR least(nullif(strpos(reverse(%s), '.'), 0), nullif(strpos(reverse(%s), ','), 0)) > %d)", x, x, x, x, scale+1)
+		beyond := queries.QuoteString(fmt.Sprintf(`\.[0-9]{%d}[0-9]*[1-9]`, scale))
+		tests = append(tests, fmt.Sprintf("CASE WHEN %s THEN regexp_matches(coalesce(ll_amount_canonical(%s, %t), ''), %s) ELSE false END", pre, x, dc, beyond))
+	}
+	if len(tests) == 0 {
+		return "false"
+	}
+	return strings.Join(tests, " OR ")
+}
+
+// decimalsOf is the most decimal places a Parquet column's type can
+// hold: 0 for integers, s for DECIMAL(p,s), -1 when unbounded (floats,
+// text).
+func decimalsOf(typ string) int {
+	t := strings.ToUpper(strings.TrimSpace(typ))
+	for _, p := range []string{"TINYINT", "SMALLINT", "INTEGER", "BIGINT", "HUGEINT", "UTINYINT", "USMALLINT", "UINTEGER", "UBIGINT", "UHUGEINT"} {
+		if t == p {
+			return 0
+		}
+	}
+	var p, s int
+	if n, _ := fmt.Sscanf(t, "DECIMAL(%d,%d)", &p, &s); n == 2 {
+		return s
+	}
+	return -1
 }
 
 func textOrNull(expr string) string {

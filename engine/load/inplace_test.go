@@ -357,3 +357,57 @@ func TestInPlaceRefusals(t *testing.T) {
 		t.Errorf("after --replace: %d rows (%v), files %q", n, err, modes)
 	}
 }
+
+type doubleAmount struct {
+	Amount float64 `parquet:"amount"`
+}
+
+type decimal4Amount struct {
+	Amount int64 `parquet:"amount,decimal(4:18)"`
+}
+
+func writeRows[T any](t *testing.T, path string, rows []T) {
+	t.Helper()
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := parquet.NewGenericWriter[T](f)
+	if _, err := w.Write(rows); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+	f.Close()
+}
+
+// TestInPlaceRounded: amounts with more decimal places than the scale are
+// counted alike by a copy and in place, for a DOUBLE column and for a
+// DECIMAL column of four places, and a DECIMAL of two places has none.
+// Hand-counted: 2.675, 0.125 and 0.001 have a nonzero third decimal
+// (10.5 and 3 do not); of 1.2345, 7.0000 and 0.0150, all but 7.0000.
+func TestInPlaceRounded(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	dbl := filepath.Join(dir, "double.parquet")
+	writeRows(t, dbl, []doubleAmount{{2.675}, {0.125}, {10.5}, {3}, {0.001}})
+	dec := filepath.Join(dir, "decimal4.parquet")
+	writeRows(t, dec, []decimal4Amount{{12345}, {70000}, {150}})
+	for _, c := range []struct {
+		path    string
+		rounded int64
+		net     string
+	}{{dbl, 3, "16.31"}, {dec, 2, "8.25"}} { // 2.68 + 0.13 + 10.50 + 3.00 + 0.00; 1.23 + 7.00 + 0.02
+		for _, inPlace := range []bool{false, true} {
+			ws := openWS(t, ":memory:")
+			rep, err := Load(ctx, ws, []string{c.path}, Options{InPlace: inPlace})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if f := rep.Files[0]; f.RowsRounded != c.rounded || f.Net != c.net {
+				t.Errorf("%s, in place %v: %d rounded, net %s; want %d, %s", filepath.Base(c.path), inPlace, f.RowsRounded, f.Net, c.rounded, c.net)
+			}
+		}
+	}
+}
