@@ -3,6 +3,7 @@ package load
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -408,6 +409,51 @@ func TestInPlaceRounded(t *testing.T) {
 			if f := rep.Files[0]; f.RowsRounded != c.rounded || f.Net != c.net {
 				t.Errorf("%s, in place %v: %d rounded, net %s; want %d, %s", filepath.Base(c.path), inPlace, f.RowsRounded, f.Net, c.rounded, c.net)
 			}
+		}
+	}
+}
+
+type textAmount struct {
+	Amount string `parquet:"amount"`
+	Debit  string `parquet:"debit"`
+	Credit string `parquet:"credit"`
+}
+
+// TestInPlaceTextAmounts: amounts held as text go through the same
+// grammar in place as in a copy, for one amount column and for debit
+// minus credit: the same values, the same rejects.
+func TestInPlaceTextAmounts(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	pq := filepath.Join(dir, "text.parquet")
+	var rows []textAmount
+	for i := 0; i < 40; i++ {
+		rows = append(rows, textAmount{Amount: "1,234.56", Debit: "10.00", Credit: ""})
+	}
+	rows = append(rows,
+		textAmount{Amount: "(12.00)", Debit: "", Credit: "5.5"},
+		textAmount{Amount: "abc", Debit: "x", Credit: "1"},
+		textAmount{Amount: "EUR 7.125", Debit: "", Credit: ""},
+	)
+	writeRows(t, pq, rows)
+	for _, o := range []Options{{MaxRejects: "100%"}, {Debit: "debit", Credit: "credit", MaxRejects: "100%"}} {
+		var got [2]string
+		for i, inPlace := range []bool{false, true} {
+			o.InPlace = inPlace
+			ws := openWS(t, ":memory:")
+			rep, err := Load(ctx, ws, []string{pq}, o)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var rej string
+			if err := ws.Conn.QueryRowContext(ctx, "SELECT coalesce(string_agg(line || ':' || column_name || ':' || coalesce(raw_value, '') || ':' || reason, '; ' ORDER BY line), '') FROM rejects").Scan(&rej); err != nil {
+				t.Fatal(err)
+			}
+			f := rep.Files[0]
+			got[i] = fmt.Sprintf("read %d loaded %d rejected %d rounded %d net %s rejects %s", f.RowsRead, f.RowsLoaded, f.RowsRejected, f.RowsRounded, f.Net, rej)
+		}
+		if got[0] != got[1] || !strings.Contains(got[0], "read 43") || strings.Contains(got[0], "rejected 0") {
+			t.Errorf("debit %q: copy and in place differ:\ncopy     %s\nin place %s", o.Debit, got[0], got[1])
 		}
 	}
 }
