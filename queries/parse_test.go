@@ -87,6 +87,11 @@ func fragments(dir string, segmented bool) map[string]string {
 		"period_from":    "DATE '2025-01-01'",
 		"period_to":      "DATE '2025-12-31'",
 		"weight":         "copies",
+		// files in place (inplace.sql)
+		"select":   "SELECT 1 AS row_id, 1 AS line, 2.5 AS amount, DATE '2025-01-01' AS posted, '1' AS amt",
+		"rounded":  "false",
+		"date_raw": `"amt"`,
+		"union":    "SELECT 1 AS row_id",
 	}
 	if segmented {
 		f["group_by"] = "GROUP BY ll_s1"

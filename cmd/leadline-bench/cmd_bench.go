@@ -35,8 +35,10 @@ accounting of that process):
   bare Parquet read   SELECT count(*), sum(amount) FROM read_parquet(...)
   copy Parquet        CREATE TABLE AS SELECT * FROM read_parquet(...)
   load Parquet        leadline load
+  register in place   leadline load --in-place (no copy: hash, footer, one completeness pass)
   first-two GROUP BY  one hand-written first-two digits query on the workspace (the floor)
   scan                leadline scan of the six tests fed by the one aggregate scan
+  scan in place       the same scan over the Parquet file registered in place
   scan by segments    the same --by entity --by account --by month (about 1,000 segments)
   scan, all tests     leadline scan with second-order and number duplication too
   duplicates          leadline dups (all duplicate tests)
@@ -158,6 +160,7 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	pqPath := filepath.Join(dir, "ledger.parquet")
 	csvDB := filepath.Join(dir, "csv.duckdb")
 	pqDB := filepath.Join(dir, "parquet.duckdb")
+	placeDB := filepath.Join(dir, "inplace.duckdb")
 	dbArgs := func(db string) []string {
 		a := []string{"--db", db}
 		if o.memory != "" {
@@ -204,14 +207,14 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 		return nil
 	}
 	if _, err := os.Stat(pqPath); err != nil || !o.keep {
-		for _, p := range []string{csvDB, pqDB, csvDB + ".wal", pqDB + ".wal"} {
+		for _, p := range []string{csvDB, pqDB, placeDB, csvDB + ".wal", pqDB + ".wal", placeDB + ".wal"} {
 			os.Remove(p)
 		}
 		if err := add(step("generate files", "bench-step", "gen", dir, "--rows", strconv.FormatInt(o.rows, 10))); err != nil {
 			return err
 		}
 	}
-	for _, p := range []string{csvDB, pqDB, csvDB + ".wal", pqDB + ".wal"} {
+	for _, p := range []string{csvDB, pqDB, placeDB, csvDB + ".wal", pqDB + ".wal", placeDB + ".wal"} {
 		os.Remove(p)
 	}
 	if err := add(step("bare CSV read", append([]string{"bench-step", "bare-csv", csvPath}, dbArgs(":memory:")...)...)); err != nil {
@@ -236,6 +239,9 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	if err := add(step("load Parquet", append(append([]string{"load"}, dbArgs(pqDB)...), pqPath)...)); err != nil {
 		return err
 	}
+	if err := add(step("register in place", append(append([]string{"load", "--in-place"}, dbArgs(placeDB)...), pqPath)...)); err != nil {
+		return err
+	}
 	if err := add(step("first-two GROUP BY", append([]string{"bench-step", "first-two", pqDB}, dbArgs(pqDB)[2:]...)...)); err != nil {
 		return err
 	}
@@ -244,6 +250,9 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	// sort and a GROUP BY amount), timed with the full default scan.
 	const oneScan = "first,second,first_two,first_three,last_two,summation"
 	if err := add(step("scan", append(append([]string{"scan"}, dbArgs(pqDB)...), "--tests", oneScan, "--format", "json")...)); err != nil {
+		return err
+	}
+	if err := add(step("scan in place", append(append([]string{"scan"}, dbArgs(placeDB)...), "--tests", oneScan, "--format", "json")...)); err != nil {
 		return err
 	}
 	if err := add(step("scan by segments", append(append([]string{"scan"}, dbArgs(pqDB)...), "--tests", oneScan, "--by", "entity", "--by", "account", "--by", "month", "--format", "json")...)); err != nil {
@@ -274,6 +283,9 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	fmt.Fprintf(e.stdout, "\nRatios (and the sizing goals):\n")
 	fmt.Fprintf(e.stdout, "  load CSV throughput / bare CSV read:         %.2f   (goal at least 0.8)\n", 1/ratio("load CSV", "bare CSV read"))
 	fmt.Fprintf(e.stdout, "  load Parquet throughput / bare Parquet read: %.2f   (goal at least 0.8)\n", 1/ratio("load Parquet", "bare Parquet read"))
+	fmt.Fprintf(e.stdout, "  register in place throughput / bare Parquet read: %.2f   (goal at least 0.5)\n", 1/ratio("register in place", "bare Parquet read"))
+	fmt.Fprintf(e.stdout, "  register in place throughput / load Parquet: %.2f\n", 1/ratio("register in place", "load Parquet"))
+	fmt.Fprintf(e.stdout, "  scan in place / scan:                        %.2f   (goal at most 1.5)\n", ratio("scan in place", "scan"))
 	fmt.Fprintf(e.stdout, "  load CSV throughput / DuckDB's own copy:     %.2f   (the floor of any load: every column written)\n", 1/ratio("load CSV", "copy CSV"))
 	fmt.Fprintf(e.stdout, "  load Parquet throughput / DuckDB's own copy: %.2f\n", 1/ratio("load Parquet", "copy Parquet"))
 	fmt.Fprintf(e.stdout, "  scan / first-two GROUP BY:                   %.2f   (goal at most 1.3)\n", ratio("scan", "first-two GROUP BY"))

@@ -41,7 +41,15 @@ Examples:
   leadline load --debit Debit --credit Credit --date-format '%d/%m/%Y' journal.csv
   leadline load --sheet Journal ledger.xlsx  # one sheet of a workbook, by name or position
   leadline load --format json ledger.csv    # per file rows_read, rows_loaded, rows_rejected, sha256
-  leadline load --period 2025-01-01..2025-12-31 --control tb_2025.csv gl.csv   # reconcile to the trial balance`,
+  leadline load --period 2025-01-01..2025-12-31 --control tb_2025.csv gl.csv   # reconcile to the trial balance
+  leadline load --in-place --db big.duckdb 'lake/2025-*.parquet'   # no copy: the ledger is a view over the files
+
+--in-place (Parquet only) records each file's path, size, modification
+time, SHA-256 and footer row count, proves completeness in one pass over
+the amount and date columns, and makes the ledger a view applying the same
+amount rules as a copy. Every later command checks the files (size and
+time; SHA-256 when those differ; leadline verify hashes them all) and
+refuses to run on a changed or missing one.`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var db dbFlags
 			var f formatFlag
@@ -59,6 +67,7 @@ Examples:
 			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8 (default), utf-16 or latin-1")
 			fs.StringVar(&o.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
 			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
+			fs.BoolVar(&o.InPlace, "in-place", false, "register Parquet files where they lie instead of copying their rows: the ledger reads them, and every later command refuses to run if one changed")
 			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of its earlier load (same content, or the same path with new content), in one transaction")
 			fs.StringVar(&o.Sheet, "sheet", "", "XLSX: the sheet to read, by name or 1-based position (default: the first sheet holding a value)")
 			fs.StringVar(&o.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")
@@ -133,7 +142,11 @@ func printLoad(w io.Writer, format string, rep *load.Report) error {
 		}
 		return files.WriteCSV(w)
 	}
-	fmt.Fprintf(w, "Loaded into %s (load %d, amounts as %s) in %.1fs\n\n", rep.Workspace, rep.LoadID, rep.AmountType, rep.Seconds)
+	if len(rep.Files) > 0 && rep.Files[0].Mode == load.ModeInPlace {
+		fmt.Fprintf(w, "Registered in place in %s (load %d, amounts as %s) in %.1fs: no rows were copied; the ledger reads these files where they lie, and every command refuses to run if one changes\n\n", rep.Workspace, rep.LoadID, rep.AmountType, rep.Seconds)
+	} else {
+		fmt.Fprintf(w, "Loaded into %s (load %d, amounts as %s) in %.1fs\n\n", rep.Workspace, rep.LoadID, rep.AmountType, rep.Seconds)
+	}
 	if err := files.WriteText(w, 0); err != nil {
 		return err
 	}

@@ -42,9 +42,11 @@ func (d *dbFlags) open(ctx context.Context, readOnly bool) (*workspace.Workspace
 	return d.openWith(ctx, workspace.Options{ReadOnly: readOnly, MustExist: true})
 }
 
-// openOrCreate opens the workspace, creating it when there is none (load).
+// openOrCreate opens the workspace, creating it when there is none (load;
+// the load checks the files registered in place itself, leaving out those
+// it replaces).
 func (d *dbFlags) openOrCreate(ctx context.Context) (*workspace.Workspace, error) {
-	return d.openWith(ctx, workspace.Options{})
+	return d.openWith(ctx, workspace.Options{DeferFileCheck: true})
 }
 
 func (d *dbFlags) openWith(ctx context.Context, o workspace.Options) (*workspace.Workspace, error) {

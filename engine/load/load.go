@@ -49,6 +49,9 @@ type Options struct {
 	// Sheet is the sheet of an .xlsx file to read: its name or 1-based
 	// position ("" for the first sheet holding a value).
 	Sheet string `json:"sheet,omitempty"`
+	// InPlace registers Parquet files where they lie instead of copying
+	// their rows: the ledger becomes a view over them (inplace.go).
+	InPlace bool `json:"in_place,omitempty"`
 }
 
 // DefaultMaxRejects is the share of a file's rows a load may reject unless
@@ -143,6 +146,7 @@ type FileReport struct {
 	Warnings      []string      `json:"warnings"`
 	RejectReasons []ReasonCount `json:"reject_reasons"`
 	Sheet         *SheetReport  `json:"sheet,omitempty"` // XLSX: the sheet read
+	Mode          string        `json:"mode,omitempty"`  // ModeInPlace for a file registered in place
 }
 
 // EntityTotal is one entity's control totals over the whole workspace.
@@ -208,6 +212,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	}
 	if err := checkTimeZone(ctx, ws, opts); err != nil {
 		return nil, err
+	}
+	if rep, done, err := inPlaceLoad(ctx, ws, args, opts, started); done {
+		return rep, err
 	}
 	paths, err := ExpandPaths(args)
 	if err != nil {

@@ -123,6 +123,7 @@ type Input struct {
 	RowsRead     int64  `json:"rows_read"`
 	RowsLoaded   int64  `json:"rows_loaded"`
 	RowsRejected int64  `json:"rows_rejected"`
+	Mode         string `json:"mode"` // copy, or in place (the workspace reads the file where it lies)
 }
 
 // OutputFile is one file written into the output folder.

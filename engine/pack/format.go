@@ -81,7 +81,8 @@ type Source struct {
 	TimeZone     string            `toml:"time_zone" json:"time_zone,omitempty"`         // zone of Parquet timestamps with a time zone (default UTC)
 	// Sheet is the sheet of .xlsx files to read, by name or 1-based
 	// position ("" for the first sheet holding a value).
-	Sheet string `toml:"sheet" json:"sheet,omitempty"`
+	Sheet   string `toml:"sheet" json:"sheet,omitempty"`
+	InPlace bool   `toml:"in_place" json:"in_place,omitempty"` // register Parquet files where they lie instead of copying them
 }
 
 // Population is the [population] table: who is tested unless a step says

@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"time"
 
+	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/reconcile"
 	"github.com/leadline/leadline/engine/workspace"
@@ -156,7 +157,10 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 	}
 	var manInputs []output.Input
 	for _, in := range inputs {
-		mi := output.Input{Source: pl.Sources[in.Source].Name, Path: pl.rel(in.Path), SizeBytes: in.Size, SHA256: in.SHA256}
+		mi := output.Input{Source: pl.Sources[in.Source].Name, Path: pl.rel(in.Path), SizeBytes: in.Size, SHA256: in.SHA256, Mode: load.ModeCopy}
+		if pl.Sources[in.Source].Options.InPlace {
+			mi.Mode = load.ModeInPlace
+		}
 		for _, t := range run.Tables {
 			if t.Name != "inputs" {
 				continue

@@ -393,7 +393,7 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		}
 		ps.Options = load.Options{Debit: s.Debit, Credit: s.Credit, DecimalComma: s.DecimalComma, DecimalPoint: s.DecimalPoint,
 			MaxRejects: s.MaxRejects, TimeZone: s.TimeZone, Delimiter: s.Delimiter, Encoding: s.Encoding, DateFormat: s.DateFormat, Scale: pl.Scale, Precision: pl.Precision,
-			Map: map[string]string{}, Sheet: s.Sheet}
+			Map: map[string]string{}, Sheet: s.Sheet, InPlace: s.InPlace}
 		if len(s.Files) == 0 {
 			c.errf(key+".files", "no files: give files = [\"extract.csv\"] or a pattern such as \"extracts/*.csv\" (relative to the pack file)")
 		}
@@ -470,6 +470,17 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		case "", "utf-8", "utf8", "utf-16", "latin-1", "latin1", "iso-8859-1":
 		default:
 			c.errf(key+".encoding", "encoding %q: give utf-8, utf-16 or latin-1", s.Encoding)
+		}
+		if s.InPlace {
+			for _, f := range ps.Files {
+				if format, _, err := load.FormatOf(f); err == nil && format != "parquet" {
+					c.errf(key+".in_place", "in_place registers Parquet files only; %s is read as %s: remove in_place = true to copy it", f, format)
+					break
+				}
+			}
+		}
+		if s.InPlace != c.p.Sources[0].InPlace {
+			c.errf(key+".in_place", "in_place must be the same for every source: one workspace holds either copied rows or files in place")
 		}
 		if s.DecimalComma && s.DecimalPoint {
 			c.errf(key+".decimal_point", "decimal_comma and decimal_point contradict each other: give one")

@@ -132,7 +132,9 @@ func openWorkspace(ctx context.Context, pl *Plan, inputs []inputFile, fresh bool
 // openLocked is openWorkspace under the lock.
 func openLocked(ctx context.Context, pl *Plan, inputs []inputFile, fp string, fresh bool, log io.Writer) (ws *workspace.Workspace, action, reason string, err error) {
 	if _, statErr := os.Stat(pl.Workspace); statErr == nil {
-		ws, err := workspace.Open(ctx, pl.Workspace, workspace.Options{MustExist: true})
+		// Files in place are compared below by their SHA-256, as every
+		// input is: a changed one makes a fresh load, not a refusal.
+		ws, err := workspace.Open(ctx, pl.Workspace, workspace.Options{MustExist: true, DeferFileCheck: true})
 		if err != nil {
 			return nil, "", "", err
 		}

@@ -150,7 +150,11 @@ type Completeness struct {
 	// reconciliation with a control file (nil when none was made).
 	Journal        *journal.Summary
 	Reconciliation *reconcile.Result
-	totals         ref
+	// Mode is how the workspace holds its ledger: "copy", or "in place"
+	// (a view over Parquet files checked unchanged when the report opened
+	// the workspace).
+	Mode   string
+	totals ref
 }
 
 // TotalRef addresses the totals over the files.

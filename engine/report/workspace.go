@@ -214,6 +214,14 @@ func readCompleteness(ctx context.Context, ws *workspace.Workspace, samples int)
 		return nil, err
 	}
 	if hasLedger {
+		if c.Mode, err = load.Mode(ctx, ws); err != nil {
+			return nil, err
+		}
+		if c.Mode == load.ModeInPlace {
+			for i := range c.Files {
+				c.Files[i].Format += ", in place"
+			}
+		}
 		c.LedgerKnown = true
 		if err := ws.Conn.QueryRowContext(ctx, stmt("report_ledger_rows")).Scan(&c.LedgerRows); err != nil {
 			return nil, err

@@ -30,6 +30,10 @@ type Options struct {
 	// works on one that exists, and a mistyped --db must not leave an
 	// empty workspace behind.
 	MustExist bool
+	// DeferFileCheck leaves the check of files registered in place to the
+	// caller (a load that may replace them); every other open refuses a
+	// workspace whose files changed (CheckFiles).
+	DeferFileCheck bool
 }
 
 // Workspace is an open workspace. It holds a single connection: DuckDB
@@ -123,6 +127,12 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 	if _, err := conn.ExecContext(ctx, queries.Get("create_amount_macros")); err != nil {
 		ws.Close()
 		return nil, fmt.Errorf("workspace %s: creating the amount macros: %w", path, err)
+	}
+	if !opts.DeferFileCheck && !empty {
+		if _, err := ws.CheckFiles(ctx, false, nil); err != nil {
+			ws.Close()
+			return nil, fmt.Errorf("workspace %s: %w", path, err)
+		}
 	}
 	return ws, nil
 }
