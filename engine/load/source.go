@@ -15,7 +15,6 @@ import (
 	"sort"
 	"strings"
 	"unicode/utf8"
-
 )
 
 // Source is one input file, examined before loading.
