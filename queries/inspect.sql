@@ -3,11 +3,14 @@
 -- it), {{column}} a column of it, quoted by queries.QuoteIdent.
 
 -- name: inspect_amount_marks
--- Of a sample of a text amount column: values, and how many read with a
--- decimal point and with a decimal comma.
+-- Of a sample of a text amount column: values, how many read with a
+-- decimal point and with a decimal comma, and how many of each reading are
+-- 10^16 or more (beyond DECIMAL(18,2)).
 SELECT count(*),
        count(TRY_CAST(ll_amount_canonical(v, false) AS DECIMAL(38,6))),
-       count(TRY_CAST(ll_amount_canonical(v, true) AS DECIMAL(38,6)))
+       count(TRY_CAST(ll_amount_canonical(v, true) AS DECIMAL(38,6))),
+       count(*) FILTER (WHERE abs(TRY_CAST(ll_amount_canonical(v, false) AS DOUBLE)) >= 1e16),
+       count(*) FILTER (WHERE abs(TRY_CAST(ll_amount_canonical(v, true) AS DOUBLE)) >= 1e16)
 FROM (SELECT CAST({{column}} AS VARCHAR) AS v FROM {{reader}} LIMIT 200000);
 
 -- name: inspect_date_formats

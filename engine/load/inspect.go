@@ -46,6 +46,10 @@ type AmountCheck struct {
 	ParsePoint      int64  `json:"parse_with_decimal_point"`
 	ParseComma      int64  `json:"parse_with_decimal_comma"`
 	SuggestDecComma bool   `json:"suggest_decimal_comma"`
+	// Large counts the amounts of 10^16 or more under the suggested mark,
+	// which need --precision 38.
+	Large            int64 `json:"large_amounts"`
+	SuggestPrecision bool  `json:"suggest_precision_38"`
 }
 
 // Inspect examines a file without loading it. ws may be an in-memory
@@ -172,6 +176,9 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	if format == "csv" {
 		in.AmountCheck = amountMarks(ctx, ws, src, in.Mapping, reader)
 		in.DateFormat, in.DateWhy = dateFormat(ctx, ws, src, in.Mapping, reader, &in.Warnings)
+		if msg := separatorCheck(ctx, ws, src, in.Mapping, reader, in.AmountCheck); msg != "" {
+			in.Warnings = append(in.Warnings, "CHECK the decimal mark: "+msg)
+		}
 	}
 	for _, c := range Canonical {
 		if _, ok := in.Mapping.Columns[c]; !ok && !(c == "amount" && in.Mapping.Debit != "") {
@@ -189,6 +196,9 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	}
 	if in.AmountCheck != nil && in.AmountCheck.SuggestDecComma {
 		cmd = append(cmd, "--decimal-comma")
+	}
+	if in.AmountCheck != nil && in.AmountCheck.SuggestPrecision {
+		cmd = append(cmd, "--precision 38")
 	}
 	if in.DateFormat != "" {
 		cmd = append(cmd, "--date-format "+shellQuote(in.DateFormat))

@@ -85,16 +85,22 @@ func amountMarks(ctx context.Context, ws *workspace.Workspace, src *Source, m Ma
 	}
 	ac := &AmountCheck{Column: strings.Join(cols, " | ")}
 	for _, c := range cols {
-		var n, point, comma int64
+		var n, point, comma, largePoint, largeComma int64
 		q := queries.Render("inspect_amount_marks", map[string]string{"column": src.ref(c), "reader": reader})
-		if err := ws.Conn.QueryRowContext(ctx, q).Scan(&n, &point, &comma); err != nil {
+		if err := ws.Conn.QueryRowContext(ctx, q).Scan(&n, &point, &comma, &largePoint, &largeComma); err != nil {
 			return nil
 		}
 		ac.Sampled += n
 		ac.ParsePoint += point
 		ac.ParseComma += comma
+		if ac.SuggestDecComma = comma > point; ac.SuggestDecComma {
+			ac.Large += largeComma
+		} else {
+			ac.Large += largePoint
+		}
 	}
 	ac.SuggestDecComma = ac.ParseComma > ac.ParsePoint
+	ac.SuggestPrecision = ac.Large > 0
 	return ac
 }
 
@@ -185,4 +191,34 @@ func dateFormat(ctx context.Context, ws *workspace.Workspace, src *Source, m Map
 		why += fmt.Sprintf(", month first (day first, %s, does not read them all)", dayMonthTwin(f))
 	}
 	return f, why
+}
+
+// separatorCheck runs the load's own decimal-mark check (checkSeparators)
+// on a sample of the file, under the suggested mark: the message the load
+// would refuse the file with, "" when it would not. Amounts such as 1.234
+// with nothing in the file to settle them need the analyst's word.
+func separatorCheck(ctx context.Context, ws *workspace.Workspace, src *Source, m Mapping, reader string, ac *AmountCheck) string {
+	if ac == nil {
+		return ""
+	}
+	const stage = "ll_inspect_stage"
+	q := queries.Render("load_stage", map[string]string{"stage": queries.QuoteIdent(stage), "reader": "(SELECT * FROM " + reader + " LIMIT 200000)"})
+	if _, err := ws.Conn.ExecContext(ctx, q); err != nil {
+		return ""
+	}
+	defer ws.Conn.ExecContext(context.WithoutCancel(ctx), queries.Render("load_drop_temp", map[string]string{"table": queries.QuoteIdent(stage)}))
+	probe := *src
+	probe.stage, probe.mapping = stage, m
+	if err := ws.Conn.QueryRowContext(ctx, queries.Render("load_stage_first", map[string]string{"stage": queries.QuoteIdent(stage)})).Scan(&probe.stageFirst); err != nil {
+		return ""
+	}
+	prec := 18
+	if ac.SuggestPrecision {
+		prec = 38
+	}
+	o := Options{DecimalComma: ac.SuggestDecComma, Scale: 2, Precision: prec}
+	if err := checkSeparators(ctx, ws, &probe, o, 2); err != nil {
+		return strings.TrimSuffix(strings.TrimPrefix(err.Error(), src.Path+": "), "; nothing was loaded")
+	}
+	return ""
 }
