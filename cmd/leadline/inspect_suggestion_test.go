@@ -16,7 +16,7 @@ import (
 )
 
 // shellWords splits the load command inspect prints: words separated by
-// spaces, single quotes around a word that needs them ('\'' for a quote).
+// spaces, single quotes around a word that needs them ('\” for a quote).
 func shellWords(t *testing.T, s string) []string {
 	t.Helper()
 	var words []string
@@ -160,7 +160,7 @@ type export struct {
 const (
 	deDescr1252 = "M\xfcller GmbH \x96 B\xfcrobedarf 19 \x80 Stra\xdfe" // Windows-1252
 	deDescrUTF8 = "Müller GmbH – Bürobedarf 19 € Straße"
-	nlDescr15   = "Koffie \xa4 5 \xbd \xe9\xe9n"                        // ISO-8859-15: 0xA4 euro, 0xBD oe
+	nlDescr15   = "Koffie \xa4 5 \xbd \xe9\xe9n" // ISO-8859-15: 0xA4 euro, 0xBD oe
 	nlDescrUTF8 = "Koffie € 5 œ één"
 	ptDescr1252 = "Lan\xe7amento \x93f\xe9rias\x94 \x80 a\xe7\xe3o" // Windows-1252
 	ptDescrUTF8 = "Lançamento “férias” € ação"
