@@ -199,6 +199,7 @@ type evidence struct {
 
 	invalidLine int64 // first line holding invalid UTF-8, 0 if none
 	invalidByte byte
+	invalid     int64 // bytes that are not part of valid UTF-8
 	multi       int64 // valid UTF-8 sequences of two or more bytes
 	multiLine   int64
 	multiText   string
@@ -277,6 +278,7 @@ func (e *evidence) feed(p []byte, final bool) {
 			if e.invalidLine == 0 {
 				e.invalidLine, e.invalidByte = e.line, b
 			}
+			e.invalid++
 			e.high(b)
 			i++
 			continue
@@ -300,6 +302,11 @@ func (e *evidence) verdict() (enc, why string) {
 	switch {
 	case e.invalidLine == 0 && e.multi == 0:
 		return "utf-8", "every byte is ASCII, which UTF-8 and the Western one-byte encodings read alike"
+	case e.invalidLine != 0 && e.multi > e.invalid:
+		// One-byte text rarely forms valid UTF-8 by chance: more valid
+		// characters than stray bytes is UTF-8 with a few bytes damaged.
+		return "utf-8", fmt.Sprintf("%d characters of two or more bytes form valid UTF-8 (the first, %q, on line %d), against %d bytes that do not (the first, 0x%02X, on line %d): UTF-8 with damaged bytes, whose records are rejected",
+			e.multi, e.multiText, e.multiLine, e.invalid, e.invalidByte, e.invalidLine)
 	case e.invalidLine == 0:
 		return "utf-8", fmt.Sprintf("all bytes form valid UTF-8, with %d characters of two or more bytes (the first, %q, on line %d)", e.multi, e.multiText, e.multiLine)
 	case e.c1 > 0 && e.undefLine == 0:
@@ -481,6 +488,9 @@ func wrongEightBit(enc string, ev *evidence) string {
 	case ev.invalidLine == 0 && ev.multi > 0:
 		return fmt.Sprintf("line %d: %q is a valid UTF-8 character, and the whole file is valid UTF-8 (%d such characters), which --encoding %s would turn into other letters; the file is most likely UTF-8: give --encoding utf-8 or none",
 			ev.multiLine, ev.multiText, ev.multi, enc)
+	case ev.multi > ev.invalid:
+		return fmt.Sprintf("line %d: %q is a valid UTF-8 character, and the file holds %d such against %d bytes that are not UTF-8 (the first on line %d), which --encoding %s would turn into other letters; the file is most likely UTF-8 with damaged bytes: give --encoding utf-8 or none (those records are then rejected)",
+			ev.multiLine, ev.multiText, ev.multi, ev.invalid, ev.invalidLine, enc)
 	}
 	return ""
 }

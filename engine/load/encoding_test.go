@@ -46,6 +46,7 @@ func TestEncodingEvidence(t *testing.T) {
 		{"latin-9 euro", "a,b\n1,\xa4 5\n2,caf\xe9\n", "iso-8859-15", "first on line 2"},
 		{"latin-1 alike", "a,b\n1,x\n2,Stra\xdfe\n", "windows-1252", "read this file alike"},
 		{"undefined in cp1252", "a,b\n1,\x81\xe9\n", "iso-8859-1", "undefined in Windows-1252"},
+		{"utf-8, one damaged byte", "a,b\n1,\u00fc\u00e4\n2,\xfc\n3,\u20ac\n", "utf-8", "against 1 bytes that do not (the first, 0xFC, on line 3)"},
 	}
 	for _, c := range cases {
 		for _, piecewise := range []bool{false, true} {
@@ -159,6 +160,18 @@ func TestTranscodedLoad(t *testing.T) {
 		if len(left) != 0 {
 			t.Errorf("%s: temporary copies left behind: %v", c.name, left)
 		}
+	}
+}
+
+// TestOneByteOnDamagedUTF8: a UTF-8 file with one damaged byte under a
+// one-byte encoding is refused: its valid characters would change.
+func TestOneByteOnDamagedUTF8(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "x.csv")
+	os.WriteFile(p, []byte("entity,amount,descr\nE1,1.00,M\u00fcller\nE2,2.00,\xfc\nE3,3.00,\u20ac 5\n"), 0o644)
+	ws := openWS(t, ":memory:")
+	_, err := Load(context.Background(), ws, []string{p}, Options{Encoding: "windows-1252"})
+	if err == nil || !strings.Contains(err.Error(), "line 2") || !strings.Contains(err.Error(), "UTF-8 with damaged bytes") {
+		t.Fatalf("error %v", err)
 	}
 }
 
