@@ -127,6 +127,14 @@ func utf16Pattern(head []byte) string {
 	return ""
 }
 
+// utf16Label names utf-16le or utf-16be in words.
+func utf16Label(enc string) string {
+	if enc == "utf-16be" {
+		return "UTF-16 big-endian"
+	}
+	return "UTF-16 little-endian"
+}
+
 // settleEncoding settles the encoding of a CSV file from its first bytes and
 // the declared name (already normalized, "" when none), and returns the
 // head as UTF-8. A byte-order mark that contradicts the declared encoding
@@ -145,7 +153,7 @@ func settleEncoding(head []byte, declared string) (enc string, text []byte, warn
 			enc, mark = "utf-16be", "FE FF"
 		}
 		if declared != "" && declared != "utf-16" && declared != enc {
-			return "", nil, "", fmt.Errorf("line 1: the file starts with the byte-order mark %s of %s, but --encoding %s was given; give --encoding %s or none", mark, strings.ToUpper(enc[:6])+" "+strings.TrimPrefix(enc, "utf-16"), declared, enc)
+			return "", nil, "", fmt.Errorf("line 1: the file starts with the byte-order mark %s of %s, but --encoding %s was given; give --encoding %s or none", mark, utf16Label(enc), declared, enc)
 		}
 		declared = enc
 	case declared == "utf-16":
@@ -364,7 +372,7 @@ func DetectEncoding(path string) (Detection, error) {
 		if p == "utf-16be" {
 			where = "even"
 		}
-		return Detection{p, fmt.Sprintf("no byte-order mark, but NUL bytes in %s positions of the first %d bytes, as ASCII characters have in %s", where, len(head)&^1, strings.ToUpper(p[:6])+" "+p[6:])}, nil
+		return Detection{p, fmt.Sprintf("no byte-order mark, but NUL bytes in %s positions of the first %d bytes, as ASCII characters have in %s", where, len(head)&^1, utf16Label(p))}, nil
 	}
 	ev := newEvidence()
 	if _, err := io.Copy(ev, br); err != nil {
