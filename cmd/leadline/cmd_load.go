@@ -64,7 +64,7 @@ refuses to run on a changed or missing one.`,
 			fs.IntVar(&o.Scale, "scale", 2, "decimal places kept in amounts (fixed by a workspace's first load)")
 			fs.IntVar(&o.Precision, "precision", 18, "total digits of amounts: 18 (fast) or 38")
 			fs.StringVar(&o.Delimiter, "delimiter", "", `CSV field delimiter (default: guessed from the header among , ; tab |; "\t" for tab)`)
-			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding: utf-8 (default), utf-16 or latin-1")
+			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding (default utf-8, or the byte-order mark): "+load.EncodingNames())
 			fs.StringVar(&o.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
 			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
 			fs.BoolVar(&o.InPlace, "in-place", false, "register Parquet files where they lie instead of copying their rows: the ledger reads them, and every later command refuses to run if one changed")

@@ -162,34 +162,3 @@ func centsText(c int64) string {
 	return fmt.Sprintf("%s%d.%02d", sign, c/100, c%100)
 }
 
-// shellWords splits a command line as a POSIX shell would for the
-// quoting inspect writes (single quotes, '\” for a quote).
-func shellWords(t *testing.T, s string) []string {
-	var out []string
-	var cur strings.Builder
-	in, has := false, false
-	for i := 0; i < len(s); i++ {
-		switch c := s[i]; {
-		case c == '\'':
-			in, has = !in, true
-		case c == '\\' && !in && i+1 < len(s):
-			i++
-			cur.WriteByte(s[i])
-		case c == ' ' && !in:
-			if has || cur.Len() > 0 {
-				out = append(out, cur.String())
-			}
-			cur.Reset()
-			has = false
-		default:
-			cur.WriteByte(c)
-		}
-	}
-	if has || cur.Len() > 0 {
-		out = append(out, cur.String())
-	}
-	if in {
-		t.Fatalf("unclosed quote in %q", s)
-	}
-	return out
-}

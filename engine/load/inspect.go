@@ -24,11 +24,16 @@ type Inspection struct {
 	SHA256       string              `json:"sha256"`
 	Delimiter    string              `json:"delimiter,omitempty"`
 	Encoding     string              `json:"encoding,omitempty"`
+	EncodingWhy  string              `json:"encoding_why,omitempty"` // the evidence for it
 	Columns      []ColumnInfo        `json:"columns"`
 	Sample       [][]string          `json:"sample"`
 	Mapping      Mapping             `json:"suggested_mapping"`
+	MappingWhy   map[string]Match    `json:"mapping_why"` // per canonical column (and debit, credit): the header and why
+	Ambiguities  []string            `json:"ambiguities"`
 	Candidates   map[string][]string `json:"candidates"`
 	AmountCheck  *AmountCheck        `json:"amount_check,omitempty"`
+	DateFormat   string              `json:"date_format,omitempty"` // strptime format of posted; "" for YYYY-MM-DD
+	DateWhy      string              `json:"date_format_why,omitempty"`
 	Warnings     []string            `json:"warnings"`
 	LoadCommand  string              `json:"load_command"`
 	MissingHints []string            `json:"missing"`
@@ -43,6 +48,10 @@ type AmountCheck struct {
 	ParsePoint      int64  `json:"parse_with_decimal_point"`
 	ParseComma      int64  `json:"parse_with_decimal_comma"`
 	SuggestDecComma bool   `json:"suggest_decimal_comma"`
+	// Large counts the amounts of 10^16 or more under the suggested mark,
+	// which need --precision 38.
+	Large            int64 `json:"large_amounts"`
+	SuggestPrecision bool  `json:"suggest_precision_38"`
 }
 
 // Inspect examines a file without loading it. ws may be an in-memory
@@ -64,8 +73,17 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 		return inspectXLSX(ctx, ws, path, opts, sampleRows)
 	}
 	var src *Source
+	var det Detection
 	if format == "csv" {
-		src, err = ExamineCSV(path, opts.Delimiter, opts.Encoding)
+		// The whole file's bytes decide the encoding unless --encoding does.
+		if det, err = DetectEncoding(path); err != nil {
+			return nil, err
+		}
+		enc := opts.Encoding
+		if enc == "" {
+			enc = det.Encoding
+		}
+		src, err = ExamineCSV(path, opts.Delimiter, enc)
 	} else {
 		src, err = examineParquet(ctx, ws, path)
 	}
@@ -77,15 +95,27 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 		return nil, err
 	}
 	in := &Inspection{Path: path, Format: format, SizeBytes: src.Size, SHA256: src.SHA256, Delimiter: src.Delimiter,
-		Encoding: src.Encoding, Warnings: src.Warnings}
+		Encoding: src.Encoding, Warnings: src.Warnings, Ambiguities: []string{}}
 	if in.Warnings == nil {
 		in.Warnings = []string{}
+	}
+	if format == "csv" {
+		in.EncodingWhy = det.Why
+		if src.declared != "" && src.Encoding != det.Encoding && src.declared != "utf-16" {
+			in.EncodingWhy = "--encoding " + src.declared + " as given"
+			in.Warnings = append(in.Warnings, fmt.Sprintf("the file's bytes point to %s (%s), not %s as --encoding says", det.Encoding, det.Why, src.declared))
+		}
+		// A sample of the file as the load's reader will see it (in UTF-8).
+		if err := src.prepareText(64 << 20); err != nil {
+			return nil, err
+		}
+		defer src.removeText()
 	}
 	// Detected types: DuckDB's own sniffer on a sample (CSV), the schema (Parquet).
 	detected := map[string]string{}
 	if format == "csv" {
-		q := "DESCRIBE SELECT * FROM read_csv(" + queries.QuoteString(ExactPath(path)) + ", delim = " + queries.QuoteString(src.Delimiter) +
-			", header = true, encoding = " + queries.QuoteString(src.Encoding) + ", sample_size = 20480, ignore_errors = true)"
+		q := "DESCRIBE SELECT * FROM read_csv(" + queries.QuoteString(ExactPath(src.csvPath())) + ", delim = " + queries.QuoteString(src.Delimiter) +
+			", header = true, encoding = " + queries.QuoteString(src.csvEncoding()) + ", sample_size = 20480, ignore_errors = true)"
 		if rows, err := ws.Conn.QueryContext(ctx, q); err == nil {
 			cols, _ := rows.Columns()
 			i := 0
@@ -142,16 +172,17 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 		in.Sample = append(in.Sample, rec)
 	}
 	rows.Close()
-	in.Mapping, in.Candidates = Suggest(src.Columns)
-	if a := in.Mapping.Columns["amount"]; a != "" && format == "csv" {
-		ac := &AmountCheck{Column: a}
-		q := fmt.Sprintf(`SELECT count(*),
-			count(TRY_CAST(ll_amount_canonical(v, false) AS DECIMAL(38,6))),
-			count(TRY_CAST(ll_amount_canonical(v, true) AS DECIMAL(38,6)))
-			FROM (SELECT CAST(%s AS VARCHAR) AS v FROM %s LIMIT 10000)`, src.ref(a), reader)
-		if err := ws.Conn.QueryRowContext(ctx, q).Scan(&ac.Sampled, &ac.ParsePoint, &ac.ParseComma); err == nil {
-			ac.SuggestDecComma = ac.ParseComma > ac.ParsePoint
-			in.AmountCheck = ac
+	var ambiguous []string
+	in.Mapping, in.Candidates, in.MappingWhy, ambiguous = SuggestWhy(src.Columns)
+	in.Ambiguities = append(in.Ambiguities, ambiguous...)
+	if err := applyExplicit(in, src, opts); err != nil {
+		return nil, err
+	}
+	if format == "csv" {
+		in.AmountCheck = amountMarks(ctx, ws, src, in.Mapping, reader)
+		in.DateFormat, in.DateWhy = dateFormat(ctx, ws, src, in.Mapping, reader, &in.Warnings)
+		if msg := separatorCheck(ctx, ws, src, in.Mapping, reader, in.AmountCheck); msg != "" {
+			in.Warnings = append(in.Warnings, "CHECK the decimal mark: "+msg)
 		}
 	}
 	for _, c := range Canonical {
@@ -170,6 +201,15 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 	}
 	if in.AmountCheck != nil && in.AmountCheck.SuggestDecComma {
 		cmd = append(cmd, "--decimal-comma")
+	}
+	if in.AmountCheck != nil && in.AmountCheck.SuggestPrecision {
+		cmd = append(cmd, "--precision 38")
+	}
+	if in.DateFormat != "" {
+		cmd = append(cmd, "--date-format "+shellQuote(in.DateFormat))
+	}
+	if format == "csv" && src.Encoding != "utf-8" {
+		cmd = append(cmd, "--encoding "+src.Encoding)
 	}
 	if format == "csv" && src.Delimiter != "," {
 		d := src.Delimiter

@@ -7,7 +7,6 @@ package load
 import (
 	"bufio"
 	"bytes"
-	"compress/gzip"
 	"context"
 	"database/sql"
 	"encoding/json"
@@ -16,7 +15,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
@@ -1015,12 +1013,12 @@ func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) 
 	if src.Format != "csv" && src.sheet == nil && !src.ownRowNumber() {
 		return nil
 	}
+	if err := src.prepareText(0); err != nil { // encoding.go
+		return err
+	}
 	src.stage, src.rejects = fmt.Sprintf("ll_stage_%d", i), fmt.Sprintf("ll_rejects_%d", i)
 	q := queries.Render("load_stage", map[string]string{"stage": queries.QuoteIdent(src.stage), "reader": readerSQL(src, src.rejects)})
 	if _, err := ws.Conn.ExecContext(ctx, q); err != nil {
-		if hint := windows1252Hint(src, err); hint != "" {
-			return fmt.Errorf("%s: %s", src.Path, hint)
-		}
 		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
 	return ws.Conn.QueryRowContext(ctx, queries.Render("load_stage_first", map[string]string{"stage": queries.QuoteIdent(src.stage)})).Scan(&src.stageFirst)
@@ -1029,6 +1027,7 @@ func stageCSV(ctx context.Context, ws *workspace.Workspace, src *Source, i int) 
 // unstage drops the temporary tables of stageCSV.
 func unstage(ws *workspace.Workspace, sources []*Source) {
 	for _, src := range sources {
+		src.removeText()
 		if src.stage == "" {
 			continue
 		}
@@ -1112,61 +1111,23 @@ func readerSQL(src *Source, rejTable string) string {
 		"store_rejects = true",
 		"rejects_table = " + queries.QuoteString(rejTable),
 		"rejects_scan = " + queries.QuoteString(rejTable+"_scan"),
-		"encoding = " + queries.QuoteString(src.Encoding),
+		"encoding = " + queries.QuoteString(src.csvEncoding()),
 		"max_line_size = 16777216",
 		// DuckDB sizes its read buffer at 16 times max_line_size unless
 		// told: 256 MiB per buffer, which fails any --memory-limit below
 		// that. 32 MiB is its buffer at the default line size.
 		"buffer_size = 33554432",
 	}
-	if src.Gzip {
+	if src.csvGzip() {
 		opts = append(opts, "compression = 'gzip'")
 	}
 	return "read_csv(" + strings.Join(opts, ", ") + ")"
 }
 
-// windows1252Hint explains DuckDB's "File is not latin-1 encoded": Latin-1
-// (ISO-8859-1) leaves bytes 0x80 to 0x9F to control codes, where
-// Windows-1252 puts the euro sign, curly quotes and dashes. It names the
-// first line holding one.
-func windows1252Hint(src *Source, err error) string {
-	if src.Encoding != "latin-1" || !strings.Contains(strings.ToLower(err.Error()), "not latin-1") {
-		return ""
-	}
-	f, ferr := os.Open(src.Path)
-	if ferr != nil {
-		return ""
-	}
-	defer f.Close()
-	var r io.Reader = f
-	if src.Gzip {
-		gz, gerr := gzip.NewReader(f)
-		if gerr != nil {
-			return ""
-		}
-		r = gz
-	}
-	br := bufio.NewReaderSize(r, 1<<20)
-	line := int64(1)
-	for {
-		b, rerr := br.ReadByte()
-		if rerr != nil {
-			return ""
-		}
-		switch {
-		case b == '\n':
-			line++
-		case b >= 0x80 && b <= 0x9F:
-			return fmt.Sprintf("line %d: byte 0x%02X is a control code in Latin-1 (ISO-8859-1), which --encoding latin-1 reads; the file is most likely Windows-1252 (cp1252), where it is a letter or sign such as the euro sign or a curly quote. Convert it to UTF-8 first, e.g. iconv -f WINDOWS-1252 -t UTF-8 %s > %s, and load the copy without --encoding; nothing was loaded",
-				line, b, shellQuote(src.Name), shellQuote(strings.TrimSuffix(src.Name, filepath.Ext(src.Name))+"_utf8.csv"))
-		}
-	}
-}
-
 func explainReadError(err error) string {
 	msg := oneLine(err)
 	if strings.Contains(msg, "Invalid unicode") || strings.Contains(msg, "invalid unicode") {
-		msg += " (if the file is Latin-1 give --encoding latin-1)"
+		msg += " (the file is not UTF-8: give its --encoding; leadline inspect names the likely one)"
 	}
 	return msg
 }
@@ -1276,7 +1237,7 @@ func readerReason(types, columns string, width int, unterminated bool) string {
 				parts = append(parts, "bad quoting: a quote inside an unquoted field or after a closing quote (write a quote inside a quoted field as \"\")")
 			}
 		case "INVALID ENCODING":
-			parts = append(parts, "not valid UTF-8 (if the file is Latin-1 give --encoding latin-1)")
+			parts = append(parts, "not valid UTF-8 (if the file is in another encoding, give --encoding; leadline inspect names the likely one)")
 		case "LINE SIZE OVER MAXIMUM":
 			parts = append(parts, "the record is longer than the reader's limit of 16 MiB")
 		default:
@@ -1302,8 +1263,8 @@ func linesFrom(src *Source, pos sql.NullInt64, raw string) int64 {
 		}
 		return n
 	}
-	if pos.Valid && !src.Gzip && src.Encoding != "utf-16" {
-		if f, err := os.Open(src.Path); err == nil {
+	if pos.Valid && !src.csvGzip() {
+		if f, err := os.Open(src.csvPath()); err == nil {
 			defer f.Close()
 			if _, err := f.Seek(pos.Int64, io.SeekStart); err == nil {
 				return count(f)

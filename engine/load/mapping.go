@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+	"unicode"
 )
 
 // Canonical lists the canonical ledger columns (docs/design.md,
@@ -59,17 +60,53 @@ var hints = map[string][]string{
 	"descr":        {"descr", "description", "text", "memo", "narrative", "linedescription", "itemtext", "comment", "details"},
 }
 
+// squash folds a header name for matching: lower case, accents off
+// (fold), everything but letters and digits removed.
 func squash(s string) string {
-	s = strings.ToLower(strings.TrimSpace(s))
-	return strings.NewReplacer(" ", "", "_", "", "-", "", ".", "", "/", "").Replace(s)
+	var b strings.Builder
+	for _, r := range fold(strings.TrimSpace(s)) {
+		if unicode.IsLetter(r) || unicode.IsDigit(r) {
+			b.WriteRune(r)
+		}
+	}
+	return b.String()
+}
+
+// Match says which header a canonical column was given and why.
+type Match struct {
+	Column string   `json:"column"`
+	Rule   string   `json:"rule"` // canonical, vocabulary, contains, map
+	Why    string   `json:"why"`
+	Others []string `json:"also_matched,omitempty"` // equally good headers not taken
 }
 
 // Suggest proposes an original column for each canonical column that has a
 // likely candidate among names, best first. A name maps itself when it is
 // already canonical. Debit and credit columns are proposed together.
 func Suggest(names []string) (Mapping, map[string][]string) {
+	m, cands, _, _ := SuggestWhy(names)
+	return m, cands
+}
+
+// SuggestWhy is Suggest with the reason of every choice (keyed by the
+// canonical column, or "debit" and "credit") and the ambiguities met: two
+// or more headers equally good for one column, or an amount column beside
+// a debit and credit pair. An ambiguity is decided (the vocabulary's
+// order, the amount before debit and credit) and reported, never passed
+// over in silence.
+//
+// Headers are matched in three steps, each on the columns left by the
+// one before: a canonical name; a word of the vocabulary (hints, and
+// vocabulary.go in the languages of ledger exports) equal to the header
+// folded (case, accents, spaces and punctuation ignored), specific words
+// before generic ones such as "date" or "value"; a vocabulary word of four
+// letters or more at the end of the header (compounds such as
+// "Rechnungsbetrag") and then anywhere in it.
+func SuggestWhy(names []string) (Mapping, map[string][]string, map[string]Match, []string) {
 	m := Mapping{Columns: map[string]string{}}
 	cands := map[string][]string{}
+	why := map[string]Match{}
+	var ambiguous []string
 	used := map[string]bool{}
 	// exact canonical names first
 	for _, n := range names {
@@ -77,48 +114,210 @@ func Suggest(names []string) (Mapping, map[string][]string) {
 		if IsCanonical(k) && m.Columns[k] == "" {
 			m.Columns[k] = n
 			used[n] = true
+			why[k] = Match{Column: n, Rule: "canonical", Why: "exact canonical name"}
+		}
+	}
+	// exact vocabulary words, by tier: 0 specific, 1 generic
+	type hit struct {
+		name, word, langs string
+		tier, rank        int
+	}
+	exact := map[string][]hit{} // canonical (or debit/credit) -> hits
+	for _, n := range names {
+		k := squash(n)
+		if k == "" {
+			continue
+		}
+		if w, ok := vocab[k]; ok {
+			t := 0
+			if generic[k] {
+				t = 1
+			}
+			exact[w.canon] = append(exact[w.canon], hit{n, w.word, w.langs, t, w.rank})
+			continue
+		}
+		for c, hs := range hints {
+			for i, h := range hs {
+				if h == k {
+					t := 0
+					if generic[k] {
+						t = 1
+					}
+					exact[c] = append(exact[c], hit{n, h, "English", t, len(vocabulary) + i})
+				}
+			}
+		}
+	}
+	for c := range exact {
+		hs := exact[c]
+		sort.SliceStable(hs, func(i, j int) bool {
+			if hs[i].tier != hs[j].tier {
+				return hs[i].tier < hs[j].tier
+			}
+			return hs[i].rank < hs[j].rank
+		})
+		for _, h := range hs {
+			cands[c] = appendUnique(cands[c], h.name)
+		}
+	}
+	take := func(c string, hs []hit) {
+		var free []hit
+		for _, h := range hs {
+			if !used[h.name] {
+				free = append(free, h)
+			}
+		}
+		if len(free) == 0 {
+			return
+		}
+		best := free[0]
+		mt := Match{Column: best.name, Rule: "vocabulary", Why: fmt.Sprintf("vocabulary word %q (%s)", best.word, best.langs)}
+		for _, h := range free[1:] {
+			if h.tier == best.tier {
+				mt.Others = append(mt.Others, h.name)
+			}
+		}
+		if len(mt.Others) > 0 {
+			ambiguous = append(ambiguous, fmt.Sprintf("%s: %q and also %s match equally well; took %q (the vocabulary's first); give --map %s=COLUMN for another",
+				c, best.name, quoteList(mt.Others), best.name, c))
+		}
+		used[best.name] = true
+		why[c] = mt
+		switch c {
+		case "debit":
+			m.Debit = best.name
+		case "credit":
+			m.Credit = best.name
+		default:
+			m.Columns[c] = best.name
 		}
 	}
 	for _, c := range Canonical {
-		for _, h := range hints[c] {
-			for _, n := range names {
-				if squash(n) == h {
-					cands[c] = appendUnique(cands[c], n)
-				}
-			}
-		}
-		// looser: the hint contained in the name
-		for _, n := range names {
-			sq := squash(n)
-			for _, h := range hints[c] {
-				if len(h) >= 4 && strings.Contains(sq, h) {
-					cands[c] = appendUnique(cands[c], n)
-				}
-			}
-		}
 		if m.Columns[c] == "" {
-			for _, n := range cands[c] {
-				if !used[n] {
-					m.Columns[c] = n
-					used[n] = true
-					break
+			take(c, exact[c])
+		}
+	}
+	// debit and credit, when both are there
+	if len(exact["debit"]) > 0 && len(exact["credit"]) > 0 {
+		if m.Columns["amount"] == "" {
+			take("debit", exact["debit"])
+			take("credit", exact["credit"])
+			if m.Debit == "" || m.Credit == "" {
+				m.Debit, m.Credit = "", ""
+				delete(why, "debit")
+				delete(why, "credit")
+			}
+		} else {
+			ambiguous = append(ambiguous, fmt.Sprintf("amount: %q, or the debit and credit columns %q and %q; took %q; give --debit %s --credit %s for the pair",
+				m.Columns["amount"], exact["debit"][0].name, exact["credit"][0].name, m.Columns["amount"], shellQuote(exact["debit"][0].name), shellQuote(exact["credit"][0].name)))
+		}
+	}
+	// looser: a vocabulary word of four letters or more at the end of the
+	// header, then anywhere in it
+	words := map[string][]string{}
+	for k, w := range vocab {
+		words[w.canon] = append(words[w.canon], k)
+	}
+	for c, hs := range hints {
+		words[c] = append(words[c], hs...)
+	}
+	for c := range words {
+		sort.Strings(words[c])
+	}
+	// the column a header names by its last word, if any (the head of a
+	// compound: "Belegdatum" is a date, not a document number)
+	head := map[string]string{}
+	for _, n := range names {
+		sq, best := squash(n), 0
+		for c, ws := range words {
+			for _, h := range ws {
+				if len(h) >= 4 && len(h) > best && strings.HasSuffix(sq, h) {
+					head[n], best = c, len(h)
 				}
 			}
 		}
 	}
-	if m.Columns["amount"] == "" {
+	for _, c := range Canonical {
+		var suffix, contains []string
+		found := map[string]string{}
+		for _, n := range names {
+			sq := squash(n)
+			if hc, ok := head[n]; ok && hc != c {
+				continue
+			}
+			for _, h := range words[c] {
+				if len(h) < 4 || !strings.Contains(sq, h) || sq == h {
+					continue
+				}
+				if _, ok := found[n]; !ok || strings.HasSuffix(sq, h) {
+					found[n] = h
+				}
+			}
+			if h, ok := found[n]; ok {
+				if strings.HasSuffix(sq, h) {
+					suffix = append(suffix, n)
+				} else {
+					contains = append(contains, n)
+				}
+			}
+		}
+		for _, n := range append(suffix, contains...) {
+			cands[c] = appendUnique(cands[c], n)
+		}
+		if m.Columns[c] != "" || c == "amount" && m.Debit != "" {
+			continue
+		}
+		for _, group := range [][]string{suffix, contains} {
+			var free []string
+			for _, n := range group {
+				if !used[n] {
+					free = append(free, n)
+				}
+			}
+			if len(free) == 0 {
+				continue
+			}
+			n := free[0]
+			h := found[n]
+			w := vocab[h]
+			lang := w.langs
+			if lang == "" {
+				lang = "English"
+			}
+			mt := Match{Column: n, Rule: "contains", Why: fmt.Sprintf("holds the vocabulary word %q (%s)", h, lang)}
+			if w.word != "" {
+				mt.Why = fmt.Sprintf("holds the vocabulary word %q (%s)", w.word, lang)
+			}
+			mt.Others = free[1:]
+			if len(mt.Others) > 0 {
+				ambiguous = append(ambiguous, fmt.Sprintf("%s: %q and also %s hold a word for it; took %q; give --map %s=COLUMN for another",
+					c, n, quoteList(mt.Others), n, c))
+			}
+			m.Columns[c] = n
+			used[n] = true
+			why[c] = mt
+			break
+		}
+	}
+	if m.Columns["amount"] == "" && m.Debit == "" {
+		// the English prefixes of old: Debit LC, Credit LC
 		var debit, credit string
 		for _, n := range names {
 			sq := squash(n)
-			if debit == "" && (sq == "debit" || sq == "dr" || strings.HasPrefix(sq, "debit")) {
+			if used[n] || vocab[sq].canon == "counterparty" || sq == "debitor" || sq == "creditor" {
+				continue
+			}
+			if debit == "" && strings.HasPrefix(sq, "debit") {
 				debit = n
 			}
-			if credit == "" && (sq == "credit" || sq == "cr" || strings.HasPrefix(sq, "credit")) {
+			if credit == "" && strings.HasPrefix(sq, "credit") {
 				credit = n
 			}
 		}
 		if debit != "" && credit != "" {
 			m.Debit, m.Credit = debit, credit
+			why["debit"] = Match{Column: debit, Rule: "contains", Why: `starts with "debit" (English)`}
+			why["credit"] = Match{Column: credit, Rule: "contains", Why: `starts with "credit" (English)`}
 		}
 	}
 	for c, v := range m.Columns {
@@ -126,7 +325,15 @@ func Suggest(names []string) (Mapping, map[string][]string) {
 			delete(m.Columns, c)
 		}
 	}
-	return m, cands
+	return m, cands, why, ambiguous
+}
+
+func quoteList(names []string) string {
+	q := make([]string, len(names))
+	for i, n := range names {
+		q[i] = fmt.Sprintf("%q", n)
+	}
+	return strings.Join(q, ", ")
 }
 
 func appendUnique(list []string, s string) []string {

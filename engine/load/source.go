@@ -17,9 +17,6 @@ import (
 	"unicode/utf8"
 
 	"github.com/leadline/leadline/engine/xlsxin"
-	"golang.org/x/text/encoding/charmap"
-	"golang.org/x/text/encoding/unicode"
-	"golang.org/x/text/transform"
 )
 
 // Source is one input file, examined before loading.
@@ -30,7 +27,7 @@ type Source struct {
 	Size      int64    // bytes
 	SHA256    string   // hex digest of the file's bytes
 	Delimiter string   // CSV: the field delimiter
-	Encoding  string   // CSV: utf-8, utf-16 or latin-1
+	Encoding  string   // CSV: the canonical name of its encoding (Encodings)
 	Gzip      bool     // CSV: gzip-compressed
 	Columns   []string // column names as stored (duplicates made unique)
 	Warnings  []string
@@ -43,8 +40,10 @@ type Source struct {
 	stageFirst int64  // the first rowid of stage
 	rejects    string // CSV: the temporary table of records the reader could not take
 
-	sheet   *xlsxin.Table // XLSX: the sheet read (see xlsx.go)
-	csvPath string        // XLSX: the temporary CSV of its rows, while staged
+	sheet    *xlsxin.Table // XLSX: the sheet read (see xlsx.go)
+	sheetCSV string        // XLSX: the temporary CSV of its rows, while staged
+	declared string        // CSV: the encoding the options named, "" when none
+	utf8Copy string        // CSV: the temporary UTF-8 copy the reader reads, if any
 }
 
 // ExpandPaths turns the command-line arguments (files and glob patterns)
@@ -210,26 +209,16 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 		return nil, fmt.Errorf("%s: %s", path, what)
 	}
 	// Encoding: a byte-order mark decides; otherwise the option; otherwise UTF-8.
-	var text []byte
-	switch {
-	case bytes.HasPrefix(head, []byte{0xFE, 0xFF}):
-		return nil, fmt.Errorf("%s: the file is UTF-16 big-endian (byte-order mark FE FF), which the reader does not take; convert it first, e.g. iconv -f UTF-16BE -t UTF-8 %s > %s", path, shellQuote(s.Name), shellQuote(strings.TrimSuffix(s.Name, filepath.Ext(s.Name))+"_utf8.csv"))
-	case bytes.HasPrefix(head, []byte{0xFF, 0xFE}):
-		s.Encoding = "utf-16"
-		dec := unicode.UTF16(unicode.LittleEndian, unicode.UseBOM).NewDecoder()
-		text, _, _ = transform.Bytes(dec, head[:len(head)&^1])
-	case strings.EqualFold(encoding, "latin-1") || strings.EqualFold(encoding, "latin1") || strings.EqualFold(encoding, "iso-8859-1"):
-		s.Encoding = "latin-1"
-		text, _, _ = transform.Bytes(charmap.ISO8859_1.NewDecoder(), head)
-	case encoding == "" || strings.EqualFold(encoding, "utf-8") || strings.EqualFold(encoding, "utf8"):
-		s.Encoding = "utf-8"
-		text = bytes.TrimPrefix(head, []byte{0xEF, 0xBB, 0xBF})
-	case strings.EqualFold(encoding, "utf-16"):
-		s.Encoding = "utf-16"
-		dec := unicode.UTF16(unicode.LittleEndian, unicode.UseBOM).NewDecoder()
-		text, _, _ = transform.Bytes(dec, head[:len(head)&^1])
-	default:
-		return nil, fmt.Errorf("%s: unsupported --encoding %q (use utf-8, utf-16 or latin-1)", path, encoding)
+	s.declared, err = NormalizeEncoding(encoding)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %v", path, err)
+	}
+	text, warn, err := s.decodeHead(head)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %v", path, err)
+	}
+	if warn != "" {
+		s.Warnings = append(s.Warnings, warn)
 	}
 	firstLine := text
 	if i := bytes.IndexAny(text, "\r\n"); i >= 0 {
@@ -249,13 +238,14 @@ func ExamineCSV(path string, delim, encoding string) (*Source, error) {
 	// byte-order mark. A NUL further down is data: the reader keeps it as
 	// sent in text columns, and an amount holding one is rejected.
 	if bytes.IndexByte(firstLine, 0) >= 0 || bytes.Count(text, []byte{0}) > len(text)/8 {
-		return nil, fmt.Errorf("%s: line 1: NUL bytes in the header: not a text file, or UTF-16 without a byte-order mark (then give --encoding utf-16)", path)
+		return nil, fmt.Errorf("%s: line 1: NUL bytes in the header: %s", path, nulHint(head))
 	}
 	if i := bytes.IndexByte(text, 0); i >= 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("physical line %d holds a NUL byte; kept as sent in text columns (an amount holding one is rejected)", bytes.Count(text[:i], []byte{'\n'})+1))
 	}
 	if s.Encoding == "utf-8" && !utf8.Valid(firstLine) {
-		return nil, fmt.Errorf("%s: line 1: the header is not valid UTF-8; if the file is Latin-1 (ISO-8859-1) give --encoding latin-1", path)
+		enc, why := likelyFromHead(firstLine)
+		return nil, fmt.Errorf("%s: line 1: the header is not valid UTF-8; the file is most likely %s (%s): give --encoding %s", path, enc, why, enc)
 	}
 	s.Delimiter = delim
 	if s.Delimiter == "" {

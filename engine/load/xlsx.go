@@ -83,17 +83,17 @@ func stageXLSX(ctx context.Context, ws *workspace.Workspace, src *Source, opts O
 			src.Warnings = append(src.Warnings, w)
 		}
 	}
-	src.sheet, src.csvPath = t, f.Name()
-	defer func() { src.csvPath = "" }()
+	src.sheet, src.sheetCSV = t, f.Name()
+	defer func() { src.sheetCSV = "" }()
 	return stageCSV(ctx, ws, src, i)
 }
 
 // readPath is the file DuckDB's reader reads for src.
 func (s *Source) readPath() string {
-	if s.csvPath != "" {
-		return s.csvPath
+	if s.sheetCSV != "" {
+		return s.sheetCSV
 	}
-	return s.Path
+	return s.csvPath()
 }
 
 // lineColumns is the reader's column list entry for the sheet row number.

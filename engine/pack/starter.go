@@ -4,8 +4,6 @@ import (
 	"context"
 	"fmt"
 	"path/filepath"
-	"regexp"
-	"strconv"
 	"strings"
 
 	"github.com/leadline/leadline/engine/load"
@@ -84,7 +82,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	}
 	w("delimiter = %s           # found in the header; \"\" to guess each time", q(delim))
 	enc := in.Encoding
-	w("encoding = %s       # utf-8, utf-16 or latin-1", q(enc))
+	w("encoding = %s       # %s", q(enc), in.EncodingWhy)
 	starterSheet(w, in)
 	dc := in.AmountCheck != nil && in.AmountCheck.SuggestDecComma
 	if in.AmountCheck != nil {
@@ -94,7 +92,10 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 		w("decimal_comma = %v     # true when amounts read 1.234,56", dc)
 	}
 	w("# decimal_point = true  # settles amounts such as 1.234 that read both ways, as 1.234 (decimal_comma = true reads 1234)")
-	df, dfNote := guessDateFormat(in)
+	df, dfNote := in.DateFormat, in.DateWhy
+	if dfNote == "" {
+		dfNote = "strptime format of the posting date, e.g. \"%d/%m/%Y\"; \"\" for YYYY-MM-DD"
+	}
 	w("date_format = %s        # %s", q(df), dfNote)
 	w("# time_zone = \"UTC\"     # zone in which Parquet timestamps with a time zone become posting dates")
 	w("# max_rejects = \"1%%\"    # largest share of a file's rows that may be rejected; more fails the load")
@@ -287,55 +288,6 @@ func q(s string) string {
 	}
 	b.WriteByte('"')
 	return b.String()
-}
-
-var dmyRE = regexp.MustCompile(`^(\d{1,2})([./-])(\d{1,2})([./-])(\d{4})$`)
-
-// guessDateFormat reads the sampled posting dates.
-func guessDateFormat(in *load.Inspection) (string, string) {
-	col := in.Mapping.Columns["posted"]
-	if col == "" {
-		return "", "strptime format of the posting date; none mapped"
-	}
-	idx := -1
-	for i, c := range in.Columns {
-		if c.Name == col {
-			idx = i
-		}
-	}
-	if idx < 0 || len(in.Sample) == 0 {
-		return "", "strptime format of the posting date, e.g. \"%d/%m/%Y\"; \"\" for YYYY-MM-DD"
-	}
-	firstBig, secondBig, n, sep := false, false, 0, ""
-	for _, row := range in.Sample {
-		v := strings.TrimSpace(row[idx])
-		if v == "" {
-			continue
-		}
-		if len(v) >= 10 && v[4] == '-' && v[7] == '-' {
-			return "", "the sampled dates read YYYY-MM-DD"
-		}
-		m := dmyRE.FindStringSubmatch(v)
-		if m == nil {
-			return "", fmt.Sprintf("CHECK: sampled dates such as %q are not YYYY-MM-DD; give their strptime format", v)
-		}
-		a, _ := strconv.Atoi(m[1])
-		c, _ := strconv.Atoi(m[3])
-		firstBig = firstBig || a > 12
-		secondBig = secondBig || c > 12
-		sep = m[2]
-		n++
-	}
-	if n == 0 {
-		return "", "no dates in the sample"
-	}
-	switch {
-	case firstBig && !secondBig:
-		return "%d" + sep + "%m" + sep + "%Y", "day first: some sampled days are above 12"
-	case secondBig && !firstBig:
-		return "%m" + sep + "%d" + sep + "%Y", "month first: some sampled second numbers are above 12"
-	}
-	return "%d" + sep + "%m" + sep + "%Y", "CHECK: day first or month first? the sample cannot tell"
 }
 
 // starterSheet writes the sheet key: the sheet inspected, for a workbook.

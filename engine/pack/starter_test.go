@@ -2,6 +2,7 @@ package pack
 
 import (
 	"context"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -63,7 +64,7 @@ func TestStarterFromAnotherShape(t *testing.T) {
 	}
 	s := string(text)
 	for _, want := range []string{`delimiter = ";"`, `decimal_comma = true`, `date_format = "%d/%m/%Y"`, `amount = "Betrag"`, `posted = "Buchungsdatum"`,
-		`entity = "Firma"`, `account = "Konto"`, `files = ["buchungen.csv"]`, `# counterparty = ""`, `# doc_id = ""`} {
+		`entity = "Firma"`, `account = "Konto"`, `files = ["buchungen.csv"]`, `# counterparty = ""`, `doc_id = "Belegnummer"`} {
 		if !strings.Contains(s, want) {
 			t.Errorf("starter lacks %s:\n%s", want, s)
 		}
@@ -81,5 +82,52 @@ func TestStarterFromAnotherShape(t *testing.T) {
 	c := res.Run.Summary.Completeness
 	if c.RowsLoaded != 40 || c.RowsRejected != 0 || c.SumPositive != "49381.80" {
 		t.Errorf("completeness %+v", c)
+	}
+}
+
+// A starter from a Windows-1252 export with German headers, Soll and Haben
+// columns, day-first dates with points and a euro sign in the text: the
+// pack names the encoding, the date format and the debit and credit
+// columns, and runs with nothing rejected. The totals are worked out from
+// the values written (cents).
+func TestStarterWindows1252DebitCredit(t *testing.T) {
+	dir := t.TempDir()
+	csv := filepath.Join(dir, "journal.csv")
+	var b strings.Builder
+	b.WriteString("Buchungsdatum;Belegnummer;Sachkonto;Buchungstext;Soll;Haben\r\n")
+	var debit, credit int64
+	for i := 0; i < 30; i++ {
+		cents := int64(100000 + i*1234)
+		soll, haben := "", ""
+		if i%3 == 0 {
+			haben = fmt.Sprintf("%d,%02d", cents/100, cents%100)
+			credit += cents
+		} else {
+			soll = fmt.Sprintf("%d,%02d", cents/100, cents%100)
+			debit += cents
+		}
+		fmt.Fprintf(&b, "%02d.%02d.2025;B%d;4000;Gr\xfc\xdfe \x80 %d;%s;%s\r\n", i%28+1, i%12+1, i, i, soll, haben)
+	}
+	os.WriteFile(csv, []byte(b.String()), 0o644)
+	packPath := filepath.Join(dir, "journal.toml")
+	text, err := Starter(context.Background(), csv, packPath, StarterOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := string(text)
+	for _, want := range []string{`encoding = "windows-1252"`, `date_format = "%d.%m.%Y"`, `decimal_comma = true`, `debit = "Soll"`, `credit = "Haben"`, `descr = "Buchungstext"`} {
+		if !strings.Contains(s, want) {
+			t.Errorf("starter lacks %s:\n%s", want, s)
+		}
+	}
+	os.WriteFile(packPath, text, 0o644)
+	res, err := Run(context.Background(), mustRead(t, packPath), RunOptions{Out: filepath.Join(dir, "out")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := res.Run.Summary.Completeness
+	net := debit - credit
+	if c.RowsLoaded != 30 || c.RowsRejected != 0 || c.Net != fmt.Sprintf("%d.%02d", net/100, net%100) {
+		t.Errorf("completeness %+v; want 30 rows, net %d cents", c, net)
 	}
 }

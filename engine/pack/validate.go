@@ -466,10 +466,8 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		if len([]rune(strings.ReplaceAll(s.Delimiter, `\t`, "\t"))) > 1 {
 			c.errf(key+".delimiter", "delimiter %q: give one character (\"\\t\" for tab), or \"\" to guess", s.Delimiter)
 		}
-		switch strings.ToLower(s.Encoding) {
-		case "", "utf-8", "utf8", "utf-16", "latin-1", "latin1", "iso-8859-1":
-		default:
-			c.errf(key+".encoding", "encoding %q: give utf-8, utf-16 or latin-1", s.Encoding)
+		if _, err := load.NormalizeEncoding(s.Encoding); err != nil {
+			c.errf(key+".encoding", "encoding %q: give one of %s", s.Encoding, load.EncodingNames())
 		}
 		if s.InPlace {
 			for _, f := range ps.Files {
