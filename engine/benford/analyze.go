@@ -78,7 +78,7 @@ type Result struct {
 	TopFlagged   []int `json:"top_flagged"` // up to four flagged bins: surplus first, each kind by Z descending
 	Runs         *Runs `json:"runs,omitempty"`
 	// Summation only: the null model's range in decades (fitted to the
-	// mean |amount|, rounded to a quarter) and the N it was simulated at.
+	// mean |amount|, rounded to whole decades) and the N it was simulated at.
 	SummationDecades float64  `json:"summation_decades,omitempty"`
 	SimulatedN       int64    `json:"simulated_n,omitempty"`
 	Notes            []string `json:"notes"`
@@ -336,8 +336,8 @@ func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f F
 		res.flagSummation(sc, f)
 		d, fitted := FitDecades(sc.Min, sc.Mean)
 		msg := fmt.Sprintf(
-			"summation test: a bin is flagged when its share of the total is beyond chance for %d amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|; %d simulated populations, max-T adjusted p < %g) and exceeds 1/90 by at least %g%% of 1/90; chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
-			n, trimFloat(minAmount), d, NullSimulations, f.Alpha, 100*f.MinExcess)
+			"summation test: a bin is flagged when its share of the total is beyond chance for %d amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %d simulated populations, max-T adjusted p < %g) and exceeds 1/90 by at least %g%% of 1/90; chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
+			n, trimFloat(minAmount), res.SummationDecades, d, summationSimulations, f.Alpha, 100*f.MinExcess)
 		if !fitted {
 			msg += fmt.Sprintf("; the amounts' mean lies outside what %d to %d decades give, so the model is held at %.0f decades and the flag's rate is not known here", minDecades, maxDecades, d)
 		}

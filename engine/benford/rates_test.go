@@ -95,6 +95,14 @@ func TestFalseAlarmRates(t *testing.T) {
 	for si, n := range sizes {
 		for _, tt := range []Test{FirstDigit, SecondDigit, FirstTwo, FirstThree, LastTwo, SecondOrder, Summation} {
 			if tt == Summation {
+				if n > maxSummationRateN {
+					for _, r := range rateRows {
+						if r.test == Summation {
+							fired[key(r)][si] = -1 // not measured
+						}
+					}
+					continue
+				}
 				summationNullFor(rateSummationScale(n)) // draw the null once
 			} else {
 				runsNullFor(tt, n) // draw the null once, before the workers share it
@@ -148,6 +156,10 @@ func TestFalseAlarmRates(t *testing.T) {
 		fmt.Fprintf(&b, "| %s | %s |", r.test, r.signal)
 		for si := range sizes {
 			c := fired[key(r)][si]
+			if c < 0 {
+				b.WriteString(" not measured |")
+				continue
+			}
 			fmt.Fprintf(&b, " %.1f%% |", 100*float64(c)/float64(seeds))
 			if r.assert && c > bound {
 				t.Errorf("%s, %s, N %d: %d of %d conforming populations (bound %d)", r.test, r.signal, sizes[si], c, seeds, bound)
@@ -174,6 +186,11 @@ func summationPopulation(rng *rand.Rand, n int64) ([]float64, []int64) {
 	}
 	return sums, counts
 }
+
+// maxSummationRateN is the largest N at which the summation test's rate is
+// measured: its populations are drawn amount by amount, and 1,000
+// populations of 5,000,000 would take 5·10^9 draws.
+const maxSummationRateN = 500000
 
 // rateSummationScale is the scale of summationPopulation at N = n.
 func rateSummationScale(n int64) Scale {

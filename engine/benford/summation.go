@@ -41,7 +41,7 @@ type summationNull struct {
 
 type sumKey struct {
 	n       int64   // simulatedN
-	decades float64 // rounded to 0.25
+	decades float64 // rounded to whole decades
 	offset  float64 // fractional part of log10(min), rounded to 0.05
 }
 
@@ -50,7 +50,10 @@ var summationCache sync.Map // sumKey -> *summationNull
 // summationKey rounds a model so that segments of similar size and spread
 // share one simulation: N to a grid of 10 steps a decade (26% apart; the
 // spread of the shares, which falls as 1/sqrt(N), is rescaled to the
-// population's own N in z), the decades to a quarter.
+// population's own N in z), the decades to whole decades: only over whole
+// decades does every bin expect 1/90 of the total (over 4.25 decades the
+// top quarter decade, bins 10 to 17, would hold more than its share, and
+// the null would centre the other bins below 1/90).
 func summationKey(s Scale) sumKey {
 	d, _ := FitDecades(s.Min, s.Mean)
 	n := s.N
@@ -63,7 +66,7 @@ func summationKey(s Scale) sumKey {
 	if off >= 1 {
 		off = 0
 	}
-	return sumKey{n: n, decades: math.Round(d*4) / 4, offset: off}
+	return sumKey{n: n, decades: math.Max(1, math.Round(d)), offset: off}
 }
 
 // summationCell is one stretch of the model's log-scale inside one decade
