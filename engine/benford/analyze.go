@@ -276,7 +276,8 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 // the fitted range (surpluses only, 0 for a shortfall), P its one-sided
 // simulated p-value, PAdjusted the max-T adjusted p-value, Upper the share
 // above which the bin is beyond chance, and a bin is flagged when
-// PAdjusted < f.Alpha and its share exceeds 1/90 by f.MinExcess/90. Only
+// PAdjusted < f.Alpha and it holds at least twice 1/90
+// (SummationMinExcess; --min-excess does not change it). Only
 // surpluses are flagged: the test looks for large amounts.
 func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f Flagging) (Result, error) {
 	t := Summation
@@ -336,8 +337,8 @@ func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f F
 		res.flagSummation(sc, f)
 		d, fitted := FitDecades(sc.Min, sc.Mean)
 		msg := fmt.Sprintf(
-			"summation test: a bin is flagged when its share of the total is beyond chance for %d amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %d simulated populations, max-T adjusted p < %g) and exceeds 1/90 by at least %g%% of 1/90; chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
-			n, trimFloat(minAmount), res.SummationDecades, d, summationSimulations, f.Alpha, 100*f.MinExcess)
+			"summation test: a bin is flagged when its share of the total is beyond chance for %d amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %d simulated populations, max-T adjusted p < %g) and holds at least %g times 1/90 (materiality, common practice, no source); chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
+			n, trimFloat(minAmount), res.SummationDecades, d, summationSimulations, f.Alpha, 1+SummationMinExcess)
 		if !fitted {
 			msg += fmt.Sprintf("; the amounts' mean lies outside what %d to %d decades give, so the model is held at %.0f decades and the flag's rate is not known here", minDecades, maxDecades, d)
 		}

@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"runtime"
+	"slices"
 	"strings"
 	"sync"
 	"testing"
@@ -18,6 +19,11 @@ import (
 //
 // or LEADLINE_FULL_RATES=1 in the environment.
 var fullRates = flag.Bool("full", false, "TestFalseAlarmRates: the full table (N up to 5,000,000, 1,000 populations each)")
+
+// rateTests restricts TestFalseAlarmRates to some tests (comma-separated
+// names, e.g. -args -full -rate-tests summation), to rerun one part of the
+// table.
+var rateTests = flag.String("rate-tests", "", "TestFalseAlarmRates: only these tests (comma-separated)")
 
 // rateRow is one signal measured on conforming populations.
 type rateRow struct {
@@ -94,6 +100,9 @@ func TestFalseAlarmRates(t *testing.T) {
 	var mu sync.Mutex
 	for si, n := range sizes {
 		for _, tt := range []Test{FirstDigit, SecondDigit, FirstTwo, FirstThree, LastTwo, SecondOrder, Summation} {
+			if *rateTests != "" && !slices.Contains(strings.Split(*rateTests, ","), string(tt)) {
+				continue
+			}
 			if tt == Summation {
 				if n > maxSummationRateN {
 					for _, r := range rateRows {
@@ -153,6 +162,9 @@ func TestFalseAlarmRates(t *testing.T) {
 	}
 	fmt.Fprintf(&b, "\n|---|---|%s\n", strings.Repeat("---:|", len(sizes)))
 	for _, r := range rateRows {
+		if *rateTests != "" && !slices.Contains(strings.Split(*rateTests, ","), string(r.test)) {
+			continue
+		}
 		fmt.Fprintf(&b, "| %s | %s |", r.test, r.signal)
 		for si := range sizes {
 			c := fired[key(r)][si]
