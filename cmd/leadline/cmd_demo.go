@@ -136,6 +136,9 @@ What was planted, and where leadline shows it (answer key: fixtures/README.md):
   - GILD's fee billing (source FEE) charges five fixed prices:
       the digit battery by source: FEE is nonconforming with more than ten flagged bins,
       a population that should not follow Benford's law at all
+Not planted, but built into the generated ranges: GILD's invoices, receipts and payments
+stop below 10,000, SHOR's receipts and all expense claims below 1,000; the limit probe
+shows those edges (GILD at 10,000, SHOR at 1,000), as it would a client's price cap.
 
 Open %s in a browser for the report, or %s for the workbook.
 Demo finished in %.1fs. Results are signals for follow-up, never proof.

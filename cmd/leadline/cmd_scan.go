@@ -372,6 +372,9 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		fmt.Fprintf(w, "; expected MAD at this N %.5f, excess %.5f", r.ExpectedMAD, r.ExcessMAD)
 	}
 	fmt.Fprintln(w)
+	if m := r.MADNull; m != nil {
+		fmt.Fprintf(w, "MAD under conformity at this N: mean %.5f, sd %.5f, 95%% below %.5f (z %.1f, p %.3g): %s\n", m.Mean, m.SD, m.P95, m.Z, m.P, r.Severity)
+	}
 	if r.DF > 0 {
 		fmt.Fprintf(w, "Chi-square %.2f, %d df, p %.3g; Kolmogorov-Smirnov D %.5f (5%% critical value %.5f)\n", r.Chi2, r.DF, r.PValue, r.KSD, r.KSCritical)
 	}

@@ -100,6 +100,20 @@ func TestDemoAnswerKey(t *testing.T) {
 	if !found {
 		t.Error("limit probe: HAUL at 5,000 is not among the top three flagged limits")
 	}
+	// Every other flagged limit is an edge the generator's ranges build in
+	// (fixtures/README.md, "Edges by construction"): document ranges end
+	// at 10,000 (GILD) and 1,000 (SHOR's receipts, every expense claim).
+	for _, l := range r.Limits.Rows {
+		if !l.Flagged {
+			continue
+		}
+		e := l.Segment["entity"]
+		planted := l.Limit == 5000 && (e == "HAUL" || e == "")
+		edge := l.Limit == 10000 && (e == "GILD" || e == "") || l.Limit == 1000
+		if !planted && !edge {
+			t.Errorf("limit probe flags %v at %v: neither planted nor an edge of the generated ranges", l.Segment, l.Limit)
+		}
+	}
 	segRank := func(col, value string) (int, string, int) {
 		for _, rk := range r.BatterySegments[col].Rankings {
 			if rk.Test != "first_two" {

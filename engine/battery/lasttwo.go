@@ -2,6 +2,8 @@ package battery
 
 import (
 	"fmt"
+	"math"
+	"strconv"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
@@ -66,22 +68,35 @@ func noteLastTwo(r *benford.Result, min string, tested int64) {
 		min, tested-r.N, tested))
 }
 
-// secondOrderDiscrete lists the second-order bins that differences of 1 to
-// 9 units of the ledger's scale fall in: a difference of k units has first
-// two digits 10k. Amounts are whole units (cents at scale 2), so the
-// differences are discrete and these bins hold a surplus that the
-// discreteness alone explains.
-var secondOrderDiscrete = []int{10, 20, 30, 40, 50, 60, 70, 80, 90}
-
-// noteSecondOrder tests the second-order bins with those that
-// discreteness explains left out (benford.Result.FlagExcluding), with a
-// note.
-func noteSecondOrder(r *benford.Result) {
+// noteSecondOrder tests the second-order bins again against the shares
+// expected of amounts held in whole units of the ledger's scale
+// (benford.SecondOrderExpectedScaled): their differences are whole units,
+// so differences of 1 to 9 units pile on bins 10, 20, ..., 90 and small
+// differences are rounded. The null model is Benford's law over this
+// population's range (its minimum and mean |amount|) at its N, with a
+// note saying so.
+func noteSecondOrder(r *benford.Result, c *Counts, o Options, nc noteCtx) error {
 	if r.N == 0 {
-		return
+		return nil
 	}
-	n := r.FlagExcluding(secondOrderDiscrete)
+	n := c.N()
+	var total float64
+	for _, v := range c.FirstThreeSum {
+		total += v
+	}
+	unit := math.Pow10(-nc.scale)
+	sc := benford.Scale{N: n, Min: minAmount(o, nc.scale), Mean: total / float64(max(n, 1)), Unit: unit}
+	plain := r.Flagged
+	scaled, err := benford.AnalyzeExpected(benford.SecondOrder, c.Bins(benford.SecondOrder), o.Flagging(), benford.SecondOrderExpectedScaled(sc))
+	if err != nil {
+		return err
+	}
+	notes := r.Notes
+	*r = scaled
+	r.Notes = notes
+	d, _ := benford.FitDecades(sc.Min, sc.Mean)
 	r.Notes = append(r.Notes, fmt.Sprintf(
-		"second-order test: bins 10, 20, ..., 90 also hold every difference of 1 to 9 units of the ledger's scale (amounts are whole units, so their differences are discrete and pile on these bins): they are left out of the flag (%d would have been flagged), and the other bins are flagged against their expected shares among the differences outside them",
-		n))
+		"second-order test: amounts are whole units of %s, so their differences are discrete (differences of 1 to 9 units fill bins 10, 20, ..., 90; small differences are rounded): the expected shares are those of %d amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|) held in whole units; against Benford's law itself %d bins would have been flagged",
+		strconv.FormatFloat(unit, 'f', -1, 64), n, strconv.FormatFloat(sc.Min, 'f', -1, 64), d, plain))
+	return nil
 }

@@ -3,8 +3,11 @@ package battery
 import (
 	"context"
 	"errors"
+	"math"
 	"runtime"
 	"sort"
+	"strconv"
+	"strings"
 	"sync"
 	"time"
 
@@ -183,11 +186,11 @@ func (rep *Report) statistics(p *Plan, all *Counts, segs []SegmentCounts) error 
 	rep.Rows = rep.Tested + all.Left.Total()
 	rep.LastTwoMin = LastTwoMin(o, p.AmountType)
 	var err error
-	if rep.Tests, err = analyzeNoted(all, o, rep.LastTwoMin); err != nil {
+	if rep.Tests, err = analyzeNoted(all, o, noteCtx{lastTwoMin: rep.LastTwoMin, scale: p.AmountType.Scale}); err != nil {
 		return err
 	}
 	if len(p.Segments) > 0 {
-		if rep.Segments, rep.SegmentResults, err = rankSegments(p, segs, rep.LastTwoMin); err != nil {
+		if rep.Segments, rep.SegmentResults, err = rankSegments(p, segs, noteCtx{lastTwoMin: rep.LastTwoMin, scale: p.AmountType.Scale}); err != nil {
 			return err
 		}
 	}
@@ -200,8 +203,32 @@ func AnalyzeAll(c *Counts, tests []benford.Test) ([]benford.Result, error) {
 	return AnalyzeAllWith(c, tests, benford.DefaultFlagging)
 }
 
-// AnalyzeAllWith is AnalyzeAll with the bin flag's settings f.
+// AnalyzeAllWith is AnalyzeAll with the bin flag's settings f. The
+// summation test's null starts at 10, the default minimum amount.
 func AnalyzeAllWith(c *Counts, tests []benford.Test, f benford.Flagging) ([]benford.Result, error) {
+	return analyzeAll(c, tests, f, 10)
+}
+
+// noteCtx is what the battery's own notes and rules need beyond the
+// counts: the last-two test's minimum and the ledger's scale.
+type noteCtx struct {
+	lastTwoMin string
+	scale      int
+}
+
+// minAmount returns the smallest |amount| the population takes, in
+// currency units: the minimum given (--min), or one unit of the ledger's
+// scale when it is 0.
+func minAmount(o Options, scale int) float64 {
+	m, err := strconv.ParseFloat(strings.ReplaceAll(o.Min, "_", ""), 64)
+	unit := math.Pow10(-scale)
+	if err != nil || !(m > unit) {
+		return unit
+	}
+	return m
+}
+
+func analyzeAll(c *Counts, tests []benford.Test, f benford.Flagging, minAmt float64) ([]benford.Result, error) {
 	out := []benford.Result{}
 	for _, t := range benford.AllTests() {
 		if !contains(tests, t) {
@@ -209,7 +236,9 @@ func AnalyzeAllWith(c *Counts, tests []benford.Test, f benford.Flagging) ([]benf
 		}
 		var r benford.Result
 		var err error
-		if b := c.Bins(t); t != benford.Summation && b != nil {
+		if b := c.Bins(t); t == benford.Summation {
+			r, err = benford.AnalyzeSummationWith(c.SummationSums(), b, minAmt, f)
+		} else if b != nil {
 			r, err = benford.AnalyzeWith(t, b, f)
 		} else {
 			r, err = c.Analyze(t)
@@ -226,17 +255,19 @@ func AnalyzeAllWith(c *Counts, tests []benford.Test, f benford.Flagging) ([]benf
 // flag and adds the battery's own notes and rules: which amounts the
 // last-two digits test took, and the second-order bins that the
 // discreteness of the amounts explains.
-func analyzeNoted(c *Counts, o Options, lastTwoMin string) ([]benford.Result, error) {
-	res, err := AnalyzeAllWith(c, o.Tests, o.Flagging())
+func analyzeNoted(c *Counts, o Options, nc noteCtx) ([]benford.Result, error) {
+	res, err := analyzeAll(c, o.Tests, o.Flagging(), minAmount(o, nc.scale))
 	if err != nil {
 		return nil, err
 	}
 	for i := range res {
 		switch res[i].Test {
 		case benford.LastTwo:
-			noteLastTwo(&res[i], lastTwoMin, c.N())
+			noteLastTwo(&res[i], nc.lastTwoMin, c.N())
 		case benford.SecondOrder:
-			noteSecondOrder(&res[i])
+			if err := noteSecondOrder(&res[i], c, o, nc); err != nil {
+				return nil, err
+			}
 		}
 	}
 	return res, nil
@@ -251,7 +282,7 @@ func contains(ts []benford.Test, t benford.Test) bool {
 	return false
 }
 
-func rankSegments(p *Plan, segs []SegmentCounts, lastTwoMin string) (*Segments, []SegmentResult, error) {
+func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []SegmentResult, error) {
 	o := p.Options
 	out := &Segments{By: make([]string, len(p.Segments)), MinRows: o.MinSegmentRows, Count: len(segs),
 		Rankings: []Ranking{}, TooSmall: []SegmentInfo{}, All: []SegmentInfo{}}
@@ -259,7 +290,7 @@ func rankSegments(p *Plan, segs []SegmentCounts, lastTwoMin string) (*Segments, 
 		out.By[i] = s.Name
 	}
 	results := make([]SegmentResult, len(segs))
-	analysed, err := analyzeSegments(segs, o, lastTwoMin)
+	analysed, err := analyzeSegments(segs, o, nc)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -313,7 +344,7 @@ func rankSegments(p *Plan, segs []SegmentCounts, lastTwoMin string) (*Segments, 
 // spread over the machine's cores: each segment is independent, and at
 // 1,000 segments the statistics took as long as the scan. Results keep
 // the segments' order, so the output does not depend on the scheduling.
-func analyzeSegments(segs []SegmentCounts, o Options, lastTwoMin string) ([][]benford.Result, error) {
+func analyzeSegments(segs []SegmentCounts, o Options, nc noteCtx) ([][]benford.Result, error) {
 	out := make([][]benford.Result, len(segs))
 	errs := make([]error, len(segs))
 	next := make(chan int)
@@ -323,7 +354,7 @@ func analyzeSegments(segs []SegmentCounts, o Options, lastTwoMin string) ([][]be
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				out[i], errs[i] = analyzeNoted(segs[i].Counts, o, lastTwoMin)
+				out[i], errs[i] = analyzeNoted(segs[i].Counts, o, nc)
 			}
 		}()
 	}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strconv"
 )
 
 // Rules of thumb applied by Analyze (common practice, no source).
@@ -19,9 +20,6 @@ const (
 	FewRunsFirstTwo = 35
 	// TopFlagged is the number of flagged bins to follow up first.
 	TopFlagged = 4
-	// SummationFactor: a summation bin holding more than this multiple of
-	// its expected share (1/90) of the total is flagged.
-	SummationFactor = 2.0
 )
 
 // Bin is one bin of a digit test.
@@ -49,14 +47,20 @@ type Bin struct {
 
 // Result is the result of one digit test.
 type Result struct {
-	Test           Test     `json:"test"`
-	N              int64    `json:"n"`               // amounts tested (Summation: amounts contributing)
-	Total          float64  `json:"total,omitempty"` // Summation: total absolute amount
-	Bins           []Bin    `json:"bins"`
-	MAD            float64  `json:"mad"`
-	Conformity     string   `json:"conformity"` // Close, Acceptable, Marginal, Nonconforming, NoPublishedRange or NoAmounts
-	ExpectedMAD    float64  `json:"expected_mad"`
-	ExcessMAD      float64  `json:"excess_mad"`
+	Test        Test    `json:"test"`
+	N           int64   `json:"n"`               // amounts tested (Summation: amounts contributing)
+	Total       float64 `json:"total,omitempty"` // Summation: total absolute amount
+	Bins        []Bin   `json:"bins"`
+	MAD         float64 `json:"mad"`
+	Conformity  string  `json:"conformity"` // Close, Acceptable, Marginal, Nonconforming, NoPublishedRange or NoAmounts
+	ExpectedMAD float64 `json:"expected_mad"`
+	ExcessMAD   float64 `json:"excess_mad"`
+	// MADNull is the MAD's simulated distribution under conformity at N,
+	// and Severity reads the MAD against it and against the published
+	// class (WithinChance, BeyondChanceImmaterial, BeyondChanceMaterial,
+	// BeyondChance); nil and "" for the summation test and N == 0.
+	MADNull        *MADNull `json:"mad_null,omitempty"`
+	Severity       string   `json:"severity,omitempty"`
 	Chi2           float64  `json:"chi2"`
 	DF             int      `json:"df"` // 0: chi-square not computed (N == 0, Summation)
 	PValue         float64  `json:"p_value"`
@@ -70,10 +74,14 @@ type Result struct {
 	// GoodmanMinExpected amounts: there the simultaneous intervals flag
 	// conforming populations far more often than 5% (measured in
 	// TestFalseAlarmRates), and OutsideGoodman is not a family-wise signal.
-	GoodmanHolds bool     `json:"goodman_holds"`
-	TopFlagged   []int    `json:"top_flagged"` // up to four flagged bins: surplus first, each kind by Z descending
-	Runs         *Runs    `json:"runs,omitempty"`
-	Notes        []string `json:"notes"`
+	GoodmanHolds bool  `json:"goodman_holds"`
+	TopFlagged   []int `json:"top_flagged"` // up to four flagged bins: surplus first, each kind by Z descending
+	Runs         *Runs `json:"runs,omitempty"`
+	// Summation only: the null model's range in decades (fitted to the
+	// mean |amount|, rounded to whole decades) and the N it was simulated at.
+	SummationDecades float64  `json:"summation_decades,omitempty"`
+	SimulatedN       int64    `json:"simulated_n,omitempty"`
+	Notes            []string `json:"notes"`
 }
 
 // Analyze runs digit test t from its bin counts with DefaultFlagging: see
@@ -108,6 +116,11 @@ func Analyze(t Test, counts []int64) (Result, error) {
 //
 // No field of the result is NaN or infinite, so it always encodes as JSON.
 func AnalyzeWith(t Test, counts []int64, f Flagging) (Result, error) {
+	return analyze(t, counts, f, nil)
+}
+
+// analyze is AnalyzeWith against the expected shares exp (nil: Expected(t)).
+func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) {
 	if !t.Valid() {
 		return Result{}, fmt.Errorf("benford: unknown test %q", t)
 	}
@@ -130,7 +143,9 @@ func AnalyzeWith(t Test, counts []int64, f Flagging) (Result, error) {
 		n += c
 	}
 
-	exp := Expected(t)
+	if exp == nil {
+		exp = Expected(t)
+	}
 	res := Result{Test: t, N: n, Bins: make([]Bin, len(counts)), TopFlagged: []int{}, Notes: []string{}, FlagRule: f}
 	actual := make([]float64, len(counts))
 	gl, gu := Goodman(counts, GoodmanAlpha)
@@ -164,6 +179,8 @@ func AnalyzeWith(t Test, counts []int64, f Flagging) (Result, error) {
 	res.Conformity = Conformity(t, res.MAD)
 	res.ExpectedMAD = ExpectedMAD(t, n)
 	res.ExcessMAD = res.MAD - res.ExpectedMAD
+	res.MADNull = madNullFor(t, n, res.MAD)
+	res.Severity = Severity(res.Conformity, res.MADNull)
 	res.Chi2, res.DF, res.PValue = ChiSquare(counts, exp)
 	res.KSD = KS(actual, exp)
 	res.KSCritical = KSCritical(n)
@@ -230,26 +247,39 @@ func (res *Result) countFlags() {
 	}
 }
 
-// AnalyzeSummation runs the summation test (Nigrini 2012) from the sums of
-// absolute amounts per first-two digits bin: sums[i] and counts[i] are the
-// sum of absolute amounts and the count of amounts whose first two digits
-// are 10+i (len 90 each; counts may be nil). Each bin expects 1/90 of the
-// total absolute amount.
+// AnalyzeSummation runs the summation test with DefaultFlagging on a
+// population whose smallest amount tested is 10 (the battery's default
+// minimum): see AnalyzeSummationWith.
+func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
+	return AnalyzeSummationWith(sums, counts, 10, DefaultFlagging)
+}
+
+// AnalyzeSummationWith runs the summation test (Nigrini 2012) from the sums
+// of absolute amounts per first-two digits bin: sums[i] and counts[i] are
+// the sum of absolute amounts and the count of amounts whose first two
+// digits are 10+i (len 90 each; counts may be nil, and then no bin is
+// flagged, since the flag needs N). Each bin expects 1/90 of the total
+// absolute amount; minAmount is the smallest |amount| the population takes
+// (currency units; the start of the null model's range).
 //
 // Per bin it reports Actual = sum/total, Expected = 1/90 and Diff, and
 // over the bins the MAD, with Conformity NoPublishedRange (no range is
 // published for the summation test).
 //
-// The Z-statistic, the per-bin bounds, Goodman's intervals, the chi-square
-// and the Kolmogorov-Smirnov test are all built on counts; the variance of
-// a share of amounts depends on the spread of the amounts within each bin,
-// which bin sums do not carry. So Z is left 0, DF and KSCritical are 0
-// ("not computed"), PValue is 1, ExpectedMAD and ExcessMAD are 0, and each
-// Goodman interval is [0, 1]. Instead a bin is flagged when its share of
-// the total exceeds SummationFactor (2) times its expected share, that is
-// Lower = 0 and Upper = 2/90 (common practice, no source). Only surpluses
-// are flagged: the test looks for large amounts.
-func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
+// The per-bin Z of counts, Goodman's intervals, the chi-square and the
+// Kolmogorov-Smirnov test are built on counts; the spread of a share of
+// amounts depends on the spread of the amounts, which N does not give. So
+// DF and KSCritical are 0 ("not computed"), PValue is 1, ExpectedMAD and
+// ExcessMAD are 0, and each Goodman interval is [0, 1]. The flag is
+// calibrated by simulation instead (flagSummation, summation.go): Z is the
+// bin's share standardized against N amounts following Benford's law over
+// the fitted range (surpluses only, 0 for a shortfall), P its one-sided
+// simulated p-value, PAdjusted the max-T adjusted p-value, Upper the share
+// above which the bin is beyond chance, and a bin is flagged when
+// PAdjusted < f.Alpha and it holds at least twice 1/90
+// (SummationMinExcess; --min-excess does not change it). Only
+// surpluses are flagged: the test looks for large amounts.
+func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f Flagging) (Result, error) {
 	t := Summation
 	lo, hi := t.Bins()
 	K := hi - lo + 1
@@ -258,6 +288,9 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 	}
 	if counts != nil && len(counts) != K {
 		return Result{}, fmt.Errorf("benford: summation test needs %d bin counts (bins 10 to 99) or none, got %d", K, len(counts))
+	}
+	if err := f.Check(); err != nil {
+		return Result{}, fmt.Errorf("benford: %w", err)
 	}
 	var total float64
 	var n int64
@@ -277,19 +310,17 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 		return Result{}, fmt.Errorf("benford: summation test: total absolute amount overflows")
 	}
 	exp := Expected(t)
-	res := Result{Test: t, N: n, Total: total, Bins: make([]Bin, K), PValue: 1, TopFlagged: []int{}, Notes: []string{}}
+	res := Result{Test: t, N: n, Total: total, Bins: make([]Bin, K), PValue: 1, TopFlagged: []int{}, Notes: []string{}, FlagRule: f}
 	actual := make([]float64, K)
-	upper := SummationFactor * exp[0]
 	for i := range sums {
 		b := Bin{Bin: lo + i, Label: t.Label(lo + i), Amount: sums[i], Expected: exp[i],
-			Lower: 0, Upper: upper, GoodmanLower: 0, GoodmanUpper: 1, P: 1, PAdjusted: 1}
+			Lower: 0, Upper: 1, GoodmanLower: 0, GoodmanUpper: 1, P: 1, PAdjusted: 1}
 		if counts != nil {
 			b.Count = counts[i]
 		}
 		if total > 0 {
 			b.Actual = sums[i] / total
 			b.Diff = b.Actual - b.Expected
-			b.Flagged = b.Actual > b.Upper
 		}
 		actual[i] = b.Actual
 		res.Bins[i] = b
@@ -301,16 +332,30 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 	}
 	res.MAD = MAD(actual, exp)
 	res.Conformity = Conformity(t, res.MAD)
+	sc := Scale{N: n, Min: minAmount, Mean: total / float64(max(n, 1))}
+	if n > 0 && sc.Valid() {
+		res.flagSummation(sc, f)
+		d, fitted := FitDecades(sc.Min, sc.Mean)
+		msg := fmt.Sprintf(
+			"summation test: a bin is flagged when its share of the total is beyond chance for %d amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %d simulated populations, max-T adjusted p < %g) and holds at least %g times 1/90 (materiality, common practice, no source); chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
+			n, trimFloat(minAmount), res.SummationDecades, d, summationSimulations, f.Alpha, 1+SummationMinExcess)
+		if !fitted {
+			msg += fmt.Sprintf("; the amounts' mean lies outside what %d to %d decades give, so the model is held at %.0f decades and the flag's rate is not known here", minDecades, maxDecades, d)
+		}
+		res.Notes = append(res.Notes, msg)
+	} else {
+		res.Notes = append(res.Notes, "summation test: no counts per bin, so no bin is flagged (the flag's null needs N)")
+	}
 	res.countFlags()
-	res.Notes = append(res.Notes, fmt.Sprintf(
-		"summation test: bins holding more than %g times their expected share of the total (1/90) are flagged (common practice, no source); Z-statistics, bounds, chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
-		SummationFactor))
 	if counts != nil && n < MinAmounts {
 		res.Notes = append(res.Notes, fmt.Sprintf(
 			"only %d amounts: digit tests want about %d or more (common practice, no source)", n, MinAmounts))
 	}
 	return res, nil
 }
+
+// trimFloat writes x without trailing zeros.
+func trimFloat(x float64) string { return strconv.FormatFloat(x, 'f', -1, 64) }
 
 // Merge returns the element-wise sum of two count vectors, for counts of
 // the same test computed over different partitions. A nil argument stands

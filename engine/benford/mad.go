@@ -1,6 +1,9 @@
 package benford
 
-import "math"
+import (
+	"math"
+	"sort"
+)
 
 // Conformity levels returned by Conformity.
 const (
@@ -104,4 +107,77 @@ func ExpectedMAD(t Test, n int64) float64 {
 		s += math.Sqrt(2 * pk * (1 - pk) / (math.Pi * N))
 	}
 	return s / float64(len(p))
+}
+
+// MADNull is the MAD's distribution under exact conformity at the test's
+// N: the MAD of NullSimulations multinomial draws from the expected
+// proportions (the draws of the runs test's null), rescaled from the
+// simulated N to N by sqrt(simulated N / N), since the MAD falls as
+// 1/sqrt(N). The asymptotic law is in Cerqueti and Lupi, "Severe testing
+// of Benford's law" (arXiv:2202.05237): sqrt(N)·MAD tends to
+// (1/K) Σ |Z_k| with Z multinormal with the multinomial covariance, whose
+// mean is sqrt(N)·ExpectedMAD; the simulation gives its spread and
+// percentiles at finite N without approximation.
+type MADNull struct {
+	Mean        float64 `json:"mean"` // E[MAD] under conformity at N (simulated)
+	SD          float64 `json:"sd"`   // its standard deviation
+	P95         float64 `json:"p95"`  // 95th percentile
+	Z           float64 `json:"z"`    // (MAD - Mean) / SD
+	P           float64 `json:"p"`    // share of conforming draws with a MAD at least this one ((count+1)/(draws+1))
+	Simulations int     `json:"simulations"`
+	SimulatedN  int64   `json:"simulated_n"`
+}
+
+// Severity verdicts (Result.Severity): the MAD read against its null at N
+// and against the published conformity ranges.
+const (
+	// WithinChance: conforming populations of this N show a MAD this large
+	// in 5% of draws or more.
+	WithinChance = "within chance"
+	// BeyondChanceImmaterial: beyond chance at this N, but inside the
+	// published close or acceptable range: a real deviation, too small to
+	// matter (typical at millions of amounts).
+	BeyondChanceImmaterial = "beyond chance, immaterial"
+	// BeyondChanceMaterial: beyond chance, and in the published marginal or
+	// nonconforming range.
+	BeyondChanceMaterial = "beyond chance, material"
+	// BeyondChance: beyond chance, for a test without published ranges.
+	BeyondChance = "beyond chance"
+)
+
+// madNullFor returns the MAD's null at N for test t.
+func madNullFor(t Test, n int64, mad float64) *MADNull {
+	if n <= 0 || t == Summation {
+		return nil
+	}
+	d := runsNullFor(t, n)
+	f := math.Sqrt(float64(d.n) / float64(n))
+	m := &MADNull{Mean: d.madMean * f, SD: d.madSD * f, Simulations: d.sims, SimulatedN: d.n}
+	m.P95 = d.mads[int(math.Ceil(0.95*float64(len(d.mads))))-1] * f
+	if m.SD > 0 {
+		m.Z = (mad - m.Mean) / m.SD
+	}
+	// draws at or above mad, at the simulated N
+	i := sort.SearchFloat64s(d.mads, mad/f)
+	m.P = float64(len(d.mads)-i+1) / float64(len(d.mads)+1)
+	return m
+}
+
+// Severity reads a MAD against its null at N (beyond chance when fewer
+// than 5% of conforming draws reach it) and against the published
+// conformity class: see the verdicts above. It returns "" without a null.
+func Severity(conformity string, null *MADNull) string {
+	if null == nil {
+		return ""
+	}
+	if null.P >= 0.05 {
+		return WithinChance
+	}
+	switch conformity {
+	case Close, Acceptable:
+		return BeyondChanceImmaterial
+	case Marginal, Nonconforming:
+		return BeyondChanceMaterial
+	}
+	return BeyondChance
 }

@@ -63,3 +63,90 @@ func TestExpectedMAD(t *testing.T) {
 		t.Error("ExpectedMAD: want 0 for N = 0 and for the summation test")
 	}
 }
+
+// TestExpectedMADMatchesSimulation checks the asymptotic E[MAD] ≈ (1/K)
+// Σ sqrt(2 p_k (1 − p_k)/(π N)) (E|Y| = σ sqrt(2/π) for a normal Y, the
+// half-normal mean; Cerqueti and Lupi, arXiv:2202.05237) against the MAD
+// of simulated conforming populations (reference: simulation, the
+// categorical draws of sim_test.go, seed 17, 400 populations; the
+// first-three digits are checked in TestExpectedMAD): within 2%
+// where every bin expects at least 10 amounts; the simulated null used by
+// the severity verdict (MADNull, other draws) agrees with the same
+// simulation within 3 standard errors.
+func TestExpectedMADMatchesSimulation(t *testing.T) {
+	for _, c := range []struct {
+		t Test
+		n int
+	}{{FirstDigit, 5000}, {SecondDigit, 5000}, {FirstTwo, 5000}} {
+		exp := Expected(c.t)
+		rng := rand.New(rand.NewPCG(17, uint64(c.n)))
+		var s, s2 float64
+		const draws = 400
+		actual := make([]float64, len(exp))
+		minExp := math.Inf(1)
+		for _, p := range exp {
+			minExp = math.Min(minExp, p*float64(c.n))
+		}
+		for range draws {
+			cnt := multinomial(rng, exp, c.n)
+			for i := range cnt {
+				actual[i] = float64(cnt[i]) / float64(c.n)
+			}
+			m := MAD(actual, exp)
+			s += m
+			s2 += m * m
+		}
+		mean := s / draws
+		se := math.Sqrt((s2/draws - mean*mean) / draws)
+		formula := ExpectedMAD(c.t, int64(c.n))
+		if minExp >= 10 && math.Abs(formula/mean-1) > 0.02 {
+			t.Errorf("%s N %d: formula %.6f, simulated %.6f", c.t, c.n, formula, mean)
+		}
+		null := madNullFor(c.t, int64(c.n), mean)
+		if math.Abs(null.Mean-mean) > 3*math.Hypot(se, null.SD/math.Sqrt(float64(null.Simulations))) {
+			t.Errorf("%s N %d: MADNull mean %.6f, simulated %.6f (se %.6f)", c.t, c.n, null.Mean, mean, se)
+		}
+		t.Logf("%s N %d: E[MAD] formula %.6f, simulated %.6f ± %.6f, null sd %.6f, 95%% %.6f", c.t, c.n, formula, mean, se, null.SD, null.P95)
+	}
+}
+
+// TestSeverity: a conforming first-two population of 1,000 amounts reads
+// "nonconforming" by the published class (E[MAD] at N = 1,000 is above its
+// 0.0022) but within chance; a deviation of 2% of each bin's share, in
+// alternating stretches, at 5,000,000 amounts is beyond chance yet in the
+// close class (immaterial); a 30% one is material.
+func TestSeverity(t *testing.T) {
+	exp := Expected(FirstTwo)
+	rng := rand.New(rand.NewPCG(3, 1000))
+	r, _ := Analyze(FirstTwo, Multinomial(rng, exp, 1000))
+	if r.Conformity != Nonconforming || r.Severity != WithinChance {
+		t.Errorf("N 1,000 conforming: %s, %s (MAD %.5f, null %+v)", r.Conformity, r.Severity, r.MAD, *r.MADNull)
+	}
+	shifted := func(n int64, rel float64) []int64 {
+		c := make([]int64, len(exp))
+		for i, p := range exp {
+			sign := 1.0
+			if (i/10)%2 == 1 {
+				sign = -1
+			}
+			c[i] = int64(math.Round(float64(n) * p * (1 + sign*rel)))
+		}
+		return c
+	}
+	r, _ = Analyze(FirstTwo, shifted(5000000, 0.02))
+	if r.Conformity != Close || r.Severity != BeyondChanceImmaterial {
+		t.Errorf("2%% at 5,000,000: %s, %s (MAD %.5f, z %.1f)", r.Conformity, r.Severity, r.MAD, r.MADNull.Z)
+	}
+	r, _ = Analyze(FirstTwo, shifted(5000000, 0.3))
+	if r.Severity != BeyondChanceMaterial {
+		t.Errorf("30%% at 5,000,000: %s, %s (MAD %.5f)", r.Conformity, r.Severity, r.MAD)
+	}
+	lt := make([]int64, 100)
+	for i := range lt {
+		lt[i] = 50000 + 5000*int64(i%2) // no published range for the last two digits
+	}
+	r, _ = Analyze(LastTwo, lt)
+	if r.Conformity != NoPublishedRange || r.Severity != BeyondChance {
+		t.Errorf("last-two: %s, severity %q", r.Conformity, r.Severity)
+	}
+}

@@ -4,6 +4,7 @@ import (
 	"hash/fnv"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sync"
 )
 
@@ -112,6 +113,10 @@ type runsNull struct {
 	mean   float64 // mean runs
 	sd     float64 // standard deviation of the runs
 	fewRun float64 // share of draws with fewer than FewRunsFirstTwo runs
+
+	// the MAD of the same draws
+	mads           []float64 // ascending
+	madMean, madSD float64
 }
 
 // atMost returns P(R <= r), counting the observed population among the
@@ -167,11 +172,13 @@ func runsNullFor(t Test, n int64) *runsNull {
 	actual := make([]float64, K)
 	var sum, sum2 float64
 	few := 0
+	mads := make([]float64, 0, NullSimulations)
 	for range NullSimulations {
 		c := Multinomial(rng, exp, key.n)
 		for i := range c {
 			actual[i] = float64(c[i]) / float64(key.n)
 		}
+		mads = append(mads, MAD(actual, exp))
 		r := countRuns(actual, exp)
 		hist[r]++
 		sum += float64(r)
@@ -190,6 +197,15 @@ func runsNullFor(t Test, n int64) *runsNull {
 	d.mean = sum / s
 	d.sd = math.Sqrt(math.Max(0, (sum2-sum*sum/s)/(s-1)))
 	d.fewRun = float64(few) / s
+	var ms, ms2 float64
+	for _, m := range mads {
+		ms += m
+		ms2 += m * m
+	}
+	d.madMean = ms / s
+	d.madSD = math.Sqrt(math.Max(0, (ms2-ms*ms/s)/(s-1)))
+	slices.Sort(mads)
+	d.mads = mads
 	v, _ := runsCache.LoadOrStore(key, d)
 	return v.(*runsNull)
 }

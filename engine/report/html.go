@@ -226,6 +226,9 @@ func (m *Model) glance() []glance {
 			if r.Test != benford.Summation && r.N > 0 {
 				res += ", excess MAD " + string(t.Ref.F("excess_mad", r.ExcessMAD, madFormat(r.Test)))
 			}
+			if r.Severity != "" {
+				res += ", " + template.HTMLEscapeString(r.Severity)
+			}
 			g = append(g, glance{What: capitalise(r.Test.Name()), Anchor: "test-" + string(r.Test), Section: 3, Flagged: r.Flagged > 0,
 				Result: template.HTML(res), Flags: t.Ref.F("flagged", r.Flagged, "int")})
 		}
