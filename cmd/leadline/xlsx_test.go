@@ -161,4 +161,3 @@ func centsText(c int64) string {
 	}
 	return fmt.Sprintf("%s%d.%02d", sign, c/100, c%100)
 }
-
