@@ -11,7 +11,6 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/leadline/leadline/engine/load/loadtest"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -103,42 +102,6 @@ func inspectThenLoad(t *testing.T, path, db string, extra ...string) (string, lo
 		t.Fatalf("%q: read %d != loaded %d + rejected %d", in.LoadCommand, rep.RowsRead, rep.RowsLoaded, rep.RowsRejected)
 	}
 	return in.LoadCommand, rep
-}
-
-// TestInspectCommandLoadsCorpus runs, for every file of the bad-input
-// corpus that loads, the load command `inspect` prints. It must succeed
-// and read every record, and reject no more rows than the corpus's own
-// options do (those were worked out by hand): a file the corpus loads
-// whole, the printed command loads whole. Rejects beyond that would be
-// avoidable ones; the command gets --accept-rejects only for files whose
-// records are bad in themselves.
-func TestInspectCommandLoadsCorpus(t *testing.T) {
-	loadtest.ForEach(t, func(t *testing.T, c loadtest.Case, path string) {
-		if c.Exit != 0 {
-			return
-		}
-		if strings.HasSuffix(path, ".parquet") {
-			return // typed columns: nothing to suggest beyond the mapping; the corpus runs them
-		}
-		var extra []string
-		if c.RowsRejected > 0 {
-			extra = []string{"--accept-rejects"}
-		}
-		cmd, got := inspectThenLoad(t, path, ":memory:", extra...)
-		if got.RowsRead == -1 {
-			// Only the files whose amounts read two ways may ask.
-			if !strings.HasPrefix(c.Name, "ambiguous_") {
-				t.Fatalf("inspect asks for the decimal mark of %s", c.Name)
-			}
-			return
-		}
-		if got.RowsRead != c.RowsRead {
-			t.Errorf("%q read %d rows; the corpus reads %d", cmd, got.RowsRead, c.RowsRead)
-		}
-		if got.RowsRejected > c.RowsRejected {
-			t.Errorf("%q rejected %d rows; with the corpus's options %d", cmd, got.RowsRejected, c.RowsRejected)
-		}
-	})
 }
 
 // export is a realistic extract written byte by byte: the header, the
