@@ -45,7 +45,8 @@ SELECT load_id, started_at, finished_at, tool_version FROM loads ORDER BY load_i
 SELECT count(*) FROM ledger;
 
 -- name: report_run_list
-SELECT run_id, kind, started_at, finished_at, tool_version
+-- Every run with its parameters (the report chooses its set from them).
+SELECT run_id, kind, started_at, finished_at, tool_version, params
 FROM runs
 ORDER BY run_id;
 

@@ -3,7 +3,9 @@
 # headless Chromium (Debian's package) to a screenshot and a PDF, dumps the
 # DOM the browser built, and fails if a chart is missing, a section is
 # empty, the page is blank or the page logged an error or tried to fetch
-# anything (scripts/browsercheck does the checking).
+# anything, or if any element reaches past the page at 1024 px, at 1400 px
+# or in A4 portrait print (scripts/browsercheck does the checking; the
+# widths are measured through the DevTools protocol, engine/report/pagefit).
 #
 #   scripts/browser-check.sh [--install] [REPORT.html]
 #
@@ -16,7 +18,8 @@
 #
 # --install installs Debian's chromium when it is missing (apt-get, as
 # root); when that is impossible (no apt, not root, no network to the
-# mirrors) the check is skipped with a message and exit status 0.
+# mirrors) the check is skipped with a message and exit status 0, unless
+# LEADLINE_REQUIRE_BROWSER=1, which makes a missing browser a failure.
 # LEADLINE_CHECK_ROWS sets the demo's size (default 200000).
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -26,7 +29,7 @@ report=""
 for a in "$@"; do
   case "$a" in
     --install) install=1 ;;
-    -h|--help) sed -n '2,21p' "$0"; exit 0 ;;
+    -h|--help) sed -n '2,24p' "$0"; exit 0 ;;
     *) report="$a" ;;
   esac
 done
@@ -39,22 +42,28 @@ find_browser() {
   return 1
 }
 
+skip() {
+  if [ "${LEADLINE_REQUIRE_BROWSER:-}" = 1 ]; then
+    echo "browser check FAILED (LEADLINE_REQUIRE_BROWSER=1): $1" >&2
+    exit 1
+  fi
+  echo "browser check SKIPPED: $1"
+  exit 0
+}
+
 if ! find_browser; then
   if [ "$install" = 1 ]; then
     if command -v apt-get >/dev/null 2>&1 && [ "$(id -u)" = 0 ]; then
       echo "browser check: installing Debian's chromium ..."
       if ! { timeout 300 apt-get update -qq && DEBIAN_FRONTEND=noninteractive timeout 900 apt-get install -y -qq chromium; } >/tmp/leadline-chromium-install.log 2>&1; then
-        echo "browser check SKIPPED: could not install chromium (no network to the Debian mirrors?); see /tmp/leadline-chromium-install.log"
-        exit 0
+        skip "could not install chromium (no network to the Debian mirrors?); see /tmp/leadline-chromium-install.log"
       fi
-      find_browser || { echo "browser check SKIPPED: chromium installed but not found on PATH"; exit 0; }
+      find_browser || skip "chromium installed but not found on PATH"
     else
-      echo "browser check SKIPPED: chromium is not installed and cannot be installed here (needs apt-get as root)"
-      exit 0
+      skip "chromium is not installed and cannot be installed here (needs apt-get as root)"
     fi
   else
-    echo "browser check SKIPPED: chromium is not installed (apt-get install chromium, or run with --install)"
-    exit 0
+    skip "chromium is not installed (apt-get install chromium, or run with --install)"
   fi
 fi
 
@@ -115,5 +124,5 @@ run_browser png --window-size=1280,16000 --screenshot="$out/report.png" >/dev/nu
 run_browser pdf --no-pdf-header-footer --print-to-pdf="$out/report.pdf" >/dev/null
 
 go run ./scripts/browsercheck --dom "$out/dom.html" --png "$out/report.png" --pdf "$out/report.pdf" \
-  --log "$out/dom.log,$out/png.log,$out/pdf.log"
+  --log "$out/dom.log,$out/png.log,$out/pdf.log" --fit "$out/report.html" --browser "$(command -v "$browser")"
 echo "browser check passed: $out/report.png, $out/report.pdf"

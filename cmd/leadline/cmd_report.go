@@ -22,22 +22,33 @@ func init() {
 
 Writes one HTML file that opens offline in any browser and prints cleanly:
 the job summary with the caution that results are signals for follow-up,
-never proof; completeness (files, rows read, loaded and rejected, SHA-256,
+never proof; which runs the report is built from, when and with which
+parameters; completeness (files, rows read, loaded and rejected, SHA-256,
 control totals per entity, reject reasons); each digit test as a chart of
 observed against expected proportions with its bounds, flagged bins and
 statistics; the runs test's surplus and shortfall stretches; the segment
 ranking; the limit probe; the range chart; the duplicate groups; the
-drill-down extracts; and the manifest of a pack run. A section whose run is
-missing says "Not run".
+drill-down extracts; the journal-entry checks with their SQL; and the
+manifest of a pack run.
 
-Without RUN_IDs the report shows the latest run of each kind stored in the
-workspace (and the latest five drill-downs); with RUN_IDs, only those runs.
+A report is built from one set of runs, named in its header:
+  --set pack     the latest pack run (leadline run) and the runs it stored
+  --set latest   the latest run of each kind made with the population
+                 settings (--where, --signs, --min, --by) of the latest scan
+  --runs ID,ID   exactly these runs (run ids as arguments do the same)
+Without these, the pack set when the workspace holds a pack run, else the
+latest set. Stored runs outside the set are listed in the header with the
+command that reports them; a section or test the set lacks says "not run in
+this set" with the command that runs it. Sections whose population differs
+from the digit tests' say so at their head.
+
 The file needs nothing else: no scripts, fonts or images are fetched.
 
 Examples:
   leadline report                              # ./report.html from ./leadline.duckdb
   leadline report --db acme.duckdb --out acme-fy2025.html
-  leadline report 4 7 9 --out selected.html    # only runs 4, 7 and 9`,
+  leadline report --set latest                 # the latest ad-hoc runs, not the pack's
+  leadline report --runs 4,7,9 --out selected.html`,
 		flags: thin(reportFlags, runReport),
 	})
 }
@@ -56,8 +67,20 @@ func reportFlags(fs *pflag.FlagSet) func(args []string) (reportOptions, error) {
 	o.db.add(fs)
 	fs.StringVar(&o.out, "out", "report.html", "the HTML file to write")
 	fs.StringVar(&o.report.Title, "title", "", `the report's heading (default "leadline report")`)
+	fs.StringVar(&o.report.Set, "set", "", "the runs the report is built from: pack or latest (default: pack when the workspace holds a pack run, else latest)")
+	var runs []string
+	fs.StringSliceVar(&runs, "runs", nil, "exactly these run ids, e.g. 4,7,9 (instead of --set)")
 	return func(args []string) (reportOptions, error) {
-		for _, a := range args {
+		switch o.report.Set {
+		case report.SetAuto, report.SetPack, report.SetLatest:
+		default:
+			return o, fmt.Errorf("--set %q: give pack or latest (or name runs with --runs)", o.report.Set)
+		}
+		all := append(append([]string{}, runs...), args...)
+		if len(all) > 0 && o.report.Set != report.SetAuto {
+			return o, fmt.Errorf("--set %s and run ids together: give one of them", o.report.Set)
+		}
+		for _, a := range all {
 			id, err := strconv.ParseInt(a, 10, 64)
 			if err != nil || id <= 0 {
 				return o, fmt.Errorf("%q is not a run id: give run ids as whole numbers (list them with: leadline sql \"SELECT run_id, kind, started_at FROM runs\")", a)

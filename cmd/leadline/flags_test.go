@@ -290,10 +290,22 @@ func TestReportFlags(t *testing.T) {
 	if got.out != "r.html" || got.report.Title != "FY2025" || !reflect.DeepEqual(got.report.RunIDs, []int64{4, 7}) || got.db != defaultDB {
 		t.Errorf("report options %+v", got)
 	}
-	for _, args := range [][]string{{"four"}, {"0"}} {
+	for _, args := range [][]string{{"four"}, {"0"}, {"--runs", "4,x"}} {
 		_, err := parseFlags(reportFlags, args...)
 		wantErr(t, args, err, "is not a run id")
 	}
+	got, err = parseFlags(reportFlags, "--runs", "4,7", "9")
+	if err != nil || !reflect.DeepEqual(got.report.RunIDs, []int64{4, 7, 9}) {
+		t.Errorf("--runs 4,7 and 9: %v %v", got.report.RunIDs, err)
+	}
+	got, err = parseFlags(reportFlags, "--set", "latest")
+	if err != nil || got.report.Set != "latest" {
+		t.Errorf("--set latest: %q %v", got.report.Set, err)
+	}
+	_, err = parseFlags(reportFlags, "--set", "newest")
+	wantErr(t, []string{"--set", "newest"}, err, "give pack or latest")
+	_, err = parseFlags(reportFlags, "--set", "pack", "--runs", "4")
+	wantErr(t, []string{"--set", "pack", "--runs", "4"}, err, "give one of them")
 }
 
 func TestRunPackDemoFlags(t *testing.T) {

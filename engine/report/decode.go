@@ -153,13 +153,9 @@ func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
 		}
 		R := srcRef(base, "", "scan")
 		X := R.At("exclusions")
-		P := rep.Params.Spec.WithDefaults()
-		pop := "signs " + P.Signs + ", |amount| ≥ " + P.Min
-		if strings.TrimSpace(P.Where) != "" {
-			pop += ", where " + P.Where
-		}
+		sec.PopLine = popLine(makePop(rep.Params.Spec, rep.Params.By, true))
+		sec.Missing = m.missingTests(rep.Params, sec.pop)
 		sec.Meta = []Fact{
-			{"population tested", template.HTML(template.HTMLEscapeString(pop))},
 			{"rows in the ledger", R.F("rows", rep.Rows, "int")},
 			{"amounts tested", R.F("tested", rep.Tested, "int")},
 		}
@@ -185,6 +181,7 @@ func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
 		m.Digits = sec
 		if rep.Segments != nil && len(rep.Segments.Rankings) > 0 {
 			m.addSegments(r, rep.Segments, R.At("segments"))
+			m.Segments.PopLine = sec.PopLine
 		}
 		return nil
 	}
@@ -290,7 +287,7 @@ func (m *Model) addLimits(r *Run, doc json.RawMessage, base string) error {
 	if err := json.Unmarshal(doc, &rep); err != nil {
 		return err
 	}
-	sec := &LimitSection{Run: r, Ref: srcRef(base, "", "limits"), Report: rep}
+	sec := &LimitSection{Run: r, Ref: srcRef(base, "", "limits"), Report: rep, PopLine: popLine(makePop(rep.Population, rep.By, true))}
 	var tested []LimitRow
 	for i, row := range rep.Rows {
 		seg := segmentLabel(row.Segment)
@@ -354,7 +351,7 @@ func (m *Model) addRanges(r *Run, doc json.RawMessage, base string) error {
 	if len(rep.Bands) == 0 {
 		return fmt.Errorf("no bands in the run")
 	}
-	sec := &RangeSection{Run: r, Ref: srcRef(base, "", "ranges"), Report: rep}
+	sec := &RangeSection{Run: r, Ref: srcRef(base, "", "ranges"), Report: rep, PopLine: popLine(makePop(rep.Population, nil, false))}
 	for i, b := range rep.Bands {
 		row := RangeRow{Ref: srcRef(base, fmt.Sprintf("/bands/%d", i), "ranges."+strconv.FormatFloat(b.From, 'f', -1, 64)), Row: b}
 		sec.Bands = append(sec.Bands, row)
@@ -383,7 +380,7 @@ func (m *Model) addDuplicates(r *Run, doc json.RawMessage, base string) error {
 	if len(res.Tests) == 0 {
 		return fmt.Errorf("no duplicate tests in the run")
 	}
-	m.Duplicates = &DuplicateSection{Run: r, Ref: srcRef(base, "", "duplicates"), Result: res}
+	m.Duplicates = &DuplicateSection{Run: r, Ref: srcRef(base, "", "duplicates"), Result: res, PopLine: popLine(makePop(res.Options.Spec, nil, false))}
 	if m.Workspace != "" && m.Workspace != ranges.DefaultWorkspace {
 		m.Duplicates.DB = "--db " + ranges.ShellQuote(m.Workspace) + " "
 	}
@@ -426,4 +423,33 @@ func (m *Model) addDrill(r *Run, doc json.RawMessage, base, title string) error 
 	}
 	m.Drills.Extracts = append(m.Drills.Extracts, g)
 	return nil
+}
+
+func popLine(p runPop) PopLine { return PopLine{Pop: p.words(), pop: p} }
+
+// missingTests lists the digit tests (and number duplication) the battery
+// did not run, each with the scan command that runs it on the same
+// population.
+func (m *Model) missingTests(o battery.Options, pop runPop) []MissingTest {
+	if len(o.Tests) == 0 && !o.Duplication {
+		return nil // every test ran
+	}
+	ran := map[string]bool{}
+	for _, t := range o.Tests {
+		ran[string(t)] = true
+	}
+	if o.Duplication {
+		ran["duplication"] = true
+	}
+	var out []MissingTest
+	add := func(key, name string) {
+		if !ran[key] {
+			out = append(out, MissingTest{Name: name, Cmd: "leadline scan " + dbArg(m.Workspace) + "--tests " + key + pop.flags(KindScan)})
+		}
+	}
+	for _, t := range benford.AllTests() {
+		add(string(t), capitalise(t.Name()))
+	}
+	add("duplication", "Number duplication")
+	return out
 }

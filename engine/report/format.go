@@ -5,8 +5,10 @@ import (
 	"html"
 	"html/template"
 	"math"
+	"regexp"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/leadline/leadline/engine/numfmt"
 )
@@ -20,19 +22,29 @@ import (
 //	pct:~   a proportion as a percentage, as few decimals as needed: 0.5%
 //	f:N     N decimals: 0.00123
 //	sf      four significant digits, plain or exponent: 12.35, 3.142e-05
-//	p       a p-value: four decimals, or an exponent below 0.001
-//	money   an exact decimal string with thousands separators
+//	p       a p-value: four decimals, or an exponent below 0.001; a
+//	        p-value that underflowed to 0 as "< 1e-300", as the terminal
+//	        and the workbook write it
+//	money   an amount with thousands separators and at least two decimals
+//	        (an exact decimal string keeps every decimal it has)
+//	id      an identifier (run, file, row, line): digits only, no separators
 //	text    any string, unchanged
 func formatValue(v any, kind string) string {
 	switch x := v.(type) {
 	case string:
 		if kind == "money" {
-			return typoMinus(numfmt.Group(x))
+			return typoMinus(numfmt.Group(moneyDecimals(x)))
 		}
 		return x
 	case int:
-		return formatFloat(float64(x), kind)
+		return formatValue(int64(x), kind)
 	case int64:
+		if kind == "id" {
+			return strconv.FormatInt(x, 10)
+		}
+		if kind == "money" {
+			return typoMinus(numfmt.Group(strconv.FormatInt(x, 10) + ".00"))
+		}
 		if kind == "int" || kind == "" {
 			return typoMinus(numfmt.Group(strconv.FormatInt(x, 10)))
 		}
@@ -53,6 +65,10 @@ func formatFloat(x float64, kind string) string {
 	dec, _ := strconv.Atoi(arg)
 	var s string
 	switch name {
+	case "id":
+		s = strconv.FormatFloat(x, 'f', -1, 64)
+	case "money":
+		s = numfmt.Group(strconv.FormatFloat(x, 'f', 2, 64))
 	case "int":
 		s = numfmt.Group(strconv.FormatFloat(math.Round(x), 'f', 0, 64))
 	case "pct":
@@ -66,7 +82,7 @@ func formatFloat(x float64, kind string) string {
 	case "p":
 		switch {
 		case x == 0:
-			s = "0"
+			s = PUnderflow
 		case math.Abs(x) < 0.001:
 			s = strconv.FormatFloat(x, 'e', 2, 64)
 		default:
@@ -88,6 +104,46 @@ func formatFloat(x float64, kind string) string {
 		}
 	}
 	return typoMinus(s)
+}
+
+// PUnderflow is how a p-value that underflowed to 0 is written: no
+// p-value is exactly 0, it is below the smallest the arithmetic holds.
+const PUnderflow = "< 1e-300"
+
+// moneyDecimals pads an exact decimal string to two decimals ("12" ->
+// "12.00", "12.5" -> "12.50"); more decimals are kept as they are.
+func moneyDecimals(s string) string {
+	if !plainDecimal.MatchString(s) {
+		return s
+	}
+	i := strings.IndexByte(s, '.')
+	switch {
+	case i < 0:
+		return s + ".00"
+	case len(s)-i-1 < 2:
+		return s + strings.Repeat("0", 2-(len(s)-i-1))
+	}
+	return s
+}
+
+var plainDecimal = regexp.MustCompile(`^-?[0-9]+(\.[0-9]*)?$`)
+
+// dateText writes a timestamp as the JSON documents store it
+// ("2025-01-02T00:00:00Z") as a date, or a date and time when it has one
+// ("2025-01-02 13:04:05 UTC"); other text is returned unchanged.
+func dateText(s string) string {
+	if len(s) < 20 || s[4] != '-' || s[10] != 'T' {
+		return s
+	}
+	t, err := time.Parse(time.RFC3339Nano, s)
+	if err != nil {
+		return s
+	}
+	t = t.UTC()
+	if t.Hour() == 0 && t.Minute() == 0 && t.Second() == 0 && t.Nanosecond() == 0 {
+		return t.Format("2006-01-02")
+	}
+	return t.Format("2006-01-02 15:04:05") + " UTC"
 }
 
 // typoMinus writes a leading minus sign as the typographic minus (U+2212).

@@ -107,15 +107,27 @@ func (n *node) cell(r ref, key string) template.HTML {
 	switch n.kind {
 	case 'n':
 		if i, err := n.num.Int64(); err == nil && !strings.ContainsAny(n.num.String(), ".eE") {
+			switch {
+			case isIDKey(key):
+				return r.F(key, i, "id")
+			case isMoneyKey(key):
+				return r.F(key, i, "money")
+			}
 			return r.F(key, i, "int")
 		}
 		f, _ := n.num.Float64()
+		switch {
+		case isPKey(key):
+			return r.F(key, f, "p")
+		case isMoneyKey(key):
+			return r.F(key, f, "money")
+		}
 		return r.F(key, f, "sf")
 	case 's':
 		if decimalText.MatchString(n.str) {
 			return r.F(key, n.str, "money")
 		}
-		return template.HTML(template.HTMLEscapeString(n.str))
+		return template.HTML(template.HTMLEscapeString(dateText(n.str)))
 	case 'b':
 		if n.b {
 			return "yes"
@@ -125,6 +137,88 @@ func (n *node) cell(r ref, key string) template.HTML {
 		return ""
 	}
 	return ""
+}
+
+// typedCell renders a cell of an output table: key is its place in the
+// row, name and kind its column's (output.Kind).
+func (n *node) typedCell(r ref, key, name, kind string) template.HTML {
+	fieldRef := ref{Src: r.Src, Field: r.Field, cell: r.cell}
+	mark := func(v any, format string) template.HTML {
+		nr := fieldRef.At(key)
+		if r.cell != nil {
+			nr.Src = r.cell(key)
+		}
+		nr.Field = r.Field + "." + name
+		return numHTML(nr.Field, nr.Src, v, format)
+	}
+	switch {
+	case n.kind == 'n' && (kind == "count" || kind == ""):
+		i, err := n.num.Int64()
+		if err != nil {
+			break
+		}
+		if isIDKey(name) {
+			return mark(i, "id")
+		}
+		if kind == "" && isMoneyKey(name) {
+			return mark(i, "money")
+		}
+		return mark(i, "int")
+	case n.kind == 'n' && kind == "money":
+		if strings.ContainsAny(n.num.String(), "eE") {
+			f, _ := n.num.Float64()
+			return mark(f, "money")
+		}
+		return mark(n.num.String(), "money")
+	case n.kind == 's' && kind == "money" && plainDecimal.MatchString(n.str):
+		return mark(n.str, "money")
+	case n.kind == 'n' && kind == "percent":
+		f, _ := n.num.Float64()
+		return mark(f, "pct:2")
+	case n.kind == 'n' && (kind == "number" || kind == "proportion"):
+		f, _ := n.num.Float64()
+		if isPKey(name) {
+			return mark(f, "p")
+		}
+		return mark(f, "sf")
+	case n.kind == 's' && (kind == "date" || kind == "timestamp" || kind == "text" || kind == ""):
+		if kind == "" && decimalText.MatchString(n.str) {
+			return mark(n.str, "money")
+		}
+		if d := dateText(n.str); d != n.str || kind == "date" {
+			return template.HTML(`<span class="date">` + template.HTMLEscapeString(d) + `</span>`)
+		}
+		return template.HTML(template.HTMLEscapeString(n.str))
+	}
+	return n.cell(r, key)
+}
+
+// isIDKey tells the columns that hold identifiers (shown without
+// thousands separators): row_id, line, doc_id, run_id, group...
+func isIDKey(key string) bool {
+	k := strings.ToLower(key)
+	switch k {
+	case "id", "line", "row", "run", "file", "load", "group", "line_id", "row_id", "doc_id", "first_line", "run id", "row id", "line id", "file id":
+		return true
+	}
+	return strings.HasSuffix(k, "_id") || strings.HasSuffix(k, " id")
+}
+
+// isMoneyKey tells the columns that hold amounts (shown with two
+// decimals).
+func isMoneyKey(key string) bool {
+	k := strings.ToLower(strings.ReplaceAll(key, " ", "_"))
+	switch k {
+	case "amount", "total", "net", "sum", "largest", "second", "smallest", "min_amount", "max_amount", "limit", "excess_amount":
+		return true
+	}
+	return strings.HasPrefix(k, "sum_") || strings.HasSuffix(k, "_amount")
+}
+
+// isPKey tells the columns that hold p-values.
+func isPKey(key string) bool {
+	k := strings.ToLower(strings.ReplaceAll(key, " ", "_"))
+	return k == "p" || k == "p_value" || k == "p_adjusted" || k == "runs_p" || strings.HasSuffix(k, "_p")
 }
 
 // maxGenericRows bounds each generic table.

@@ -62,7 +62,7 @@ type summaryData struct {
 
 var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 	"fmtTime":    fmtTime,
-	"compact":    compactJSON,
+	"params":     paramsHTML,
 	"capitalise": capitalise,
 	"numf":       numHTML,
 	"madFmt":     madFormat,
@@ -104,8 +104,9 @@ var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 func Write(w io.Writer, m *Model) error {
 	if m.absent == nil {
 		m.absent = map[string]string{}
-		m.explainAbsent(false)
+		m.explainAbsent()
 	}
+	m.markPopulations()
 	p := &page{M: m, CSS: template.CSS(pageCSS), Caution: Caution}
 	n := 0
 	add := func(id, title string, absent string, d any) {
@@ -128,6 +129,11 @@ func Write(w io.Writer, m *Model) error {
 	if len(m.Sensitivity) > 0 {
 		add("sensitivity", "Sensitivity: what the tests would have detected", "", m.Sensitivity)
 	}
+	if len(m.Checks) > 0 {
+		add("checks", "Journal-entry checks", "", m.Checks)
+	} else {
+		add("checks", "Journal-entry checks", m.absent["checks"], nil)
+	}
 	add("manifest", "Manifest", m.absent["manifest"], m.Manifest)
 	if len(m.Others) > 0 {
 		add("other", "Other stored runs", "", m.Others)
@@ -137,8 +143,59 @@ func Write(w io.Writer, m *Model) error {
 	if err := tmpl.ExecuteTemplate(&buf, "report", p); err != nil {
 		return fmt.Errorf("report: rendering: %w", err)
 	}
-	_, err := w.Write(buf.Bytes())
+	_, err := w.Write(wrapTables(buf.Bytes()))
 	return err
+}
+
+// wrapTables puts every table of the page in a box of its own, which
+// scrolls sideways on a screen narrower than the table instead of
+// widening the page (the page's text never holds a raw "<table": the
+// template escapes it).
+func wrapTables(page []byte) []byte {
+	page = bytes.ReplaceAll(page, []byte("<table"), []byte(`<div class="table-wrap"><table`))
+	return bytes.ReplaceAll(page, []byte("</table>"), []byte("</table></div>"))
+}
+
+// markPopulations names, at the head of each section whose population
+// differs from the digit tests' (or the first section's), the difference,
+// so that sections of different populations are never read as one.
+func (m *Model) markPopulations() {
+	type named struct {
+		what string
+		p    *PopLine
+	}
+	var all []named
+	if m.Digits != nil {
+		all = append(all, named{"the digit tests", &m.Digits.PopLine})
+	}
+	if m.Segments != nil {
+		all = append(all, named{"the segment ranking", &m.Segments.PopLine})
+	}
+	if m.Limits != nil {
+		all = append(all, named{"the limit probe", &m.Limits.PopLine})
+	}
+	if m.Ranges != nil {
+		all = append(all, named{"the amount ranges", &m.Ranges.PopLine})
+	}
+	if m.Duplicates != nil {
+		all = append(all, named{"the duplicate tests", &m.Duplicates.PopLine})
+	}
+	var ref *named
+	for i := range all {
+		if all[i].p.pop.Known {
+			ref = &all[i]
+			break
+		}
+	}
+	if ref == nil {
+		return
+	}
+	for _, n := range all {
+		n.p.PopDiffers = ""
+		if n.p != ref.p && n.p.pop.Known && !n.p.pop.same(ref.p.pop) {
+			n.p.PopDiffers = "a different population from " + ref.what
+		}
+	}
 }
 
 // WriteFile assembles the report from the workspace and writes it to path
@@ -286,17 +343,100 @@ func fmtTime(t time.Time) string {
 	return t.UTC().Format("2006-01-02 15:04:05")
 }
 
-// compactJSON shows a parameters document on one line, shortened.
-func compactJSON(raw json.RawMessage) string {
-	var b bytes.Buffer
-	if err := json.Compact(&b, raw); err != nil {
-		return string(raw)
+// paramsHTML writes a run's parameters as a readable nested list: keys
+// in words, lists joined, SQL and paths in code, times as dates.
+func paramsHTML(raw json.RawMessage) template.HTML {
+	root, err := parseOrdered(raw)
+	if err != nil {
+		return template.HTML("<code>" + template.HTMLEscapeString(string(raw)) + "</code>")
 	}
-	s := b.String()
-	if len(s) > 220 {
-		s = s[:217] + "…"
+	var b strings.Builder
+	writeParams(&b, root)
+	return template.HTML(b.String())
+}
+
+// sqlEntries reads an array of objects that each carry a name and SQL
+// (a pack's checks) as their names.
+func sqlEntries(n *node) ([]string, bool) {
+	var names []string
+	for _, it := range n.items {
+		name, sql := it.get("name"), it.get("sql")
+		if it.kind != 'o' || name == nil || sql == nil || name.kind != 's' {
+			return nil, false
+		}
+		names = append(names, name.str)
 	}
-	return s
+	return names, len(names) > 0
+}
+
+func writeParams(b *strings.Builder, n *node) {
+	esc := template.HTMLEscapeString
+	switch n.kind {
+	case 'o':
+		if len(n.keys) == 0 {
+			b.WriteString("none")
+			return
+		}
+		b.WriteString(`<ul class="params">`)
+		for i, k := range n.keys {
+			b.WriteString(`<li><span class="pk">` + esc(humanLabel(k)) + `:</span> `)
+			writeParams(b, n.vals[i])
+			b.WriteString("</li>")
+		}
+		b.WriteString("</ul>")
+	case 'a':
+		if len(n.items) == 0 {
+			b.WriteString("none")
+			return
+		}
+		scalars := true
+		for _, it := range n.items {
+			if !it.scalar() {
+				scalars = false
+			}
+		}
+		if scalars {
+			for i, it := range n.items {
+				if i > 0 {
+					b.WriteString(", ")
+				}
+				writeParams(b, it)
+			}
+			return
+		}
+		if names, ok := sqlEntries(n); ok {
+			// Checks: their SQL is shown with their rows.
+			b.WriteString(esc(strings.Join(names, ", ")) + ` <span class="pk">(each with its SQL under Journal-entry checks)</span>`)
+			return
+		}
+		b.WriteString(`<ol class="params">`)
+		for _, it := range n.items {
+			b.WriteString("<li>")
+			writeParams(b, it)
+			b.WriteString("</li>")
+		}
+		b.WriteString("</ol>")
+	case 's':
+		v := strings.TrimSpace(n.str)
+		switch {
+		case strings.Contains(v, "\n") || len(v) > 60 && strings.ContainsAny(v, " ()"):
+			b.WriteString(`<pre class="sql"><code>` + esc(v) + `</code></pre>`)
+		case strings.ContainsAny(v, "/=<>'") || len(v) == 64 && strings.Trim(v, "0123456789abcdef") == "":
+			b.WriteString(`<code class="pv">` + esc(v) + `</code>`)
+		default:
+			b.WriteString(esc(dateText(v)))
+		}
+	case 'n':
+		b.WriteString(esc(n.num.String())) // as given: ids and settings unformatted
+	case 'b':
+		if n.b {
+			b.WriteString("yes")
+		} else {
+			b.WriteString("no")
+		}
+	case 'z':
+		b.WriteString("none")
+	}
 }
 
 func madFormat(t benford.Test) string {

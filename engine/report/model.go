@@ -32,6 +32,9 @@ type Model struct {
 	Workspace   string
 	// Runs are the stored runs the report draws on, by run id.
 	Runs []Run
+	// Set says how the runs were chosen and which were left out (nil for
+	// a report built from a run in memory).
+	Set *RunSet
 	// Notes are remarks on the job as a whole (for instance a run made
 	// before the latest load).
 	Notes []string
@@ -48,7 +51,10 @@ type Model struct {
 	Duplicates   *DuplicateSection
 	Drills       *DrillSection
 	Sensitivity  []*SensitivitySection
-	Manifest     *GenericSection
+	Manifest     *ManifestSection
+	// Checks are the journal-entry checks of a pack run, each with the
+	// SQL that produced it.
+	Checks []*CheckSection
 
 	// Others are runs of kinds the report has no section of its own for
 	// (or whose result it could not read), shown as generic tables.
@@ -70,6 +76,9 @@ type Run struct {
 	// Stale is set when the run started before the latest load finished:
 	// its figures may not describe the ledger as it is now.
 	Stale bool `json:"stale"`
+	// PartOf is the pack run that stored this run of one of its steps
+	// (0 for a run of its own); its result is shown from the pack run's.
+	PartOf int64 `json:"part_of,omitempty"`
 }
 
 // ref addresses numbers in a run's stored JSON: the run id and a JSON
@@ -247,10 +256,30 @@ type LoadRow struct {
 	ToolVersion string
 }
 
+// PopLine is the population a section's run tested, in words, shown at
+// the head of the section.
+type PopLine struct {
+	Pop string
+	// PopDiffers, when set, says that this section's population differs
+	// from the one the set's other sections share, and from which.
+	PopDiffers string
+	pop        runPop
+}
+
+// MissingTest is a digit test the set's battery did not run, with the
+// command that runs it.
+type MissingTest struct {
+	Name string
+	Cmd  string
+}
+
 // DigitSection holds the digit tests of one battery run.
 type DigitSection struct {
-	Run   *Run
-	Tests []DigitTest
+	PopLine
+	Run *Run
+	// Missing are the digit tests not run in this set.
+	Missing []MissingTest
+	Tests   []DigitTest
 	// Meta are facts of the scan (amounts tested, left out...).
 	Meta []Fact
 	// Duplication is the number duplication test, when run.
@@ -274,6 +303,7 @@ type Fact struct {
 // SegmentSection ranks segments (entity, account, user, month...) by how
 // far their digits stray from expectation, one group per segmentation.
 type SegmentSection struct {
+	PopLine
 	Run    *Run
 	Groups []*SegmentGroup
 }
@@ -322,6 +352,7 @@ func (s SegmentRow) RunsP() float64 {
 
 // LimitSection is the limit-clustering probe.
 type LimitSection struct {
+	PopLine
 	Run    *Run
 	Ref    ref
 	Report limits.Report
@@ -340,6 +371,7 @@ type LimitRow struct {
 
 // RangeSection is the amount-range table and chart.
 type RangeSection struct {
+	PopLine
 	Run     *Run
 	Ref     ref
 	Report  ranges.Report
@@ -357,6 +389,7 @@ type RangeRow struct {
 
 // DuplicateSection holds a duplicates run.
 type DuplicateSection struct {
+	PopLine
 	Run    *Run
 	Ref    ref
 	Result duplicates.Result
@@ -377,6 +410,37 @@ type DrillSection struct {
 	Extracts []*GenericSection
 }
 
+// CheckSection is one journal-entry check: its rows and the SQL (and
+// bound values) that produced them.
+type CheckSection struct {
+	Run    *Run
+	Name   string
+	SQL    string
+	Params []Fact
+	Table  *GenericSection
+}
+
+// ManifestSection is a pack run's manifest: what was run, on which files,
+// with which tool, and the files written, each with its SHA-256.
+type ManifestSection struct {
+	Run     *Run
+	Facts   []Fact
+	Inputs  []ManifestFile
+	Outputs []ManifestFile
+	Note    string
+}
+
+// ManifestFile is one input or output file of a manifest.
+type ManifestFile struct {
+	Source       string
+	Path         string
+	SizeBytes    template.HTML
+	SHA256       string
+	RowsRead     template.HTML
+	RowsLoaded   template.HTML
+	RowsRejected template.HTML
+}
+
 // GenericSection shows a stored JSON document as facts and tables, for
 // runs whose shape the report does not know in detail.
 type GenericSection struct {
@@ -390,6 +454,10 @@ type GenericSection struct {
 type GenericTable struct {
 	Title   string
 	Columns []string
+	Num     []bool // per column: numbers, aligned right
 	Rows    [][]template.HTML
 	More    int // rows not shown
 }
+
+// IsNum reports whether column j holds numbers.
+func (t GenericTable) IsNum(j int) bool { return j < len(t.Num) && t.Num[j] }

@@ -79,12 +79,11 @@ func FromRun(run *output.Run, opts Options) (*Model, error) {
 		if err != nil {
 			return nil, err
 		}
-		g, err := genericFrom(nil, "Manifest", mdoc, srcRef(output.ManifestFile+"#", "", "manifest"))
+		ms, err := manifestFrom(nil, mdoc, output.ManifestFile+"#", "The files of the output folder, with their sizes and SHA-256, are listed in manifest.json, written after this report.")
 		if err != nil {
 			return nil, err
 		}
-		g.Facts = append([]Fact{{Label: "note", Value: "The files of the output folder, with their sizes and SHA-256, are listed in manifest.json, written after this report."}}, g.Facts...)
-		m.Manifest = g
+		m.Manifest = ms
 	}
 	if m.GeneratedAt.IsZero() {
 		m.GeneratedAt = time.Now()
@@ -100,13 +99,8 @@ func FromRun(run *output.Run, opts Options) (*Model, error) {
 	if err := m.completenessFromTables(r.Result, packDocBase); err != nil {
 		return nil, err
 	}
-	m.explainAbsent(false)
-	for k, v := range m.absent {
-		m.absent[k] = v + " (not part of this pack)"
-		if k == "runs" && m.Digits != nil {
-			m.absent[k] = v
-		}
-	}
+	m.Set = &RunSet{Name: SetPack, How: "this pack run"}
+	m.explainAbsent()
 	return m, nil
 }
 
@@ -147,10 +141,9 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 		}
 		if json.Unmarshal(r.Params, &params) == nil && params.Out != "" {
 			if b, err := os.ReadFile(filepath.Join(params.Out, output.ManifestFile)); err == nil {
-				g, err := genericFrom(r, "Manifest", b, srcRef(output.ManifestFile+"#", "", "manifest"))
+				ms, err := manifestFrom(r, b, output.ManifestFile+"#", "Read from "+filepath.Join(params.Out, output.ManifestFile)+".")
 				if err == nil {
-					g.Facts = append([]Fact{{Label: "read from", Value: template.HTML("<code>" + template.HTMLEscapeString(filepath.Join(params.Out, output.ManifestFile)) + "</code>")}}, g.Facts...)
-					m.Manifest = g
+					m.Manifest = ms
 				}
 			}
 		}
@@ -198,7 +191,9 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 			}
 		}
 	}
-	// Extract and check tables.
+	// Extract and check tables; the checks' SQL is in the pack's
+	// parameters.
+	checkDefs := packChecks(r.Params)
 	if tables := root.get("tables"); tables != nil {
 		for i, t := range tables.items {
 			sec := t.get("section")
@@ -212,11 +207,48 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 				}
 				m.Drills.Extracts = append(m.Drills.Extracts, g)
 			} else {
-				m.Others = append(m.Others, g)
+				name := ""
+				if n := t.get("name"); n != nil {
+					name = strings.TrimPrefix(n.str, "check_")
+				}
+				c := &CheckSection{Run: r, Name: name, Table: g}
+				if def, ok := checkDefs[name]; ok {
+					c.SQL = strings.TrimSpace(def.SQL)
+					for _, k := range sortedKeys(def.Params) {
+						c.Params = append(c.Params, Fact{Label: "$" + k, Value: template.HTML(template.HTMLEscapeString(fmt.Sprint(def.Params[k])))})
+					}
+				}
+				m.Checks = append(m.Checks, c)
 			}
 		}
 	}
 	return nil
+}
+
+// checkDef is a journal-entry check as the pack defines it.
+type checkDef struct {
+	Name   string         `json:"name"`
+	SQL    string         `json:"sql"`
+	Params map[string]any `json:"params"`
+}
+
+// packChecks reads the checks' definitions from a pack run's parameters
+// (stored: {"parameters": {"checks": [...]}}; in memory: {"checks": [...]}).
+func packChecks(params json.RawMessage) map[string]checkDef {
+	var doc struct {
+		Checks     []checkDef `json:"checks"`
+		Parameters struct {
+			Checks []checkDef `json:"checks"`
+		} `json:"parameters"`
+	}
+	out := map[string]checkDef{}
+	if json.Unmarshal(params, &doc) != nil {
+		return out
+	}
+	for _, c := range append(doc.Checks, doc.Parameters.Checks...) {
+		out[c.Name] = c
+	}
+	return out
 }
 
 // maxExtractRows bounds the rows of an extract or check shown.
@@ -241,11 +273,19 @@ func tableFromOutput(r *Run, t *node, base ref, maxRows int) *GenericSection {
 		g.Facts = append(g.Facts, Fact{Label: "rows", Value: v.cell(base, "rows_total")})
 	}
 	gt := GenericTable{Title: str("name")}
+	var names, kinds []string
 	if cols := t.get("columns"); cols != nil {
 		for _, c := range cols.items {
+			name, kind := "", ""
 			if n := c.get("name"); n != nil {
-				gt.Columns = append(gt.Columns, humanLabel(n.str))
+				name = n.str
 			}
+			if k := c.get("kind"); k != nil {
+				kind = k.str
+			}
+			names, kinds = append(names, name), append(kinds, kind)
+			gt.Columns = append(gt.Columns, humanLabel(name))
+			gt.Num = append(gt.Num, kind == "count" || kind == "money" || kind == "number" || kind == "percent" || kind == "proportion")
 		}
 	}
 	if rows := t.get("rows"); rows != nil {
@@ -258,7 +298,11 @@ func tableFromOutput(r *Run, t *node, base ref, maxRows int) *GenericSection {
 			cells := make([]template.HTML, len(row.items))
 			for j, c := range row.items {
 				if c.scalar() {
-					cells[j] = c.cell(rr.At(i), strconv.Itoa(j))
+					name, kind := "", ""
+					if j < len(names) {
+						name, kind = names[j], kinds[j]
+					}
+					cells[j] = c.typedCell(rr.At(i), strconv.Itoa(j), name, kind)
 				}
 			}
 			gt.Rows = append(gt.Rows, cells)

@@ -94,7 +94,7 @@ sql = "SELECT doc_id, entity, amount FROM ledger WHERE abs(amount) >= 100000 ORD
 		t.Fatal(err)
 	}
 	nums, sections, _ := parsePage(t, doc)
-	for _, id := range []string{"summary", "completeness", "digits", "runs", "segments", "limits", "ranges", "duplicates", "drill", "manifest", "other"} {
+	for _, id := range []string{"summary", "completeness", "digits", "runs", "segments", "limits", "ranges", "duplicates", "drill", "checks", "manifest"} {
 		if s := sections[id]; s == nil || attr(s, "data-status") != "shown" {
 			t.Errorf("section %s not shown", id)
 		}
@@ -148,6 +148,11 @@ sql = "SELECT doc_id, entity, amount FROM ledger WHERE abs(amount) >= 100000 ORD
 	if keep := os.Getenv("LEADLINE_REPORT_KEEP"); keep != "" {
 		os.WriteFile(filepath.Join(keep, "report-pack.html"), doc, 0o644)
 	}
+	// The pack's report (extracts, checks, manifest) fits the page at
+	// 1024 and 1400 px and in A4 print, measured in Chromium.
+	t.Run("fits the page", func(t *testing.T) {
+		checkFits(t, browserOrSkip(t), filepath.Join(out, FileName))
+	})
 	// The same run, reported later from the pack's workspace (the pack run
 	// is stored there as a run of kind pack), shows the same sections, the
 	// manifest read from the output folder.

@@ -132,6 +132,9 @@ func pointer(doc any, ptr string) (any, error) {
 // and returns its value (percentages divided by 100) and half a unit of
 // its last displayed digit.
 func parseShown(s string) (v, tol float64, err error) {
+	if s == PUnderflow {
+		return 0, 1e-300, nil // an underflowed p-value: stored as 0
+	}
 	s = strings.TrimSpace(strings.ReplaceAll(strings.ReplaceAll(s, ",", ""), "−", "-"))
 	scale := 1.0
 	if strings.HasSuffix(s, "%") {

@@ -31,9 +31,14 @@ type Options struct {
 	// Title heads the report (default "leadline report").
 	Title string
 	// RunIDs, when given, are the only runs the report shows; otherwise
-	// it shows the latest run of each kind (and the latest MaxDrills drill
-	// runs).
+	// Set chooses them.
 	RunIDs []int64
+	// Set names the runs the report shows when RunIDs is empty: SetPack
+	// (the latest pack run and the runs it stored), SetLatest (the latest
+	// run of each kind made with the population settings of the latest
+	// scan, and the latest MaxDrills drill-downs) or SetAuto (the pack
+	// set when there is a pack run, else the latest set).
+	Set string
 	// Manifest is the manifest of a pack run (its JSON), shown in the
 	// manifest section; when empty, the latest pack run's stored result
 	// is used, if any.
@@ -75,10 +80,11 @@ func FromWorkspace(ctx context.Context, ws *workspace.Workspace, opts Options) (
 	}
 	m.Completeness = c
 
-	runs, err := pickRuns(ctx, ws, opts)
+	runs, set, err := pickRuns(ctx, ws, opts)
 	if err != nil {
 		return nil, err
 	}
+	m.Set = set
 	var latestLoad sql.NullTime
 	if err := ws.Conn.QueryRowContext(ctx, stmt("report_latest_load")).Scan(&latestLoad); err != nil {
 		return nil, fmt.Errorf("report: reading the loads: %w", err)
@@ -97,85 +103,69 @@ func FromWorkspace(ctx context.Context, ws *workspace.Workspace, opts Options) (
 		return nil, err
 	}
 	if len(opts.Manifest) > 0 {
-		g, err := genericFrom(nil, "Manifest", opts.Manifest, ref{Src: "manifest#", Field: "manifest"})
+		ms, err := manifestFrom(nil, opts.Manifest, "manifest#", "")
 		if err != nil {
 			return nil, fmt.Errorf("report: reading the manifest: %w", err)
 		}
-		m.Manifest = g
+		m.Manifest = ms
 	}
-	m.explainAbsent(len(opts.RunIDs) > 0)
+	m.explainAbsent()
 	return m, nil
 }
 
-// pickRuns lists the runs the report shows, with their documents.
-func pickRuns(ctx context.Context, ws *workspace.Workspace, opts Options) ([]*Run, error) {
+// pickRuns lists the runs the report shows, with their documents, and
+// describes the set they form (see Options.Set).
+func pickRuns(ctx context.Context, ws *workspace.Workspace, opts Options) ([]*Run, *RunSet, error) {
 	rows, err := ws.Conn.QueryContext(ctx, stmt("report_run_list"))
 	if err != nil {
-		return nil, fmt.Errorf("report: listing the runs: %w", err)
+		return nil, nil, fmt.Errorf("report: listing the runs: %w", err)
 	}
 	var all []*Run
 	for rows.Next() {
 		r := &Run{}
-		if err := rows.Scan(&r.ID, &r.Kind, &r.StartedAt, &r.FinishedAt, &r.ToolVersion); err != nil {
+		var params string
+		if err := rows.Scan(&r.ID, &r.Kind, &r.StartedAt, &r.FinishedAt, &r.ToolVersion, &params); err != nil {
 			rows.Close()
-			return nil, err
+			return nil, nil, err
 		}
+		r.Params = json.RawMessage(params)
 		all = append(all, r)
 	}
 	rows.Close()
 	if err := rows.Err(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	var picked []*Run
-	if len(opts.RunIDs) > 0 {
-		byID := map[int64]*Run{}
-		for _, r := range all {
-			byID[r.ID] = r
+	readResult := func(r *Run) error {
+		if r.Result != nil {
+			return nil
 		}
-		seen := map[int64]bool{}
-		for _, id := range opts.RunIDs {
-			r, ok := byID[id]
-			if !ok {
-				return nil, fmt.Errorf("report: no run %d in workspace %s (list the runs with: leadline sql \"SELECT run_id, kind, started_at FROM runs\")", id, ws.Path)
+		var params, result string
+		if err := ws.Conn.QueryRowContext(ctx, stmt("report_run_docs"), r.ID).Scan(&params, &result); err != nil {
+			return fmt.Errorf("report: reading run %d: %w", r.ID, err)
+		}
+		r.Result = json.RawMessage(result)
+		return nil
+	}
+	// The latest pack run's result names the runs it stored of its steps.
+	for i := len(all) - 1; i >= 0; i-- {
+		if all[i].Kind == KindPack {
+			if err := readResult(all[i]); err != nil {
+				return nil, nil, err
 			}
-			if !seen[id] {
-				seen[id] = true
-				picked = append(picked, r)
-			}
+			break
 		}
-	} else {
-		// The latest run of each kind; of drill-downs and sensitivity
-		// studies (several of which make sense side by side) the latest
-		// MaxDrills.
-		latest := map[string]*Run{}
-		several := map[string][]*Run{}
-		for _, r := range all {
-			if r.Kind == KindDrill || r.Kind == KindSensitivity {
-				several[r.Kind] = append(several[r.Kind], r)
-				continue
-			}
-			latest[r.Kind] = r
-		}
-		for _, k := range sortedKeys(latest) {
-			picked = append(picked, latest[k])
-		}
-		for _, k := range sortedKeys(several) {
-			rs := several[k]
-			if len(rs) > opts.MaxDrills {
-				rs = rs[len(rs)-opts.MaxDrills:]
-			}
-			picked = append(picked, rs...)
-		}
+	}
+	picked, set, err := chooseSet(all, opts, ws.Path)
+	if err != nil {
+		return nil, nil, err
 	}
 	sort.SliceStable(picked, func(i, j int) bool { return picked[i].ID < picked[j].ID })
 	for _, r := range picked {
-		var params, result string
-		if err := ws.Conn.QueryRowContext(ctx, stmt("report_run_docs"), r.ID).Scan(&params, &result); err != nil {
-			return nil, fmt.Errorf("report: reading run %d: %w", r.ID, err)
+		if err := readResult(r); err != nil {
+			return nil, nil, err
 		}
-		r.Params, r.Result = json.RawMessage(params), json.RawMessage(result)
 	}
-	return picked, nil
+	return picked, set, nil
 }
 
 // readCompleteness reads the load log, the rejects and the control totals.
@@ -303,8 +293,12 @@ func readCompleteness(ctx context.Context, ws *workspace.Workspace, samples int)
 // addRuns decodes each run into its section.
 func (m *Model) addRuns(runs []*Run) error {
 	for _, r := range runs {
+		if r.PartOf != 0 {
+			continue // stored by a pack run whose result holds it too
+		}
 		var err error
 		base := runBase(r.ID)
+		before := *m
 		switch r.Kind {
 		case KindScan:
 			err = m.addScan(r, r.Result, base)
@@ -323,6 +317,14 @@ func (m *Model) addRuns(runs []*Run) error {
 		default:
 			err = m.addOther(r, fmt.Sprintf("Run %d: %s", r.ID, r.Kind))
 		}
+		if taken := m.replaced(&before); taken != "" {
+			// One section shows one run: a second run of the same kind
+			// is named, not mixed in.
+			*m = before
+			m.Notes = append(m.Notes, fmt.Sprintf("Run %d (%s) is not shown: this report already shows %s from run %s. Its own report: leadline report %s--runs %d",
+				r.ID, r.Kind, taken, m.sectionRun(taken), dbArg(m.Workspace), r.ID))
+			continue
+		}
 		if err != nil {
 			// A result the report cannot read in detail is still shown.
 			if gerr := m.addOther(r, fmt.Sprintf("Run %d: %s (shown as stored: %v)", r.ID, r.Kind, err)); gerr != nil {
@@ -331,6 +333,45 @@ func (m *Model) addRuns(runs []*Run) error {
 		}
 	}
 	return nil
+}
+
+// replaced names the section that adding a run replaced in m (one that
+// before already showed from another run), or "".
+func (m *Model) replaced(before *Model) string {
+	switch {
+	case before.Digits != nil && m.Digits != before.Digits:
+		return "the digit tests"
+	case before.Limits != nil && m.Limits != before.Limits:
+		return "the limit probe"
+	case before.Ranges != nil && m.Ranges != before.Ranges:
+		return "the amount ranges"
+	case before.Duplicates != nil && m.Duplicates != before.Duplicates:
+		return "the duplicate tests"
+	case before.Segments != nil && m.Segments != before.Segments:
+		return "the segment ranking"
+	}
+	return ""
+}
+
+// sectionRun is the run id a section named by replaced is shown from.
+func (m *Model) sectionRun(what string) string {
+	var r *Run
+	switch what {
+	case "the digit tests":
+		r = m.Digits.Run
+	case "the limit probe":
+		r = m.Limits.Run
+	case "the amount ranges":
+		r = m.Ranges.Run
+	case "the duplicate tests":
+		r = m.Duplicates.Run
+	case "the segment ranking":
+		r = m.Segments.Run
+	}
+	if r == nil {
+		return "?"
+	}
+	return fmt.Sprint(r.ID)
 }
 
 func (m *Model) addOther(r *Run, title string) error {
@@ -342,17 +383,35 @@ func (m *Model) addOther(r *Run, title string) error {
 	return nil
 }
 
-// explainAbsent records why each missing section is missing.
-func (m *Model) explainAbsent(explicit bool) {
+// explainAbsent records why each missing section is missing, with the
+// command that would run it on the set's population.
+func (m *Model) explainAbsent() {
+	var pop runPop
+	set := ""
+	if m.Set != nil {
+		set = m.Set.Name
+		pop = m.Set.pop
+	}
+	if m.Digits != nil {
+		pop = m.Digits.pop
+	}
+	db := dbArg(m.Workspace)
+	cmd := func(kind, extra string) string {
+		return "leadline " + commandOf(kind) + " " + db + strings.TrimSpace(extra+pop.flags(kind))
+	}
 	how := map[string]string{
-		"digits":     "leadline scan",
-		"runs":       "leadline scan",
-		"segments":   "leadline scan with segments",
-		"limits":     "leadline limits",
-		"ranges":     "leadline ranges",
-		"duplicates": "leadline dups",
-		"drill":      "leadline drill, or a pack with extracts",
-		"manifest":   "leadline run PACK",
+		"digits":     cmd(KindScan, ""),
+		"runs":       cmd(KindScan, "--tests first_two"),
+		"segments":   cmd(KindScan, "--by entity"),
+		"limits":     cmd(KindLimits, ""),
+		"ranges":     cmd(KindRanges, ""),
+		"duplicates": cmd(KindDuplicates, ""),
+		"drill":      "leadline drill " + db + "(a bin, range, segment or duplicate group), or a pack with extracts",
+		"manifest":   "leadline run PACK --out DIR",
+		"checks":     "leadline run PACK --out DIR, with the checks as [[check]] entries of the pack",
+	}
+	if pop.Known && pop.HasBy && len(pop.By) > 0 {
+		how["segments"] = cmd(KindScan, "")
 	}
 	present := map[string]bool{
 		"digits":     m.Digits != nil,
@@ -363,18 +422,23 @@ func (m *Model) explainAbsent(explicit bool) {
 		"duplicates": m.Duplicates != nil,
 		"drill":      m.Drills != nil && len(m.Drills.Extracts) > 0,
 		"manifest":   m.Manifest != nil,
+		"checks":     len(m.Checks) > 0,
 	}
-	for k, cmd := range how {
+	for k, c := range how {
 		if present[k] {
 			continue
 		}
 		switch {
 		case k == "runs" && m.Digits != nil:
-			m.absent[k] = "Not run: the digit tests in this report include no first-two digits test, so there is no runs test to show."
-		case explicit:
-			m.absent[k] = "Not run: none of the runs named for this report is of this kind (" + cmd + ")."
+			m.absent[k] = "Not run in this set: the digit tests in this report include no first-two digits test, so there is no runs test to show. Run: " + c
+		case set == setNamed:
+			m.absent[k] = "Not run in this set: none of the runs named for this report is of this kind. Run: " + c
+		case set == SetPack:
+			m.absent[k] = "Not run in this set: the pack run has no such step. Add it to the pack, or run: " + c
+		case set == SetLatest && pop.Known:
+			m.absent[k] = "Not run in this set: the workspace holds no run of this kind made with this set's population settings. Run: " + c + " and make the report again."
 		default:
-			m.absent[k] = "Not run: the workspace holds no run of this kind. Run " + cmd + " and make the report again."
+			m.absent[k] = "Not run in this set: the workspace holds no run of this kind. Run: " + c + " and make the report again."
 		}
 	}
 }

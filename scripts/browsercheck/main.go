@@ -3,12 +3,14 @@
 // browser's log. scripts/browser-check.sh drives the browser and runs it;
 // it exits non-zero, listing every problem, when a chart or a section is
 // missing or empty, the screenshot is blank or shows no chart colours, the
-// PDF has fewer pages than sections, or the page logged an error or tried
-// to fetch anything.
+// PDF has fewer pages than sections, the page logged an error or tried
+// to fetch anything, or (--fit) any element of the report reaches past the
+// page at 1024 px, at 1400 px or in A4 portrait print (engine/report/pagefit).
 package main
 
 import (
 	"bytes"
+	"context"
 	"flag"
 	"fmt"
 	"image"
@@ -18,6 +20,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/leadline/leadline/engine/report/pagefit"
 	"golang.org/x/net/html"
 )
 
@@ -29,13 +32,37 @@ func main() {
 	shot := flag.String("png", "", "the screenshot")
 	pdf := flag.String("pdf", "", "the PDF printed by the browser")
 	logs := flag.String("log", "", "the browser's log (stderr with --enable-logging=stderr), one or more files, comma-separated")
+	fit := flag.String("fit", "", "the report to measure in the browser at 1024 px, 1400 px and A4 print")
+	browser := flag.String("browser", "", "the browser for --fit (default: chromium on PATH)")
 	flag.Parse()
 	var problems []string
 	fail := func(format string, a ...any) { problems = append(problems, fmt.Sprintf(format, a...)) }
 
-	nSections := checkDOM(*dom, fail)
-	checkPNG(*shot, fail)
-	checkPDF(*pdf, nSections, fail)
+	if *fit != "" {
+		b := *browser
+		if b == "" {
+			b = pagefit.Browser()
+		}
+		over, err := pagefit.Check(context.Background(), b, *fit, pagefit.Modes)
+		if err != nil {
+			fail("measuring %s in the browser: %v", *fit, err)
+		}
+		for _, o := range over {
+			fail("wider than the page: %s", o)
+		}
+		if err == nil && len(over) == 0 {
+			var names []string
+			for _, m := range pagefit.Modes {
+				names = append(names, m.Name)
+			}
+			fmt.Printf("page width: nothing wider than the page at %s\n", strings.Join(names, ", "))
+		}
+	}
+	if *dom != "" {
+		nSections := checkDOM(*dom, fail)
+		checkPNG(*shot, fail)
+		checkPDF(*pdf, nSections, fail)
+	}
 	for _, l := range strings.Split(*logs, ",") {
 		if l != "" {
 			checkLog(l, fail)
