@@ -51,6 +51,19 @@ type Completeness struct {
 	SumNegative  string `json:"sum_negative"`
 	Net          string `json:"net"`
 	Balanced     bool   `json:"balanced"` // rows_read = rows_loaded + rows_rejected for every file
+	// Currencies are the ledger's totals per currency when it holds more
+	// than one; SumPositive, SumNegative and Net are then empty (amounts
+	// in different currencies are never added together).
+	Currencies []CurrencyTotal `json:"currencies,omitempty"`
+}
+
+// CurrencyTotal is the ledger's control totals in one currency.
+type CurrencyTotal struct {
+	Currency    string `json:"currency"`
+	Rows        int64  `json:"rows"`
+	SumPositive string `json:"sum_positive"`
+	SumNegative string `json:"sum_negative"`
+	Net         string `json:"net"`
 }
 
 // Finding is one key finding in a sentence, with the table that holds the

@@ -62,6 +62,7 @@ type summaryData struct {
 
 var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 	"fmtTime":    fmtTime,
+	"deref":      derefAny,
 	"compact":    compactJSON,
 	"capitalise": capitalise,
 	"numf":       numHTML,
