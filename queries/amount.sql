@@ -93,3 +93,12 @@ CREATE OR REPLACE TEMP MACRO ll_amount_reason_parts(s, p, dc) AS CASE
         ELSE 'out of range'
         END;
 CREATE OR REPLACE TEMP MACRO ll_amount_reason(s, dc) AS ll_amount_reason_parts(s, ll_amount_parts(s), dc);
+-- The currency an amount text's marker names: a three-letter code as
+-- written, the code of a symbol ($ USD, € EUR, £ GBP, ¥ JPY, ₹ INR), ''
+-- for a text without a marker, NULL for a text that is no amount at all.
+-- engine/amount.Currency states the same rule.
+CREATE OR REPLACE TEMP MACRO ll_amount_currency_of(m) AS CASE m
+    WHEN '$' THEN 'USD' WHEN '€' THEN 'EUR' WHEN '£' THEN 'GBP' WHEN '¥' THEN 'JPY' WHEN '₹' THEN 'INR'
+    ELSE m END;
+CREATE OR REPLACE TEMP MACRO ll_amount_currency(p) AS CASE WHEN p.num <> ''
+    THEN ll_amount_currency_of(CASE WHEN p.c1 <> '' THEN p.c1 ELSE p.c2 END) END;

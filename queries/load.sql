@@ -108,15 +108,18 @@ DELETE FROM rejects WHERE file_id = ?;
 DELETE FROM files WHERE file_id = ?;
 
 -- name: entity_totals
--- Control totals per entity over the whole workspace, exact decimals as text.
+-- Control totals per entity and currency over the whole workspace, exact
+-- decimals as text. {{currency}} is the ledger's currency column, or NULL
+-- for a workspace made before it (engine/load.CurrencyColumn).
 SELECT coalesce(entity, '') AS entity,
+       coalesce({{currency}}, '') AS currency,
        count(*) AS rows,
        CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR) AS positive,
        CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR) AS negative,
        CAST(coalesce(sum(amount), 0) AS VARCHAR) AS net
 FROM ledger
 GROUP BY ALL
-ORDER BY entity;
+ORDER BY entity, currency;
 
 -- name: load_separator_evidence
 -- What the amount texts of one file say about its decimal mark, by kind
@@ -264,3 +267,103 @@ FROM (VALUES {{values}}) AS v(line, col, raw, reason);
 -- name: load_sheet_rejects_delete
 -- Those rows leave the ledger: ? = file_id; {{lines}} = their line numbers.
 DELETE FROM ledger WHERE file_id = ? AND line IN ({{lines}});
+-- name: load_currency_markers
+-- What the amount texts of one file say about their currency: texts with a
+-- marker (EUR 12.00, 12.00 USD, € 12,00) against texts with digits and
+-- none, each with its count, first record and text, and the codes seen.
+-- {{texts}} selects (pos, text). A text of digits, marks, signs and
+-- spaces only has no marker, told without the grammar's expression (most
+-- rows); texts that are no amount count on neither side, and nor does an
+-- unmarked zero (the empty side of a debit/credit row written 0.00): it
+-- adds nothing to any currency's total.
+WITH m AS (
+    SELECT pos, text, CASE
+        WHEN NOT regexp_matches(text, '[^0-9.,'' \t+-]') THEN CASE WHEN regexp_matches(text, '[0-9]') THEN '' END
+        ELSE ll_amount_currency(ll_amount_parts(text))
+        END AS cur
+    FROM ({{texts}})
+    WHERE text IS NOT NULL
+), c AS (
+    SELECT pos, text, CASE WHEN cur = '' AND NOT regexp_matches(text, '[1-9]') THEN NULL ELSE cur END AS cur
+    FROM m
+)
+SELECT count(*) FILTER (WHERE cur <> ''),
+       coalesce(min(pos) FILTER (WHERE cur <> ''), 0),
+       coalesce(arg_min(text, pos) FILTER (WHERE cur <> ''), ''),
+       count(*) FILTER (WHERE cur = ''),
+       coalesce(min(pos) FILTER (WHERE cur = ''), 0),
+       coalesce(arg_min(text, pos) FILTER (WHERE cur = ''), ''),
+       coalesce(string_agg(DISTINCT cur, ', ' ORDER BY cur) FILTER (WHERE cur <> ''), '')
+FROM c;
+
+-- name: load_currency_totals
+-- Control totals of one file (? = file_id) per currency ('' for none),
+-- exact decimals as text.
+SELECT coalesce(currency, '') AS cur, count(*),
+       CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount), 0) AS VARCHAR)
+FROM ledger WHERE file_id = ?
+GROUP BY cur ORDER BY cur;
+
+-- name: load_debit_credit_totals
+-- Each side of a debit/credit extract on its own, per currency, over the
+-- loaded rows of one file (? = file_id): the rows whose debit (credit) is
+-- neither blank nor zero and their total, the rows with both, and the net
+-- loaded. {{debit}} and {{credit}} are the sides' values, built by
+-- engine/load from the stored text columns.
+SELECT cur,
+       count(*) FILTER (WHERE d <> 0), CAST(coalesce(sum(d), 0) AS VARCHAR),
+       count(*) FILTER (WHERE c <> 0), CAST(coalesce(sum(c), 0) AS VARCHAR),
+       count(*) FILTER (WHERE d <> 0 AND c <> 0),
+       CAST(coalesce(sum(amount), 0) AS VARCHAR)
+FROM (
+    SELECT coalesce(currency, '') AS cur, amount, coalesce({{debit}}, 0) AS d, coalesce({{credit}}, 0) AS c
+    FROM ledger WHERE file_id = ?
+)
+GROUP BY cur ORDER BY cur;
+
+-- name: load_insert_both_sides
+-- The rows of one file (? = file_id) with both sides filled, kept for
+-- drill (see load_debit_credit_totals for {{debit}} and {{credit}}).
+INSERT INTO both_sides (file_id, line, row_id)
+SELECT file_id, line, row_id FROM ledger
+WHERE file_id = ? AND coalesce({{debit}}, 0) <> 0 AND coalesce({{credit}}, 0) <> 0;
+
+-- name: load_both_sides_first
+-- The first lines of one file (? = file_id) with both sides filled
+-- (? = how many).
+SELECT line FROM both_sides WHERE file_id = ? ORDER BY line LIMIT ?;
+
+-- name: load_insert_file_totals
+-- One file's totals in one currency, bound in the order of the columns.
+INSERT INTO file_totals (file_id, currency, rows, positive, negative, net,
+                         debit_rows, debit, credit_rows, credit, both_sides)
+VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?);
+
+-- name: load_forget_file_totals
+-- --replace takes out an earlier file's totals (? = its file_id).
+DELETE FROM file_totals WHERE file_id = ?;
+
+-- name: load_forget_both_sides
+DELETE FROM both_sides WHERE file_id = ?;
+
+-- name: file_totals_all
+-- Every file's totals per currency, for the report and packs.
+SELECT file_id, currency, rows, positive, negative, net,
+       debit_rows, debit, credit_rows, credit, both_sides
+FROM file_totals ORDER BY file_id, currency;
+
+-- name: workspace_table_exists
+-- Whether the workspace has a table named ? (a workspace made before the
+-- table was added, opened read-only, has not).
+SELECT count(*) > 0 FROM information_schema.tables WHERE table_schema = 'main' AND table_name = ?;
+
+-- name: ledger_currencies
+-- The currencies of the ledger ('' for rows without one), their rows and
+-- control totals, exact decimals as text; {{currency}} as in entity_totals.
+SELECT coalesce({{currency}}, '') AS cur, count(*),
+       CAST(coalesce(sum(amount) FILTER (WHERE amount > 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount) FILTER (WHERE amount < 0), 0) AS VARCHAR),
+       CAST(coalesce(sum(amount), 0) AS VARCHAR)
+FROM ledger GROUP BY cur ORDER BY cur;

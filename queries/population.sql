@@ -28,3 +28,10 @@ SELECT CASE
        count(*) AS n
 FROM ledger
 GROUP BY ALL;
+
+-- name: population_currencies
+-- The currencies of the rows a population tests ('' for rows without
+-- one) and their rows. {{currency}}: the ledger's currency column or a
+-- NULL text (engine/load.CurrencyColumn); {{where}} the population's
+-- predicate, its values bound with ?.
+SELECT coalesce({{currency}}, '') AS cur, count(*) FROM ledger WHERE {{where}} GROUP BY cur ORDER BY cur;

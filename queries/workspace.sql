@@ -39,6 +39,30 @@ CREATE TABLE IF NOT EXISTS rejects (
     reason      VARCHAR NOT NULL,
     raw_line    VARCHAR
 );
+-- Control totals of each loaded file per currency (currency '' when the
+-- file names none); for a debit/credit extract also each side's own count
+-- and total and the rows with both sides filled. Never summed across
+-- currencies.
+CREATE TABLE IF NOT EXISTS file_totals (
+    file_id     INTEGER NOT NULL,
+    currency    VARCHAR NOT NULL,
+    rows        BIGINT NOT NULL,
+    positive    VARCHAR NOT NULL,     -- exact decimals as text
+    negative    VARCHAR NOT NULL,
+    net         VARCHAR NOT NULL,
+    debit_rows  BIGINT,               -- NULL unless the file maps --debit/--credit
+    debit       VARCHAR,
+    credit_rows BIGINT,
+    credit      VARCHAR,
+    both_sides  BIGINT
+);
+-- The loaded rows of a debit/credit extract with both sides filled
+-- (amount = debit - credit, netted but listed here).
+CREATE TABLE IF NOT EXISTS both_sides (
+    file_id INTEGER NOT NULL,
+    line    BIGINT NOT NULL,
+    row_id  BIGINT NOT NULL
+);
 CREATE TABLE IF NOT EXISTS runs (
     run_id      INTEGER PRIMARY KEY,
     kind        VARCHAR NOT NULL,     -- scan, segments, limits, ranges, duplicates, drill, pack...
@@ -64,8 +88,11 @@ CREATE TABLE IF NOT EXISTS ledger (
     posted       DATE,
     user_id      VARCHAR,
     "source"     VARCHAR,
-    descr        VARCHAR
+    descr        VARCHAR,
+    currency     VARCHAR              -- mapped, or the marker of the amount text (EUR 12.00, $12.00); NULL when neither
 );
+-- A workspace created before the currency column gets it.
+ALTER TABLE ledger ADD COLUMN IF NOT EXISTS currency VARCHAR;
 
 -- name: ledger_columns
 SELECT column_name, data_type

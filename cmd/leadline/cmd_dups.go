@@ -73,6 +73,8 @@ func dupsFlags(fs *pflag.FlagSet) func(args []string) (dupsOptions, error) {
 	fs.StringVar(&o.dups.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
 	fs.StringVar(&o.dups.Min, "min", population.DefaultMin, "smallest absolute amount tested")
 	fs.StringVar(&o.dups.Where, "where", "", `filter on the ledger's columns, e.g. "source = 'AP'" (read-only)`)
+	var currency string
+	fs.StringVar(&currency, "currency", "", `test the amounts of one currency, e.g. EUR ("none" for rows without one); needed when the amounts are in several`)
 	f.add(fs)
 	return func(args []string) (dupsOptions, error) {
 		if err := f.check(); err != nil {
@@ -89,6 +91,7 @@ func dupsFlags(fs *pflag.FlagSet) func(args []string) (dupsOptions, error) {
 		if o.dups.Top == 0 {
 			return o, fmt.Errorf("--top 0: give a number of groups, or -1 for all")
 		}
+		o.dups.Where = population.CurrencyWhere(o.dups.Where, currency)
 		o.format = f.value
 		return o, nil
 	}

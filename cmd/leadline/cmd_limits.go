@@ -77,6 +77,7 @@ func limitsFlags(fs *pflag.FlagSet) func(args []string) (limitsOptions, error) {
 	fs.Int64Var(&o.limits.MinCount, "min-count", limits.DefaultMinCount, "fewest amounts in a band (below + above) for its limit to be tested")
 	fs.IntVar(&o.top, "top", 20, "rows to print in text format (0 = all tested)")
 	pop.add(fs)
+	pop.addCurrency(fs)
 	f.add(fs)
 	return func(args []string) (limitsOptions, error) {
 		if err := f.check(); err != nil {

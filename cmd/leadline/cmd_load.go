@@ -23,9 +23,9 @@ workspace's rejects table with its file, line and reason, so that
 rows read = rows loaded + rows rejected for every file.
 
 Columns named like the canonical columns (amount, entity, account,
-counterparty, doc_id, line_id, posted, user_id, source, descr) map
-themselves; map others with --map. Amounts are parsed exactly into DECIMAL:
-thousands separators, currency symbols and ISO codes, (parentheses),
+counterparty, doc_id, line_id, posted, user_id, source, descr, currency)
+map themselves; map others with --map. Amounts are parsed exactly into
+DECIMAL: thousands separators, currency symbols and ISO codes, (parentheses),
 trailing minus, CR/DR suffixes and scientific notation are understood.
 
 After the load, the journal checks count documents that do not sum to zero,
@@ -33,6 +33,13 @@ postings outside --period and repeated line keys (entity, doc_id, line_id)
 over the whole workspace; --control reconciles the ledger against the
 client's totals or trial balance (see leadline reconcile --help), and a
 difference makes the command fail unless --accept-differences is given.
+Control totals are per currency, never summed across currencies. Without a
+currency column, a file whose every amount names its currency (EUR 12.00,
+$12.00) takes each row's currency from its marker; one in which some
+amounts name a currency and others none is refused (--map currency=COLUMN,
+or split the file). A debit/credit extract reports each side's count and
+total, the rows with both sides filled (listed; all in the both_sides
+table) and that debits - credits = net, per currency.
 
 Examples:
   leadline load ledger_2025.csv
@@ -134,7 +141,11 @@ func printLoad(w io.Writer, format string, rep *load.Report) error {
 	}
 	files := &tabular.Table{Name: "files", Columns: []string{"file", "format", "bytes", "sha256", "rows_read", "rows_loaded", "rows_rejected", "sum_positive", "sum_negative", "net"}}
 	for _, f := range rep.Files {
-		files.Add(f.Name, f.Format, f.SizeBytes, f.SHA256[:16]+"…", f.RowsRead, f.RowsLoaded, f.RowsRejected, f.Positive, f.Negative, f.Net)
+		pos, neg, net := f.Positive, f.Negative, f.Net
+		if len(f.Currencies) > 1 && format != "csv" {
+			pos, neg, net = "per currency", "below", ""
+		}
+		files.Add(f.Name, f.Format, f.SizeBytes, f.SHA256[:16]+"…", f.RowsRead, f.RowsLoaded, f.RowsRejected, pos, neg, net)
 	}
 	if format == "csv" {
 		for i := range files.Rows {
@@ -155,6 +166,9 @@ func printLoad(w io.Writer, format string, rep *load.Report) error {
 		fmt.Fprintf(w, "; %d amounts rounded to the scale", rep.RowsRounded)
 	}
 	fmt.Fprintln(w)
+	if err := printFileCurrencies(w, rep); err != nil {
+		return err
+	}
 	for _, f := range rep.Files {
 		fmt.Fprintf(w, "\n%s: mapping %s", f.Name, f.Mapping.Describe())
 		if f.Format == "csv" {
@@ -172,13 +186,25 @@ func printLoad(w io.Writer, format string, rep *load.Report) error {
 			}
 			fmt.Fprintf(w, "  rejected %d: %s%s\n", r.Rows, r.Reason, first)
 		}
+		printBothSides(w, f)
 	}
 	if rep.RowsRejected > 0 {
 		fmt.Fprintln(w, "\nEvery rejected row is in the workspace: leadline sql \"SELECT * FROM rejects ORDER BY file_id, line\"")
 	}
 	ent := &tabular.Table{Columns: []string{"entity", "rows", "sum_positive", "sum_negative", "net"}}
+	if entitiesHaveCurrency(rep.Entities) {
+		ent.Columns = []string{"entity", "currency", "rows", "sum_positive", "sum_negative", "net"}
+	}
 	for _, e := range rep.Entities {
+		if len(ent.Columns) == 6 {
+			ent.Add(e.Entity, load.CurrencyLabel(e.Currency), e.Rows, e.Positive, e.Negative, e.Net)
+			continue
+		}
 		ent.Add(e.Entity, e.Rows, e.Positive, e.Negative, e.Net)
+	}
+	if len(ent.Columns) == 6 {
+		fmt.Fprintln(w, "\nControl totals per entity and currency (whole workspace; never summed across currencies):")
+		return ent.WriteText(w, 0)
 	}
 	fmt.Fprintln(w, "\nControl totals per entity (whole workspace):")
 	return ent.WriteText(w, 0)

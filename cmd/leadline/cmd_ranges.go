@@ -69,6 +69,7 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 	fs.Float64Var(&o.ranges.From, "from", 0, "start of the bands (default: 0 for fixed-width bands, the smallest tested amount for logarithmic ones)")
 	fs.Float64Var(&o.ranges.To, "to", 0, "end of the bands (default: the largest tested amount)")
 	pop.add(fs)
+	pop.addCurrency(fs)
 	f.add(fs)
 	return func(args []string) (rangesOptions, error) {
 		if err := f.check(); err != nil {
@@ -108,6 +109,14 @@ func runRanges(ctx context.Context, e *env, o rangesOptions) error {
 // digit battery and the drill-down.
 type bandPopulation struct {
 	where, signs, min string
+	currency          string // limits and ranges: the one currency tested
+}
+
+// addCurrency registers --currency: a limit or a range band is an amount
+// in one currency, so a ledger in several currencies is tested one
+// currency at a time.
+func (p *bandPopulation) addCurrency(fs *pflag.FlagSet) {
+	fs.StringVar(&p.currency, "currency", "", `test the amounts of one currency, e.g. EUR ("none" for rows without one); needed when the amounts are in several`)
 }
 
 func (p *bandPopulation) add(fs *pflag.FlagSet) {
@@ -117,7 +126,7 @@ func (p *bandPopulation) add(fs *pflag.FlagSet) {
 }
 
 func (p *bandPopulation) base() population.Spec {
-	return population.Spec{Where: p.where, Signs: p.signs, Min: p.min}
+	return population.Spec{Where: population.CurrencyWhere(p.where, p.currency), Signs: p.signs, Min: p.min}
 }
 
 // bandPopulationLine describes the amounts tested and what was left out.

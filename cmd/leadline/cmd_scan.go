@@ -229,6 +229,9 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 		fmt.Fprintf(w, "Input: %s rows read from %d file(s) = %s loaded + %s rejected at load (%.2f%% rejected).\n",
 			numfmt.Int(in.RowsRead), in.Files, numfmt.Int(in.RowsLoaded), numfmt.Int(in.RowsRejected), 100*in.RejectedShare)
 	}
+	if rep.CurrencyNote != "" {
+		fmt.Fprintf(w, "Note: %s.\n", rep.CurrencyNote)
+	}
 	var left []string
 	if x.Filtered > 0 {
 		left = append(left, numfmt.Int(x.Filtered)+" by the filter")

@@ -20,15 +20,19 @@ import (
 // --format json` prints and the workspace stores with the run (see
 // docs/json.md, section scan).
 type Report struct {
-	Kind       string           `json:"kind"` // "scan"
-	RunID      int64            `json:"run_id"`
-	Params     Options          `json:"params"`
-	AmountType string           `json:"amount_type"`
-	Rows       int64            `json:"rows"`            // rows in the ledger
-	Input      *Input           `json:"input,omitempty"` // what the loads read and rejected, beside N
-	Tested     int64            `json:"tested"`          // amounts tested (N of the count-based tests)
-	Exclusions Left             `json:"exclusions"`      // rows = tested + the sum of these
-	Tests      []benford.Result `json:"tests"`           // the whole selection, in canonical test order
+	Kind       string  `json:"kind"` // "scan"
+	RunID      int64   `json:"run_id"`
+	Params     Options `json:"params"`
+	AmountType string  `json:"amount_type"`
+	Rows       int64   `json:"rows"`            // rows in the ledger
+	Input      *Input  `json:"input,omitempty"` // what the loads read and rejected, beside N
+	// CurrencyNote says that the amounts tested are in several currencies,
+	// pooled: the digit tests are scale invariant, so pooling is sound,
+	// and --by currency splits them.
+	CurrencyNote string           `json:"currency_note,omitempty"`
+	Tested       int64            `json:"tested"`     // amounts tested (N of the count-based tests)
+	Exclusions   Left             `json:"exclusions"` // rows = tested + the sum of these
+	Tests        []benford.Result `json:"tests"`      // the whole selection, in canonical test order
 	// LastTwoMin is the smallest |amount| the last-two digits test takes
 	// ("" when it takes all: --last-two-all).
 	LastTwoMin  string       `json:"last_two_min"`
@@ -157,6 +161,9 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	rep.Input = &Input{Files: in.Files, RowsRead: in.RowsRead, RowsLoaded: in.RowsLoaded, RowsRejected: in.RowsRejected, RejectedShare: in.RejectedShare()}
+	if rep.CurrencyNote, err = currencyNote(ctx, ws, p); err != nil {
+		return nil, err
+	}
 	if o.Duplication {
 		t = time.Now()
 		if rep.Duplication, err = p.Duplicates(ctx, ws, all.N(), o.Top); err != nil {

@@ -196,6 +196,7 @@ type Result struct {
 	Kind          string       `json:"kind"`
 	StartedAt     time.Time    `json:"started_at"`
 	AmountType    string       `json:"amount_type"`
+	Currency      string       `json:"currency,omitempty"` // of every amount tested ("" when they name none)
 	Options       Options      `json:"options"`
 	RecordsTested int64        `json:"records_tested"`
 	Tests         []TestResult `json:"tests"`
@@ -217,8 +218,12 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, erro
 	if err != nil {
 		return nil, err
 	}
+	currency, err := population.OneCurrency(ctx, ws, pop, "the duplicate tests compare amounts of one currency")
+	if err != nil {
+		return nil, err
+	}
 	at, base := pop.AmountType, pop.Where()
-	res := &Result{Kind: Kind, StartedAt: started.UTC(), AmountType: at.SQL(), Options: o, Note: Note}
+	res := &Result{Kind: Kind, StartedAt: started.UTC(), AmountType: at.SQL(), Currency: currency, Options: o, Note: Note}
 	if err := ws.Conn.QueryRowContext(ctx, queries.Render("dup_records_tested", map[string]string{"base": base.SQL}), base.Args...).Scan(&res.RecordsTested); err != nil {
 		return nil, fmt.Errorf("duplicates: %w", err)
 	}

@@ -28,7 +28,8 @@ type Report struct {
 	Kind          string          `json:"kind"` // "limits"
 	Population    population.Spec `json:"population"`
 	AmountType    string          `json:"amount_type"`
-	Counts        ranges.Counts   `json:"counts"` // the whole selection
+	Currency      string          `json:"currency,omitempty"` // of every amount tested ("" when they name none)
+	Counts        ranges.Counts   `json:"counts"`             // the whole selection
 	Width         float64         `json:"width"`
 	ExpectedRatio float64         `json:"expected_ratio"`
 	LimitSource   string          `json:"limit_source"` // "given" or "round values"
@@ -67,12 +68,16 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err != nil {
 		return nil, err
 	}
+	currency, err := pop.OneCurrency(ctx, ws, "a limit is an amount in one currency")
+	if err != nil {
+		return nil, err
+	}
 	segs, err := segment.Resolve(ctx, ws, o.By)
 	if err != nil {
 		return nil, err
 	}
 	rep := &Report{
-		Kind: "limits", Population: pop.Spec, AmountType: pop.AmountType.SQL(),
+		Kind: "limits", Population: pop.Spec, AmountType: pop.AmountType.SQL(), Currency: currency,
 		Width: o.Width, ExpectedRatio: benford.ExpectedBelowAboveRatio(o.Width),
 		Limits: ranges.SortedEdges(o.Limits), LimitSource: "given", By: []string{}, MinCount: o.MinCount,
 	}

@@ -58,6 +58,22 @@ func fuzzParser(t testing.TB, comma bool, typ string) *AmountParser {
 	return p
 }
 
+var fuzzCurrency *CurrencyParser
+
+func fuzzCurrencyParser(t testing.TB) *CurrencyParser {
+	fuzzParser(t, false, "DECIMAL(18,2)") // opens the workspace
+	fuzzMu.Lock()
+	defer fuzzMu.Unlock()
+	if fuzzCurrency == nil {
+		p, err := NewCurrencyParser(context.Background(), fuzzWS)
+		if err != nil {
+			t.Fatal(err)
+		}
+		fuzzCurrency = p
+	}
+	return fuzzCurrency
+}
+
 // FuzzAmount holds the two statements of the amount grammar against each
 // other: the SQL macros a load runs (queries/amount.sql, through the same
 // fast cast and fallback as a load, by ParseText) and the Go reference
@@ -73,7 +89,8 @@ func FuzzAmount(f *testing.F) {
 		"١٢٣", "１２３", "5\u3000", "\u20035", "5\v", "\u00a05\u00a0", "1\u2009234.5", "1 234 567,891",
 		"(EUR 5.00-)", "$-5CR", "5 CR)", "(5)CR", "+.5", "-,5", "12'345.678'9", "1,23,45,678.00",
 		"99999999999999999.995", "-0.004", "0.005", "1e2e3", "1e+", "€1.234,56", "1.234,56 €", "-",
-		"9999999999999999999999999999999999999", "1e37", "1e-99999999999999999999", "1e99999999999999999999",
+		"9999999999999999999999999999999999999", "1e37", "CHF 1'234.50", "1,234.50 USD", "£ 7", "¥500", "₹ 12,34,567.00",
+		"EUR 5 USD", "$", "USD", "12 CRC", "(12.00 GBP)", "12 eur", "E U R 5", "1e-99999999999999999999", "1e99999999999999999999",
 	} {
 		for _, comma := range []bool{false, true} {
 			f.Add(s, comma, uint8(2), false)
@@ -103,6 +120,15 @@ func FuzzAmount(f *testing.F) {
 		}
 		if got != want || reason != why {
 			t.Fatalf("%q (comma=%v, %s): SQL gives %q / %q, Go gives %q / %q", s, comma, typ, got, reason, want, why)
+		}
+		// The currency a marker names: the same code, or no amount.
+		cur, isAmount, err := fuzzCurrencyParser(t).Currency(context.Background(), s)
+		if err != nil {
+			t.Fatalf("SQL currency failed on %q: %v", s, err)
+		}
+		goCur, goIs := amount.Currency(s)
+		if cur != goCur || isAmount != goIs {
+			t.Fatalf("%q: SQL names currency %q (amount %v), Go %q (amount %v)", s, cur, isAmount, goCur, goIs)
 		}
 	})
 }

@@ -145,11 +145,16 @@ type FileReport struct {
 	RejectReasons []ReasonCount `json:"reject_reasons"`
 	Sheet         *SheetReport  `json:"sheet,omitempty"` // XLSX: the sheet read
 	Mode          string        `json:"mode,omitempty"`  // ModeInPlace for a file registered in place
+	// Currencies are the totals per currency (debit/credit sides too);
+	// with more than one, Positive, Negative and Net are left empty.
+	Currencies []CurrencyTotal `json:"currencies"`
+	BothSides  *BothSides      `json:"both_sides,omitempty"`
 }
 
 // EntityTotal is one entity's control totals over the whole workspace.
 type EntityTotal struct {
 	Entity   string `json:"entity"`
+	Currency string `json:"currency"` // "" for rows that name none
 	Rows     int64  `json:"rows"`
 	Positive string `json:"sum_positive"`
 	Negative string `json:"sum_negative"`
@@ -266,6 +271,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	trace("stage", started)
 	for _, src := range sources {
 		if err := checkSeparators(ctx, ws, src, opts, scaleOf(amountType)); err != nil {
+			return nil, err
+		}
+		if err := checkCurrencyMarkers(ctx, ws, src); err != nil {
 			return nil, err
 		}
 	}
@@ -636,7 +644,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 			return nil, err
 		}
 		for i, oldID := range old {
-			for _, q := range []string{"load_forget_ledger", "load_forget_rejects", "load_forget_file"} {
+			for _, q := range []string{"load_forget_ledger", "load_forget_rejects", "load_forget_file", "load_forget_file_totals", "load_forget_both_sides"} {
 				if _, err := tx.ExecContext(ctx, queries.Get(q), oldID); err != nil {
 					return nil, err
 				}
@@ -741,6 +749,9 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		}
 	}
 	reasonExpr = "replace(" + reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
+	if c := currencyFromMarkers(src, storedOf); c != "" {
+		sel = append(sel, c)
+	}
 
 	var base int64
 	if err := tx.QueryRowContext(ctx, queries.Get("load_next_row_id")).Scan(&base); err != nil {
@@ -872,6 +883,9 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		fr.Warnings = append(fr.Warnings, fmt.Sprintf("%d amounts had more decimal places than the scale of %d and were rounded half away from zero; their text as sent is kept in the ledger beside the amount", fr.RowsRounded, scaleOf(amountType)))
 	}
 	if err := tx.QueryRowContext(ctx, queries.Get("load_file_sums"), fr.FileID).Scan(&fr.Positive, &fr.Negative, &fr.Net); err != nil {
+		return nil, err
+	}
+	if err := fileTotals(ctx, tx, src, fr, opts, amountType, storedOf); err != nil {
 		return nil, err
 	}
 	trace("counts", t0)
@@ -1332,7 +1346,11 @@ func reasons(ctx context.Context, tx *sql.Tx, fileID int64) ([]ReasonCount, erro
 
 // EntityTotals returns the control totals per entity over the workspace.
 func EntityTotals(ctx context.Context, ws *workspace.Workspace) ([]EntityTotal, error) {
-	rows, err := ws.Conn.QueryContext(ctx, queries.Get("entity_totals"))
+	col, err := CurrencyColumn(ctx, ws.Conn)
+	if err != nil {
+		return nil, err
+	}
+	rows, err := ws.Conn.QueryContext(ctx, queries.Render("entity_totals", map[string]string{"currency": col}))
 	if err != nil {
 		return nil, err
 	}
@@ -1340,7 +1358,7 @@ func EntityTotals(ctx context.Context, ws *workspace.Workspace) ([]EntityTotal, 
 	out := []EntityTotal{}
 	for rows.Next() {
 		var e EntityTotal
-		if err := rows.Scan(&e.Entity, &e.Rows, &e.Positive, &e.Negative, &e.Net); err != nil {
+		if err := rows.Scan(&e.Entity, &e.Currency, &e.Rows, &e.Positive, &e.Negative, &e.Net); err != nil {
 			return nil, err
 		}
 		out = append(out, e)

@@ -9,12 +9,13 @@ import (
 
 // Canonical lists the canonical ledger columns (docs/design.md,
 // "Canonical columns"). amount is required; the rest are optional.
-var Canonical = []string{"amount", "entity", "account", "counterparty", "doc_id", "line_id", "posted", "user_id", "source", "descr"}
+var Canonical = []string{"amount", "entity", "account", "counterparty", "doc_id", "line_id", "posted", "user_id", "source", "descr", "currency"}
 
 // textCanonical are canonical columns stored as the client's exact text.
 var textCanonical = map[string]bool{
 	"entity": true, "account": true, "counterparty": true, "doc_id": true,
 	"line_id": true, "user_id": true, "source": true, "descr": true,
+	"currency": true,
 }
 
 // reserved are ledger column names an original column may not take.
@@ -38,10 +39,14 @@ func IsCanonical(name string) bool {
 
 // Mapping ties canonical columns to the file's own column names. Debit and
 // Credit, when both set, replace Amount: amount = debit - credit.
+// CurrencyFromMarkers says that the file has no currency column and every
+// amount names its currency (EUR 12.00, $12.00): each row's currency is
+// its amount's marker.
 type Mapping struct {
-	Columns map[string]string `json:"columns"` // canonical -> original
-	Debit   string            `json:"debit,omitempty"`
-	Credit  string            `json:"credit,omitempty"`
+	Columns             map[string]string `json:"columns"` // canonical -> original
+	Debit               string            `json:"debit,omitempty"`
+	Credit              string            `json:"credit,omitempty"`
+	CurrencyFromMarkers bool              `json:"currency_from_markers,omitempty"`
 }
 
 // hints are likely original names for each canonical column, lower case,
@@ -58,6 +63,7 @@ var hints = map[string][]string{
 	"user_id":      {"userid", "user", "username", "enteredby", "createdby", "preparer", "postedby", "usnam", "author"},
 	"source":       {"source", "sourcesystem", "journalsource", "module", "doctype", "documenttype", "journaltype", "ledger", "origin"},
 	"descr":        {"descr", "description", "text", "memo", "narrative", "linedescription", "itemtext", "comment", "details"},
+	"currency":     {"currency", "curr", "ccy", "cur", "currencycode", "currencykey", "transactioncurrency", "waehrung", "währung", "wahrung", "waers", "devise", "moneda", "divisa", "valuta"},
 }
 
 // squash folds a header name for matching: lower case, accents off
@@ -246,7 +252,7 @@ func SuggestWhy(names []string) (Mapping, map[string][]string, map[string]Match,
 				continue
 			}
 			for _, h := range words[c] {
-				if len(h) < 4 || !strings.Contains(sq, h) || sq == h {
+				if len(h) < 4 || exactHint[h] || !strings.Contains(sq, h) || sq == h {
 					continue
 				}
 				if _, ok := found[n]; !ok || strings.HasSuffix(sq, h) {
@@ -427,6 +433,9 @@ func (m Mapping) Describe() string {
 	sort.Strings(parts)
 	if m.Debit != "" {
 		parts = append(parts, "amount<-"+m.Debit+" - "+m.Credit)
+	}
+	if m.CurrencyFromMarkers {
+		parts = append(parts, "currency<-the amounts' currency markers")
 	}
 	return strings.Join(parts, ", ")
 }

@@ -55,6 +55,10 @@ type Completeness struct {
 	// reconciliation with the pack's control file, if any.
 	Journal        []IntegrityLine     `json:"journal,omitempty"`
 	Reconciliation *ReconciliationLine `json:"reconciliation,omitempty"`
+	// Currencies are the ledger's totals per currency when it holds more
+	// than one; SumPositive, SumNegative and Net are then empty (amounts
+	// in different currencies are never added together).
+	Currencies []CurrencyTotal `json:"currencies,omitempty"`
 }
 
 // IntegrityLine is one journal check in the summary.
@@ -73,6 +77,15 @@ type ReconciliationLine struct {
 	Ties        bool   `json:"ties"`
 	Accepted    bool   `json:"accepted"`
 	Verdict     string `json:"verdict"`
+}
+
+// CurrencyTotal is the ledger's control totals in one currency.
+type CurrencyTotal struct {
+	Currency    string `json:"currency"`
+	Rows        int64  `json:"rows"`
+	SumPositive string `json:"sum_positive"`
+	SumNegative string `json:"sum_negative"`
+	Net         string `json:"net"`
 }
 
 // Finding is one key finding in a sentence, with the table that holds the

@@ -475,12 +475,33 @@ func writeSummarySheet(f *excelize.File, st *styles, run *Run, sheetOf map[strin
 		{"Rows loaded", c.RowsLoaded, countStyle},
 		{"Rows rejected", c.RowsRejected, countStyle},
 		{"Read = loaded + rejected, every file", balanced, 0},
-		{"Sum of positive amounts", moneyCell(c.SumPositive), moneyStyle},
-		{"Sum of negative amounts", moneyCell(c.SumNegative), moneyStyle},
-		{"Net", moneyCell(c.Net), moneyStyle},
 	} {
 		if err := pair(it.l, it.v, it.s); err != nil {
 			return err
+		}
+	}
+	// One line per currency when the ledger holds several: never a sum
+	// across currencies.
+	sums := []struct{ label, pos, neg, net string }{{"", c.SumPositive, c.SumNegative, c.Net}}
+	if len(c.Currencies) > 1 {
+		sums = sums[:0]
+		for _, cur := range c.Currencies {
+			name := cur.Currency
+			if name == "" {
+				name = "(no currency)"
+			}
+			sums = append(sums, struct{ label, pos, neg, net string }{" (" + name + ")", cur.SumPositive, cur.SumNegative, cur.Net})
+		}
+	}
+	for _, sm := range sums {
+		for _, it := range []struct{ l, v string }{
+			{"Sum of positive amounts" + sm.label, sm.pos},
+			{"Sum of negative amounts" + sm.label, sm.neg},
+			{"Net" + sm.label, sm.net},
+		} {
+			if err := pair(it.l, moneyCell(it.v), moneyStyle); err != nil {
+				return err
+			}
 		}
 	}
 	for _, j := range c.Journal {

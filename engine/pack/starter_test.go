@@ -28,6 +28,9 @@ func TestStarterFromGeneratedLedger(t *testing.T) {
 		t.Fatalf("starter pack:\n%s\n%s", probs.Error(), text)
 	}
 	for _, c := range load.Canonical {
+		if c == "currency" {
+			continue // the generated ledger is in one currency, with no currency column
+		}
 		if p.Sources[0].Columns[c] != c {
 			t.Errorf("mapping of %s: %q", c, p.Sources[0].Columns[c])
 		}

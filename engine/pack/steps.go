@@ -131,7 +131,17 @@ func (r *runner) completeness(ctx context.Context) error {
 	ft := &tabular.Table{Columns: []string{"source", "file", "format", "size_bytes", "sha256", "rows_read", "rows_loaded", "rows_rejected", "sum_positive", "sum_negative", "net"}}
 	c := &r.run.Summary.Completeness
 	c.Balanced = true
+	byFile, err := load.FileTotals(ctx, r.ws.Conn)
+	if err != nil {
+		return err
+	}
+	var named []namedFile
 	for _, f := range files {
+		if len(byFile[f.id]) > 1 {
+			// several currencies: the totals are per currency only
+			f.pos, f.neg, f.net = nil, nil, nil
+		}
+		named = append(named, namedFile{f.id, f.source, f.path})
 		ft.Add(f.source, f.path, f.format, f.size, f.sha, f.read, f.ld, f.rej, f.pos, f.neg, f.net)
 		c.Files++
 		c.RowsRead += f.read
@@ -142,6 +152,7 @@ func (r *runner) completeness(ctx context.Context) error {
 		}
 	}
 	r.add(output.FromTabular(ft, "inputs", "Input files: rows read, loaded and rejected, control totals", "completeness", nil))
+	r.inputCurrencies(named, byFile)
 
 	// Totals over the workspace, exact.
 	var pos, neg, net any
@@ -151,6 +162,9 @@ func (r *runner) completeness(ctx context.Context) error {
 	c.SumPositive = output.FormatValue(output.Normalize(pos))
 	c.SumNegative = output.FormatValue(output.Normalize(neg))
 	c.Net = output.FormatValue(output.Normalize(net))
+	if err := r.ledgerCurrencies(ctx, c); err != nil {
+		return err
+	}
 
 	rj, err := r.ws.Conn.QueryContext(ctx, queries.Get("pack_rejects_by_file"))
 	if err != nil {
@@ -179,15 +193,15 @@ func (r *runner) completeness(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
-	et := &tabular.Table{Columns: []string{"entity", "rows", "sum_positive", "sum_negative", "net"}}
-	for _, e := range ents {
-		et.Add(e.Entity, e.Rows, dec(e.Positive), dec(e.Negative), dec(e.Net))
-	}
-	r.add(output.FromTabular(et, "entities", "Control totals per entity", "completeness", map[string]output.Kind{"entity": output.Text, "rows": output.Count, "sum_positive": output.Money, "sum_negative": output.Money, "net": output.Money}))
+	et := entityTable(ents)
+	r.add(output.FromTabular(et, "entities", "Control totals per entity", "completeness", map[string]output.Kind{"entity": output.Text, "currency": output.Text, "rows": output.Count, "sum_positive": output.Money, "sum_negative": output.Money, "net": output.Money}))
 
 	r.run.Results["completeness"] = map[string]any{
 		"files": c.Files, "rows_read": c.RowsRead, "rows_loaded": c.RowsLoaded, "rows_rejected": c.RowsRejected,
 		"balanced": c.Balanced, "sum_positive": c.SumPositive, "sum_negative": c.SumNegative, "net": c.Net,
+	}
+	if len(c.Currencies) > 0 {
+		r.run.Results["completeness"].(map[string]any)["currencies"] = c.Currencies
 	}
 	text := fmt.Sprintf("%d input file(s): %s rows read = %s loaded + %s rejected", c.Files, numfmt.Int(c.RowsRead), numfmt.Int(c.RowsLoaded), numfmt.Int(c.RowsRejected))
 	if c.RowsRead > 0 {
@@ -196,6 +210,7 @@ func (r *runner) completeness(ctx context.Context) error {
 	if !c.Balanced {
 		text += "; WARNING: a file does not balance, see the inputs table"
 	}
+	text += currencyFinding(c, byFile)
 	r.finding("completeness", "inputs", "%s.", text)
 	if err := r.journalChecks(ctx); err != nil {
 		return fmt.Errorf("journal checks: %w", err)

@@ -21,8 +21,9 @@ type Report struct {
 	Kind       string          `json:"kind"` // "ranges"
 	Population population.Spec `json:"population"`
 	AmountType string          `json:"amount_type"`
-	Layout     Layout          `json:"layout"` // as run: From and To filled in
-	BandScale  string          `json:"scale"`  // fixed or logarithmic
+	Currency   string          `json:"currency,omitempty"` // of every amount tested ("" when they name none)
+	Layout     Layout          `json:"layout"`             // as run: From and To filled in
+	BandScale  string          `json:"scale"`              // fixed or logarithmic
 	Counts     Counts          `json:"counts"`
 	BelowBands int64           `json:"below_bands"` // tested amounts below the first band
 	AboveBands int64           `json:"above_bands"` // tested amounts at or above the end of the last band
@@ -41,6 +42,10 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	pop, err := Prepare(ctx, ws, o.Spec)
+	if err != nil {
+		return nil, err
+	}
+	currency, err := pop.OneCurrency(ctx, ws, "a range band is an amount range in one currency")
 	if err != nil {
 		return nil, err
 	}
@@ -71,7 +76,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		layout.PerDecade = DefaultPerDecade
 	}
 	rep := &Report{
-		Kind: "ranges", Population: pop.Spec, AmountType: pop.AmountType.SQL(),
+		Kind: "ranges", Population: pop.Spec, AmountType: pop.AmountType.SQL(), Currency: currency,
 		Layout: layout, BandScale: layout.Scale(), Counts: g.Counts,
 		BelowBands: g.Bins.Below(), AboveBands: g.Bins.Above(),
 		Bands: rows, Stretches: str,

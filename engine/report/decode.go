@@ -166,6 +166,9 @@ func (m *Model) addScan(r *Run, doc json.RawMessage, base string) error {
 				Fact{"rows rejected at load", I.F("rows_rejected", in.RowsRejected, "int")},
 				Fact{"share rejected at load", template.HTML(template.HTMLEscapeString(fmt.Sprintf("%.2f%%", 100*in.RejectedShare)))})
 		}
+		if rep.CurrencyNote != "" {
+			sec.Meta = append(sec.Meta, Fact{"currencies", template.HTML(template.HTMLEscapeString(rep.CurrencyNote))})
+		}
 		sec.Meta = append(sec.Meta, []Fact{
 			{"left out: zero", X.F("zero", rep.Exclusions.Zero, "int")},
 			{"left out: of the other sign", X.F("other_sign", rep.Exclusions.OtherSign, "int")},

@@ -63,6 +63,7 @@ type summaryData struct {
 var tmpl = template.Must(template.New("report").Funcs(template.FuncMap{
 	"fmtTime":    fmtTime,
 	"params":     paramsHTML,
+	"deref":      derefAny,
 	"capitalise": capitalise,
 	"numf":       numHTML,
 	"madFmt":     madFormat,

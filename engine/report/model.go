@@ -143,6 +143,7 @@ func (r ref) F(key string, v any, kind string) template.HTML {
 // totals, entity totals, reject reasons and the loads.
 type Completeness struct {
 	Files        []FileRow
+	Currencies   []CurrencyRow // per file and currency, shown when a currency is named or a file is debit/credit
 	Entities     []EntityRow
 	Reasons      []ReasonRow
 	Samples      []RejectSample
@@ -190,6 +191,7 @@ type FileRow struct {
 	Positive     string // exact control totals of the rows in the ledger
 	Negative     string
 	Net          string
+	PerCurrency  bool // the file holds several currencies: its totals are in Currencies only
 	LoadedAt     time.Time
 	Balanced     bool
 	src          func(col string) string
@@ -206,6 +208,7 @@ func (f FileRow) R() ref {
 // EntityRow is one entity's control totals over the ledger.
 type EntityRow struct {
 	Entity   string
+	Currency string
 	Rows     int64
 	Positive string
 	Negative string
@@ -218,7 +221,65 @@ func (e EntityRow) R() ref {
 	if e.src != nil {
 		return ref{Field: "entities." + e.Entity, cell: e.src}
 	}
+	if e.Currency != "" {
+		return ref{Src: "entities/" + escapePointer(e.Entity) + "/" + escapePointer(e.Currency), Field: "entities." + e.Entity + "." + e.Currency}
+	}
 	return ref{Src: "entities/" + escapePointer(e.Entity), Field: "entities." + e.Entity}
+}
+
+// EntitiesHaveCurrency says the entity totals are per currency.
+func (c *Completeness) EntitiesHaveCurrency() bool {
+	for _, e := range c.Entities {
+		if e.Currency != "" {
+			return true
+		}
+	}
+	return false
+}
+
+// HasDebitCredit says a file of Currencies is a debit/credit extract.
+func (c *Completeness) HasDebitCredit() bool {
+	for _, r := range c.Currencies {
+		if r.DebitRows != nil {
+			return true
+		}
+	}
+	return false
+}
+
+// CurrencyRow is one file's control totals in one currency, with each
+// side of a debit/credit extract.
+type CurrencyRow struct {
+	File       string
+	Currency   string
+	Rows       int64
+	Positive   string
+	Negative   string
+	Net        string
+	DebitRows  *int64
+	Debit      *string
+	CreditRows *int64
+	Credit     *string
+	BothSides  *int64
+	Ties       *bool
+	src        func(col string) string
+	base       string
+}
+
+// R addresses the row's numbers.
+func (r CurrencyRow) R() ref {
+	if r.src != nil {
+		return ref{Field: "currencies." + r.File + "." + r.Currency, cell: r.src}
+	}
+	return ref{Src: r.base, Field: "currencies." + r.File + "." + r.Currency}
+}
+
+// CurrencyName shows a row without a currency as (none).
+func (r CurrencyRow) CurrencyName() string {
+	if r.Currency == "" {
+		return "(none)"
+	}
+	return r.Currency
 }
 
 // ReasonRow counts rejected rows of one file by reason.

@@ -381,8 +381,10 @@ func (m *Model) completenessFromTables(doc json.RawMessage, base string) error {
 			case "rejects":
 				c.Reasons = append(c.Reasons, ReasonRow{File: get("file").str, Reason: get("reason").str, Rows: nodeInt(get("rows")), FirstLine: nodeInt(get("first_line")),
 					src: cell})
+			case "input_currencies":
+				c.Currencies = append(c.Currencies, currencyRowFromTable(get, cell))
 			case "entities":
-				c.Entities = append(c.Entities, EntityRow{Entity: get("entity").str, Rows: nodeInt(get("rows")), Positive: nodeText(get("sum_positive")),
+				c.Entities = append(c.Entities, EntityRow{Entity: get("entity").str, Currency: get("currency").str, Rows: nodeInt(get("rows")), Positive: nodeText(get("sum_positive")),
 					Negative: nodeText(get("sum_negative")), Net: nodeText(get("net")), src: cell})
 			}
 		}

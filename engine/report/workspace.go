@@ -221,7 +221,10 @@ func readCompleteness(ctx context.Context, ws *workspace.Workspace, samples int)
 			return nil, err
 		}
 		for _, e := range ents {
-			c.Entities = append(c.Entities, EntityRow{Entity: e.Entity, Rows: e.Rows, Positive: e.Positive, Negative: e.Negative, Net: e.Net})
+			c.Entities = append(c.Entities, EntityRow{Entity: e.Entity, Currency: e.Currency, Rows: e.Rows, Positive: e.Positive, Negative: e.Negative, Net: e.Net})
+		}
+		if err := currencyRows(ctx, ws, c); err != nil {
+			return nil, err
 		}
 	}
 	if c.LedgerRows != c.RowsLoaded {
