@@ -125,6 +125,20 @@ func registerInPlace(ctx context.Context, ws *workspace.Workspace, args []string
 		}
 		files = append(files, f)
 	}
+	// The same refusals as a copy: amounts whose decimal mark the file
+	// does not settle, and currency markers on some amounts only. A view
+	// takes no currency from markers: such a file is loaded by copy.
+	for _, f := range files {
+		if err := checkSeparators(ctx, ws, f.src, opts, scaleOf(amountType)); err != nil {
+			return nil, err
+		}
+		if err := checkCurrencyMarkers(ctx, ws, f.src); err != nil {
+			return nil, err
+		}
+		if f.src.mapping.CurrencyFromMarkers {
+			return nil, fmt.Errorf("%s: every amount names its currency (EUR 12.00, $ 12.00) and the file has no currency column; --in-place takes the currency from a column only: load this file by copy, without --in-place; nothing was loaded", f.src.Path)
+		}
+	}
 	// Hashing runs beside the completeness pass: both read the file, and
 	// neither needs the other.
 	for _, f := range files {
@@ -316,7 +330,7 @@ func buildInPlaceSQL(src *Source, opts Options, amountType string, fileID, base 
 		sel = append(sel, textOrNull(have[c])+" AS "+queries.QuoteIdent(c))
 	}
 	sel = append(sel, posted+" AS posted")
-	for _, c := range []string{"user_id", "source", "descr"} {
+	for _, c := range []string{"user_id", "source", "descr", "currency"} {
 		sel = append(sel, textOrNull(have[c])+" AS "+queries.QuoteIdent(c))
 	}
 	sel = append(sel, extra...)

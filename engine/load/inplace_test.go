@@ -433,7 +433,7 @@ func TestInPlaceTextAmounts(t *testing.T) {
 	rows = append(rows,
 		textAmount{Amount: "(12.00)", Debit: "", Credit: "5.5"},
 		textAmount{Amount: "abc", Debit: "x", Credit: "1"},
-		textAmount{Amount: "EUR 7.125", Debit: "", Credit: ""},
+		textAmount{Amount: "+7.125", Debit: "", Credit: ""},
 	)
 	writeRows(t, pq, rows)
 	for _, o := range []Options{{MaxRejects: "100%"}, {Debit: "debit", Credit: "credit", MaxRejects: "100%"}} {
@@ -454,6 +454,42 @@ func TestInPlaceTextAmounts(t *testing.T) {
 		}
 		if got[0] != got[1] || !strings.Contains(got[0], "read 43") || strings.Contains(got[0], "rejected 0") {
 			t.Errorf("debit %q: copy and in place differ:\ncopy     %s\nin place %s", o.Debit, got[0], got[1])
+		}
+	}
+}
+
+// TestInPlaceRefusesLikeACopy: a Parquet file of text amounts is refused
+// in place for the same reasons as a copy (a decimal mark the file does
+// not settle; currency markers on some amounts only), and a file whose
+// every amount carries a marker is sent to a copy, which keeps the
+// currency. Before, the in-place path loaded all three, the first with
+// 2.000 read as two.
+func TestInPlaceRefusesLikeACopy(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	cases := []struct {
+		name    string
+		amounts []string
+		want    string
+	}{
+		{"ambiguous", []string{"2.000", "15.750", "300"}, "--decimal-comma"},
+		{"mixed", []string{"EUR 12.00", "13.00", "14.00"}, "--map currency=COLUMN"},
+		{"marked", []string{"EUR 12.00", "USD 13.00", "EUR 14.00"}, "load this file by copy"},
+	}
+	for _, c := range cases {
+		var rows []textAmount
+		for _, a := range c.amounts {
+			rows = append(rows, textAmount{Amount: a})
+		}
+		pq := filepath.Join(dir, c.name+".parquet")
+		writeRows(t, pq, rows)
+		ws := openWS(t, filepath.Join(dir, c.name+".duckdb"))
+		_, err := Load(ctx, ws, []string{pq}, Options{InPlace: true})
+		if err == nil || !strings.Contains(err.Error(), c.want) || !strings.Contains(err.Error(), pq) {
+			t.Errorf("%s in place: got %v, want an error naming %s and %q", c.name, err, pq, c.want)
+		}
+		if ok, _ := ws.HasLedger(ctx); ok {
+			t.Errorf("%s: a refused registration left a ledger", c.name)
 		}
 	}
 }
