@@ -292,7 +292,8 @@ func TestControlFileErrors(t *testing.T) {
 		{"half.csv", "entity,opening\nA,1.00\n", "no closing column"},
 		{"none.csv", "entity,Betrag\nA,1.00\n", "--control-map net=Betrag"},
 		{"rows.csv", "entity,rows\nA,1.5\n", "a row count is a whole number"},
-		{"x.xlsx", "not a sheet", "XLSX are not read yet"},
+		{"x.xlsx", "not a sheet", "x.xlsx"},
+		{"x.ods", "not a sheet", "or XLSX (.xlsx)"},
 	} {
 		p := write(t, dir, c.name, c.body)
 		_, err := reconcile.Read(p, reconcile.Options{Scale: 2})

@@ -21,24 +21,22 @@ type rowSource interface {
 	Next() (cells []string, line int, err error)
 }
 
-// openers reads a control file by its extension. A new format is one more
-// entry: an .xlsx reader returns each sheet row as text cells (numbers as
-// their exact decimal text, never a float's), with the sheet row number as
-// its line.
+// openers reads a control file by its extension. Each returns the rows
+// as text cells (an XLSX sheet's numbers as their exact decimal text,
+// never a float's), with the line, or sheet row number, of each.
 var openers = map[string]func(path string, data []byte) (rowSource, error){
-	".csv": openCSV,
-	".txt": openCSV,
-	".tsv": openCSV,
+	".csv":  openCSV,
+	".txt":  openCSV,
+	".tsv":  openCSV,
+	".xlsx": openXLSX,
+	".xlsm": openXLSX,
 }
 
 func openTable(path string, data []byte) (rowSource, error) {
 	ext := strings.ToLower(filepath.Ext(path))
 	open, ok := openers[ext]
 	if !ok {
-		if ext == ".xlsx" {
-			return nil, fmt.Errorf("%s: control files in XLSX are not read yet; save the sheet as CSV (UTF-8) and give that file", path)
-		}
-		return nil, fmt.Errorf("%s: a control file must be CSV (.csv, .tsv or .txt), not %q", path, ext)
+		return nil, fmt.Errorf("%s: a control file must be CSV (.csv, .tsv or .txt) or XLSX (.xlsx), not %q", path, ext)
 	}
 	return open(path, data)
 }
