@@ -81,6 +81,19 @@ type demoOptions struct {
 	scenario string
 }
 
+// demoXLSXRows is the size of the demo's workbook extract: a spreadsheet
+// export of a few thousand journal lines, as clients send them.
+const demoXLSXRows = 5_000
+
+// centsText writes cents as a decimal with two places (-123456 -> -1234.56).
+func centsText(c int64) string {
+	sign := ""
+	if c < 0 {
+		sign, c = "-", -c
+	}
+	return fmt.Sprintf("%s%d.%02d", sign, c/100, c%100)
+}
+
 // The demo pack names this file and this workspace (queries/packs/demo.toml).
 const (
 	demoLedger = "skerrimoor_ledger_2025.csv"
@@ -108,6 +121,13 @@ func runDemo(ctx context.Context, e *env, o demoOptions) error {
 		return err
 	}
 	fmt.Fprintf(e.stdout, "  the group's trial balance: %s (%d entity/account lines)\n", tbPath, len(sum.NetPerAccount))
+	xlsxPath := filepath.Join(o.out, fixtures.XLSXFile)
+	xlsxRows, xlsxCents, xlsxPositive, err := fixtures.WriteXLSX(xlsxPath, fixtures.Config{Rows: demoXLSXRows, Seed: o.seed})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stdout, "  a workbook extract as a client might send one: %s (%d rows; not part of the pack: try leadline inspect on it)\n",
+		xlsxPath, xlsxRows)
 	packPath := filepath.Join(o.out, demoPack)
 	if err := os.WriteFile(packPath, packs.Demo(), 0o644); err != nil {
 		return err
@@ -140,9 +160,13 @@ Not planted, but built into the generated ranges: GILD's invoices, receipts and 
 stop below 10,000, SHOR's receipts and all expense claims below 1,000; the limit probe
 shows those edges (GILD at 10,000, SHOR at 1,000), as it would a client's price cap.
 
+Intake of a workbook: leadline inspect %s
+prints the load command for it (the sheet, its header row under the title, date cells);
+loaded whole, its positive amounts sum to %s and its net to %s.
+
 Open %s in a browser for the report, or %s for the workbook.
 Demo finished in %.1fs. Results are signals for follow-up, never proof.
-`, filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
+`, xlsxPath, centsText(xlsxPositive), centsText(xlsxCents), filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
 	return nil
 }
 

@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"testing"
 
 	"github.com/leadline/leadline/fixtures"
@@ -32,6 +33,54 @@ func TestDemoAnswerKey(t *testing.T) {
 			t.Errorf("demo output lacks %s", f)
 		}
 	}
+	// The workbook extract loads from the command inspect prints, whole,
+	// and its net is the generator's own sum of the cents it wrote.
+	t.Run("workbook extract", func(t *testing.T) {
+		xlsx := filepath.Join(dir, fixtures.XLSXFile)
+		var want, wantPos, n int64
+		if err := fixtures.Generate(fixtures.Config{Rows: demoXLSXRows, Seed: seed}, func(r fixtures.Row) error {
+			n++
+			want += r.Cents
+			if r.Cents > 0 {
+				wantPos += r.Cents
+			}
+			return nil
+		}); err != nil {
+			t.Fatal(err)
+		}
+		var iout, ie bytes.Buffer
+		if code := run(context.Background(), []string{"inspect", xlsx}, &env{stdout: &iout, stderr: &ie}); code != 0 {
+			t.Fatalf("inspect exited %d: %s", code, ie.String())
+		}
+		_, suggested, ok := strings.Cut(iout.String(), "Suggested load:\n")
+		if !ok {
+			t.Fatalf("no suggested load:\n%s", iout.String())
+		}
+		args := shellWords(t, strings.TrimSpace(suggested))
+		if len(args) < 2 || args[0] != "leadline" || args[1] != "load" {
+			t.Fatalf("suggested %q", suggested)
+		}
+		args = append([]string{"load", "--db", filepath.Join(dir, "workbook.duckdb"), "--format", "json"}, args[2:]...)
+		var lo, le bytes.Buffer
+		if code := run(context.Background(), args, &env{stdout: &lo, stderr: &le}); code != 0 {
+			t.Fatalf("%v exited %d: %s", args, code, le.String())
+		}
+		var rep struct {
+			RowsRead     int64 `json:"rows_read"`
+			RowsLoaded   int64 `json:"rows_loaded"`
+			RowsRejected int64 `json:"rows_rejected"`
+			Files        []struct {
+				Net      string `json:"net"`
+				Positive string `json:"sum_positive"`
+			} `json:"files"`
+		}
+		if err := json.Unmarshal(lo.Bytes(), &rep); err != nil {
+			t.Fatalf("%v: %s", err, lo.String())
+		}
+		if rep.RowsRead != n || rep.RowsLoaded != n || rep.RowsRejected != 0 || len(rep.Files) != 1 || rep.Files[0].Net != centsText(want) || rep.Files[0].Positive != centsText(wantPos) {
+			t.Errorf("workbook: read %d, loaded %d, rejected %d, files %+v; the generator wrote %d rows, net %s, positive %s", rep.RowsRead, rep.RowsLoaded, rep.RowsRejected, rep.Files, n, centsText(want), centsText(wantPos))
+		}
+	})
 	raw, err := os.ReadFile(filepath.Join(dir, "results", "results.json"))
 	if err != nil {
 		t.Fatal(err)

@@ -153,11 +153,3 @@ func dateOf(serial int) string {
 	}
 	return fmt.Sprintf("2025-%02d-%02d", m+1, d+1)
 }
-
-func centsText(c int64) string {
-	sign := ""
-	if c < 0 {
-		sign, c = "-", -c
-	}
-	return fmt.Sprintf("%s%d.%02d", sign, c/100, c%100)
-}
