@@ -570,3 +570,24 @@ func likelyFromHead(head []byte) (string, string) {
 	ev.feed(head, true)
 	return ev.verdict()
 }
+
+// encodingAdvice names the likely encoding of a file whose records were
+// rejected as not valid UTF-8 when no encoding was given, from the
+// evidence of the whole file (DetectEncoding); "" otherwise.
+func encodingAdvice(src *Source, fr *FileReport) string {
+	if src == nil || src.Format != "csv" || src.declared != "" {
+		return ""
+	}
+	bad := false
+	for _, r := range fr.RejectReasons {
+		bad = bad || strings.Contains(r.Reason, "not valid UTF-8")
+	}
+	if !bad {
+		return ""
+	}
+	d, err := DetectEncoding(src.Path)
+	if err != nil || d.Encoding == "utf-8" {
+		return ""
+	}
+	return fmt.Sprintf(" The file is most likely %s (%s): give --encoding %s.", d.Encoding, d.Why, d.Encoding)
+}

@@ -508,7 +508,7 @@ func passInPlace(ctx context.Context, tx *sql.Tx, f *placed, opts Options, amoun
 		}
 		return fmt.Errorf("%s: none of its %d rows could be loaded%s; check --decimal-comma, --date-format and the mapping (leadline inspect %s); nothing was loaded", src.Path, fr.RowsRead, top, src.Path)
 	}
-	if err := checkRejectShare(fr, opts); err != nil {
+	if err := checkRejectShare(src, fr, opts); err != nil {
 		return err
 	}
 	if fr.RowsRounded > 0 {

@@ -870,9 +870,9 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		if len(fr.RejectReasons) > 0 {
 			top = fmt.Sprintf(" (most common reason: %s, from line %d)", fr.RejectReasons[0].Reason, deref(fr.RejectReasons[0].FirstLine))
 		}
-		return nil, fmt.Errorf("%s: none of its %d rows could be loaded%s; check --delimiter, --decimal-comma, --date-format and the mapping (leadline inspect %s); nothing was loaded", src.Path, fr.RowsRead, top, src.Path)
+		return nil, fmt.Errorf("%s: none of its %d rows could be loaded%s;%s check --delimiter, --decimal-comma, --date-format and the mapping (leadline inspect %s); nothing was loaded", src.Path, fr.RowsRead, top, encodingAdvice(src, fr), src.Path)
 	}
-	if err := checkRejectShare(fr, opts); err != nil {
+	if err := checkRejectShare(src, fr, opts); err != nil {
 		return nil, err
 	}
 	rounded := queries.Render("load_rounded_count", map[string]string{"test": roundedTest(src, m, storedOf, opts.DecimalComma, scaleOf(amountType))})
@@ -903,7 +903,7 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 // checkRejectShare fails a file whose rejected rows exceed the share the
 // options allow: rows read = loaded + rejected is necessary, not
 // sufficient, and a load that lost most of a file is no success.
-func checkRejectShare(fr *FileReport, opts Options) error {
+func checkRejectShare(src *Source, fr *FileReport, opts Options) error {
 	limit, err := opts.maxRejects()
 	if err != nil {
 		return err
@@ -923,6 +923,8 @@ func checkRejectShare(fr *FileReport, opts Options) error {
 			hint = " Too many fields often means a delimiter inside unquoted values (a thousands separator, a comma in a text), or the wrong --delimiter."
 		case strings.Contains(r.Reason, "invalid date"):
 			hint = " Give the dates' format with --date-format."
+		case strings.Contains(r.Reason, "not valid UTF-8"):
+			hint = encodingAdvice(src, fr)
 		}
 	}
 	return fmt.Errorf("%s: %d of %d rows (%s) were rejected, more than the %s a load accepts%s.%s Fix the file or the options (leadline inspect shows how the file reads), or accept the rejects with --max-rejects %s or --accept-rejects; nothing was loaded",

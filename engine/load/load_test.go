@@ -422,7 +422,7 @@ func TestClearErrors(t *testing.T) {
 		"empty.csv":      {"", "the file is empty"},
 		"header.csv":     {"entity,amount\n", "header but no data rows"},
 		"noamount.csv":   {"entity,value\nE1,3\n", "no amount column"},
-		"latin1.csv":     {"entity,amount\nCaf\xe9,3\n", "latin-1"},
+		"latin1.csv":     {"entity,amount\nCaf\xe9,3\n", "--encoding windows-1252"},
 		"allbad.csv":     {"entity,amount\nE1,x\nE2,y\n", "none of its 2 rows"},
 		"notzip.xlsx":    {"PK", "not an excel workbook"},
 		"unknown.ods":    {"PK", "unknown file type"},

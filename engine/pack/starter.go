@@ -84,6 +84,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	enc := in.Encoding
 	w("encoding = %s       # %s", q(enc), in.EncodingWhy)
 	starterSheet(w, in)
+	w("# in_place = true        # Parquet only: register the files where they lie instead of copying their rows (leadline load --help)")
 	dc := in.AmountCheck != nil && in.AmountCheck.SuggestDecComma
 	if in.AmountCheck != nil {
 		w("decimal_comma = %v     # of %d sampled amounts, %d read with a decimal point, %d with a decimal comma",
