@@ -335,53 +335,9 @@ func buildInPlaceSQL(src *Source, opts Options, amountType string, fileID, base 
 	}
 	sel = append(sel, extra...)
 
-	dc := "false"
-	if opts.DecimalComma {
-		dc = "true"
-	}
-	parse := func(text string) string {
-		return "TRY_CAST(ll_amount_canonical(" + text + ", " + dc + ") AS " + amountType + ")"
-	}
-	var amountExpr, fast, parts string
-	if m.Debit != "" {
-		d, c := src.ref(m.Debit), src.ref(m.Credit)
-		one := func(x, name, suffix string) string {
-			if typ := storedOf[name].typ; isNumeric(typ) {
-				return "CASE WHEN " + x + " IS NULL THEN 0 ELSE " + numericAmount(x, typ, amountType) + " END"
-			}
-			t := "CAST(" + x + " AS VARCHAR)"
-			f, p, e := textAmountSQLNamed(t, opts.DecimalComma, amountType, suffix)
-			fast += f
-			parts += p
-			return "CASE WHEN ll_amount_blank(" + t + ") THEN 0 ELSE " + e + " END"
-		}
-		blank := func(x string) string { return "ll_amount_blank(CAST(" + x + " AS VARCHAR))" }
-		dv, cv := "("+one(d, m.Debit, "_d")+")", "("+one(c, m.Credit, "_c")+")"
-		largest := "CAST('" + largestOf(opts) + "' AS " + amountType + ")"
-		amountExpr = "CASE WHEN " + blank(d) + " AND " + blank(c) + " THEN NULL " +
-			"WHEN abs(" + dv + ") <= " + largest + " - abs(" + cv + ") OR (" + dv + " >= 0) = (" + cv + " >= 0) THEN " + dv + " - " + cv + " END"
-		sd, sc := queries.QuoteIdent(storedOf[m.Debit].stored), queries.QuoteIdent(storedOf[m.Credit].stored)
-		out.rawExpr = "coalesce(" + sd + ", '') || ' | ' || coalesce(" + sc + ", '')"
-		out.reasonExpr = "CASE WHEN ll_amount_blank(" + sd + ") AND ll_amount_blank(" + sc + ") THEN 'blank debit and credit' " +
-			"WHEN NOT ll_amount_blank(" + sd + ") AND " + parse(sd) + " IS NULL THEN 'debit: ' || ll_amount_reason(" + sd + ", " + dc + ") " +
-			"WHEN NOT ll_amount_blank(" + sc + ") AND " + parse(sc) + " IS NULL THEN 'credit: ' || ll_amount_reason(" + sc + ", " + dc + ") " +
-			"ELSE 'debit minus credit: out of range' END"
-		out.amountCol = m.Debit + " | " + m.Credit
-	} else {
-		a := m.Columns["amount"]
-		st := storedOf[a]
-		orig := src.ref(a)
-		out.rawExpr = queries.QuoteIdent(st.stored)
-		out.amountCol = a
-		if isNumeric(st.typ) {
-			amountExpr = numericAmount(orig, st.typ, amountType)
-			out.reasonExpr = "CASE WHEN " + out.rawExpr + " IS NULL THEN 'blank amount' WHEN lower(" + out.rawExpr + ") IN ('nan', '-nan', 'inf', '-inf', 'infinity', '-infinity') THEN 'not a finite number' ELSE 'out of range' END"
-		} else {
-			fast, parts, amountExpr = textAmountSQL("CAST("+orig+" AS VARCHAR)", opts.DecimalComma, amountType)
-			out.reasonExpr = "ll_amount_reason(" + out.rawExpr + ", " + dc + ")"
-		}
-	}
-	out.reasonExpr = "replace(" + out.reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
+	rule := amountSQL(src, storedOf, opts, amountType)
+	amountExpr, fast, parts := rule.expr, rule.fast, rule.parts
+	out.rawExpr, out.reasonExpr, out.amountCol = rule.raw, rule.reason, rule.column
 	out.rounded = roundedInPlace(m, storedOf, opts.DecimalComma, scaleOf(amountType))
 	out.sel = queries.Render("inplace_select", map[string]string{
 		"row_id_base": fmt.Sprint(base),

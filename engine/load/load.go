@@ -696,59 +696,8 @@ func loadOne(ctx context.Context, tx *sql.Tx, src *Source, opts Options, amountT
 		}
 		sel = append(sel, expr+" AS posted")
 	}
-	dc := "false"
-	if opts.DecimalComma {
-		dc = "true"
-	}
-	parse := func(text string) string {
-		return "TRY_CAST(ll_amount_canonical(" + text + ", " + dc + ") AS " + amountType + ")"
-	}
-	var amountExpr, fast, parts, rawExpr, reasonExpr, amountColName string
-	if m.Debit != "" {
-		d, c := src.ref(m.Debit), src.ref(m.Credit)
-		// Each side: a typed number as it is; text through the fast cast
-		// and the grammar (projections ll_fast_d, ll_parts_d and so on);
-		// a blank side counts as zero unless both are blank.
-		one := func(x, name, suffix string) string {
-			if typ := storedOf[name].typ; isNumeric(typ) {
-				return "CASE WHEN " + x + " IS NULL THEN 0 ELSE " + numericAmount(x, typ, amountType) + " END"
-			}
-			t := "CAST(" + x + " AS VARCHAR)"
-			f, p, e := textAmountSQLNamed(t, opts.DecimalComma, amountType, suffix)
-			fast += f
-			parts += p
-			return "CASE WHEN ll_amount_blank(" + t + ") THEN 0 ELSE " + e + " END"
-		}
-		blank := func(x string) string { return "ll_amount_blank(CAST(" + x + " AS VARCHAR))" }
-		// debit - credit overflows (an error, not a NULL, in DuckDB) only
-		// when the two have opposite signs and |debit| + |credit| exceeds
-		// the type's largest value: test that first.
-		dv, cv := "("+one(d, m.Debit, "_d")+")", "("+one(c, m.Credit, "_c")+")"
-		largest := "CAST('" + largestOf(opts) + "' AS " + amountType + ")"
-		amountExpr = "CASE WHEN " + blank(d) + " AND " + blank(c) + " THEN NULL " +
-			"WHEN abs(" + dv + ") <= " + largest + " - abs(" + cv + ") OR (" + dv + " >= 0) = (" + cv + " >= 0) THEN " + dv + " - " + cv + " END"
-		sd, sc := queries.QuoteIdent(storedOf[m.Debit].stored), queries.QuoteIdent(storedOf[m.Credit].stored)
-		rawExpr = "coalesce(" + sd + ", '') || ' | ' || coalesce(" + sc + ", '')"
-		reasonExpr = "CASE WHEN ll_amount_blank(" + sd + ") AND ll_amount_blank(" + sc + ") THEN 'blank debit and credit' " +
-			"WHEN NOT ll_amount_blank(" + sd + ") AND " + parse(sd) + " IS NULL THEN 'debit: ' || ll_amount_reason(" + sd + ", " + dc + ") " +
-			"WHEN NOT ll_amount_blank(" + sc + ") AND " + parse(sc) + " IS NULL THEN 'credit: ' || ll_amount_reason(" + sc + ", " + dc + ") " +
-			"ELSE 'debit minus credit: out of range' END"
-		amountColName = m.Debit + " | " + m.Credit
-	} else {
-		a := m.Columns["amount"]
-		st := storedOf[a]
-		orig := src.ref(a)
-		rawExpr = queries.QuoteIdent(st.stored)
-		amountColName = a
-		if isNumeric(st.typ) {
-			amountExpr = numericAmount(orig, st.typ, amountType)
-			reasonExpr = "CASE WHEN " + rawExpr + " IS NULL THEN 'blank amount' WHEN lower(" + rawExpr + ") IN ('nan', '-nan', 'inf', '-inf', 'infinity', '-infinity') THEN 'not a finite number' ELSE 'out of range' END"
-		} else {
-			fast, parts, amountExpr = textAmountSQL("CAST("+orig+" AS VARCHAR)", opts.DecimalComma, amountType)
-			reasonExpr = "ll_amount_reason(" + rawExpr + ", " + dc + ")"
-		}
-	}
-	reasonExpr = "replace(" + reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
+	rule := amountSQL(src, storedOf, opts, amountType)
+	amountExpr, fast, parts, rawExpr, reasonExpr, amountColName := rule.expr, rule.fast, rule.parts, rule.raw, rule.reason, rule.column
 	if c := currencyFromMarkers(src, storedOf); c != "" {
 		sel = append(sel, c)
 	}
@@ -1480,4 +1429,70 @@ func (t InputTotals) RejectedShare() float64 {
 		return 0
 	}
 	return float64(t.RowsRejected) / float64(t.RowsRead)
+}
+
+// amountRule is the SQL of a file's amount, the one rule a copy and a file
+// in place share: the expression (amount, or debit - credit), the fast
+// cast and grammar projections it reads, the raw text a reject shows, the
+// reject's reason and the column it names.
+type amountRule struct {
+	expr, fast, parts, raw, reason, column string
+}
+
+func amountSQL(src *Source, storedOf map[string]storage, opts Options, amountType string) amountRule {
+	dc := "false"
+	if opts.DecimalComma {
+		dc = "true"
+	}
+	parse := func(text string) string {
+		return "TRY_CAST(ll_amount_canonical(" + text + ", " + dc + ") AS " + amountType + ")"
+	}
+	var amountExpr, fast, parts, rawExpr, reasonExpr, amountColName string
+	m := src.mapping
+	if m.Debit != "" {
+		d, c := src.ref(m.Debit), src.ref(m.Credit)
+		// Each side: a typed number as it is; text through the fast cast
+		// and the grammar (projections ll_fast_d, ll_parts_d and so on);
+		// a blank side counts as zero unless both are blank.
+		one := func(x, name, suffix string) string {
+			if typ := storedOf[name].typ; isNumeric(typ) {
+				return "CASE WHEN " + x + " IS NULL THEN 0 ELSE " + numericAmount(x, typ, amountType) + " END"
+			}
+			t := "CAST(" + x + " AS VARCHAR)"
+			f, p, e := textAmountSQLNamed(t, opts.DecimalComma, amountType, suffix)
+			fast += f
+			parts += p
+			return "CASE WHEN ll_amount_blank(" + t + ") THEN 0 ELSE " + e + " END"
+		}
+		blank := func(x string) string { return "ll_amount_blank(CAST(" + x + " AS VARCHAR))" }
+		// debit - credit overflows (an error, not a NULL, in DuckDB) only
+		// when the two have opposite signs and |debit| + |credit| exceeds
+		// the type's largest value: test that first.
+		dv, cv := "("+one(d, m.Debit, "_d")+")", "("+one(c, m.Credit, "_c")+")"
+		largest := "CAST('" + largestOf(opts) + "' AS " + amountType + ")"
+		amountExpr = "CASE WHEN " + blank(d) + " AND " + blank(c) + " THEN NULL " +
+			"WHEN abs(" + dv + ") <= " + largest + " - abs(" + cv + ") OR (" + dv + " >= 0) = (" + cv + " >= 0) THEN " + dv + " - " + cv + " END"
+		sd, sc := queries.QuoteIdent(storedOf[m.Debit].stored), queries.QuoteIdent(storedOf[m.Credit].stored)
+		rawExpr = "coalesce(" + sd + ", '') || ' | ' || coalesce(" + sc + ", '')"
+		reasonExpr = "CASE WHEN ll_amount_blank(" + sd + ") AND ll_amount_blank(" + sc + ") THEN 'blank debit and credit' " +
+			"WHEN NOT ll_amount_blank(" + sd + ") AND " + parse(sd) + " IS NULL THEN 'debit: ' || ll_amount_reason(" + sd + ", " + dc + ") " +
+			"WHEN NOT ll_amount_blank(" + sc + ") AND " + parse(sc) + " IS NULL THEN 'credit: ' || ll_amount_reason(" + sc + ", " + dc + ") " +
+			"ELSE 'debit minus credit: out of range' END"
+		amountColName = m.Debit + " | " + m.Credit
+	} else {
+		a := m.Columns["amount"]
+		st := storedOf[a]
+		orig := src.ref(a)
+		rawExpr = queries.QuoteIdent(st.stored)
+		amountColName = a
+		if isNumeric(st.typ) {
+			amountExpr = numericAmount(orig, st.typ, amountType)
+			reasonExpr = "CASE WHEN " + rawExpr + " IS NULL THEN 'blank amount' WHEN lower(" + rawExpr + ") IN ('nan', '-nan', 'inf', '-inf', 'infinity', '-infinity') THEN 'not a finite number' ELSE 'out of range' END"
+		} else {
+			fast, parts, amountExpr = textAmountSQL("CAST("+orig+" AS VARCHAR)", opts.DecimalComma, amountType)
+			reasonExpr = "ll_amount_reason(" + rawExpr + ", " + dc + ")"
+		}
+	}
+	reasonExpr = "replace(" + reasonExpr + ", 'out of range', 'out of range for " + amountType + "')"
+	return amountRule{expr: amountExpr, fast: fast, parts: parts, raw: rawExpr, reason: reasonExpr, column: amountColName}
 }
