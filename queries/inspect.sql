@@ -29,3 +29,20 @@ SELECT count(v),
        count(CAST(TRY_STRPTIME(v, ?) AS DATE)), count(CAST(TRY_STRPTIME(v, ?) AS DATE)),
        coalesce(min(v) FILTER (WHERE TRY_CAST(v AS DATE) IS NULL), '')
 FROM (SELECT nullif(trim(CAST({{column}} AS VARCHAR)), '') AS v FROM {{reader}} LIMIT 200000);
+
+-- name: inspect_currency_markers
+-- Of a sample of an amount column: texts that name their currency with a
+-- marker (EUR 12.00, $12.00), texts with a non-zero number and none, and
+-- the codes seen; the rule of load_currency_markers.
+WITH m AS (
+    SELECT v, CASE
+        WHEN NOT regexp_matches(v, '[^0-9.,'' \t+-]') THEN CASE WHEN regexp_matches(v, '[0-9]') THEN '' END
+        ELSE ll_amount_currency(ll_amount_parts(v))
+        END AS cur
+    FROM (SELECT CAST({{column}} AS VARCHAR) AS v FROM {{reader}} LIMIT 200000)
+    WHERE v IS NOT NULL
+)
+SELECT count(*) FILTER (WHERE cur <> ''),
+       count(*) FILTER (WHERE cur = '' AND regexp_matches(v, '[1-9]')),
+       coalesce(string_agg(DISTINCT cur, ', ' ORDER BY cur) FILTER (WHERE cur <> ''), '')
+FROM m;

@@ -432,3 +432,26 @@ func TestDebitCreditMarkers(t *testing.T) {
 		t.Errorf("both sides: %+v", fr.BothSides)
 	}
 }
+
+// TestInspectNamesCurrencyMarkers: inspect warns before the load refuses a
+// file whose amounts name a currency only in part, and says where the
+// currency comes from when every amount names one.
+func TestInspectNamesCurrencyMarkers(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	for _, c := range []struct{ name, body, want string }{
+		{"mixed.csv", "entity,amount\nA,EUR 12.00\nB,13.00\nC,USD 5.00\n", "CHECK the currency: of the sampled amounts 2 name a currency (EUR, USD) and 1 none"},
+		{"marked.csv", "entity,amount\nA,EUR 12.00\nB,$13.00\n", "every sampled amount names its currency (EUR, USD)"},
+		{"plain.csv", "entity,amount\nA,12.00\nB,13.00\n", ""},
+	} {
+		p := writeFile(t, dir, c.name, c.body)
+		in, err := Inspect(ctx, openWS(t, ":memory:"), p, Options{}, 5)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := strings.Join(in.Warnings, "\n")
+		if c.want == "" && strings.Contains(got, "currency") || c.want != "" && !strings.Contains(got, c.want) {
+			t.Errorf("%s: warnings %q; want %q", c.name, got, c.want)
+		}
+	}
+}

@@ -184,6 +184,9 @@ func Inspect(ctx context.Context, ws *workspace.Workspace, path string, opts Opt
 		if msg := separatorCheck(ctx, ws, src, in.Mapping, reader, in.AmountCheck); msg != "" {
 			in.Warnings = append(in.Warnings, "CHECK the decimal mark: "+msg)
 		}
+		if msg := currencyMarkers(ctx, ws, src, in.Mapping, reader); msg != "" {
+			in.Warnings = append(in.Warnings, msg)
+		}
 	}
 	for _, c := range Canonical {
 		if _, ok := in.Mapping.Columns[c]; !ok && !(c == "amount" && in.Mapping.Debit != "") {

@@ -3,6 +3,7 @@ package load
 import (
 	"context"
 	"fmt"
+	"sort"
 	"strings"
 
 	"github.com/leadline/leadline/engine/workspace"
@@ -221,4 +222,49 @@ func separatorCheck(ctx context.Context, ws *workspace.Workspace, src *Source, m
 		return strings.TrimSuffix(strings.TrimPrefix(err.Error(), src.Path+": "), "; nothing was loaded")
 	}
 	return ""
+}
+
+// currencyMarkers says what the sampled amounts of a file without a
+// currency column tell about their currency: a warning when some name one
+// and others none (the load refuses such a file), a note when every one
+// does (the load takes each row's currency from its marker).
+func currencyMarkers(ctx context.Context, ws *workspace.Workspace, src *Source, m Mapping, reader string) string {
+	if _, ok := m.Columns["currency"]; ok {
+		return ""
+	}
+	cols := []string{m.Columns["amount"]}
+	if m.Debit != "" {
+		cols = []string{m.Debit, m.Credit}
+	}
+	var marked, unmarked int64
+	codes := map[string]bool{}
+	for _, c := range cols {
+		if c == "" {
+			continue
+		}
+		var mk, um int64
+		var cs string
+		q := queries.Render("inspect_currency_markers", map[string]string{"column": src.ref(c), "reader": reader})
+		if err := ws.Conn.QueryRowContext(ctx, q).Scan(&mk, &um, &cs); err != nil {
+			return ""
+		}
+		marked, unmarked = marked+mk, unmarked+um
+		for _, code := range strings.Split(cs, ", ") {
+			if code != "" {
+				codes[code] = true
+			}
+		}
+	}
+	var list []string
+	for c := range codes {
+		list = append(list, c)
+	}
+	sort.Strings(list)
+	switch {
+	case marked == 0:
+		return ""
+	case unmarked == 0:
+		return fmt.Sprintf("every sampled amount names its currency (%s): the load takes each row's currency from its marker", strings.Join(list, ", "))
+	}
+	return fmt.Sprintf("CHECK the currency: of the sampled amounts %d name a currency (%s) and %d none; the load refuses such a file unless the file has a currency column (--map currency=COLUMN); otherwise split it so that each part's amounts all carry a marker or none", marked, strings.Join(list, ", "), unmarked)
 }
