@@ -14,52 +14,68 @@ import (
 	"github.com/spf13/pflag"
 )
 
-// countSQLOptions are the flags of count-sql.
+// countSQLOptions are what count-sql's flags ask for.
 type countSQLOptions struct {
-	spec    countsql.Spec
-	mapping map[string]string
-	by      []string
-	out     string
+	spec countsql.Spec
+	out  string // the query's file; "" for standard output
 }
 
-func (c *countSQLOptions) add(fs *pflag.FlagSet) {
-	fs.StringVar(&c.spec.Engine, "engine", "", "engine that runs the query: duckdb, postgresql or clickhouse")
-	fs.StringVar(&c.spec.Table, "table", "", "table (or view) holding the records; schema.table for a schema")
-	fs.StringToStringVar(&c.mapping, "map", nil, "amount=COLUMN: the table's amount column")
-	fs.IntVar(&c.spec.Scale, "scale", 2, "decimal places of the amount: units = amount * 10^scale")
-	fs.StringSliceVar(&c.by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or month=DATE_COLUMN for YYYY-MM (repeatable)")
-	fs.StringVar(&c.spec.Where, "where", "", "predicate in the engine's own SQL; rows it drops are counted as filtered")
-	fs.StringVar(&c.spec.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative or both")
-	fs.StringVar(&c.spec.Min, "min", population.DefaultMin, "smallest |amount| tested")
-	fs.StringVar(&c.spec.LastTwo, "last-two", "scale", "last two digits at the amount's scale (scale) or of its whole-currency part (units)")
-	fs.BoolVar(&c.spec.LastTwoAll, "last-two-all", false, "count the last two digits of every tested amount (default: only where they are the fourth significant digit or later, e.g. 100.00 and more at scale 2, as scan does)")
-	fs.StringVarP(&c.out, "output", "o", "", "write the query to this file (default: standard output)")
+// countSQLFlags registers count-sql's flags; the function it returns
+// checks them and turns them into the spec.
+func countSQLFlags(fs *pflag.FlagSet) func(args []string) (countSQLOptions, error) {
+	var o countSQLOptions
+	var mapping map[string]string
+	var by []string
+	fs.StringVar(&o.spec.Engine, "engine", "", "engine that runs the query: duckdb, postgresql or clickhouse")
+	fs.StringVar(&o.spec.Table, "table", "", "table (or view) holding the records; schema.table for a schema")
+	fs.StringToStringVar(&mapping, "map", nil, "amount=COLUMN: the table's amount column")
+	fs.IntVar(&o.spec.Scale, "scale", 2, "decimal places of the amount: units = amount * 10^scale")
+	fs.StringSliceVar(&by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or month=DATE_COLUMN for YYYY-MM (repeatable)")
+	fs.StringVar(&o.spec.Where, "where", "", "predicate in the engine's own SQL; rows it drops are counted as filtered")
+	fs.StringVar(&o.spec.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative or both")
+	fs.StringVar(&o.spec.Min, "min", population.DefaultMin, "smallest |amount| tested")
+	fs.StringVar(&o.spec.LastTwo, "last-two", "scale", "last two digits at the amount's scale (scale) or of its whole-currency part (units)")
+	fs.BoolVar(&o.spec.LastTwoAll, "last-two-all", false, "count the last two digits of every tested amount (default: only where they are the fourth significant digit or later, e.g. 100.00 and more at scale 2, as scan does)")
+	fs.StringVarP(&o.out, "output", "o", "", "write the query to this file (default: standard output)")
+	return func(args []string) (countSQLOptions, error) {
+		if len(args) > 0 {
+			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		for k, v := range mapping {
+			if !strings.EqualFold(k, "amount") {
+				return o, fmt.Errorf("--map %s=%s: only amount=COLUMN is read; segments are --by NAME=COLUMN", k, v)
+			}
+			o.spec.Amount = v
+		}
+		if o.spec.Engine == "" || o.spec.Table == "" {
+			return o, fmt.Errorf("--engine and --table are required (e.g. --engine postgresql --table gl --map amount=amt)")
+		}
+		if o.spec.Amount == "" {
+			return o, fmt.Errorf("--map amount=COLUMN: name the table's amount column")
+		}
+		for _, b := range by {
+			name, col, ok := strings.Cut(b, "=")
+			name, col = strings.TrimSpace(name), strings.TrimSpace(col)
+			if !ok {
+				col = name
+			}
+			o.spec.By = append(o.spec.By, countsql.Segment{Name: name, Column: col, Month: ok && strings.EqualFold(name, "month")})
+		}
+		return o, nil
+	}
 }
 
-// build turns the flags into the spec.
-func (c *countSQLOptions) build() (countsql.Spec, error) {
-	s := c.spec
-	for k, v := range c.mapping {
-		if !strings.EqualFold(k, "amount") {
-			return s, fmt.Errorf("--map %s=%s: only amount=COLUMN is read; segments are --by NAME=COLUMN", k, v)
-		}
-		s.Amount = v
+// runCountSQL writes the counting query of the spec.
+func runCountSQL(ctx context.Context, e *env, o countSQLOptions) error {
+	q, err := countsql.Query(o.spec)
+	if err != nil {
+		return err
 	}
-	if s.Engine == "" || s.Table == "" {
-		return s, fmt.Errorf("--engine and --table are required (e.g. --engine postgresql --table gl --map amount=amt)")
+	if o.out != "" {
+		return os.WriteFile(o.out, []byte(q), 0o644)
 	}
-	if s.Amount == "" {
-		return s, fmt.Errorf("--map amount=COLUMN: name the table's amount column")
-	}
-	for _, b := range c.by {
-		name, col, ok := strings.Cut(b, "=")
-		name, col = strings.TrimSpace(name), strings.TrimSpace(col)
-		if !ok {
-			col = name
-		}
-		s.By = append(s.By, countsql.Segment{Name: name, Column: col, Month: ok && strings.EqualFold(name, "month")})
-	}
-	return s, nil
+	_, err = fmt.Fprint(e.stdout, q)
+	return err
 }
 
 func init() {
@@ -97,28 +113,7 @@ Examples:
   leadline count-sql --engine clickhouse --table ledger_all --map amount=amount --by entity
   leadline count-sql --engine postgresql --table gl --map amount=amt --scale 2 --by entity --signs positive --min 10
   leadline count-sql --engine duckdb --table ledger --map amount=amount --by month=posted`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var c countSQLOptions
-			c.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if len(args) > 0 {
-					return fmt.Errorf("unexpected argument %q (see --help)", args[0])
-				}
-				s, err := c.build()
-				if err != nil {
-					return err
-				}
-				q, err := countsql.Query(s)
-				if err != nil {
-					return err
-				}
-				if c.out != "" {
-					return os.WriteFile(c.out, []byte(q), 0o644)
-				}
-				_, err = fmt.Fprint(e.stdout, q)
-				return err
-			}
-		},
+		flags: thin(countSQLFlags, runCountSQL),
 	})
 }
 

@@ -57,66 +57,84 @@ the amount and date columns, and makes the ledger a view applying the same
 amount rules as a copy. Every later command checks the files (size and
 time; SHA-256 when those differ; leadline verify hashes them all) and
 refuses to run on a changed or missing one.`,
-		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
-			var db dbFlags
-			var f formatFlag
-			var maps []string
-			o := load.Options{}
-			db.add(fs)
-			fs.StringArrayVar(&maps, "map", nil, "map a canonical column to a file column, CANONICAL=COLUMN (repeatable)")
-			fs.StringVar(&o.Debit, "debit", "", "debit column of a two-column ledger (amount = debit - credit)")
-			fs.StringVar(&o.Credit, "credit", "", "credit column of a two-column ledger")
-			fs.BoolVar(&o.DecimalComma, "decimal-comma", false, "amounts write the decimal mark as a comma (1.234,56)")
-			fs.BoolVar(&o.DecimalPoint, "decimal-point", false, "amounts write the decimal mark as a point (1,234.56): settles amounts such as 1.234 that read both ways")
-			fs.IntVar(&o.Scale, "scale", 2, "decimal places kept in amounts (fixed by a workspace's first load)")
-			fs.IntVar(&o.Precision, "precision", 18, "total digits of amounts: 18 (fast) or 38")
-			fs.StringVar(&o.Delimiter, "delimiter", "", `CSV field delimiter (default: guessed from the header among , ; tab |; "\t" for tab)`)
-			fs.StringVar(&o.Encoding, "encoding", "", "CSV text encoding (default utf-8, or the byte-order mark): "+load.EncodingNames())
-			fs.StringVar(&o.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
-			fs.StringVar(&o.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
-			fs.BoolVar(&o.InPlace, "in-place", false, "register Parquet files where they lie instead of copying their rows: the ledger reads them, and every later command refuses to run if one changed")
-			fs.BoolVar(&o.Replace, "replace", false, "load a file again in place of its earlier load (same content, or the same path with new content), in one transaction")
-			fs.StringVar(&o.Sheet, "sheet", "", "XLSX: the sheet to read, by name or 1-based position (default: the first sheet holding a value)")
-			fs.StringVar(&o.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")
-			var acceptRejects bool
-			fs.BoolVar(&acceptRejects, "accept-rejects", false, "accept any share of rejected rows (same as --max-rejects 100%)")
-			var checks loadChecks
-			checks.add(fs)
-			f.add(fs)
-			return func(ctx context.Context, args []string, e *env) error {
-				if err := f.check(); err != nil {
-					return err
-				}
-				if len(args) == 0 {
-					return fmt.Errorf("give one or more files or patterns to load (see --help)")
-				}
-				m, err := parseMaps(maps)
-				if err != nil {
-					return err
-				}
-				o.Map = m
-				if acceptRejects {
-					if o.MaxRejects != "" {
-						return fmt.Errorf("give --max-rejects or --accept-rejects, not both")
-					}
-					o.MaxRejects = "100%"
-				}
-				if err := checks.prepare(); err != nil {
-					return err
-				}
-				ws, err := db.openOrCreate(ctx)
-				if err != nil {
-					return err
-				}
-				defer ws.Close()
-				rep, err := load.Load(ctx, ws, args, o)
-				if err != nil {
-					return err
-				}
-				return checks.finish(ctx, ws, e.stdout, f.value, rep)
-			}
-		},
+		flags: thin(loadFlags, runLoad),
 	})
+}
+
+// loadOptions are what load's flags ask for.
+type loadOptions struct {
+	db     dbFlags
+	format string
+	files  []string // files and patterns, as given
+	load   load.Options
+	checks loadChecks // --period and --control
+}
+
+// loadFlags registers load's flags; the function it returns checks them.
+func loadFlags(fs *pflag.FlagSet) func(args []string) (loadOptions, error) {
+	var o loadOptions
+	var f formatFlag
+	var maps []string
+	var acceptRejects bool
+	o.db.add(fs)
+	fs.StringArrayVar(&maps, "map", nil, "map a canonical column to a file column, CANONICAL=COLUMN (repeatable)")
+	fs.StringVar(&o.load.Debit, "debit", "", "debit column of a two-column ledger (amount = debit - credit)")
+	fs.StringVar(&o.load.Credit, "credit", "", "credit column of a two-column ledger")
+	fs.BoolVar(&o.load.DecimalComma, "decimal-comma", false, "amounts write the decimal mark as a comma (1.234,56)")
+	fs.BoolVar(&o.load.DecimalPoint, "decimal-point", false, "amounts write the decimal mark as a point (1,234.56): settles amounts such as 1.234 that read both ways")
+	fs.IntVar(&o.load.Scale, "scale", 2, "decimal places kept in amounts (fixed by a workspace's first load)")
+	fs.IntVar(&o.load.Precision, "precision", 18, "total digits of amounts: 18 (fast) or 38")
+	fs.StringVar(&o.load.Delimiter, "delimiter", "", `CSV field delimiter (default: guessed from the header among , ; tab |; "\t" for tab)`)
+	fs.StringVar(&o.load.Encoding, "encoding", "", "CSV text encoding (default utf-8, or the byte-order mark): "+load.EncodingNames())
+	fs.StringVar(&o.load.TimeZone, "time-zone", "", "zone in which Parquet timestamps with a time zone become posting dates, e.g. Europe/Berlin (default UTC)")
+	fs.StringVar(&o.load.DateFormat, "date-format", "", "strptime format of the posted column, e.g. %d/%m/%Y (default: YYYY-MM-DD)")
+	fs.BoolVar(&o.load.InPlace, "in-place", false, "register Parquet files where they lie instead of copying their rows: the ledger reads them, and every later command refuses to run if one changed")
+	fs.BoolVar(&o.load.Replace, "replace", false, "load a file again in place of its earlier load (same content, or the same path with new content), in one transaction")
+	fs.StringVar(&o.load.Sheet, "sheet", "", "XLSX: the sheet to read, by name or 1-based position (default: the first sheet holding a value)")
+	fs.StringVar(&o.load.MaxRejects, "max-rejects", "", "largest share of a file's rows that may be rejected, e.g. 5% (default "+load.DefaultMaxRejects+"); more fails the load")
+	fs.BoolVar(&acceptRejects, "accept-rejects", false, "accept any share of rejected rows (same as --max-rejects 100%)")
+	o.checks.add(fs)
+	f.add(fs)
+	return func(args []string) (loadOptions, error) {
+		if err := f.check(); err != nil {
+			return o, err
+		}
+		o.format = f.value
+		if len(args) == 0 {
+			return o, fmt.Errorf("give one or more files or patterns to load (see --help)")
+		}
+		o.files = args
+		m, err := parseMaps(maps)
+		if err != nil {
+			return o, err
+		}
+		o.load.Map = m
+		if acceptRejects {
+			if o.load.MaxRejects != "" {
+				return o, fmt.Errorf("give --max-rejects or --accept-rejects, not both")
+			}
+			o.load.MaxRejects = "100%"
+		}
+		return o, o.checks.check()
+	}
+}
+
+// runLoad reads the control file, loads the files into the workspace
+// (created when there is none) and runs the checks on the load.
+func runLoad(ctx context.Context, e *env, o loadOptions) error {
+	if err := o.checks.readControl(); err != nil {
+		return err
+	}
+	ws, err := e.createWorkspace(ctx, o.db)
+	if err != nil {
+		return err
+	}
+	defer ws.Close()
+	rep, err := load.Load(ctx, ws, o.files, o.load)
+	if err != nil {
+		return err
+	}
+	return o.checks.finish(ctx, ws, e.stdout, o.format, rep)
 }
 
 func parseMaps(maps []string) (map[string]string, error) {

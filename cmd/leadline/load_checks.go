@@ -68,9 +68,9 @@ func (lc *loadChecks) add(fs *pflag.FlagSet) {
 	lc.control.add(fs)
 }
 
-// prepare checks the period and reads the control file before anything is
-// loaded: a mistake there should not cost a long load.
-func (lc *loadChecks) prepare() error {
+// check checks the period and the control flags, before anything is
+// read or loaded.
+func (lc *loadChecks) check() error {
 	if strings.TrimSpace(lc.period) != "" {
 		p, err := journal.ParsePeriod(lc.period)
 		if err != nil {
@@ -83,8 +83,14 @@ func (lc *loadChecks) prepare() error {
 		return err
 	}
 	lc.opts = o
+	return nil
+}
+
+// readControl reads the control file before anything is loaded: a
+// mistake there should not cost a long load.
+func (lc *loadChecks) readControl() error {
 	if lc.control.file != "" {
-		if _, err := reconcile.Read(lc.control.file, o); err != nil {
+		if _, err := reconcile.Read(lc.control.file, lc.opts); err != nil {
 			return fmt.Errorf("%w; nothing was loaded", err)
 		}
 	}

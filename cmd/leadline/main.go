@@ -37,7 +37,7 @@ type env struct {
 	stderr io.Writer
 	isTTY  bool
 	// open opens the workspace of the --db flags; nil opens the file
-	// they name (dbFlags.open).
+	// they name (dbFlags.open, or dbFlags.openOrCreate for load).
 	open func(ctx context.Context, db dbFlags, readOnly bool) (*workspace.Workspace, error)
 }
 
@@ -48,6 +48,16 @@ func (e *env) openWorkspace(ctx context.Context, db dbFlags, readOnly bool) (*wo
 		return e.open(ctx, db, readOnly)
 	}
 	return db.open(ctx, readOnly)
+}
+
+// createWorkspace opens the workspace the db flags name for load,
+// creating it when there is none; through e.open (read-write) when it is
+// set.
+func (e *env) createWorkspace(ctx context.Context, db dbFlags) (*workspace.Workspace, error) {
+	if e.open != nil {
+		return e.open(ctx, db, false)
+	}
+	return db.openOrCreate(ctx)
 }
 
 // thin joins a command's flag layer and its run function: flags registers
