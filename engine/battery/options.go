@@ -2,9 +2,11 @@ package battery
 
 import (
 	"fmt"
+	"strconv"
 	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/field"
 	"github.com/leadline/leadline/engine/population"
 )
 
@@ -83,7 +85,9 @@ func (o Options) WithDefaults() Options {
 	return o
 }
 
-// Check validates the options (after WithDefaults).
+// Check validates the options (after WithDefaults). A refusal of its
+// own settings is a *field.Error (top, min_segment, last_two); of the
+// population a *population.FieldError.
 func (o Options) Check() error {
 	if err := o.Spec.Check(); err != nil {
 		return err
@@ -94,10 +98,10 @@ func (o Options) Check() error {
 		}
 	}
 	if o.Top < 1 {
-		return fmt.Errorf("--top %d: give 1 or more", o.Top)
+		return &field.Error{Field: "top", Value: strconv.Itoa(o.Top), Reason: "give 1 or more"}
 	}
 	if o.MinSegmentRows < 1 {
-		return fmt.Errorf("--min-segment %d: give 1 or more", o.MinSegmentRows)
+		return &field.Error{Field: "min_segment", Value: strconv.FormatInt(o.MinSegmentRows, 10), Reason: "give 1 or more"}
 	}
 	if err := o.Flagging().Check(); err != nil {
 		return err
@@ -105,7 +109,7 @@ func (o Options) Check() error {
 	switch o.LastTwo {
 	case LastTwoScale, LastTwoUnits:
 	default:
-		return fmt.Errorf("--last-two %q: give scale (the two rightmost digits as the ledger writes the amount, 1234.56 -> 56) or units (of the whole-currency part, 1234.56 -> 34)", o.LastTwo)
+		return &field.Error{Field: "last_two", Value: strconv.Quote(o.LastTwo), Reason: "give scale (the two rightmost digits as the ledger writes the amount, 1234.56 -> 56) or units (of the whole-currency part, 1234.56 -> 34)"}
 	}
 	return nil
 }

@@ -5,9 +5,10 @@ import (
 	"math"
 	"sort"
 	"strconv"
-	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/field"
+	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 )
 
@@ -57,23 +58,38 @@ func (r Row) Key() ranges.Key { return r.key }
 func ParseLimits(texts []string) ([]float64, error) {
 	var out []float64
 	for _, t := range texts {
-		s := strings.ReplaceAll(strings.TrimSpace(t), "_", "")
-		v, err := strconv.ParseFloat(s, 64)
-		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("--limits: %q is not a number; give plain numbers separated by commas, e.g. --limits 1000,5000,10000", t)
-		}
-		if !(v > 0) {
-			return nil, fmt.Errorf("--limits: %q: a limit is a positive amount", t)
+		v, err := ParseLimit(t)
+		if err != nil {
+			return nil, err
 		}
 		out = append(out, v)
 	}
 	return ranges.SortedEdges(out), nil
 }
 
-// CheckWidth validates the band width w, a fraction of the limit.
+// ParseLimit reads one limit: a positive amount in the one grammar of
+// amounts given by the user (population.ParseDecimal). A refusal is a
+// *field.Error of the field "limits".
+func ParseLimit(t string) (float64, error) {
+	r, ok := population.ParseDecimal(t)
+	if !ok {
+		return 0, &field.Error{Field: "limits", Value: strconv.Quote(t), Reason: "not a number; give plain numbers separated by commas, e.g. {limits} 1000,5000,10000"}
+	}
+	if r.Sign() <= 0 {
+		return 0, &field.Error{Field: "limits", Value: strconv.Quote(t), Reason: "a limit is a positive amount"}
+	}
+	v, _ := r.Float64()
+	if math.IsInf(v, 0) {
+		return 0, &field.Error{Field: "limits", Value: strconv.Quote(t), Reason: "too large for a limit"}
+	}
+	return v, nil
+}
+
+// CheckWidth validates the band width w, a fraction of the limit. A
+// refusal is a *field.Error of the field "width".
 func CheckWidth(w float64) error {
 	if !(w > 0 && w < 1) {
-		return fmt.Errorf("--width %v: the band width is a fraction of the limit, strictly between 0 and 1 (0.10 for 10%%)", w)
+		return &field.Error{Field: "width", Value: fmt.Sprint(w), Reason: "the band width is a fraction of the limit, strictly between 0 and 1 (0.10 for 10%)"}
 	}
 	return nil
 }

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strconv"
 	"strings"
 	"unicode/utf8"
 
@@ -15,6 +16,8 @@ import (
 	"golang.org/x/text/encoding/charmap"
 	"golang.org/x/text/encoding/unicode"
 	"golang.org/x/text/transform"
+
+	"github.com/leadline/leadline/engine/field"
 )
 
 // DuckDB's CSV reader takes UTF-8 (and, natively, only UTF-16 and
@@ -54,7 +57,7 @@ func EncodingNames() string {
 }
 
 // NormalizeEncoding returns the canonical name of an --encoding value
-// ("" stays ""), or an error listing the accepted names.
+// ("" stays ""), or a *field.Error listing the accepted names.
 func NormalizeEncoding(s string) (string, error) {
 	t := strings.ToLower(strings.TrimSpace(s))
 	if t == "" {
@@ -70,7 +73,7 @@ func NormalizeEncoding(s string) (string, error) {
 			}
 		}
 	}
-	return "", fmt.Errorf("--encoding %q: unknown encoding; give one of %s", s, EncodingNames())
+	return "", &field.Error{Field: "encoding", Value: strconv.Quote(s), Reason: "unknown encoding; give one of " + EncodingNames()}
 }
 
 // eightBit is the decoder of a one-byte encoding, nil for others.

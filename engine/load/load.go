@@ -76,19 +76,6 @@ func timeZone(o Options) string {
 	return o.TimeZone
 }
 
-// checkTimeZone refuses a zone DuckDB does not know, before anything is
-// read.
-func checkTimeZone(ctx context.Context, ws *workspace.Workspace, o Options) error {
-	if o.TimeZone == "" {
-		return nil
-	}
-	var ok bool
-	if err := ws.Conn.QueryRowContext(ctx, queries.Get("load_time_zone_known"), o.TimeZone).Scan(&ok); err != nil || !ok {
-		return fmt.Errorf("--time-zone %q: not a time zone name; give one such as UTC, Europe/Berlin or America/New_York", o.TimeZone)
-	}
-	return nil
-}
-
 // maxRejects is the share of rows a file may have rejected.
 func (o Options) maxRejects() (float64, error) {
 	if o.MaxRejects == "" {
@@ -201,20 +188,11 @@ func Load(ctx context.Context, ws *workspace.Workspace, args []string, opts Opti
 // loadFiles does the load up to and including its commit.
 func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts Options, started time.Time) (*Report, error) {
 	opts.defaults()
-	if opts.Scale < 0 || opts.Scale > 6 {
-		return nil, fmt.Errorf("--scale %d: give 0 to 6 decimal places", opts.Scale)
-	}
-	if opts.Precision != 18 && opts.Precision != 38 {
-		return nil, fmt.Errorf("--precision %d: give 18 (fast, amounts below 10^%d) or 38", opts.Precision, 18-opts.Scale)
-	}
-	if opts.DecimalComma && opts.DecimalPoint {
-		return nil, errors.New("--decimal-comma and --decimal-point contradict each other: give one")
-	}
-	if _, err := opts.maxRejects(); err != nil {
+	if err := CheckAmountType(opts.Scale, opts.Precision); err != nil {
 		return nil, err
 	}
-	if err := checkTimeZone(ctx, ws, opts); err != nil {
-		return nil, err
+	if errs := CheckSettings(ctx, ws, opts); len(errs) > 0 {
+		return nil, errs[0]
 	}
 	if rep, done, err := inPlaceLoad(ctx, ws, args, opts, started); done {
 		return rep, err

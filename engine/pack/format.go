@@ -18,7 +18,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"math/big"
 	"os"
 	"path/filepath"
 	"sort"
@@ -27,6 +26,7 @@ import (
 	"time"
 
 	"github.com/BurntSushi/toml"
+	"github.com/leadline/leadline/engine/population"
 )
 
 // Pack is a pack file as read. Field names follow the TOML keys; see
@@ -203,8 +203,8 @@ func (n Number) Text() (string, error) {
 		return strconv.FormatFloat(x, 'f', -1, 64), nil
 	case string:
 		t := strings.TrimSpace(x)
-		if _, ok := new(big.Rat).SetString(t); ok && plainDecimal(t) {
-			return strings.TrimPrefix(t, "+"), nil
+		if _, ok := population.ParseDecimal(t); ok {
+			return strings.ReplaceAll(strings.TrimPrefix(t, "+"), "_", ""), nil
 		}
 		hint := ""
 		if strings.ContainsAny(t, ", '") {
@@ -215,26 +215,6 @@ func (n Number) Text() (string, error) {
 		return "", errors.New("no value")
 	}
 	return "", fmt.Errorf("%v is a TOML %s, not a number", n.raw, tomlKind(n.raw))
-}
-
-func plainDecimal(s string) bool {
-	s = strings.TrimLeft(s, "+-")
-	if s == "" {
-		return false
-	}
-	dot := false
-	digits := 0
-	for _, c := range s {
-		switch {
-		case c >= '0' && c <= '9':
-			digits++
-		case c == '.' && !dot:
-			dot = true
-		default:
-			return false
-		}
-	}
-	return digits > 0
 }
 
 // Float returns the number as a float64.

@@ -6,6 +6,7 @@ import (
 	"database/sql/driver"
 	"encoding/json"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -331,23 +332,23 @@ func (c *checker) header(pl *Plan) {
 	pl.Scale, pl.Precision = DefaultScale, DefaultPrecision
 	if h.Scale.Set() {
 		v, err := h.Scale.Int()
-		switch {
-		case err != nil:
-			c.errf("pack.scale", "%v", err)
-		case v < 1 || v > 6:
-			c.errf("pack.scale", "scale %d: give the amounts' decimal places, 1 to 6", v)
-		default:
+		if err == nil {
+			err = load.CheckAmountType(int(v), DefaultPrecision)
+		}
+		if err != nil {
+			c.engineErr("pack.scale", err, nil)
+		} else {
 			pl.Scale = int(v)
 		}
 	}
 	if h.Precision.Set() {
 		v, err := h.Precision.Int()
-		switch {
-		case err != nil:
-			c.errf("pack.precision", "%v", err)
-		case v != 18 && v != 38:
-			c.errf("pack.precision", "precision %d: give 18 (fast) or 38 (for amounts of 10^16 and more)", v)
-		default:
+		if err == nil {
+			err = load.CheckAmountType(pl.Scale, int(v))
+		}
+		if err != nil {
+			c.engineErr("pack.precision", err, nil)
+		} else {
 			pl.Precision = int(v)
 		}
 	}
@@ -463,11 +464,10 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		if s.Debit != "" && s.Columns["amount"] != "" {
 			c.errf(key+".debit", "give either columns.amount or debit and credit, not both")
 		}
-		if len([]rune(strings.ReplaceAll(s.Delimiter, `\t`, "\t"))) > 1 {
-			c.errf(key+".delimiter", "delimiter %q: give one character (\"\\t\" for tab), or \"\" to guess", s.Delimiter)
-		}
-		if _, err := load.NormalizeEncoding(s.Encoding); err != nil {
-			c.errf(key+".encoding", "encoding %q: give one of %s", s.Encoding, load.EncodingNames())
+		// Delimiter, encoding, decimal marks, max_rejects, time_zone and
+		// date_format: the load's own checks.
+		for _, err := range load.CheckSettings(ctx, mem, ps.Options) {
+			c.engineErr(fieldKey(key, err, nil), err, nil)
 		}
 		if s.InPlace {
 			for _, f := range ps.Files {
@@ -479,23 +479,6 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		}
 		if s.InPlace != c.p.Sources[0].InPlace {
 			c.errf(key+".in_place", "in_place must be the same for every source: one workspace holds either copied rows or files in place")
-		}
-		if s.DecimalComma && s.DecimalPoint {
-			c.errf(key+".decimal_point", "decimal_comma and decimal_point contradict each other: give one")
-		}
-		if s.MaxRejects != "" {
-			if _, err := load.ParseShare(s.MaxRejects); err != nil {
-				c.errf(key+".max_rejects", "max_rejects %v", err)
-			}
-		}
-		if s.TimeZone != "" {
-			var known bool
-			if err := mem.Conn.QueryRowContext(ctx, queries.Get("load_time_zone_known"), s.TimeZone).Scan(&known); err != nil || !known {
-				c.errf(key+".time_zone", "time_zone %q: not a time zone name; give one such as \"UTC\" or \"Europe/Berlin\"", s.TimeZone)
-			}
-		}
-		if s.DateFormat != "" && !strings.Contains(s.DateFormat, "%") {
-			c.errf(key+".date_format", "date_format %q: write a strptime format such as %%d/%%m/%%Y", s.DateFormat)
 		}
 		// Headers: every mapped column must be in every file.
 		for _, f := range ps.Files {
@@ -784,8 +767,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 			return
 		}
 		if _, err := segment.Resolve(ctx, mem, cols); err != nil {
-			msg := strings.ReplaceAll(err.Error(), "--by ", "")
-			c.errf(key, "%s", msg)
+			c.engineErr(key, err, map[string]string{"by": ""})
 		}
 	}
 	// The population is checked once even when no step uses it.
@@ -818,13 +800,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		}
 		o.MinSegmentRows = c.intParam("battery.min_segment_rows", b.MinSegmentRows, battery.DefaultMinSegmentRows, 1, "min_segment_rows")
 		o.Top = int(c.intParam("battery.duplication_top", b.DuplicationTop, battery.DefaultTop, 1, "duplication_top"))
-		switch b.LastTwo {
-		case "":
-		case battery.LastTwoScale, battery.LastTwoUnits:
-			o.LastTwo = b.LastTwo
-		default:
-			c.errf("battery.last_two", "last_two %q: give %q (the two rightmost digits as the ledger writes the amount, 1234.56 -> 56) or %q (of the whole-currency part, 1234.56 -> 34)", b.LastTwo, battery.LastTwoScale, battery.LastTwoUnits)
-		}
+		o.LastTwo = b.LastTwo
 		bp := &BatteryPlan{}
 		seen := map[string]bool{}
 		for i, seg := range b.Segments {
@@ -852,6 +828,9 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 			o.By = bp.Segmentations[0]
 		}
 		bp.Options = o.WithDefaults()
+		if err := bp.Options.Check(); err != nil {
+			c.engineErr(fieldKey("battery", err, batteryKeys), err, batteryKeys)
+		}
 		pl.Battery = bp
 	}
 	if l := c.p.Limits; l != nil && enabled(l.Enabled) {
@@ -862,7 +841,7 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 			if err != nil {
 				c.errf("limits.width", "%v", err)
 			} else if err := limits.CheckWidth(w); err != nil {
-				c.errf("limits.width", "width %v: the band is a fraction of the limit, strictly between 0 and 1 (0.10 for 10%%)", w)
+				c.engineErr("limits.width", err, nil)
 			} else {
 				o.Width = w
 			}
@@ -875,13 +854,8 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 				c.errf(k, "limit %v", err)
 				continue
 			}
-			f, _ := strconv.ParseFloat(t, 64)
-			if !(f > 0) {
-				c.errf(k, "limit %s: a limit is a positive amount", t)
-				continue
-			}
-			if err := benford.CheckLimit(f, o.Width); err != nil {
-				c.errf(k, "limit %s: %v", t, err)
+			if _, err := limits.ParseLimit(t); err != nil {
+				c.engineErr(k, err, map[string]string{"limits": "limit"})
 				continue
 			}
 			texts = append(texts, t)
@@ -910,10 +884,11 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		o.Width = num("ranges.width", r.Width)
 		o.From = num("ranges.from", r.From)
 		o.To = num("ranges.to", r.To)
-		o.PerDecade = int(c.intParam("ranges.per_decade", r.PerDecade, 0, 1, "per_decade"))
+		// No bound here: the layout's own check refuses what ranges refuses.
+		o.PerDecade = int(c.intParam("ranges.per_decade", r.PerDecade, 0, math.MinInt, "per_decade"))
 		if ok {
 			if err := o.Layout.Check(); err != nil {
-				c.errf("ranges", "%s", strings.NewReplacer("--per-decade", "per_decade", "--width", "width", "--from", "from", "--to", "to").Replace(err.Error()))
+				c.engineErr(fieldKey("ranges", err, nil), err, nil)
 			}
 		}
 		pl.Ranges = o
@@ -1013,8 +988,8 @@ func (c *checker) extracts(ctx context.Context, mem *workspace.Workspace, pl *Pl
 		case m == "" && (e.SampleSize.Set() || e.Seed.Set()):
 			c.errf(key+".sample", "sample_size and seed need sample = \"random\" or \"monetary\"")
 		case m == "":
-		case !contains(sample.Methods, m):
-			c.errf(key+".sample", "sample %q: give \"random\" (simple random, seeded) or \"monetary\" (monetary-unit: probability proportional to |amount|)", e.Sample)
+		case sample.CheckMethod(m) != nil:
+			c.engineErr(key+".sample", sample.CheckMethod(m), nil)
 		default:
 			ep.Sample = m
 			ep.SampleSize = int(c.intParam(key+".sample_size", e.SampleSize, DefaultSampleSize, 1, "sample_size"))
@@ -1022,7 +997,7 @@ func (c *checker) extracts(ctx context.Context, mem *workspace.Workspace, pl *Pl
 		}
 		if e.GroupBy != "" && schemaOK {
 			if _, err := segment.Resolve(ctx, mem, []string{e.GroupBy}); err != nil {
-				c.errf(key+".group_by", "%s", strings.ReplaceAll(err.Error(), "--by ", "group_by "))
+				c.engineErr(key+".group_by", err, map[string]string{"by": "group_by"})
 			}
 		}
 		pl.Extracts = append(pl.Extracts, ep)

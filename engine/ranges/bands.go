@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/field"
 )
 
 // MaxBands bounds the bands of one range table.
@@ -34,22 +35,23 @@ func (l Layout) Scale() string {
 	return "logarithmic"
 }
 
-// Check validates the layout before any data is read.
+// Check validates the layout before any data is read. A refusal is a
+// *field.Error naming the fields width, per_decade, from and to.
 func (l Layout) Check() error {
 	bad := func(v float64) bool { return math.IsNaN(v) || math.IsInf(v, 0) }
 	switch {
 	case bad(l.Width) || bad(l.From) || bad(l.To):
-		return fmt.Errorf("--width, --from and --to must be plain numbers")
+		return &field.Error{Reason: "{width}, {from} and {to} must be plain numbers"}
 	case l.Width < 0:
-		return fmt.Errorf("--width %v: a band width is a positive amount, e.g. --width 500", l.Width)
+		return &field.Error{Field: "width", Value: fmt.Sprint(l.Width), Reason: "a band width is a positive amount, e.g. 500"}
 	case l.Width > 0 && l.PerDecade > 0:
-		return fmt.Errorf("give either --width (fixed-width bands) or --per-decade (logarithmic bands), not both")
+		return &field.Error{Reason: "give either {width} (fixed-width bands) or {per_decade} (logarithmic bands), not both"}
 	case l.PerDecade < 0:
-		return fmt.Errorf("--per-decade %d: give a positive number of bands to a decade, e.g. 10", l.PerDecade)
+		return &field.Error{Field: "per_decade", Value: fmt.Sprint(l.PerDecade), Reason: "give a positive number of bands to a decade, e.g. 10"}
 	case l.From < 0 || l.To < 0:
-		return fmt.Errorf("--from and --to are absolute amounts: give 0 or more (choose the sign with --signs)")
+		return &field.Error{Reason: "{from} and {to} are absolute amounts: give 0 or more (choose the sign with {signs})"}
 	case l.To > 0 && l.To <= l.From:
-		return fmt.Errorf("--from %v --to %v: the bands need FROM < TO", l.From, l.To)
+		return &field.Error{Reason: fmt.Sprintf("{from} %v {to} %v: the bands need FROM < TO", l.From, l.To)}
 	}
 	return nil
 }

@@ -11,10 +11,24 @@ import (
 	"math/big"
 	"math/rand/v2"
 	"sort"
+	"strconv"
+
+	"github.com/leadline/leadline/engine/field"
 )
 
 // Methods are the sampling methods by name.
 var Methods = []string{"random", "monetary"}
+
+// CheckMethod checks a sampling method's name (one of Methods). A refusal
+// is a *field.Error of the field "sample".
+func CheckMethod(m string) error {
+	for _, x := range Methods {
+		if m == x {
+			return nil
+		}
+	}
+	return &field.Error{Field: "sample", Value: strconv.Quote(m), Reason: `give "random" (simple random, seeded) or "monetary" (monetary-unit: probability proportional to |amount|)`}
+}
 
 // rng is the generator every draw uses: PCG from the standard library,
 // seeded with (seed, 0), whose sequence is fixed by its specification.

@@ -12,6 +12,7 @@ import (
 	"fmt"
 	"strings"
 
+	"github.com/leadline/leadline/engine/field"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
@@ -43,7 +44,8 @@ func (s Segment) Normal(x string) string { return fmt.Sprintf(s.normal, x) }
 func (s Segment) Row() string { return s.row }
 
 // Resolve checks the --by columns against the ledger. Names are matched
-// without regard to case and may be given once each.
+// without regard to case and may be given once each. A refusal is a
+// *field.Error of the field "by".
 func Resolve(ctx context.Context, ws *workspace.Workspace, by []string) ([]Segment, error) {
 	if len(by) == 0 {
 		return nil, nil
@@ -57,14 +59,14 @@ func Resolve(ctx context.Context, ws *workspace.Workspace, by []string) ([]Segme
 	for _, raw := range by {
 		name := strings.TrimSpace(raw)
 		if name == "" {
-			return nil, fmt.Errorf("--by: give a column name, e.g. --by entity or --by month")
+			return nil, &field.Error{Field: "by", Reason: "give a column name, e.g. entity or month"}
 		}
 		if seen[strings.ToLower(name)] {
-			return nil, fmt.Errorf("--by %s is given twice", name)
+			return nil, &field.Error{Field: "by", Value: name, Reason: "given twice"}
 		}
 		seen[strings.ToLower(name)] = true
 		if strings.EqualFold(name, "amount") {
-			return nil, fmt.Errorf("--by amount: segments are groups of records (entity, account, user_id, month...); the amounts are what is tested")
+			return nil, &field.Error{Field: "by", Value: "amount", Reason: "segments are groups of records (entity, account, user_id, month...); the amounts are what is tested"}
 		}
 		var col, typ string
 		for _, c := range cols {
@@ -85,7 +87,7 @@ func Resolve(ctx context.Context, ws *workspace.Workspace, by []string) ([]Segme
 			if err == nil {
 				err = fmt.Errorf("no column %q in the ledger", name)
 			}
-			return nil, fmt.Errorf("--by %s: %w (segments: entity, account, counterparty, user_id, source, month, or any original column)", name, err)
+			return nil, &field.Error{Field: "by", Value: name, Reason: err.Error() + " (segments: entity, account, counterparty, user_id, source, month, or any original column)"}
 		}
 		q := queries.QuoteIdent(col)
 		s := Segment{Name: col, raw: q}

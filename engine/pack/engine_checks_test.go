@@ -1,0 +1,107 @@
+package pack
+
+import (
+	"context"
+	"strings"
+	"testing"
+
+	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/field"
+	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/ranges"
+	"github.com/leadline/leadline/engine/sample"
+	"github.com/leadline/leadline/engine/segment"
+	"github.com/leadline/leadline/engine/workspace"
+)
+
+// packProblems checks the base pack, with head added to its [pack] table
+// and add appended, and returns its text and problems.
+func packProblems(t *testing.T, head, add string) (string, *Problems) {
+	t.Helper()
+	text := `[pack]
+name = "one"
+client = "Client A"
+period = "2025"
+` + head + `[[source]]
+files = ["skerrimoor_ledger_2025.parquet"]
+` + add
+	p, err := Read(packDir(t, text))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, probs := Check(context.Background(), p)
+	return text, probs
+}
+
+// TestPackRefusesAsTheEngine: a value the engine refuses is refused by the
+// pack checker for the same reason, because the checker asks the engine's
+// own function; the problem names the pack's key and line.
+func TestPackRefusesAsTheEngine(t *testing.T) {
+	ctx := context.Background()
+	mem, err := workspace.Open(ctx, ":memory:", workspace.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer mem.Close()
+	if _, err := mem.Conn.ExecContext(ctx, "CREATE TABLE ledger (amount DECIMAL(18,2), entity VARCHAR)"); err != nil {
+		t.Fatal(err)
+	}
+	engine := func(f func() error) error { return f() }
+	cases := []struct {
+		name, head, add, marker string
+		err                     error // the engine's refusal of the same value
+	}{
+		{"scale", "scale = 9\n", "", "scale = 9", load.CheckAmountType(9, 18)},
+		{"per_decade", "", "[ranges]\nper_decade = -1\n", "per_decade", ranges.Layout{PerDecade: -1}.Check()},
+		{"width and per_decade", "", "[ranges]\nwidth = 500\nper_decade = 10\n", "[ranges]", ranges.Layout{Width: 500, PerDecade: 10}.Check()},
+		{"limit", "", "[limits]\nvalues = [-5]\n", "values", engine(func() error { _, err := limits.ParseLimit("-5"); return err })},
+		{"limit width", "", "[limits]\nwidth = 1.5\n", "width", limits.CheckWidth(1.5)},
+		{"last_two", "", "[battery]\nlast_two = \"cents\"\n", "last_two", battery.Options{LastTwo: "cents"}.WithDefaults().Check()},
+		{"segment", "", "[battery]\nsegments = [\"amount\"]\n", "segments", engine(func() error { _, err := segment.Resolve(ctx, mem, []string{"amount"}); return err })},
+		{"sample", "", "[battery]\n[[extract]]\nname = \"e\"\nfrom = \"battery\"\nsample = \"haphazard\"\n", "sample =", sample.CheckMethod("haphazard")},
+		{"date_format", "", "date_format = \"dd.mm.yyyy\"\n", "date_format", load.CheckSettings(ctx, mem, load.Options{DateFormat: "dd.mm.yyyy"})[0]},
+		{"time_zone", "", "time_zone = \"Mars/Olympus\"\n", "time_zone", load.CheckSettings(ctx, mem, load.Options{TimeZone: "Mars/Olympus"})[0]},
+		{"delimiter", "", "delimiter = \";;\"\n", "delimiter", load.CheckSettings(ctx, mem, load.Options{Delimiter: ";;"})[0]},
+		{"encoding", "", "encoding = \"ebcdic\"\n", "encoding", load.CheckSettings(ctx, mem, load.Options{Encoding: "ebcdic"})[0]},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			fe, ok := field.As(c.err)
+			if !ok {
+				t.Fatalf("the engine's refusal %v is not a *field.Error", c.err)
+			}
+			// The reason with each field in its own name, as the pack
+			// names these.
+			reason := (&field.Error{Reason: fe.Reason}).Render(func(f string) string { return f })
+			text, probs := packProblems(t, c.head, c.add)
+			line := lineOf(t, text, c.marker)
+			for _, pr := range probs.Errors() {
+				if pr.Line == line && strings.Contains(pr.Message, reason) {
+					return
+				}
+			}
+			t.Errorf("want a problem at line %d with the engine's reason %q; got:\n%s", line, reason, probs.Error())
+		})
+	}
+}
+
+// TestPackAndCommandLineReadLimitsAlike: a limit written as text is taken
+// by the pack exactly when the limit probe takes it from --limits (one
+// grammar of amounts: no exponent, no other base; digits may be grouped
+// by _).
+func TestPackAndCommandLineReadLimitsAlike(t *testing.T) {
+	for _, text := range []string{"1e3", "0x10", "1_000", "2500.50", "+5000", "5,000", "inf"} {
+		_, cliErr := limits.ParseLimit(text)
+		_, probs := packProblems(t, "", "[limits]\nvalues = [\""+text+"\"]\n")
+		var packErr string
+		for _, pr := range probs.Errors() {
+			if strings.HasPrefix(pr.Key, "limits.values") {
+				packErr = pr.Message
+			}
+		}
+		if (cliErr == nil) != (packErr == "") {
+			t.Errorf("limit %q: --limits says %v, the pack says %q", text, cliErr, packErr)
+		}
+	}
+}
