@@ -82,8 +82,8 @@ func inspectFlags(fs *pflag.FlagSet) func(args []string) (inspectOptions, error)
 				return o, err
 			}
 		}
-		if (o.load.Debit == "") != (o.load.Credit == "") {
-			return o, fmt.Errorf("--debit and --credit go together (amount = debit - credit)")
+		if err := load.CheckDebitCredit(false, o.load.Debit, o.load.Credit); err != nil {
+			return o, err
 		}
 		return o, nil
 	}

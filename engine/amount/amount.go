@@ -15,6 +15,9 @@
 // the first group not starting with 0; with a decimal comma, dots or
 // apostrophes group and a comma marks the decimals. CR means a credit
 // (negative), DR a debit. An exponent (1.5E+03) is applied exactly.
+//
+// It owns the reference grammar of amounts in Go: which text is an amount
+// and its exact value.
 package amount
 
 import (

@@ -32,4 +32,7 @@
 // zero + other sign + below the minimum (Left).
 //
 // Results are signals for follow-up, never proof of fraud.
+//
+// It owns the digit battery's scan of the ledger: the bin counts of every
+// digit test, whole and per segment, and their statistics as one report.
 package battery

@@ -69,4 +69,7 @@
 // (gonum.org/v1/gonum/stat/distuv and gonum.org/v1/gonum/mathext).
 //
 // Results are signals for follow-up, never proof of fraud.
+//
+// It owns the statistics computed from bin counts: expected proportions,
+// the tests of conformity and the flag of a bin.
 package benford

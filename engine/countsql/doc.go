@@ -30,4 +30,7 @@
 // Every row of the table is counted once under kind f, so rows = the sum
 // of n over kind f; tested rows count again under kind l. The files of
 // partitions, shards or months of the same query merge by addition.
+//
+// It owns counting elsewhere: the counting query for another engine and the
+// reading and merging of the count files it returns.
 package countsql

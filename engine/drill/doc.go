@@ -18,4 +18,7 @@
 // digit definitions documented in digits.go, taken from the exact decimal.
 //
 // Results are signals for follow-up, never proof of fraud.
+//
+// It owns the way back from a result to its records: the selection of a
+// bin, amount, range, segment or group and the records' export.
 package drill

@@ -26,6 +26,9 @@
 //
 // Results are signals for follow-up, never proof of fraud: recurring
 // payments, instalments and round prices produce many innocent groups.
+//
+// It owns the duplicate tests: finding, ranking and naming the groups of
+// records that repeat.
 package duplicates
 
 import (

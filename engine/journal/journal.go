@@ -5,6 +5,9 @@
 // keys (entity, doc_id, line_id) that appear more than once. Each check is
 // one listing statement in queries/journal.sql: its count, its first rows
 // and the command that lists them all come from that one statement.
+//
+// It owns the journal checks of every load: unbalanced documents, postings
+// outside the period (and the period's grammar) and repeated line keys.
 package journal
 
 import (

@@ -27,4 +27,7 @@
 // credit limit reads the same as a debit limit); --signs both pools the two.
 //
 // Results are signals for follow-up, never proof of fraud.
+//
+// It owns the limit clustering probe: the bands around each limit, their
+// counts and the test of each limit.
 package limits

@@ -51,8 +51,8 @@ func applyExplicit(in *Inspection, src *Source, opts Options) error {
 			delete(in.MappingWhy, "credit")
 		}
 	}
-	if (opts.Debit == "") != (opts.Credit == "") {
-		return fmt.Errorf("%s: --debit and --credit go together (amount = debit - credit)", src.Path)
+	if err := CheckDebitCredit(false, opts.Debit, opts.Credit); err != nil {
+		return fmt.Errorf("%s: %w", src.Path, err)
 	}
 	if opts.Debit != "" {
 		d, err := find("debit", opts.Debit)

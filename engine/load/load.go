@@ -2,6 +2,10 @@
 // workspace's ledger table, exactly and completely: every record read is
 // either loaded or stored in rejects with its line and reason, inside one
 // transaction, so a failed load leaves the workspace as it was.
+//
+// It owns getting extracts into the ledger: reading, mapping and parsing
+// the files, the load's settings and the completeness accounting of every
+// row.
 package load
 
 import (

@@ -377,13 +377,11 @@ func Resolve(file string, names []string, explicit map[string]string, debit, cre
 		}
 		m.Columns[c] = n
 	}
-	if (debit == "") != (credit == "") {
-		return m, fmt.Errorf("%s: --debit and --credit go together (amount = debit - credit)", file)
+	_, amountMapped := explicit["amount"]
+	if err := CheckDebitCredit(amountMapped, debit, credit); err != nil {
+		return m, fmt.Errorf("%s: %w", file, err)
 	}
 	if debit != "" {
-		if _, ok := explicit["amount"]; ok {
-			return m, fmt.Errorf("%s: give either --map amount=... or --debit/--credit, not both", file)
-		}
 		var err error
 		if m.Debit, err = find("debit", debit); err != nil {
 			return m, err

@@ -65,3 +65,15 @@ func CheckSettings(ctx context.Context, ws *workspace.Workspace, o Options) []er
 	}
 	return errs
 }
+
+// CheckDebitCredit checks that a debit column comes with a credit column
+// and that the two do not stand beside a mapped amount column.
+func CheckDebitCredit(amountMapped bool, debit, credit string) error {
+	if (debit == "") != (credit == "") {
+		return &field.Error{About: "debit", Reason: "{debit} and {credit} go together (amount = debit - credit)"}
+	}
+	if debit != "" && amountMapped {
+		return &field.Error{About: "debit", Reason: "give either {map} amount=... or {debit}/{credit}, not both"}
+	}
+	return nil
+}

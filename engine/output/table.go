@@ -7,6 +7,9 @@
 // builds one from its steps. Other artefacts (the HTML report) join through
 // the Writer interface and Register, and can add to the workbook through
 // RegisterXLSXHook; see write.go.
+//
+// It owns the output folder of a run: its tables in every format, the
+// workbook, the results document and the manifest.
 package output
 
 import (

@@ -63,6 +63,7 @@ func TestPackRefusesAsTheEngine(t *testing.T) {
 		{"date_format", "", "date_format = \"dd.mm.yyyy\"\n", "date_format", load.CheckSettings(ctx, mem, load.Options{DateFormat: "dd.mm.yyyy"})[0]},
 		{"time_zone", "", "time_zone = \"Mars/Olympus\"\n", "time_zone", load.CheckSettings(ctx, mem, load.Options{TimeZone: "Mars/Olympus"})[0]},
 		{"delimiter", "", "delimiter = \";;\"\n", "delimiter", load.CheckSettings(ctx, mem, load.Options{Delimiter: ";;"})[0]},
+		{"debit", "", "debit = \"amount\"\n", "debit", load.CheckDebitCredit(false, "amount", "")},
 		{"encoding", "", "encoding = \"ebcdic\"\n", "encoding", load.CheckSettings(ctx, mem, load.Options{Encoding: "ebcdic"})[0]},
 	}
 	for _, c := range cases {

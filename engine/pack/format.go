@@ -9,6 +9,9 @@
 // (every problem with its file and line); Run loads the sources (or reuses
 // the workspace when the inputs are unchanged), runs every step and builds
 // an output.Run for the writers.
+//
+// It owns packs: their format, the check of a whole pack before anything
+// runs, and the run of its steps.
 package pack
 
 import (

@@ -458,11 +458,8 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 			}
 			ps.Options.Map[canon] = col
 		}
-		if (s.Debit == "") != (s.Credit == "") {
-			c.errf(key+".debit", "debit and credit go together (amount = debit - credit)")
-		}
-		if s.Debit != "" && s.Columns["amount"] != "" {
-			c.errf(key+".debit", "give either columns.amount or debit and credit, not both")
+		if err := load.CheckDebitCredit(s.Columns["amount"] != "", s.Debit, s.Credit); err != nil {
+			c.engineErr(key+".debit", err, map[string]string{"map": "[source.columns]"})
 		}
 		// Delimiter, encoding, decimal marks, max_rejects, time_zone and
 		// date_format: the load's own checks.

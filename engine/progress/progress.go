@@ -3,6 +3,8 @@
 // running query has come and draws with github.com/schollz/progressbar.
 // It writes nothing unless told that its writer is a terminal, so
 // machine-readable output on standard output is never touched.
+//
+// It owns the progress bar shown on standard error while a query runs.
 package progress
 
 import (

@@ -26,4 +26,7 @@
 // amounts from -4,999.99 to -4,500.00.
 //
 // Results are signals for follow-up, never proof of fraud.
+//
+// It owns the amount-range bands: their layout, their counts in one scan
+// and the score of each band.
 package ranges

@@ -6,6 +6,9 @@
 // float), lists every key on one side only, and is stored in the workspace
 // (ll_reconciliation, ll_reconciliation_rows) with the control file's name
 // and SHA-256.
+//
+// It owns the reconciliation of the ledger against a control file: reading
+// the control totals, comparing them exactly and storing the result.
 package reconcile
 
 import (

@@ -52,4 +52,7 @@
 //
 // Results are signals for follow-up, never proof of fraud or error; the
 // report says so at the top.
+//
+// It owns the HTML report and the workbook's charts, built from a named set
+// of stored runs.
 package report

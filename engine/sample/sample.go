@@ -4,6 +4,9 @@
 // selection with a random start). Both take a seed, so that a reviewer
 // who has the population in the same order and the seed draws the same
 // records again. No database: positions in, positions out.
+//
+// It owns reproducible samples: simple random and monetary-unit selection
+// from a seed.
 package sample
 
 import (

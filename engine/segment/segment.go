@@ -4,6 +4,9 @@
 // limit probe and the range bands all segment this way, and the drill-down's
 // --segment COLUMN=VALUE reads values the same way, so a segment found by
 // any of them drills down to exactly its records.
+//
+// It owns segments: which column splits the records, the SQL of a segment's
+// value and the key naming one segment.
 package segment
 
 import (

@@ -7,6 +7,9 @@
 // population's counts are read once; each trial adds the counts of its
 // injected amounts to them in memory. The loaded ledger is never copied or
 // touched.
+//
+// It owns the injection study: what each test would have detected at which
+// rate of injected amounts.
 package sensitivity
 
 import (

@@ -4,6 +4,8 @@
 // no function that reaches files, settings or other databases. The check
 // works on DuckDB's own parse tree (json_serialize_sql), not on the text,
 // so comments, quoting and case tricks do not get past it.
+//
+// It owns the decision whether SQL written by a user may run.
 package sqlguard
 
 import (

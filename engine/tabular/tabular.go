@@ -1,6 +1,8 @@
 // Package tabular prints result tables: aligned text for the terminal, CSV
 // and JSON for scripts. Every command's table output goes through it so
 // that the formats stay alike.
+//
+// It owns the text, CSV and JSON tables printed on the terminal.
 package tabular
 
 import (

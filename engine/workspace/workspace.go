@@ -1,6 +1,9 @@
 // Package workspace opens the engagement workspace: one DuckDB database file
 // that holds the loaded ledger, the load log, the rejected rows and the
 // stored results of every run. Any DuckDB client can open the file.
+//
+// It owns the workspace file: opening it, its schema, the files registered
+// in it and the one path that stores runs.
 package workspace
 
 import (

@@ -9,6 +9,9 @@
 // excelize's row reader is not used for the cells because it hands back
 // text only, without the cell's type, number format or formula, which the
 // rules for numbers, dates and formulas need.
+//
+// It owns reading one sheet of an .xlsx workbook as rows of text for the
+// loader.
 package xlsxin
 
 import (

@@ -9,6 +9,9 @@
 // chance), a tenth of the amounts drawn from a short list of round prices
 // (so that amounts repeat by chance too), a few credit notes and small
 // amounts below the scan's minimum.
+//
+// It owns the synthetic payables ledger, with its planted groups, that the
+// drill and duplicate tests run on.
 package drilltest
 
 import (

@@ -5,6 +5,9 @@
 // large to keep in the repository).
 //
 // Only tests import it.
+//
+// It owns the bad-input corpus: its manifest of expected outcomes and the
+// files generated for it.
 package loadtest
 
 import (

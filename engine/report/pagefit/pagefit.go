@@ -8,6 +8,9 @@
 // auto or scroll) and that itself fits is not an overflow: the reader
 // scrolls that box. In print nothing scrolls, so there every element
 // counts.
+//
+// It owns the measurement, in a headless browser, of whether a page fits
+// its width and its printed page.
 package pagefit
 
 import (
