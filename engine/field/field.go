@@ -6,7 +6,9 @@ package field
 
 import (
 	"errors"
+	"fmt"
 	"regexp"
+	"strconv"
 	"strings"
 )
 
@@ -18,8 +20,11 @@ type Error struct {
 	Value string // the value given, shown after the field's name; "" for none
 	// Reason says what is wrong and what to give instead. {name} in it
 	// stands for another field, worded by the caller (e.g. "give either
-	// {width} or {per_decade}").
+	// {width} or {per_decade}"), and {0}, {1}... for Args: text from the
+	// user (a column name, a path) goes there, never into Reason itself,
+	// so that it is not read as a field.
 	Reason string
+	Args   []any
 	// About is the field a refusal with no Field is about: where a pack
 	// points its problem.
 	About string
@@ -32,12 +37,22 @@ func Flag(f string) string { return "--" + strings.ReplaceAll(f, "_", "-") }
 // Error words the error with the command line's flags.
 func (e *Error) Error() string { return e.Render(Flag) }
 
-var fieldRef = regexp.MustCompile(`\{([a-z_]+)\}`)
+var ref = regexp.MustCompile(`\{([a-z_]+|[0-9]+)\}`)
 
 // Render words the error naming each field by name(field); a name of ""
-// leaves the field out (a pack problem already shows its key).
+// leaves the field out (a pack problem already shows its key). Reason is
+// read once: what is put in for a reference is never read again.
 func (e *Error) Render(name func(field string) string) string {
-	reason := fieldRef.ReplaceAllStringFunc(e.Reason, func(m string) string { return name(m[1 : len(m)-1]) })
+	reason := ref.ReplaceAllStringFunc(e.Reason, func(m string) string {
+		r := m[1 : len(m)-1]
+		if i, err := strconv.Atoi(r); err == nil {
+			if i < len(e.Args) {
+				return fmt.Sprint(e.Args[i])
+			}
+			return m
+		}
+		return name(r)
+	})
 	var head []string
 	if e.Field != "" {
 		if n := name(e.Field); n != "" {

@@ -4,7 +4,10 @@ import "testing"
 
 func TestRender(t *testing.T) {
 	keys := func(f string) string {
-		return map[string]string{"by": "", "width": "width", "per_decade": "per_decade"}[f]
+		if k, ok := map[string]string{"by": ""}[f]; ok {
+			return k
+		}
+		return f
 	}
 	for _, c := range []struct {
 		err       Error
@@ -14,6 +17,9 @@ func TestRender(t *testing.T) {
 		{Error{Field: "by", Reason: "give a column name"}, `--by: give a column name`, `give a column name`},
 		{Error{Reason: "give either {width} or {per_decade}, not both"}, "give either --width or --per-decade, not both", "give either width or per_decade, not both"},
 		{Error{Field: "per_decade", Value: "-1", Reason: "give a positive number"}, "--per-decade -1: give a positive number", "per_decade -1: give a positive number"},
+		// Text from the user is put in once and never read as a field.
+		{Error{Field: "by", Value: "{width}", Reason: "{0}: no such column", Args: []any{`no column "{width}"`}}, `--by {width}: no column "{width}": no such column`, `{width}: no column "{width}": no such column`},
+		{Error{Reason: "{from} {0} {to} {1}: FROM < TO", Args: []any{5, "{1}"}}, "--from 5 --to {1}: FROM < TO", "from 5 to {1}: FROM < TO"},
 	} {
 		if got := c.err.Error(); got != c.cli {
 			t.Errorf("Error() = %q, want %q", got, c.cli)

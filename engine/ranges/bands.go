@@ -51,7 +51,7 @@ func (l Layout) Check() error {
 	case l.From < 0 || l.To < 0:
 		return &field.Error{Reason: "{from} and {to} are absolute amounts: give 0 or more (choose the sign with {signs})"}
 	case l.To > 0 && l.To <= l.From:
-		return &field.Error{Reason: fmt.Sprintf("{from} %v {to} %v: the bands need FROM < TO", l.From, l.To)}
+		return &field.Error{Reason: "{from} {0} {to} {1}: the bands need FROM < TO", Args: []any{l.From, l.To}}
 	}
 	return nil
 }

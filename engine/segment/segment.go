@@ -90,7 +90,7 @@ func Resolve(ctx context.Context, ws *workspace.Workspace, by []string) ([]Segme
 			if err == nil {
 				err = fmt.Errorf("no column %q in the ledger", name)
 			}
-			return nil, &field.Error{Field: "by", Value: name, Reason: err.Error() + " (segments: entity, account, counterparty, user_id, source, month, or any original column)"}
+			return nil, &field.Error{Field: "by", Value: name, Reason: "{0} (segments: entity, account, counterparty, user_id, source, month, or any original column)", Args: []any{err}}
 		}
 		q := queries.QuoteIdent(col)
 		s := Segment{Name: col, raw: q}
