@@ -37,8 +37,8 @@ func (c *controlFlags) options() (reconcile.Options, error) {
 	if c.file == "" && (len(c.maps) > 0 || c.accept || c.decimalComma || c.decimalPoint) {
 		return o, fmt.Errorf("--control-map, --accept-differences and --control-decimal-* need --control FILE")
 	}
-	if c.decimalComma && c.decimalPoint {
-		return o, fmt.Errorf("give --control-decimal-comma or --control-decimal-point, not both")
+	if err := reconcile.CheckDecimalMarks(c.decimalComma, c.decimalPoint); err != nil {
+		return o, err
 	}
 	for _, s := range c.maps {
 		k, v, ok := strings.Cut(s, "=")
@@ -46,8 +46,8 @@ func (c *controlFlags) options() (reconcile.Options, error) {
 		if !ok || k == "" || strings.TrimSpace(v) == "" {
 			return o, fmt.Errorf("--control-map %q: write ROLE=COLUMN, e.g. --control-map net=Movement", s)
 		}
-		if !reconcile.IsRole(k) {
-			return o, fmt.Errorf("--control-map %q: %q is not a role of a control file (%s, %s)", s, k, strings.Join(reconcile.KeyColumns, ", "), strings.Join(reconcile.ValueColumns, ", "))
+		if err := reconcile.CheckRole(k, strings.TrimSpace(v)); err != nil {
+			return o, err
 		}
 		o.Map[k] = strings.TrimSpace(v)
 	}

@@ -55,7 +55,8 @@ func TestLoadFlags(t *testing.T) {
 		{[]string{"--period", "FY2025", "gl.csv"}, "--period"},
 		{[]string{"--accept-differences", "gl.csv"}, "need --control FILE"},
 		{[]string{"--control", "tb.csv", "--control-map", "net", "gl.csv"}, "ROLE=COLUMN"},
-		{[]string{"--control", "tb.csv", "--control-decimal-comma", "--control-decimal-point", "gl.csv"}, "not both"},
+		{[]string{"--control", "tb.csv", "--control-decimal-comma", "--control-decimal-point", "gl.csv"}, "--control-decimal-comma and --control-decimal-point contradict each other"},
+		{[]string{"--control", "tb.csv", "--control-map", "nett=Movement", "gl.csv"}, `--control-map nett=Movement: "nett" is not a role of a control file`},
 	} {
 		_, err := parseFlags(loadFlags, c.args...)
 		wantErr(t, c.args, err, c.want)

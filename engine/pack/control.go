@@ -72,15 +72,15 @@ func (c *checker) control(pl *Plan) {
 	o := reconcile.Options{Map: map[string]string{}, DecimalComma: ct.DecimalComma, DecimalPoint: ct.DecimalPoint, Scale: pl.Scale}
 	bad := false
 	for role, col := range ct.Columns {
-		if !reconcile.IsRole(role) {
-			c.errf("control.columns."+role, "%q is not a role of a control file (%s, %s)", role, strings.Join(reconcile.KeyColumns, ", "), strings.Join(reconcile.ValueColumns, ", "))
+		if err := reconcile.CheckRole(role, col); err != nil {
+			c.engineErr("control.columns."+role, err, controlKeys)
 			bad = true
 			continue
 		}
 		o.Map[role] = col
 	}
-	if ct.DecimalComma && ct.DecimalPoint {
-		c.errf("control.decimal_point", "decimal_comma and decimal_point contradict each other: give one")
+	if err := reconcile.CheckDecimalMarks(ct.DecimalComma, ct.DecimalPoint); err != nil {
+		c.engineErr("control.decimal_point", err, controlKeys)
 		bad = true
 	}
 	if bad {
@@ -88,7 +88,7 @@ func (c *checker) control(pl *Plan) {
 	}
 	ctl, err := reconcile.Read(path, o)
 	if err != nil {
-		c.errf("control.file", "%s", strings.ReplaceAll(err.Error(), "--control-map ", "[control.columns] "))
+		c.engineErr("control.file", err, controlKeys)
 		return
 	}
 	pl.Control = &ControlPlan{Path: path, Options: o, Accept: ct.Accept, SHA256: ctl.SHA256, Shape: ctl.Shape, Keys: ctl.Keys}
@@ -175,3 +175,6 @@ func (r *runner) reconciliation(ctx context.Context) error {
 	r.finding("completeness", "reconciliation", "Reconciliation with %s: %s.", res.Control.Name, res.Verdict)
 	return nil
 }
+
+// controlKeys are the pack's names of the reconciliation's fields.
+var controlKeys = map[string]string{"control_map": "[control.columns]", "control_decimal_comma": "decimal_comma", "control_decimal_point": "decimal_point"}

@@ -2,6 +2,8 @@ package pack
 
 import (
 	"context"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -103,6 +105,45 @@ func TestPackAndCommandLineReadLimitsAlike(t *testing.T) {
 		}
 		if (cliErr == nil) != (packErr == "") {
 			t.Errorf("limit %q: --limits says %v, the pack says %q", text, cliErr, packErr)
+		}
+	}
+}
+
+// TestControlFileProblemsNameKeys: a control file the reconciliation
+// refuses is refused by the pack in the pack's own names (decimal_comma,
+// [control.columns]), never in the command line's flags.
+func TestControlFileProblemsNameKeys(t *testing.T) {
+	for _, c := range []struct{ tb, want string }{
+		{"entity,net\nA,1.234\nB,5\n", "give decimal_comma or decimal_point"},
+		{"entity,net\nA,1.50\nB,\"2,50\"\n", "give decimal_comma or decimal_point"},
+		{"entity,Betrag\nA,1.00\n", "map them, e.g. [control.columns] net=Betrag"},
+	} {
+		text := `[pack]
+name = "c"
+client = "C"
+period = "2025"
+[[source]]
+files = ["skerrimoor_ledger_2025.parquet"]
+[control]
+file = "tb.csv"
+`
+		path := packDir(t, text)
+		if err := os.WriteFile(filepath.Join(filepath.Dir(path), "tb.csv"), []byte(c.tb), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		p, err := Read(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		_, probs := Check(context.Background(), p)
+		var got []string
+		for _, pr := range probs.Errors() {
+			if pr.Key == "control.file" {
+				got = append(got, pr.Message)
+			}
+		}
+		if len(got) != 1 || !strings.Contains(got[0], c.want) || strings.Contains(got[0], "--") {
+			t.Errorf("control file %q: problems %q, want one saying %q and naming no flag", c.tb, got, c.want)
 		}
 	}
 }

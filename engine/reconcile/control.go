@@ -19,9 +19,11 @@ import (
 	"io"
 	"math/big"
 	"path/filepath"
+	"strconv"
 	"strings"
 
 	"github.com/leadline/leadline/engine/amount"
+	"github.com/leadline/leadline/engine/field"
 )
 
 // KeyColumns are the columns a control file may total by, in the order
@@ -226,7 +228,7 @@ func (c *Control) roles(path string, header []string, m map[string]string) (map[
 	}
 	for role, col := range m {
 		if !IsRole(role) {
-			return nil, fmt.Errorf("--control-map %s=%s: %q is not a control-file role (%s, %s)", role, col, role, strings.Join(KeyColumns, ", "), strings.Join(ValueColumns, ", "))
+			return nil, CheckRole(role, col)
 		}
 		found := -1
 		for i, h := range header {
@@ -242,7 +244,7 @@ func (c *Control) roles(path string, header []string, m map[string]string) (map[
 			}
 		}
 		if found < 0 {
-			return nil, fmt.Errorf("%s: line 1: no column %q for --control-map %s=%s (columns: %s)", path, col, role, col, strings.Join(header, ", "))
+			return nil, &field.Error{About: "control_map", Reason: "{0}: line 1: no column {1} for {control_map} {2}={3} (columns: {4})", Args: []any{path, strconv.Quote(col), role, col, strings.Join(header, ", ")}}
 		}
 		index[role] = found
 		fromMap[role] = true
@@ -260,7 +262,7 @@ func (c *Control) roles(path string, header []string, m map[string]string) (map[
 			continue
 		}
 		if j, twice := index[role]; twice {
-			return nil, fmt.Errorf("%s: line 1: columns %q and %q both read as %s; name one with --control-map %s=COLUMN", path, header[j], h, role, role)
+			return nil, &field.Error{About: "control_map", Reason: "{0}: line 1: columns {1} and {2} both read as {3}; name one with {control_map} {3}=COLUMN", Args: []any{path, strconv.Quote(header[j]), strconv.Quote(h), role}}
 		}
 		taken := false
 		for _, j := range index {
@@ -287,9 +289,9 @@ func (c *Control) roles(path string, header []string, m map[string]string) (map[
 		if hasClose {
 			missing = "opening"
 		}
-		return nil, fmt.Errorf("%s: line 1: a trial balance needs both an opening and a closing balance column; no %s column (name it so, or map it with --control-map %s=COLUMN)", path, missing, missing)
+		return nil, &field.Error{About: "control_map", Reason: "{0}: line 1: a trial balance needs both an opening and a closing balance column; no {1} column (name it so, or map it with {control_map} {1}=COLUMN)", Args: []any{path, missing}}
 	case hasOpen && hasNet:
-		return nil, fmt.Errorf("%s: line 1: give either a net column or opening and closing balances (net = closing - opening), not both; leave one out with --control-map or a copy of the file without it", path)
+		return nil, &field.Error{About: "control_map", Reason: "{0}: line 1: give either a net column or opening and closing balances (net = closing - opening), not both; leave one out with {control_map} or a copy of the file without it", Args: []any{path}}
 	case hasOpen:
 		c.Shape = "trial_balance"
 	default:
@@ -301,8 +303,8 @@ func (c *Control) roles(path string, header []string, m map[string]string) (map[
 		}
 	}
 	if len(c.Measures) == 0 {
-		return nil, fmt.Errorf("%s: line 1: none of the columns %s; found %s. Name the totals so, or map them, e.g. --control-map net=%s",
-			path, strings.Join(ValueColumns, ", "), strings.Join(header, ", "), firstOr(header, "Amount"))
+		return nil, &field.Error{About: "control_map", Reason: "{0}: line 1: none of the columns {1}; found {2}. Name the totals so, or map them, e.g. {control_map} net={3}",
+			Args: []any{path, strings.Join(ValueColumns, ", "), strings.Join(header, ", "), firstOr(header, "Amount")}}
 	}
 	return index, nil
 }
@@ -342,7 +344,7 @@ type markText struct {
 // ways, with nothing in the file to settle it, is refused.
 func decimalMark(path string, texts []markText, o Options) (comma bool, mark string, err error) {
 	if o.DecimalComma && o.DecimalPoint {
-		return false, "", errors.New("--control-decimal-comma and --control-decimal-point contradict each other: give one")
+		return false, "", CheckDecimalMarks(o.DecimalComma, o.DecimalPoint)
 	}
 	if o.DecimalComma {
 		return true, "comma", nil
@@ -370,13 +372,13 @@ func decimalMark(path string, texts []markText, o Options) (comma bool, mark str
 	}
 	switch {
 	case point != nil && commaSeen != nil:
-		return false, "", fmt.Errorf("%s: line %d writes %q with a decimal point and line %d writes %q with a decimal comma; give --control-decimal-comma or --control-decimal-point", path, point.line, point.text, commaSeen.line, commaSeen.text)
+		return false, "", &field.Error{About: "control_decimal_comma", Reason: "{0}: line {1} writes {2} with a decimal point and line {3} writes {4} with a decimal comma; give {control_decimal_comma} or {control_decimal_point}", Args: []any{path, point.line, strconv.Quote(point.text), commaSeen.line, strconv.Quote(commaSeen.text)}}
 	case commaSeen != nil:
 		return true, "comma", nil
 	case point != nil:
 		return false, "point", nil
 	case amb != nil:
-		return false, "", fmt.Errorf("%s: line %d: %q reads two ways (a decimal or a thousands mark) and no amount of the file settles which; give --control-decimal-comma or --control-decimal-point", path, amb.line, amb.text)
+		return false, "", &field.Error{About: "control_decimal_comma", Reason: "{0}: line {1}: {2} reads two ways (a decimal or a thousands mark) and no amount of the file settles which; give {control_decimal_comma} or {control_decimal_point}", Args: []any{path, amb.line, strconv.Quote(amb.text)}}
 	}
 	return false, "point", nil
 }
@@ -452,4 +454,24 @@ func firstOr(list []string, def string) string {
 		return strings.TrimSpace(list[len(list)-1])
 	}
 	return def
+}
+
+// CheckRole checks that role, mapped to the control file's column col, is
+// a role of a control file. A refusal is a *field.Error of the field
+// control_map, as are the other refusals of the file's columns.
+func CheckRole(role, col string) error {
+	if IsRole(role) {
+		return nil
+	}
+	return &field.Error{Field: "control_map", Value: role + "=" + col, Reason: "{0} is not a role of a control file ({1}, {2})",
+		Args: []any{strconv.Quote(role), strings.Join(KeyColumns, ", "), strings.Join(ValueColumns, ", ")}}
+}
+
+// CheckDecimalMarks refuses a decimal comma and a decimal point asked for
+// together.
+func CheckDecimalMarks(comma, point bool) error {
+	if comma && point {
+		return &field.Error{About: "control_decimal_point", Reason: "{control_decimal_comma} and {control_decimal_point} contradict each other: give one"}
+	}
+	return nil
 }
