@@ -100,8 +100,8 @@ func registerInPlace(ctx context.Context, ws *workspace.Workspace, args []string
 		if err != nil {
 			return nil, err
 		}
-		if format != "parquet" {
-			return nil, fmt.Errorf("%s: --in-place registers Parquet files only (this is read as %s); load it by copy, without --in-place; nothing was loaded", p, format)
+		if err := CheckInPlace(p, format); err != nil {
+			return nil, fmt.Errorf("%w; nothing was loaded", err)
 		}
 	}
 	amountType, isNew, err := settleAmountType(ctx, ws, opts)

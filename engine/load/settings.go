@@ -77,3 +77,12 @@ func CheckDebitCredit(amountMapped bool, debit, credit string) error {
 	}
 	return nil
 }
+
+// CheckInPlace checks that a file read as format can be registered in
+// place: only Parquet files can.
+func CheckInPlace(path, format string) error {
+	if format != "parquet" {
+		return &field.Error{About: "in_place", Reason: "{0}: {in_place} registers Parquet files only (this is read as {1}); load it by copy, without {in_place}", Args: []any{path, format}}
+	}
+	return nil
+}

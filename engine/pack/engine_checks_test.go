@@ -66,6 +66,7 @@ func TestPackRefusesAsTheEngine(t *testing.T) {
 		{"time_zone", "", "time_zone = \"Mars/Olympus\"\n", "time_zone", load.CheckSettings(ctx, mem, load.Options{TimeZone: "Mars/Olympus"})[0]},
 		{"delimiter", "", "delimiter = \";;\"\n", "delimiter", load.CheckSettings(ctx, mem, load.Options{Delimiter: ";;"})[0]},
 		{"debit", "", "debit = \"amount\"\n", "debit", load.CheckDebitCredit(false, "amount", "")},
+		{"in_place", "", "[[source]]\nfiles = [\"skerrimoor_ledger_2025.csv\"]\nin_place = true\n", "in_place = true", load.CheckInPlace("skerrimoor_ledger_2025.csv", "csv")},
 		{"encoding", "", "encoding = \"ebcdic\"\n", "encoding", load.CheckSettings(ctx, mem, load.Options{Encoding: "ebcdic"})[0]},
 	}
 	for _, c := range cases {
@@ -76,7 +77,7 @@ func TestPackRefusesAsTheEngine(t *testing.T) {
 			}
 			// The reason with each field in its own name, as the pack
 			// names these.
-			reason := (&field.Error{Reason: fe.Reason}).Render(func(f string) string { return f })
+			reason := (&field.Error{Reason: fe.Reason, Args: fe.Args}).Render(func(f string) string { return f })
 			text, probs := packProblems(t, c.head, c.add)
 			line := lineOf(t, text, c.marker)
 			for _, pr := range probs.Errors() {

@@ -468,9 +468,11 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		}
 		if s.InPlace {
 			for _, f := range ps.Files {
-				if format, _, err := load.FormatOf(f); err == nil && format != "parquet" {
-					c.errf(key+".in_place", "in_place registers Parquet files only; %s is read as %s: remove in_place = true to copy it", f, format)
-					break
+				if format, _, err := load.FormatOf(f); err == nil {
+					if err := load.CheckInPlace(c.rel(f), format); err != nil {
+						c.engineErr(key+".in_place", err, nil)
+						break
+					}
 				}
 			}
 		}
