@@ -21,6 +21,13 @@ import (
 // and add appended, and returns its text and problems.
 func packProblems(t *testing.T, head, add string) (string, *Problems) {
 	t.Helper()
+	return packProblemsWith(t, head, add, nil)
+}
+
+// packProblemsWith is packProblems with files (name -> content) written
+// beside the pack first.
+func packProblemsWith(t *testing.T, head, add string, files map[string]string) (string, *Problems) {
+	t.Helper()
 	text := `[pack]
 name = "one"
 client = "Client A"
@@ -28,7 +35,13 @@ period = "2025"
 ` + head + `[[source]]
 files = ["skerrimoor_ledger_2025.parquet"]
 ` + add
-	p, err := Read(packDir(t, text))
+	path := packDir(t, text)
+	for name, content := range files {
+		if err := os.WriteFile(filepath.Join(filepath.Dir(path), name), []byte(content), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	p, err := Read(path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -119,24 +132,7 @@ func TestControlFileProblemsNameKeys(t *testing.T) {
 		{"entity,net\nA,1.50\nB,\"2,50\"\n", "give decimal_comma or decimal_point"},
 		{"entity,Betrag\nA,1.00\n", "map them, e.g. [control.columns] net=Betrag"},
 	} {
-		text := `[pack]
-name = "c"
-client = "C"
-period = "2025"
-[[source]]
-files = ["skerrimoor_ledger_2025.parquet"]
-[control]
-file = "tb.csv"
-`
-		path := packDir(t, text)
-		if err := os.WriteFile(filepath.Join(filepath.Dir(path), "tb.csv"), []byte(c.tb), 0o644); err != nil {
-			t.Fatal(err)
-		}
-		p, err := Read(path)
-		if err != nil {
-			t.Fatal(err)
-		}
-		_, probs := Check(context.Background(), p)
+		_, probs := packProblemsWith(t, "", "[control]\nfile = \"tb.csv\"\n", map[string]string{"tb.csv": c.tb})
 		var got []string
 		for _, pr := range probs.Errors() {
 			if pr.Key == "control.file" {
