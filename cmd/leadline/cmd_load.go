@@ -145,8 +145,8 @@ func parseMaps(maps []string) (map[string]string, error) {
 		if !ok || k == "" || strings.TrimSpace(v) == "" {
 			return nil, fmt.Errorf("--map %q: write CANONICAL=COLUMN, e.g. --map amount=Betrag", s)
 		}
-		if !load.IsCanonical(k) {
-			return nil, fmt.Errorf("--map %q: %q is not a canonical column (%s)", s, k, strings.Join(load.Canonical, ", "))
+		if err := load.CheckCanonical(k, strings.TrimSpace(v)); err != nil {
+			return nil, err
 		}
 		m[k] = strings.TrimSpace(v)
 	}

@@ -35,8 +35,8 @@ func applyExplicit(in *Inspection, src *Source, opts Options) error {
 		}
 	}
 	for c, col := range opts.Map {
-		if !IsCanonical(c) {
-			return fmt.Errorf("--map %s=%s: %q is not a canonical column (use one of %s)", c, col, c, strings.Join(Canonical, ", "))
+		if err := CheckCanonical(c, col); err != nil {
+			return err
 		}
 		n, err := find(c, col)
 		if err != nil {

@@ -368,8 +368,8 @@ func Resolve(file string, names []string, explicit map[string]string, debit, cre
 	}
 	m := Mapping{Columns: map[string]string{}}
 	for c, col := range explicit {
-		if !IsCanonical(c) {
-			return m, fmt.Errorf("--map %s=%s: %q is not a canonical column (use one of %s)", c, col, c, strings.Join(Canonical, ", "))
+		if err := CheckCanonical(c, col); err != nil {
+			return m, err
 		}
 		n, err := find(c, col)
 		if err != nil {

@@ -66,6 +66,15 @@ func CheckSettings(ctx context.Context, ws *workspace.Workspace, o Options) []er
 	return errs
 }
 
+// CheckCanonical checks that c, mapped to the file's column col, is a
+// canonical column.
+func CheckCanonical(c, col string) error {
+	if IsCanonical(c) {
+		return nil
+	}
+	return &field.Error{Field: "map", Value: c + "=" + col, Reason: "{0} is not a canonical column (use one of {1})", Args: []any{strconv.Quote(c), strings.Join(Canonical, ", ")}}
+}
+
 // CheckDebitCredit checks that a debit column comes with a credit column
 // and that the two do not stand beside a mapped amount column.
 func CheckDebitCredit(amountMapped bool, debit, credit string) error {

@@ -8,17 +8,21 @@ import "github.com/leadline/leadline/engine/field"
 // engine's fields: keys maps a field to its key ("" leaves the name out,
 // as the problem shows its key); a field not in keys keeps its own name.
 func (c *checker) engineErr(key string, err error, keys map[string]string) {
+	c.errf(key, "%s", engineWords(err, keys))
+}
+
+// engineWords words err as engineErr reports it.
+func engineWords(err error, keys map[string]string) string {
 	fe, ok := field.As(err)
 	if !ok {
-		c.errf(key, "%v", err)
-		return
+		return err.Error()
 	}
-	c.errf(key, "%s", fe.Render(func(f string) string {
+	return fe.Render(func(f string) string {
 		if k, ok := keys[f]; ok {
 			return k
 		}
 		return f
-	}))
+	})
 }
 
 // fieldKey is the pack key under table of the field err is about (by

@@ -444,8 +444,8 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		}
 		for canon, col := range s.Columns {
 			ck := key + ".columns." + canon
-			if !load.IsCanonical(canon) {
-				msg := fmt.Sprintf("%q is not a canonical column (%s)", canon, strings.Join(load.Canonical, ", "))
+			if err := load.CheckCanonical(canon, col); err != nil {
+				msg := engineWords(err, map[string]string{"map": ""})
 				if sug := closest(canon, load.Canonical); sug != "" {
 					msg += fmt.Sprintf("; did you mean %q?", sug)
 				}
