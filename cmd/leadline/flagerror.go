@@ -3,6 +3,7 @@ package main
 import (
 	"errors"
 
+	"github.com/leadline/leadline/engine/field"
 	"github.com/leadline/leadline/engine/population"
 )
 
@@ -20,7 +21,13 @@ var populationFlags = map[string]string{
 // such an error wrapped in another's context, pass unchanged.
 func flagError(err error) error {
 	if w, ok := err.(population.Worded); ok {
-		return errors.New(w.Render(func(f string) string { return populationFlags[f] }))
+		return errors.New(w.Render(func(f string) string {
+			if n, ok := populationFlags[f]; ok {
+				return n
+			}
+			// Any other field (a *field.Error's) by its flag.
+			return field.Flag(f)
+		}))
 	}
 	return err
 }
