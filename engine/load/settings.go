@@ -15,7 +15,7 @@ import (
 // command line stops at the first refusal, the pack checker reports them
 // all, each under its own key. Every refusal is a *field.Error naming its
 // field as the engine does (scale, precision, decimal_point, max_rejects,
-// encoding, delimiter, time_zone, date_format).
+// delimiter, time_zone, date_format, map, debit, in_place).
 
 // CheckAmountType checks the amounts' decimal places and total digits
 // (the load reads a scale of 0 as not given, hence 2).
@@ -30,9 +30,10 @@ func CheckAmountType(scale, precision int) error {
 }
 
 // CheckSettings checks the settings of o that need no file: the decimal
-// marks, the share of rejects, the text encoding, the delimiter, the time
-// zone (a name DuckDB knows, hence ws) and the date format. It returns
-// every refusal, in that order.
+// marks, the share of rejects, the delimiter, the time zone (a name DuckDB
+// knows, hence ws) and the date format. It returns every refusal, in that
+// order. (The encoding is NormalizeEncoding's, which the load reports
+// with the file it reads.)
 func CheckSettings(ctx context.Context, ws *workspace.Workspace, o Options) []error {
 	var errs []error
 	if o.DecimalComma && o.DecimalPoint {
@@ -42,9 +43,6 @@ func CheckSettings(ctx context.Context, ws *workspace.Workspace, o Options) []er
 		if _, err := ParseShare(o.MaxRejects); err != nil {
 			errs = append(errs, &field.Error{Field: "max_rejects", Value: strconv.Quote(o.MaxRejects), Reason: "give a percentage from 0% to 100%, e.g. 5%"})
 		}
-	}
-	if _, err := NormalizeEncoding(o.Encoding); err != nil {
-		errs = append(errs, err)
 	}
 	if d := o.Delimiter; d != "" {
 		if d == `\t` {

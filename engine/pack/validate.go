@@ -461,10 +461,13 @@ func (c *checker) sources(ctx context.Context, mem *workspace.Workspace, pl *Pla
 		if err := load.CheckDebitCredit(s.Columns["amount"] != "", s.Debit, s.Credit); err != nil {
 			c.engineErr(key+".debit", err, map[string]string{"map": "[source.columns]"})
 		}
-		// Delimiter, encoding, decimal marks, max_rejects, time_zone and
-		// date_format: the load's own checks.
+		// Delimiter, decimal marks, max_rejects, time_zone, date_format
+		// and encoding: the load's own checks.
 		for _, err := range load.CheckSettings(ctx, mem, ps.Options) {
 			c.engineErr(fieldKey(key, err, nil), err, nil)
+		}
+		if _, err := load.NormalizeEncoding(s.Encoding); err != nil {
+			c.engineErr(key+".encoding", err, nil)
 		}
 		if s.InPlace {
 			for _, f := range ps.Files {
