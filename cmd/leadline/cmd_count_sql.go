@@ -27,7 +27,7 @@ func (c *countSQLOptions) add(fs *pflag.FlagSet) {
 	fs.StringVar(&c.spec.Table, "table", "", "table (or view) holding the records; schema.table for a schema")
 	fs.StringToStringVar(&c.mapping, "map", nil, "amount=COLUMN: the table's amount column")
 	fs.IntVar(&c.spec.Scale, "scale", 2, "decimal places of the amount: units = amount * 10^scale")
-	fs.StringSliceVar(&c.by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or month=DATE_COLUMN for YYYY-MM (repeatable)")
+	fs.StringSliceVar(&c.by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or year=, quarter=, month=DATE_COLUMN for YYYY, YYYY-Qn, YYYY-MM (repeatable)")
 	fs.StringVar(&c.spec.Where, "where", "", "predicate in the engine's own SQL; rows it drops are counted as filtered")
 	fs.StringVar(&c.spec.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative or both")
 	fs.StringVar(&c.spec.Min, "min", population.DefaultMin, "smallest |amount| tested")
@@ -57,7 +57,10 @@ func (c *countSQLOptions) build() (countsql.Spec, error) {
 		if !ok {
 			col = name
 		}
-		s.By = append(s.By, countsql.Segment{Name: name, Column: col, Month: ok && strings.EqualFold(name, "month")})
+		s.By = append(s.By, countsql.Segment{Name: name, Column: col,
+			Month:   ok && strings.EqualFold(name, "month"),
+			Quarter: ok && strings.EqualFold(name, "quarter"),
+			Year:    ok && strings.EqualFold(name, "year")})
 	}
 	return s, nil
 }

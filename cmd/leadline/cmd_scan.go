@@ -55,8 +55,12 @@ of their own for the first-two digits test) are left out, and so is zero.
 columns. Every row left out is counted, by reason, so N is explained.
 
 With --by, every test also runs per segment (entity, account,
-counterparty, user_id, source, month, or any original column; several
---by columns make segments of their combinations), all from the same one
+counterparty, user_id, source, or any original column; year, quarter
+or month of the posted date, labelled 2025, 2025-Q1, 2025-01, with the
+records without a date in the blank segment; several --by columns make
+segments of their combinations: --by entity --by quarter, written also
+--by entity,quarter, is one ranking of entity-quarters, as a pack's
+segments = ["entity+quarter"]), all from the same one
 scan, and a ranking per test orders the segments by excess MAD (MAD less
 the MAD expected from sampling alone at the segment's N), so that segments
 of different sizes compare fairly. Segments with fewer than --min-segment
@@ -114,7 +118,7 @@ func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
 	o.db.add(fs)
 	fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
 	pop.add(fs)
-	fs.StringSliceVar(&o.battery.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+	fs.StringSliceVar(&o.battery.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, year, quarter, month or an original column (repeatable; several make one segmentation of their combinations)")
 	fs.Int64Var(&o.battery.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
 	fs.StringVar(&o.battery.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
 	fs.IntVar(&o.battery.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
