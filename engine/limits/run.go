@@ -100,6 +100,11 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		}
 	}
 	edges := Edges(rep.Limits, o.Width)
+	step := "limits: counting the amounts around each limit"
+	if len(rep.By) > 0 {
+		step += " by " + strings.Join(rep.By, ", ")
+	}
+	defer ws.Step(step)()
 	groups, err := pop.Count(ctx, ws, segs, edges)
 	if err != nil {
 		return nil, err
