@@ -163,12 +163,12 @@ func printLimits(w io.Writer, format string, rep *limits.Report, top int) error 
 		src = "round values within the amounts"
 	}
 	fmt.Fprintf(w, "Limits: %d (%s) from %s to %s; band [T - %s%%, T) against [T, T + %s%%)",
-		len(rep.Limits), src, bf.num(rep.Limits[0]), bf.num(rep.Limits[len(rep.Limits)-1]), bf.num(100*rep.Width), bf.num(100*rep.Width))
+		len(rep.Limits), src, numfmt.MoneyFloat(rep.Limits[0]), numfmt.MoneyFloat(rep.Limits[len(rep.Limits)-1]), bf.num(100*rep.Width), bf.num(100*rep.Width))
 	if len(rep.By) > 0 {
 		fmt.Fprintf(w, "; by %s: %d segments", strings.Join(rep.By, ", "), rep.Segments)
 	}
-	fmt.Fprintf(w, "\nExpected below/above ratio under a 1/amount density: %.3f. %d tests, Holm-adjusted at 5%%: %d flagged.\n\n",
-		rep.ExpectedRatio, rep.Tested, rep.Flagged)
+	fmt.Fprintf(w, "\nExpected below/above ratio under a 1/amount density: %s. %s tests, Holm-adjusted at 5%%: %s flagged.\n\n",
+		numfmt.Stat(rep.ExpectedRatio), numfmt.Int(int64(rep.Tested)), numfmt.Int(int64(rep.Flagged)))
 
 	t.Columns = append(t.Columns, "limit", "below_band", "below", "above", "ratio", "excess", "excess_vs_above", "z", "p_adjusted", "flag")
 	shown := 0
@@ -177,8 +177,8 @@ func printLimits(w io.Writer, format string, rep *limits.Report, top int) error 
 			break
 		}
 		row := append([]any{r.Rank}, segCell(r)...)
-		row = append(row, bf.num(r.Limit), r.Range, numfmt.Int(r.Below), numfmt.Int(r.Above), fmt.Sprintf("%.3f", r.ObservedRatio),
-			numfmt.Int(int64(math.Round(r.Excess))), numfmt.Int(int64(math.Round(r.ExcessVsAbove))), fmt.Sprintf("%.1f", r.Z), bf.p(r.PAdjusted), bf.flag(r.Flagged))
+		row = append(row, numfmt.MoneyFloat(r.Limit), r.Range, numfmt.Int(r.Below), numfmt.Int(r.Above), numfmt.Stat(r.ObservedRatio),
+			numfmt.Int(int64(math.Round(r.Excess))), numfmt.Int(int64(math.Round(r.ExcessVsAbove))), numfmt.Stat(r.Z), bf.p(r.PAdjusted), bf.flag(r.Flagged))
 		t.Add(row...)
 		shown++
 	}
