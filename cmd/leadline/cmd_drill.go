@@ -227,7 +227,7 @@ func printDrillRecords(w io.Writer, format string, b *drill.Built, sum drill.Sum
 		return t.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "%s records, total %s", numfmt.Int(sum.Records), sum.Total)
+	fmt.Fprintf(w, "%s records, total %s", numfmt.Int(sum.Records), numfmt.Money(sum.Total))
 	if more {
 		fmt.Fprintf(w, " (showing the first %d: --limit for more, --out FILE for all)", len(t.Rows))
 	}
@@ -253,7 +253,7 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 		return res.Table.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", numfmt.Int(sum.Records), sum.Total, numfmt.Int(res.GroupsTotal), res.Column)
+	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", numfmt.Int(sum.Records), numfmt.Money(sum.Total), numfmt.Int(res.GroupsTotal), res.Column)
 	if more {
 		fmt.Fprintf(w, " (showing the %d with most records: --limit for more, --out FILE for all)", len(res.Table.Rows))
 	}
@@ -261,6 +261,15 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 	for _, r := range res.Table.Rows {
 		if r[0] == nil {
 			r[0] = "(blank)"
+		}
+		// The terminal's number format; CSV and JSON keep the plain values.
+		for i, v := range r[1:] {
+			switch x := v.(type) {
+			case int64:
+				r[i+1] = numfmt.Int(x)
+			case string:
+				r[i+1] = numfmt.Money(x)
+			}
 		}
 	}
 	return res.Table.WriteText(w, 60)

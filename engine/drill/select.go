@@ -211,6 +211,9 @@ func segmentPredicate(ctx context.Context, ws *workspace.Workspace, spec string)
 			if val == "" {
 				return population.Predicate{SQL: "posted IS NULL"}, label + " blank", nil
 			}
+			if err := segment.CheckPeriod(col, val); err != nil {
+				return population.Predicate{}, "", fmt.Errorf("--segment %q: %w (the %s of the posted date)", spec, err, label)
+			}
 			return population.Predicate{SQL: expr + " = ?", Args: []any{val}}, label + " " + val, nil
 		}
 		return population.Predicate{}, "", fmt.Errorf("--segment %q: %w", spec, err)
