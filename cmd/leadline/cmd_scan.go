@@ -54,18 +54,18 @@ of their own for the first-two digits test) are left out, and so is zero.
 columns. Every row left out is counted, by reason, so N is explained.
 
 With --by, every test also runs per segment (entity, account,
-counterparty, user_id, source, or any original column; year, quarter
-or month of the posted date, labelled 2025, 2025-Q1, 2025-01, with the
-records without a date in the blank segment; several --by columns make
-segments of their combinations: --by entity --by quarter, written also
---by entity,quarter, is one ranking of entity-quarters, as a pack's
-segments = ["entity+quarter"]), all from the same one
-scan, and a ranking per test orders the segments by excess MAD (MAD less
+counterparty, user_id, source, or any original column; year, quarter or
+month of the posted date, labelled 2025, 2025-Q1, 2025-01, records
+without a date in the blank segment), all from the same one scan, and a
+ranking per test orders the segments by excess MAD (MAD less
 the MAD expected from sampling alone at the segment's N), so that segments
 of different sizes compare fairly. Segments with fewer than --min-segment
 tested amounts (1,000 by default: below that the smallest first-two bins
 expect fewer than about four amounts each) are listed as too small to
-judge, not ranked.
+judge, not ranked. Several --by columns make segments of their
+combinations: --by entity --by quarter (or --by entity,quarter) is one
+ranking of entity-quarters, as a pack's segments = ["entity+quarter"];
+a pack's segments = ["entity", "quarter"] is two rankings.
 
 A bin is flagged when its count is beyond chance and material: its exact
 binomial p-value, adjusted by Holm's step-down over the test's bins, is
