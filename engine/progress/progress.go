@@ -14,6 +14,7 @@ package progress
 import (
 	"fmt"
 	"io"
+	"strings"
 	"sync"
 	"time"
 
@@ -124,7 +125,7 @@ func (t *tracker) update(step string, frac float64, ok bool, now time.Time) {
 		t.bar = progressbar.NewOptions(1000,
 			progressbar.OptionSetWriter(t.w),
 			progressbar.OptionSetDescription(t.name()),
-			progressbar.OptionSetWidth(30),
+			progressbar.OptionSetWidth(barWidth),
 			progressbar.OptionShowElapsedTimeOnFinish(),
 			progressbar.OptionSetPredictTime(true),
 			progressbar.OptionClearOnFinish(),
@@ -137,15 +138,38 @@ func (t *tracker) update(step string, frac float64, ok bool, now time.Time) {
 	}
 }
 
+// A bar and its label fit a line of 80 columns (percent and times take
+// about 20 more): a longer line wraps, and the redrawn bar then leaves a
+// trail of lines behind.
+const (
+	barWidth   = 20
+	labelWidth = 40
+)
+
 // name is the bar's label: the step (or the fallback label) and, from the
-// step's second query on, which pass it is.
+// step's second query on, which pass it is, shortened to labelWidth.
 func (t *tracker) name() string {
 	n := t.step
 	if n == "" {
 		n = t.label
 	}
+	suffix := ""
 	if t.pass > 1 {
-		n = fmt.Sprintf("%s, pass %d", n, t.pass)
+		suffix = fmt.Sprintf(", pass %d", t.pass)
 	}
-	return n
+	return fit(n, labelWidth-len(suffix)) + suffix
+}
+
+// fit shortens s to n characters, keeping its first word (what is done)
+// and its end (a file name): "loading …_ledger_2025.csv".
+func fit(s string, n int) string {
+	r := []rune(s)
+	if len(r) <= n {
+		return s
+	}
+	head := 0
+	if i := strings.IndexRune(s, ' '); i > 0 && len([]rune(s[:i])) < n/2 {
+		head = len([]rune(s[:i])) + 1
+	}
+	return string(r[:head]) + "…" + string(r[len(r)-(n-head-1):])
 }

@@ -123,3 +123,19 @@ func TestWatchNamesStepsAndNeverRunsBackwards(t *testing.T) {
 	stop()
 	checkDrawn(t, out.String(), feedLabels)
 }
+
+// TestLabelsFitTheLine: a long step name is shortened to its first word
+// and its end, so that the bar keeps to one line of 80 columns.
+func TestLabelsFitTheLine(t *testing.T) {
+	tr := tracker{label: "working", step: "checking the amounts of skerrimoor_ledger_2025_with_a_long_name.csv", pass: 2}
+	got := tr.name()
+	if n := len([]rune(got)); n > labelWidth {
+		t.Errorf("label %q has %d characters, more than %d", got, n, labelWidth)
+	}
+	if !strings.HasPrefix(got, "checking …") || !strings.HasSuffix(got, "long_name.csv, pass 2") {
+		t.Errorf("label %q lost its verb, file name or pass", got)
+	}
+	if got := fit("loading a.csv", labelWidth); got != "loading a.csv" {
+		t.Errorf("a short label was changed: %q", got)
+	}
+}
