@@ -30,7 +30,7 @@ func countSQLFlags(fs *pflag.FlagSet) func(args []string) (countSQLOptions, erro
 	fs.StringVar(&o.spec.Table, "table", "", "table (or view) holding the records; schema.table for a schema")
 	fs.StringToStringVar(&mapping, "map", nil, "amount=COLUMN: the table's amount column")
 	fs.IntVar(&o.spec.Scale, "scale", 2, "decimal places of the amount: units = amount * 10^scale")
-	fs.StringSliceVar(&by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or month=DATE_COLUMN for YYYY-MM (repeatable)")
+	fs.StringSliceVar(&by, "by", nil, "segment column: NAME (the column of that name), NAME=COLUMN, or year=, quarter=, month=DATE_COLUMN for YYYY, YYYY-Qn, YYYY-MM (repeatable)")
 	fs.StringVar(&o.spec.Where, "where", "", "predicate in the engine's own SQL; rows it drops are counted as filtered")
 	fs.StringVar(&o.spec.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative or both")
 	fs.StringVar(&o.spec.Min, "min", population.DefaultMin, "smallest |amount| tested")
@@ -59,7 +59,10 @@ func countSQLFlags(fs *pflag.FlagSet) func(args []string) (countSQLOptions, erro
 			if !ok {
 				col = name
 			}
-			o.spec.By = append(o.spec.By, countsql.Segment{Name: name, Column: col, Month: ok && strings.EqualFold(name, "month")})
+			o.spec.By = append(o.spec.By, countsql.Segment{Name: name, Column: col,
+				Month:   ok && strings.EqualFold(name, "month"),
+				Quarter: ok && strings.EqualFold(name, "quarter"),
+				Year:    ok && strings.EqualFold(name, "year")})
 		}
 		return o, nil
 	}

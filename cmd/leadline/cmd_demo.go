@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
 	"github.com/leadline/leadline/queries/packs"
@@ -166,7 +167,7 @@ loaded whole, its positive amounts sum to %s and its net to %s.
 
 Open %s in a browser for the report, or %s for the workbook.
 Demo finished in %.1fs. Results are signals for follow-up, never proof.
-`, xlsxPath, centsText(xlsxPositive), centsText(xlsxCents), filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
+`, xlsxPath, numfmt.Money(centsText(xlsxPositive)), numfmt.Money(centsText(xlsxCents)), filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
 	return nil
 }
 

@@ -33,7 +33,7 @@ came from. Every part of the selection narrows it further:
   --range FROM:TO      FROM <= |amount| < TO, e.g. a band just below a limit;
                        either end may be left out (4500: or :5000)
   --segment COL=VALUE  records whose column holds exactly VALUE (repeatable);
-                       COL= selects blanks; month=YYYY-MM selects a posted month
+                       COL= selects blanks; year=YYYY, quarter=YYYY-Qn, month=YYYY-MM select a period of posted
   --dup RUN:TEST:GROUP a group of a stored duplicates run, as printed by
                        leadline dups (TEST:GROUP for the latest run)
   --where SQL          the same filter predicate as the scan (read-only)
@@ -43,7 +43,7 @@ and --min, the scan's population: positive amounts of at least 10 unless
 told otherwise. A duplicate group keeps the population of its run.
 
 --group COLUMN gives one row per value of any column (counterparty, user_id,
-account, entity, an original column, file_name or month) with its records,
+account, entity, an original column, file_name, year, quarter or month) with its records,
 total, distinct amounts and the most repeated amounts ("1847.23×312"),
 most records first. --out FILE writes every record (or every group) to a
 .csv, .json or .parquet file; --limit only cuts what is shown.
@@ -93,7 +93,7 @@ func drillFlags(fs *pflag.FlagSet) func(args []string) (drillOptions, error) {
 	fs.StringVar(&o.records.Sort, "sort", "", "sort the records by a column (default: file order)")
 	fs.BoolVar(&o.records.Desc, "desc", false, "sort in descending order")
 	fs.IntVar(&o.records.Limit, "limit", drill.DefaultLimit, "records (or groups) shown")
-	fs.StringVar(&o.group.Column, "group", "", "one row per value of this column: counterparty, user_id, account, entity, any original column, file_name, month")
+	fs.StringVar(&o.group.Column, "group", "", "one row per value of this column: counterparty, user_id, account, entity, any original column, file_name, year, quarter, month")
 	fs.IntVar(&o.group.Top, "top-amounts", drill.DefaultTopAmounts, "repeated amounts listed per group")
 	fs.StringVar(&o.out, "out", "", "write every record (or group) to a .csv, .json or .parquet file")
 	f.add(fs)
@@ -227,7 +227,7 @@ func printDrillRecords(w io.Writer, format string, b *drill.Built, sum drill.Sum
 		return t.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "%s records, total %s", numfmt.Int(sum.Records), sum.Total)
+	fmt.Fprintf(w, "%s records, total %s", numfmt.Int(sum.Records), numfmt.Money(sum.Total))
 	if more {
 		fmt.Fprintf(w, " (showing the first %d: --limit for more, --out FILE for all)", len(t.Rows))
 	}
@@ -253,7 +253,7 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 		return res.Table.WriteCSV(w)
 	}
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", numfmt.Int(sum.Records), sum.Total, numfmt.Int(res.GroupsTotal), res.Column)
+	fmt.Fprintf(w, "%s records, total %s, in %s groups by %s", numfmt.Int(sum.Records), numfmt.Money(sum.Total), numfmt.Int(res.GroupsTotal), res.Column)
 	if more {
 		fmt.Fprintf(w, " (showing the %d with most records: --limit for more, --out FILE for all)", len(res.Table.Rows))
 	}
@@ -261,6 +261,15 @@ func printDrillGroups(w io.Writer, format string, b *drill.Built, sum drill.Summ
 	for _, r := range res.Table.Rows {
 		if r[0] == nil {
 			r[0] = "(blank)"
+		}
+		// The terminal's number format; CSV and JSON keep the plain values.
+		for i, v := range r[1:] {
+			switch x := v.(type) {
+			case int64:
+				r[i+1] = numfmt.Int(x)
+			case string:
+				r[i+1] = numfmt.Money(x)
+			}
 		}
 	}
 	return res.Table.WriteText(w, 60)

@@ -165,7 +165,7 @@ func dupsValue(g duplicates.Group, col string) any {
 		if g.RSF == 0 {
 			return ""
 		}
-		return fmt.Sprintf("%.2f", g.RSF)
+		return numfmt.Stat(g.RSF)
 	case "excess":
 		return g.Excess
 	case "total":

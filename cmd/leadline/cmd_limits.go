@@ -33,8 +33,9 @@ limit is the classic trace of entries kept away from a reviewer.
 Limits are the client's (--limits 1000,5000,10000) or, by default, the
 round values 1, 2, 2.5 and 5 x 10^k whose band lies within the amounts.
 With --by, every limit is also probed in every segment (entity, account,
-counterparty, user_id, source, month, or any original column; several
---by columns make segments of their combinations), all from one scan. A
+counterparty, user_id, source, year, quarter, month of the posted date,
+or any original column; several --by columns make segments of their
+combinations, as a pack's limits.by does), all from one scan. A
 limit is tested in a segment when its band lies within that segment's
 amounts and holds at least --min-count of them; all tests of the run are
 adjusted together (Holm, 5% family-wise), then ranked.
@@ -73,7 +74,7 @@ func limitsFlags(fs *pflag.FlagSet) func(args []string) (limitsOptions, error) {
 	o.db.add(fs)
 	fs.StringSliceVar(&texts, "limits", nil, "limits to probe, e.g. 1000,5000,10000 (default: round values within the amounts)")
 	fs.Float64Var(&o.limits.Width, "width", limits.DefaultWidth, "band width on each side, as a fraction of the limit (0 < width < 1)")
-	fs.StringSliceVar(&o.limits.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+	fs.StringSliceVar(&o.limits.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, year, quarter, month or an original column (repeatable; several make one segmentation of their combinations)")
 	fs.Int64Var(&o.limits.MinCount, "min-count", limits.DefaultMinCount, "fewest amounts in a band (below + above) for its limit to be tested")
 	fs.IntVar(&o.top, "top", 20, "rows to print in text format (0 = all tested)")
 	pop.add(fs)
@@ -162,12 +163,12 @@ func printLimits(w io.Writer, format string, rep *limits.Report, top int) error 
 		src = "round values within the amounts"
 	}
 	fmt.Fprintf(w, "Limits: %d (%s) from %s to %s; band [T - %s%%, T) against [T, T + %s%%)",
-		len(rep.Limits), src, bf.num(rep.Limits[0]), bf.num(rep.Limits[len(rep.Limits)-1]), bf.num(100*rep.Width), bf.num(100*rep.Width))
+		len(rep.Limits), src, numfmt.MoneyFloat(rep.Limits[0]), numfmt.MoneyFloat(rep.Limits[len(rep.Limits)-1]), bf.num(100*rep.Width), bf.num(100*rep.Width))
 	if len(rep.By) > 0 {
 		fmt.Fprintf(w, "; by %s: %d segments", strings.Join(rep.By, ", "), rep.Segments)
 	}
-	fmt.Fprintf(w, "\nExpected below/above ratio under a 1/amount density: %.3f. %d tests, Holm-adjusted at 5%%: %d flagged.\n\n",
-		rep.ExpectedRatio, rep.Tested, rep.Flagged)
+	fmt.Fprintf(w, "\nExpected below/above ratio under a 1/amount density: %s. %s tests, Holm-adjusted at 5%%: %s flagged.\n\n",
+		numfmt.Stat(rep.ExpectedRatio), numfmt.Int(int64(rep.Tested)), numfmt.Int(int64(rep.Flagged)))
 
 	t.Columns = append(t.Columns, "limit", "below_band", "below", "above", "ratio", "excess", "excess_vs_above", "z", "p_adjusted", "flag")
 	shown := 0
@@ -176,8 +177,8 @@ func printLimits(w io.Writer, format string, rep *limits.Report, top int) error 
 			break
 		}
 		row := append([]any{r.Rank}, segCell(r)...)
-		row = append(row, bf.num(r.Limit), r.Range, numfmt.Int(r.Below), numfmt.Int(r.Above), fmt.Sprintf("%.3f", r.ObservedRatio),
-			numfmt.Int(int64(math.Round(r.Excess))), numfmt.Int(int64(math.Round(r.ExcessVsAbove))), fmt.Sprintf("%.1f", r.Z), bf.p(r.PAdjusted), bf.flag(r.Flagged))
+		row = append(row, numfmt.MoneyFloat(r.Limit), r.Range, numfmt.Int(r.Below), numfmt.Int(r.Above), numfmt.Stat(r.ObservedRatio),
+			numfmt.Int(int64(math.Round(r.Excess))), numfmt.Int(int64(math.Round(r.ExcessVsAbove))), numfmt.Stat(r.Z), bf.p(r.PAdjusted), bf.flag(r.Flagged))
 		t.Add(row...)
 		shown++
 	}

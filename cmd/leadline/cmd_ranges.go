@@ -159,21 +159,21 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 	fmt.Fprintf(w, "Amount ranges (run %d): %s\n", rep.RunID, bandPopulationLine(rep.Population, rep.Counts))
 	l := rep.Layout
 	if l.Width > 0 {
-		fmt.Fprintf(w, "Bands: %d of fixed width %s from %s to %s", len(rep.Bands), bf.num(l.Width), bf.num(l.From), bf.num(l.To))
+		fmt.Fprintf(w, "Bands: %d of fixed width %s from %s to %s", len(rep.Bands), numfmt.MoneyFloat(l.Width), numfmt.MoneyFloat(l.From), numfmt.MoneyFloat(l.To))
 	} else {
-		fmt.Fprintf(w, "Bands: %d logarithmic, %d to a decade, from %s to %s", len(rep.Bands), l.PerDecade, ranges.AmountText(l.From, scale), ranges.AmountText(l.To, scale))
+		fmt.Fprintf(w, "Bands: %d logarithmic, %d to a decade, from %s to %s", len(rep.Bands), l.PerDecade, bandAmount(l.From, scale), bandAmount(l.To, scale))
 	}
 	fmt.Fprintf(w, "; %s tested amounts below the first band, %s at or above the end of the last\n", numfmt.Int(rep.BelowBands), numfmt.Int(rep.AboveBands))
-	fmt.Fprintf(w, "Each band against a smooth expectation from its neighbours; dispersion %.2f; %d bands scored, Holm-adjusted at 5%%: %d flagged\n\n",
-		rep.Dispersion, rep.Scored, rep.Flagged)
+	fmt.Fprintf(w, "Each band against a smooth expectation from its neighbours; dispersion %s; %s bands scored, Holm-adjusted at 5%%: %s flagged\n\n",
+		numfmt.Stat(rep.Dispersion), numfmt.Int(int64(rep.Scored)), numfmt.Int(int64(rep.Flagged)))
 	t.Columns = []string{"from", "to", "count", "expected", "ratio", "z", "p_adjusted", "flag", "note"}
 	for _, b := range rep.Bands {
 		if !b.Scored {
-			t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), numfmt.Int(b.Count), "", "", "", "", "", b.Note)
+			t.Add(bandAmount(b.From, scale), bandAmount(b.To, scale), numfmt.Int(b.Count), "", "", "", "", "", b.Note)
 			continue
 		}
-		t.Add(ranges.AmountText(b.From, scale), ranges.AmountText(b.To, scale), numfmt.Int(b.Count),
-			numfmt.Int(int64(b.Expected+0.5)), fmt.Sprintf("%.2f", b.Ratio), fmt.Sprintf("%.1f", b.Z),
+		t.Add(bandAmount(b.From, scale), bandAmount(b.To, scale), numfmt.Int(b.Count),
+			numfmt.Int(int64(b.Expected+0.5)), numfmt.Stat(b.Ratio), numfmt.Stat(b.Z),
 			bf.p(b.PAdjusted), bf.flag(b.Flagged), b.Note)
 	}
 	if err := t.WriteText(w, 0); err != nil {
@@ -190,7 +190,7 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 			break
 		}
 		fmt.Fprintf(w, "  %s to %s: %d band(s), %s amounts against %s expected (excess %s)\n    %s\n",
-			ranges.AmountText(s.From, scale), ranges.AmountText(s.To, scale), s.Bands,
+			bandAmount(s.From, scale), bandAmount(s.To, scale), s.Bands,
 			numfmt.Int(s.Count), numfmt.Int(int64(s.Expected+0.5)), numfmt.Int(int64(math.Round(s.Excess))), s.Drill)
 	}
 	return nil
@@ -213,16 +213,9 @@ func (bandFormat) scale(t string) int {
 
 func (bandFormat) num(v float64) string { return strconv.FormatFloat(v, 'f', -1, 64) }
 
-// p writes a p-value; values that underflow print as <1e-300.
-func (bandFormat) p(p float64) string {
-	if p < 1e-300 {
-		return "<1e-300"
-	}
-	if p >= 0.01 {
-		return fmt.Sprintf("%.2f", p)
-	}
-	return fmt.Sprintf("%.1e", p)
-}
+// p writes a p-value (numfmt.P: four significant figures, "< 1e-300"
+// when it underflowed).
+func (bandFormat) p(p float64) string { return numfmt.P(p) }
 
 func (bandFormat) flag(f bool) string {
 	if f {

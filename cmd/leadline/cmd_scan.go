@@ -6,7 +6,6 @@ import (
 	"io"
 	"math"
 	"sort"
-	"strconv"
 	"strings"
 	"time"
 
@@ -55,14 +54,18 @@ of their own for the first-two digits test) are left out, and so is zero.
 columns. Every row left out is counted, by reason, so N is explained.
 
 With --by, every test also runs per segment (entity, account,
-counterparty, user_id, source, month, or any original column; several
---by columns make segments of their combinations), all from the same one
-scan, and a ranking per test orders the segments by excess MAD (MAD less
+counterparty, user_id, source, or any original column; year, quarter or
+month of the posted date, labelled 2025, 2025-Q1, 2025-01, records
+without a date in the blank segment), all from the same one scan, and a
+ranking per test orders the segments by excess MAD (MAD less
 the MAD expected from sampling alone at the segment's N), so that segments
 of different sizes compare fairly. Segments with fewer than --min-segment
 tested amounts (1,000 by default: below that the smallest first-two bins
 expect fewer than about four amounts each) are listed as too small to
-judge, not ranked.
+judge, not ranked. Several --by columns make segments of their
+combinations: --by entity --by quarter (or --by entity,quarter) is one
+ranking of entity-quarters, as a pack's segments = ["entity+quarter"];
+a pack's segments = ["entity", "quarter"] is two rankings.
 
 A bin is flagged when its count is beyond chance and material: its exact
 binomial p-value, adjusted by Holm's step-down over the test's bins, is
@@ -114,7 +117,7 @@ func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
 	o.db.add(fs)
 	fs.StringSliceVar(&tests, "tests", []string{"all"}, "tests: first, second, first_two, first_three, last_two, summation, second_order, duplication, or all")
 	pop.add(fs)
-	fs.StringSliceVar(&o.battery.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, month or an original column (repeatable)")
+	fs.StringSliceVar(&o.battery.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, year, quarter, month or an original column (repeatable; several make one segmentation of their combinations)")
 	fs.Int64Var(&o.battery.MinSegmentRows, "min-segment", battery.DefaultMinSegmentRows, "fewest tested amounts for a segment to be ranked")
 	fs.StringVar(&o.battery.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
 	fs.IntVar(&o.battery.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
@@ -284,14 +287,14 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 				}
 				var runs, runsP any
 				if r.Runs != nil {
-					runs, runsP = *r.Runs, fmt.Sprintf("%.3g", *r.RunsP)
+					runs, runsP = *r.Runs, numfmt.P(*r.RunsP)
 				}
-				chi := any(fmt.Sprintf("%.3g", r.PValue))
-				excess := any(fmt.Sprintf("%.5f", r.ExcessMAD))
+				chi := any(numfmt.P(r.PValue))
+				excess := any(numfmt.Stat(r.ExcessMAD))
 				if rk.Test == benford.Summation {
 					chi, excess = nil, nil
 				}
-				t.Add(r.Rank, r.Segment, numfmt.Int(r.N), fmt.Sprintf("%.5f", r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
+				t.Add(r.Rank, r.Segment, numfmt.Int(r.N), numfmt.Stat(r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
 			}
 			if err := t.WriteText(w, 40); err != nil {
 				return err
@@ -356,9 +359,9 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		}
 		bar := scanBar(b.Actual, b.Expected, maxP, 30)
 		if summation {
-			t.Add(b.Label, numfmt.Int(b.Count), strconv.FormatFloat(b.Amount, 'f', 2, 64), pct(b.Actual), pct(b.Expected), flag, bar)
+			t.Add(b.Label, numfmt.Int(b.Count), numfmt.MoneyFloat(b.Amount), pct(b.Actual), pct(b.Expected), flag, bar)
 		} else {
-			t.Add(b.Label, numfmt.Int(b.Count), pct(b.Actual), pct(b.Expected), fmt.Sprintf("%.2f", b.Z), flag, bar)
+			t.Add(b.Label, numfmt.Int(b.Count), pct(b.Actual), pct(b.Expected), numfmt.Stat(b.Z), flag, bar)
 		}
 	}
 	if r.Test == benford.FirstThree && !allBins {
@@ -370,16 +373,18 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		}
 	}
 	// Summary statistics.
-	fmt.Fprintf(w, "MAD %.5f: %s", r.MAD, r.Conformity)
+	fmt.Fprintf(w, "MAD %s: %s", numfmt.Stat(r.MAD), r.Conformity)
 	if !summation {
-		fmt.Fprintf(w, "; expected MAD at this N %.5f, excess %.5f", r.ExpectedMAD, r.ExcessMAD)
+		fmt.Fprintf(w, "; expected MAD at this N %s, excess %s", numfmt.Stat(r.ExpectedMAD), numfmt.Stat(r.ExcessMAD))
 	}
 	fmt.Fprintln(w)
 	if m := r.MADNull; m != nil {
-		fmt.Fprintf(w, "MAD under conformity at this N: mean %.5f, sd %.5f, 95%% below %.5f (z %.1f, p %.3g): %s\n", m.Mean, m.SD, m.P95, m.Z, m.P, r.Severity)
+		fmt.Fprintf(w, "MAD under conformity at this N: mean %s, sd %s, 95%% below %s (z %s, p %s): %s\n",
+			numfmt.Stat(m.Mean), numfmt.Stat(m.SD), numfmt.Stat(m.P95), numfmt.Stat(m.Z), numfmt.P(m.P), r.Severity)
 	}
 	if r.DF > 0 {
-		fmt.Fprintf(w, "Chi-square %.2f, %d df, p %.3g; Kolmogorov-Smirnov D %.5f (5%% critical value %.5f)\n", r.Chi2, r.DF, r.PValue, r.KSD, r.KSCritical)
+		fmt.Fprintf(w, "Chi-square %s, %d df, p %s; Kolmogorov-Smirnov D %s (5%% critical value %s)\n",
+			numfmt.Stat(r.Chi2), r.DF, numfmt.P(r.PValue), numfmt.Stat(r.KSD), numfmt.Stat(r.KSCritical))
 	}
 	lo, hi := r.Test.Bins()
 	fmt.Fprintf(w, "Flagged bins: %d of %d", r.Flagged, hi-lo+1)
@@ -395,7 +400,8 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 	}
 	fmt.Fprintln(w)
 	if rr := r.Runs; rr != nil {
-		fmt.Fprintf(w, "Runs test: %d runs (expected %.1f, sd %.2f, z %.2f, one-sided p %.3g)\n", rr.Runs, rr.Expected, rr.SD, rr.Z, rr.P)
+		fmt.Fprintf(w, "Runs test: %d runs (expected %s, sd %s, z %s, one-sided p %s)\n",
+			rr.Runs, numfmt.Stat(rr.Expected), numfmt.Stat(rr.SD), numfmt.Stat(rr.Z), numfmt.P(rr.P))
 		var parts []string
 		for i, s := range rr.Stretches {
 			if i == 3 || s.Kind != benford.Surplus {

@@ -7,6 +7,7 @@ import (
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 )
 
@@ -96,7 +97,7 @@ func noteSecondOrder(r *benford.Result, c *Counts, o Options, nc noteCtx) error 
 	r.Notes = notes
 	d, _ := benford.FitDecades(sc.Min, sc.Mean)
 	r.Notes = append(r.Notes, fmt.Sprintf(
-		"second-order test: amounts are whole units of %s, so their differences are discrete (differences of 1 to 9 units fill bins 10, 20, ..., 90; small differences are rounded): the expected shares are those of %d amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|) held in whole units; against Benford's law itself %d bins would have been flagged",
-		strconv.FormatFloat(unit, 'f', -1, 64), n, strconv.FormatFloat(sc.Min, 'f', -1, 64), d, plain))
+		"second-order test: amounts are whole units of %s, so their differences are discrete (differences of 1 to 9 units fill bins 10, 20, ..., 90; small differences are rounded): the expected shares are those of %s amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|) held in whole units; against Benford's law itself %d bins would have been flagged",
+		strconv.FormatFloat(unit, 'f', -1, 64), numfmt.Int(n), strconv.FormatFloat(sc.Min, 'f', -1, 64), d, plain))
 	return nil
 }

@@ -3,6 +3,7 @@ package battery
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"runtime"
 	"sort"
@@ -140,6 +141,8 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	o = p.Options
 	rep := &Report{Kind: "scan", Params: o, AmountType: p.AmountType.SQL(), Tests: []benford.Result{}}
 
+	defer ws.Step("scan")()
+	ws.Step(scanStep(p))
 	t := time.Now()
 	all, segs, err := p.Scan(ctx, ws)
 	if err != nil {
@@ -147,6 +150,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	}
 	rep.Seconds.Scan = time.Since(t).Seconds()
 	if o.Has(benford.SecondOrder) {
+		ws.Step("scan: the second-order test")
 		t = time.Now()
 		if err := p.SecondOrder(ctx, ws, all, segs); err != nil {
 			return nil, err
@@ -165,6 +169,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	if o.Duplication {
+		ws.Step("scan: number duplication")
 		t = time.Now()
 		if rep.Duplication, err = p.Duplicates(ctx, ws, all.N(), o.Top); err != nil {
 			return nil, err
@@ -179,6 +184,31 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	rep.Seconds.Statistics = time.Since(t).Seconds()
 	rep.Seconds.Total = time.Since(start).Seconds()
 	return rep, nil
+}
+
+// scanStep names the one aggregate scan for the progress display: the
+// tests it counts for and the segments.
+func scanStep(p *Plan) string {
+	var names []string
+	for _, t := range p.Options.Tests {
+		if t != benford.SecondOrder {
+			names = append(names, t.Name())
+		}
+	}
+	// One scan counts for every test; past two, their number keeps the
+	// line short.
+	s := "scan: counting digits for " + strings.Join(names, ", ")
+	if len(names) > 2 {
+		s = fmt.Sprintf("scan: counting digits for %d tests", len(names))
+	}
+	if len(p.Segments) > 0 {
+		var by []string
+		for _, g := range p.Segments {
+			by = append(by, g.Name)
+		}
+		s += " by " + strings.Join(by, ", ")
+	}
+	return s
 }
 
 // statistics fills the report from the bin-count tables: N and what was

@@ -5,6 +5,8 @@ import (
 	"math"
 	"sort"
 	"strconv"
+
+	"github.com/leadline/leadline/engine/numfmt"
 )
 
 // Rules of thumb applied by Analyze (common practice, no source).
@@ -193,8 +195,8 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 
 	if n < MinAmounts {
 		res.Notes = append(res.Notes, fmt.Sprintf(
-			"only %d amounts: digit tests want about %d or more; with fewer, only large deviations can be told from chance (common practice, no source)",
-			n, MinAmounts))
+			"only %s amounts: digit tests want about %s or more; with fewer, only large deviations can be told from chance (common practice, no source)",
+			numfmt.Int(n), numfmt.Int(MinAmounts)))
 	}
 	if !res.GoodmanHolds {
 		res.Notes = append(res.Notes, fmt.Sprintf(
@@ -207,8 +209,8 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 			res.Flagged, MaxFlaggedFirstTwo))
 	}
 	if t == FirstTwo && res.Runs != nil && res.Runs.Runs < FewRunsFirstTwo {
-		msg := fmt.Sprintf("%d runs over the 90 first-two bins (fewer than %d; %.1f expected; conforming populations of this size have fewer than %d runs in %.1f%% of draws, by simulation): long stretches of surplus and shortfall, look for a threshold at work",
-			res.Runs.Runs, FewRunsFirstTwo, res.Runs.Expected, FewRunsFirstTwo, 100*res.Runs.FewRunsRate)
+		msg := fmt.Sprintf("%d runs over the 90 first-two bins (fewer than %d; %s expected; conforming populations of this size have fewer than %d runs in %.1f%% of draws, by simulation): long stretches of surplus and shortfall, look for a threshold at work",
+			res.Runs.Runs, FewRunsFirstTwo, numfmt.Stat(res.Runs.Expected), FewRunsFirstTwo, 100*res.Runs.FewRunsRate)
 		if s, ok := res.Runs.LargestSurplus(); ok {
 			msg += fmt.Sprintf(", starting with the surplus in bins %d to %d", s.From, s.To)
 		}
@@ -337,8 +339,8 @@ func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f F
 		res.flagSummation(sc, f)
 		d, fitted := FitDecades(sc.Min, sc.Mean)
 		msg := fmt.Sprintf(
-			"summation test: a bin is flagged when its share of the total is beyond chance for %d amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %d simulated populations, max-T adjusted p < %g) and holds at least %g times 1/90 (materiality, common practice, no source); chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
-			n, trimFloat(minAmount), res.SummationDecades, d, summationSimulations, f.Alpha, 1+SummationMinExcess)
+			"summation test: a bin is flagged when its share of the total is beyond chance for %s amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %s simulated populations, max-T adjusted p < %s) and holds at least %s times 1/90 (materiality, common practice, no source); chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
+			numfmt.Int(n), trimFloat(minAmount), res.SummationDecades, d, numfmt.Int(summationSimulations), trimFloat(f.Alpha), trimFloat(1+SummationMinExcess))
 		if !fitted {
 			msg += fmt.Sprintf("; the amounts' mean lies outside what %d to %d decades give, so the model is held at %.0f decades and the flag's rate is not known here", minDecades, maxDecades, d)
 		}

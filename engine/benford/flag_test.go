@@ -6,6 +6,8 @@ import (
 	"math/big"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/leadline/leadline/engine/numfmt"
 )
 
 // exactPMF returns the binomial probabilities C(n,j) q^j (1-q)^(n-j),
@@ -181,7 +183,7 @@ func TestRunsNoteQuotesCalibration(t *testing.T) {
 	if rr.FewRunsRate < 0.002 || rr.FewRunsRate > 0.03 {
 		t.Errorf("fewer than 35 runs in %.4f of conforming populations", rr.FewRunsRate)
 	}
-	want := []string{fmt.Sprintf("%.1f expected", rr.Expected), fmt.Sprintf("%.1f%% of draws", 100*rr.FewRunsRate)}
+	want := []string{numfmt.Stat(rr.Expected) + " expected", fmt.Sprintf("%.1f%% of draws", 100*rr.FewRunsRate)}
 	for _, w := range want {
 		if !hasNote(r, w) {
 			t.Errorf("no note quoting %q: %q", w, r.Notes)

@@ -20,11 +20,14 @@ var Engines = []string{"duckdb", "postgresql", "clickhouse"}
 
 // Segment is one segment column of the counting query: the name the
 // counts give it (the CSV column by_NAME) and the table's column it reads.
-// Month formats a date column as YYYY-MM, as the local --by month does.
+// Month, Quarter and Year format a date column as YYYY-MM, YYYY-Qn and
+// YYYY, as the local --by month, quarter and year do (at most one is set).
 type Segment struct {
-	Name   string `json:"name"`
-	Column string `json:"column"`
-	Month  bool   `json:"month,omitempty"`
+	Name    string `json:"name"`
+	Column  string `json:"column"`
+	Month   bool   `json:"month,omitempty"`
+	Quarter bool   `json:"quarter,omitempty"`
+	Year    bool   `json:"year,omitempty"`
 }
 
 // Spec says what to count and where: everything the query needs, and
@@ -95,6 +98,9 @@ func (s Spec) Check() error {
 		seen[strings.ToLower(b.Name)] = true
 		if err := checkName(b.Column, false); err != nil {
 			return fmt.Errorf("--by %s=%s: %w", b.Name, b.Column, err)
+		}
+		if (b.Month && b.Quarter) || (b.Month && b.Year) || (b.Quarter && b.Year) {
+			return fmt.Errorf("--by %s=%s: one period of a date: year, quarter or month", b.Name, b.Column)
 		}
 	}
 	if err := population.CheckSigns(s.Signs); err != nil {
@@ -190,13 +196,15 @@ func pow10(n int) *big.Int { return new(big.Int).Exp(big.NewInt(10), big.NewInt(
 // dialect is what differs between engines: quoting, integer division,
 // casts and text functions. The statement itself is in queries/.
 type dialect struct {
-	stmt  string
-	quote func(string) string
-	div   func(x, n string) string // integer division of a non-negative integer
-	int64 func(x string) string    // the value as a 64-bit integer (a no-op where types already agree)
-	units func(col string, scale int) string
-	text  func(col string) string // segment value as text, NULL for blank
-	month func(col string) string // YYYY-MM of a date
+	stmt    string
+	quote   func(string) string
+	div     func(x, n string) string // integer division of a non-negative integer
+	int64   func(x string) string    // the value as a 64-bit integer (a no-op where types already agree)
+	units   func(col string, scale int) string
+	text    func(col string) string // segment value as text, NULL for blank
+	month   func(col string) string // YYYY-MM of a date
+	quarter func(col string) string // YYYY-Qn of a date
+	year    func(col string) string // YYYY of a date
 }
 
 var dialects = map[string]*dialect{
@@ -212,6 +220,10 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("CASE WHEN nullif(trim(CAST(%[1]s AS VARCHAR)), '') IS NULL THEN NULL ELSE CAST(%[1]s AS VARCHAR) END", c)
 		},
 		month: func(c string) string { return fmt.Sprintf("strftime(CAST(%s AS DATE), '%%Y-%%m')", c) },
+		quarter: func(c string) string {
+			return fmt.Sprintf("strftime(CAST(%[1]s AS DATE), '%%Y') || '-Q' || CAST(quarter(CAST(%[1]s AS DATE)) AS VARCHAR)", c)
+		},
+		year: func(c string) string { return fmt.Sprintf("strftime(CAST(%s AS DATE), '%%Y')", c) },
 	},
 	"postgresql": {
 		stmt:  "countsql_postgresql_battery",
@@ -224,7 +236,9 @@ var dialects = map[string]*dialect{
 		text: func(c string) string {
 			return fmt.Sprintf("CASE WHEN btrim(CAST(%[1]s AS text)) = '' THEN NULL ELSE CAST(%[1]s AS text) END", c)
 		},
-		month: func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-MM')", c) },
+		month:   func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-MM')", c) },
+		quarter: func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-\"Q\"Q')", c) },
+		year:    func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY')", c) },
 	},
 	"clickhouse": {
 		stmt:  "countsql_clickhouse_battery",
@@ -241,6 +255,10 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("if(replaceAll(toString(%[1]s), ' ', '') = '', NULL, toString(%[1]s))", c)
 		},
 		month: func(c string) string { return fmt.Sprintf("substring(toString(toDate(%s)), 1, 7)", c) },
+		quarter: func(c string) string {
+			return fmt.Sprintf("concat(substring(toString(toDate(%[1]s)), 1, 4), '-Q', toString(toQuarter(toDate(%[1]s))))", c)
+		},
+		year: func(c string) string { return fmt.Sprintf("substring(toString(toDate(%s)), 1, 4)", c) },
 	},
 }
 
@@ -280,8 +298,13 @@ func Query(s Spec) (string, error) {
 	for _, b := range s.By {
 		col := d.quote(b.Column)
 		v := d.text(col)
-		if b.Month {
+		switch {
+		case b.Month:
 			v = d.month(col)
+		case b.Quarter:
+			v = d.quarter(col)
+		case b.Year:
+			v = d.year(col)
 		}
 		n := d.quote("by_" + b.Name)
 		sel = append(sel, v+" AS "+n)

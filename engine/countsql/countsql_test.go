@@ -202,6 +202,7 @@ func TestSpecChecks(t *testing.T) {
 		{func(s *Spec) { s.Min = "-1" }, "--min"},
 		{func(s *Spec) { s.Scale = 12 }, "--scale"},
 		{func(s *Spec) { s.By = []Segment{{Name: "e", Column: "e"}, {Name: "E", Column: "f"}} }, "twice"},
+		{func(s *Spec) { s.By = []Segment{{Name: "p", Column: "posted", Quarter: true, Year: true}} }, "one period"},
 	} {
 		s := base
 		c.edit(&s)

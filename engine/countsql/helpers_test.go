@@ -40,6 +40,10 @@ func testLedger() []row {
 		ent := []string{"NORTH", "", "WEST", "SOUTH"}[i%4]
 		out = append(out, row{ent, "2025-0" + string(rune('1'+i%9)) + "-15", c})
 	}
+	// Both sides of the year ends, for the year and quarter segments.
+	for i, d := range []string{"2024-12-31", "2024-12-31", "2025-01-01", "2025-12-31", "2026-01-01", "2026-01-01"} {
+		out = append(out, row{[]string{"NORTH", "WEST"}[i%2], d, int64(12345 + 1000*i)})
+	}
 	return out
 }
 
@@ -103,6 +107,9 @@ func variants() []variant {
 		{name: "entity", spec: Spec{Amount: "amount", Scale: 2, By: []Segment{{Name: "entity", Column: "entity"}}}, local: []string{"entity"}},
 		{name: "both_min0_units_month", spec: Spec{Amount: "amount", Scale: 2, Signs: "both", Min: "0", LastTwo: "units",
 			By: []Segment{{Name: "entity", Column: "entity"}, {Name: "month", Column: "posted", Month: true}}}, local: []string{"entity", "month"}},
+		{name: "entity_quarter_year", spec: Spec{Amount: "amount", Scale: 2, Signs: "both", Min: "0",
+			By: []Segment{{Name: "entity", Column: "entity"}, {Name: "quarter", Column: "posted", Quarter: true}, {Name: "year", Column: "posted", Year: true}}},
+			local: []string{"entity", "quarter", "year"}},
 		{name: "negative_where", spec: Spec{Amount: "amount", Scale: 2, Signs: "negative", Min: "0.5", Where: "posted >= '2025-03-01'",
 			By: []Segment{{Name: "entity", Column: "entity"}}}, local: []string{"entity"}},
 	}

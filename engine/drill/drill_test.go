@@ -290,6 +290,12 @@ func TestDrillAmountsRangesSegments(t *testing.T) {
 			func(r drilltest.Row) bool { return r.Cents >= 1000 && r.Account == "6400" }},
 		{"month", drill.Selection{Segments: []string{"month=2025-03"}},
 			func(r drilltest.Row) bool { return r.Cents >= 1000 && r.Posted.Month() == 3 }},
+		{"quarter", drill.Selection{Segments: []string{"quarter=2025-Q3"}},
+			func(r drilltest.Row) bool {
+				return r.Cents >= 1000 && r.Posted.Year() == 2025 && (r.Posted.Month()-1)/3 == 2
+			}},
+		{"year and quarter", drill.Selection{Segments: []string{"year=2025", "quarter=2025-Q1"}, Spec: population.Spec{Signs: "both", Min: "0"}},
+			func(r drilltest.Row) bool { return r.Posted.Year() == 2025 && r.Posted.Month() <= 3 }},
 		{"where", drill.Selection{Spec: population.Spec{Where: "account IN ('5010', '5020') AND posted >= DATE '2025-07-01'"}},
 			func(r drilltest.Row) bool {
 				return r.Cents >= 1000 && (r.Account == "5010" || r.Account == "5020") && r.Posted.Month() >= 7

@@ -9,6 +9,7 @@ import (
 
 	"github.com/duckdb/duckdb-go/v2"
 	"github.com/leadline/leadline/engine/output"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/sqlguard"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -198,7 +199,7 @@ func recordIDs(ctx context.Context, ws *workspace.Workspace, b *Built, order str
 
 // GroupOptions say how to group a selection.
 type GroupOptions struct {
-	Column string // a ledger column, file_name, or month (of posted)
+	Column string // a ledger column, file_name, or year, quarter or month (of posted)
 	Limit  int    // groups to return (default DefaultLimit)
 	Top    int    // repeated amounts listed per group (default DefaultTopAmounts)
 }
@@ -265,9 +266,10 @@ func groupExpr(ctx context.Context, ws *workspace.Workspace, col string) (expr, 
 	if err == nil {
 		return quoteIdent(name), name, nil
 	}
+	if expr, label, ok := segment.PeriodOfPosted(c); ok {
+		return expr, label, nil
+	}
 	switch strings.ToLower(c) {
-	case "month":
-		return "strftime(posted, '%Y-%m')", "month", nil
 	case "file_name", "file":
 		return "(SELECT f.name FROM files f WHERE f.file_id = ledger.file_id)", "file_name", nil
 	}

@@ -8,6 +8,7 @@ import (
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -23,7 +24,7 @@ type Selection struct {
 	LastTwoAll bool     `json:"last_two_all,omitempty"`
 	Amount     string   `json:"amount,omitempty"`   // exact amount; compared with |amount| under Signs (a leading minus selects negative amounts)
 	Range      string   `json:"range,omitempty"`    // FROM:TO, |amount| in [FROM, TO)
-	Segments   []string `json:"segments,omitempty"` // COLUMN=VALUE, exact text match; COLUMN= matches blanks; month=YYYY-MM uses posted
+	Segments   []string `json:"segments,omitempty"` // COLUMN=VALUE, exact text match; COLUMN= matches blanks; year=YYYY, quarter=YYYY-Qn, month=YYYY-MM use posted
 	// Extra predicates built by leadline itself, e.g. a duplicate group's key.
 	Extra []population.Predicate `json:"-"`
 	// Described says in words what Extra selects, for headings and JSON.
@@ -194,8 +195,10 @@ func rangePredicate(spec, x string, at population.AmountType) (population.Predic
 }
 
 // segmentPredicate reads COLUMN=VALUE. The value matches the column's text
-// exactly; an empty value matches blanks (NULL or ”). month=YYYY-MM selects
-// a month of the posted date unless the ledger has a column named month.
+// exactly; an empty value matches blanks (NULL or ”). year=YYYY,
+// quarter=YYYY-Qn and month=YYYY-MM select a period of the posted date
+// (an empty value: the records without one) unless the ledger has a
+// column of that name.
 func segmentPredicate(ctx context.Context, ws *workspace.Workspace, spec string) (population.Predicate, string, error) {
 	col, val, ok := strings.Cut(spec, "=")
 	col = strings.TrimSpace(col)
@@ -204,8 +207,14 @@ func segmentPredicate(ctx context.Context, ws *workspace.Workspace, spec string)
 	}
 	name, typ, err := ledgerColumn(ctx, ws, col)
 	if err != nil {
-		if strings.EqualFold(col, "month") {
-			return population.Predicate{SQL: "strftime(posted, '%Y-%m') = ?", Args: []any{val}}, "month " + val, nil
+		if expr, label, ok := segment.PeriodOfPosted(col); ok {
+			if val == "" {
+				return population.Predicate{SQL: "posted IS NULL"}, label + " blank", nil
+			}
+			if err := segment.CheckPeriod(col, val); err != nil {
+				return population.Predicate{}, "", fmt.Errorf("--segment %q: %w (the %s of the posted date)", spec, err, label)
+			}
+			return population.Predicate{SQL: expr + " = ?", Args: []any{val}}, label + " " + val, nil
 		}
 		return population.Predicate{}, "", fmt.Errorf("--segment %q: %w", spec, err)
 	}

@@ -241,6 +241,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, erro
 	if limit < 0 {
 		limit = 1 << 62
 	}
+	defer ws.Step("duplicates")()
 	for _, test := range o.Tests {
 		tr := TestResult{Test: test, Title: titles[test], Status: "ok", Needs: needs(test, o), Ranking: rankings[test], Groups: []Group{}}
 		var missing []string
@@ -255,6 +256,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, erro
 			res.Tests = append(res.Tests, tr)
 			continue
 		}
+		ws.Step("duplicates: " + test)
 		t0 := time.Now()
 		if err := runTest(ctx, ws, test, o, repl, base.Args, limit, &tr); err != nil {
 			return nil, fmt.Errorf("duplicates, test %s: %w", test, err)

@@ -193,6 +193,22 @@ func TestBadInput(t *testing.T) {
 	if _, err := Run(ctx, ws, Options{By: []string{"no_such_column"}}); err == nil || !strings.Contains(err.Error(), "no_such_column") {
 		t.Errorf("unknown column: %v", err)
 	}
+	// A period of the posted date segments too; this ledger has no dates,
+	// so every record is in the blank quarter, as with month.
+	for _, by := range []string{"quarter", "year", "month"} {
+		rep, err := Run(ctx, ws, Options{By: []string{by}})
+		if err != nil || rep.Segments != 1 || len(rep.By) != 1 || rep.By[0] != by {
+			t.Errorf("--by %s: %v, %+v", by, err, rep)
+			continue
+		}
+		blank := false
+		for _, r := range rep.Rows {
+			blank = blank || r.Label() == "(blank)"
+		}
+		if !blank {
+			t.Errorf("--by %s: no row of the blank segment", by)
+		}
+	}
 	if _, err := Run(ctx, ws, Options{Spec: population.Spec{Signs: "sideways"}}); err == nil || !strings.Contains(err.Error(), `signs "sideways"`) {
 		t.Errorf("bad signs: %v", err)
 	}

@@ -3,9 +3,11 @@ package limits
 import (
 	"context"
 	"fmt"
+	"strconv"
 	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/segment"
@@ -96,10 +98,15 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		rep.LimitSource = "round values"
 		rep.Limits = ScanLimits(sum.Min, sum.Max, o.Width)
 		if len(rep.Limits) == 0 {
-			return nil, fmt.Errorf("the tested amounts (%v to %v) are too narrow for any round limit with its band of ±%v%%: give --limits or a smaller --width", sum.Min, sum.Max, 100*o.Width)
+			return nil, fmt.Errorf("the tested amounts (%s to %s) are too narrow for any round limit with its band of ±%s%%: give --limits or a smaller --width", numfmt.MoneyFloat(sum.Min), numfmt.MoneyFloat(sum.Max), strconv.FormatFloat(100*o.Width, 'f', -1, 64))
 		}
 	}
 	edges := Edges(rep.Limits, o.Width)
+	step := "limits: counting the amounts around each limit"
+	if len(rep.By) > 0 {
+		step += " by " + strings.Join(rep.By, ", ")
+	}
+	defer ws.Step(step)()
 	groups, err := pop.Count(ctx, ws, segs, edges)
 	if err != nil {
 		return nil, err

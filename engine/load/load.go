@@ -19,6 +19,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
@@ -213,7 +214,9 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	// Examine every file before touching the workspace.
 	var sources []*Source
 	bySHA := map[string]string{}
+	defer ws.Step("loading")()
 	for _, p := range paths {
+		ws.Step("examining " + filepath.Base(p))
 		src, err := examine(ctx, ws, p, opts)
 		if err != nil {
 			return nil, err
@@ -240,6 +243,7 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	// transaction starts (see stageCSV); they are dropped when it ends.
 	defer unstage(ws, sources)
 	for i, src := range sources {
+		ws.Step("reading " + src.Name)
 		if src.sheet != nil {
 			if err := stageXLSX(ctx, ws, src, opts, i); err != nil {
 				return nil, err
@@ -252,6 +256,7 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 	}
 	trace("stage", started)
 	for _, src := range sources {
+		ws.Step("checking the amounts of " + src.Name)
 		if err := checkSeparators(ctx, ws, src, opts, scaleOf(amountType)); err != nil {
 			return nil, err
 		}
@@ -279,7 +284,7 @@ func loadFiles(ctx context.Context, ws *workspace.Workspace, args []string, opts
 			return nil, err
 		}
 	}
-	rep, err := loadAll(ctx, tx, sources, opts, amountType, hadLedger, started)
+	rep, err := loadAll(ctx, tx, sources, opts, amountType, hadLedger, started, ws.Step)
 	if err != nil {
 		return nil, err
 	}
@@ -346,7 +351,8 @@ func explainResources(err error) error {
 }
 
 // loadAll runs every file of a load inside tx.
-func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, amountType string, hadLedger bool, started time.Time) (*Report, error) {
+// step names each file's load for the progress display (workspace.Step).
+func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, amountType string, hadLedger bool, started time.Time, step func(string) func()) (*Report, error) {
 	if _, err := tx.ExecContext(ctx, queries.Render("create_ledger", map[string]string{"amount_type": amountType})); err != nil {
 		return nil, fmt.Errorf("creating the ledger table: %w", err)
 	}
@@ -362,6 +368,7 @@ func loadAll(ctx context.Context, tx *sql.Tx, sources []*Source, opts Options, a
 	}
 	rep := &Report{LoadID: loadID, AmountType: amountType}
 	for _, src := range sources {
+		step("loading " + src.Name)
 		fr, err := loadOne(ctx, tx, src, opts, amountType, loadID)
 		if err != nil {
 			return nil, err

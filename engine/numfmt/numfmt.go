@@ -1,6 +1,9 @@
-// Package numfmt owns how leadline groups the digits of numbers it shows
-// people: the terminal tables, the HTML report and the findings of a pack
-// run (the workbook's summary sheet) all write 1,234,567 through it.
+// Package numfmt owns how leadline writes the numbers it shows people:
+// the terminal, the HTML report and the findings and notes of a pack run
+// (the workbook's summary sheet) all write through it. Counts with
+// thousands separators (1,234,567), money with separators and two
+// decimals (1,234.50), statistics to four significant figures (Stat,
+// P: 0.04123, 4,294, 2.500e-07) and underflowed p-values as "< 1e-300".
 package numfmt
 
 import (

@@ -139,11 +139,12 @@ type styles struct {
 	kind                                   map[string]int
 }
 
-// PValueFormat shows a p-value to four places, in scientific notation
-// below 0.0001, and a p-value of 0 (one that underflowed the floating
-// point range: no p-value is exactly 0) as "< 1e-300", as the terminal
-// and the report do.
-const PValueFormat = `[=0]"< 1e-300";[<0.0001]0.00E+00;0.0000`
+// PValueFormat shows a p-value to four places, below 0.0001 to four
+// significant figures in scientific notation (as numfmt.P writes it; an
+// Excel format has no significant figures above that), and a p-value of 0
+// (one that underflowed the floating point range: no p-value is exactly
+// 0) as "< 1e-300", as the terminal and the report do.
+const PValueFormat = `[=0]"< 1e-300";[<0.0001]0.000E+00;0.0000`
 
 // numFmt is the number format of a column: p-values as PValueFormat,
 // proportions and percentages as percent (as the report shows them).

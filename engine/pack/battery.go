@@ -92,7 +92,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 		}
 		t := output.FromTabular(dt, "number_duplication", "Number duplication: the most frequent exact amounts", "battery",
 			map[string]output.Kind{"rank": output.Count, "amount": output.Money, "count": output.Count, "share": output.Percent})
-		t.Note = fmt.Sprintf("%d amounts tested, %d distinct", d.N, d.Distinct)
+		t.Note = fmt.Sprintf("%s amounts tested, %s distinct", numfmt.Int(d.N), numfmt.Int(d.Distinct))
 		r.add(t)
 	}
 	for _, name := range order {
@@ -120,7 +120,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 			map[string]output.Kind{"rank": output.Count, "n": output.Count, "mad": output.Number, "expected_mad": output.Number, "excess_mad": output.Number,
 				"chi2": output.Number, "df": output.Count, "p_value": output.Proportion, "flagged": output.Count, "outside_goodman": output.Count,
 				"top_flagged": output.Text, "runs": output.Count, "runs_p": output.Proportion, "segment": output.Text, "conformity": output.Text})
-		ot.Note = fmt.Sprintf("%d segments, %d with at least %d amounts ranked", sg.Count, sg.Ranked, sg.MinRows)
+		ot.Note = fmt.Sprintf("%s segments, %s with at least %s amounts ranked", numfmt.Int(int64(sg.Count)), numfmt.Int(int64(sg.Ranked)), numfmt.Int(int64(sg.MinRows)))
 		r.add(ot)
 	}
 	r.run.Results["battery"] = rep
@@ -136,10 +136,10 @@ func (r *runner) batteryStep(ctx context.Context) error {
 	var parts []string
 	for _, t := range rep.Tests {
 		if t.Test == benford.Summation {
-			parts = append(parts, fmt.Sprintf("summation %d bin(s) flagged", t.Flagged))
+			parts = append(parts, fmt.Sprintf("summation %s bin(s) flagged", numfmt.Int(int64(t.Flagged))))
 			continue
 		}
-		parts = append(parts, fmt.Sprintf("%s MAD %.4f (%s)", t.Test, t.MAD, t.Conformity))
+		parts = append(parts, fmt.Sprintf("%s MAD %s (%s)", t.Test, numfmt.Stat(t.MAD), t.Conformity))
 	}
 	r.finding("battery", "digit_tests", "Digit tests on %s amounts: %s.", numfmt.Int(rep.Tested), strings.Join(parts, "; "))
 	for _, t := range rep.Tests {
@@ -157,7 +157,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 	if d := rep.Duplication; d != nil && len(d.Top) > 0 {
 		var top []string
 		for _, x := range d.Top[:min(3, len(d.Top))] {
-			top = append(top, fmt.Sprintf("%s × %s", x.Amount, numfmt.Int(x.Count)))
+			top = append(top, fmt.Sprintf("%s × %s", numfmt.Money(x.Amount), numfmt.Int(x.Count)))
 		}
 		r.finding("battery", "number_duplication", "Number duplication: most frequent amounts %s.", strings.Join(top, ", "))
 	}
@@ -172,7 +172,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 			}
 			var top []string
 			for _, row := range rk.Rows[:min(3, len(rk.Rows))] {
-				top = append(top, fmt.Sprintf("%s (excess MAD %.4f, %s)", row.Segment, row.ExcessMAD, row.Conformity))
+				top = append(top, fmt.Sprintf("%s (excess MAD %s, %s)", row.Segment, numfmt.Stat(row.ExcessMAD), row.Conformity))
 			}
 			r.finding("battery", "segments_"+output.SafeName(strings.ReplaceAll(name, "+", "_")),
 				"Segments by %s, first-two digits test, most distorted: %s.", strings.ReplaceAll(name, "+", " and "), strings.Join(top, "; "))

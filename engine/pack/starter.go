@@ -160,7 +160,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("[battery]")
 	w("enabled = true")
 	w("tests = [\"first\", \"second\", \"first_two\", \"first_three\", \"last_two\", \"summation\", \"second_order\", \"duplication\"]")
-	w("segments = [%s]  # each on its own; \"entity+user_id\" for a combination; also \"month\" or any original column", strings.Join(segs, ", "))
+	w("segments = [%s]  # each on its own; \"entity+user_id\" for a combination; also \"year\", \"quarter\", \"month\" or any original column", strings.Join(segs, ", "))
 	w("min_segment_rows = 1000   # smaller segments are listed, not ranked")
 	w("duplication_top = 20      # number duplication: the most frequent exact amounts listed")
 	w("last_two = \"scale\"        # last-two digits as written (1234.56 -> 56); \"units\" for the whole-currency part")

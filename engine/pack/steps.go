@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"encoding/json"
 	"fmt"
+	"math"
 	"math/big"
 	"sort"
 	"strconv"
@@ -281,19 +282,19 @@ func (r *runner) limitsStep(ctx context.Context) error {
 	}
 	r.run.Results["limits"] = rep
 	if rep.Flagged == 0 {
-		r.finding("limits", "limits", "Limit clustering: none of the %d (segment, limit) pairs tested shows a surplus just below the limit (width %.0f%%, %s limits).",
-			rep.Tested, rep.Width*100, rep.LimitSource)
+		r.finding("limits", "limits", "Limit clustering: none of the %s (segment, limit) pairs tested shows a surplus just below the limit (width %.0f%%, %s limits).",
+			numfmt.Int(int64(rep.Tested)), rep.Width*100, rep.LimitSource)
 		return nil
 	}
 	var top []string
 	for _, row := range rep.Rows {
 		if row.Flagged && len(top) < 3 {
 			top = append(top, fmt.Sprintf("limit %s in %s: %s just below against %s just above",
-				r.amountDec(row.Limit).Text, segmentText(row.Segment), numfmt.Int(row.Below), numfmt.Int(row.Above)))
+				numfmt.Money(r.amountDec(row.Limit).Text), segmentText(row.Segment), numfmt.Int(row.Below), numfmt.Int(row.Above)))
 		}
 	}
-	r.finding("limits", "limits", "Limit clustering: %d of %d (segment, limit) pairs flagged (expected ratio below/above %.3f at width %.0f%%); strongest: %s.",
-		rep.Flagged, rep.Tested, rep.ExpectedRatio, rep.Width*100, strings.Join(top, "; "))
+	r.finding("limits", "limits", "Limit clustering: %s of %s (segment, limit) pairs flagged (expected ratio below/above %s at width %.0f%%); strongest: %s.",
+		numfmt.Int(int64(rep.Flagged)), numfmt.Int(int64(rep.Tested)), numfmt.Stat(rep.ExpectedRatio), rep.Width*100, strings.Join(top, "; "))
 	return nil
 }
 
@@ -327,12 +328,13 @@ func (r *runner) rangesStep(ctx context.Context) error {
 	}
 	r.run.Results["ranges"] = &cp
 	if len(rep.Stretches) == 0 {
-		r.finding("ranges", "ranges", "Amount ranges: no band of the %d scored stands out from its neighbours.", rep.Scored)
+		r.finding("ranges", "ranges", "Amount ranges: no band of the %s scored stands out from its neighbours.", numfmt.Int(int64(rep.Scored)))
 		return nil
 	}
 	s := rep.Stretches[0]
-	r.finding("ranges", "ranges_inflated", "Amount ranges: %d of %d bands flagged in %d inflated range(s); largest excess %s to %s: %s amounts against %.0f expected.",
-		rep.Flagged, rep.Scored, len(rep.Stretches), r.amountDec(s.From).Text, r.amountDec(s.To).Text, numfmt.Int(s.Count), s.Expected)
+	r.finding("ranges", "ranges_inflated", "Amount ranges: %s of %s bands flagged in %d inflated range(s); largest excess %s to %s: %s amounts against %s expected.",
+		numfmt.Int(int64(rep.Flagged)), numfmt.Int(int64(rep.Scored)), len(rep.Stretches), numfmt.Money(r.amountDec(s.From).Text), numfmt.Money(r.amountDec(s.To).Text),
+		numfmt.Int(s.Count), numfmt.Int(int64(math.Round(s.Expected))))
 	return nil
 }
 
@@ -426,7 +428,7 @@ func (r *runner) duplicatesStep(ctx context.Context) error {
 		ot.RowsTotal = tr.GroupsTotal
 		ot.Truncated = tr.GroupsTotal > int64(len(tr.Groups))
 		if ot.Truncated {
-			ot.Note = fmt.Sprintf("the top %d of %d groups (duplicates.top)", len(tr.Groups), tr.GroupsTotal)
+			ot.Note = fmt.Sprintf("the top %s of %s groups (duplicates.top)", numfmt.Int(int64(len(tr.Groups))), numfmt.Int(int64(tr.GroupsTotal)))
 		}
 		r.add(ot)
 		if tr.GroupsTotal > 0 {
@@ -477,7 +479,7 @@ func (r *runner) checkStep(ctx context.Context, c CheckPlan) error {
 			t.RowsTotal = n
 		}
 		t.Truncated = true
-		t.Note = fmt.Sprintf("the first %d of %d rows (max_rows)", len(t.Rows), t.RowsTotal)
+		t.Note = fmt.Sprintf("the first %s of %s rows (max_rows)", numfmt.Int(int64(len(t.Rows))), numfmt.Int(int64(t.RowsTotal)))
 	}
 	r.add(t)
 	res := map[string]any{"name": c.Name, "title": c.Title, "table": t.Name, "rows": t.RowsTotal, "truncated": t.Truncated}

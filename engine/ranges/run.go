@@ -61,6 +61,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	edges := Edges(bands)
+	defer ws.Step("ranges: counting the amounts per band")()
 	groups, err := pop.Count(ctx, ws, nil, edges)
 	if err != nil {
 		return nil, err

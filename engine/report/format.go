@@ -20,11 +20,12 @@ import (
 //	int     whole number with thousands separators: 1,234,567
 //	pct:N   a proportion as a percentage with N decimals: 4.52%
 //	pct:~   a proportion as a percentage, as few decimals as needed: 0.5%
-//	f:N     N decimals: 0.00123
-//	sf      four significant digits, plain or exponent: 12.35, 3.142e-05
-//	p       a p-value: four decimals, or an exponent below 0.001; a
-//	        p-value that underflowed to 0 as "< 1e-300", as the terminal
-//	        and the workbook write it
+//	f:N     N decimals: 0.00123 (expected counts, amounts in text)
+//	sf      a statistic: four significant figures, plain or exponent
+//	        (numfmt.Stat, as the terminal writes it): 12.35, 3.142e-05
+//	p       a p-value: four significant figures (numfmt.P); a p-value
+//	        that underflowed to 0 as "< 1e-300", as the terminal and the
+//	        workbook write it
 //	money   an amount with thousands separators and at least two decimals
 //	        (an exact decimal string keeps every decimal it has)
 //	id      an identifier (run, file, row, line): digits only, no separators
@@ -33,7 +34,7 @@ func formatValue(v any, kind string) string {
 	switch x := v.(type) {
 	case string:
 		if kind == "money" {
-			return typoMinus(numfmt.Group(moneyDecimals(x)))
+			return typoMinus(numfmt.Money(x))
 		}
 		return x
 	case int:
@@ -68,7 +69,7 @@ func formatFloat(x float64, kind string) string {
 	case "id":
 		s = strconv.FormatFloat(x, 'f', -1, 64)
 	case "money":
-		s = numfmt.Group(strconv.FormatFloat(x, 'f', 2, 64))
+		s = numfmt.MoneyFloat(x)
 	case "int":
 		s = numfmt.Group(strconv.FormatFloat(math.Round(x), 'f', 0, 64))
 	case "pct":
@@ -80,51 +81,15 @@ func formatFloat(x float64, kind string) string {
 	case "f":
 		s = numfmt.Group(strconv.FormatFloat(x, 'f', dec, 64))
 	case "p":
-		switch {
-		case x == 0:
-			s = PUnderflow
-		case math.Abs(x) < 0.001:
-			s = strconv.FormatFloat(x, 'e', 2, 64)
-		default:
-			s = strconv.FormatFloat(x, 'f', 4, 64)
-		}
+		s = numfmt.P(x)
 	default: // sf
-		a := math.Abs(x)
-		switch {
-		case x == 0:
-			s = "0"
-		case a >= 1e-3 && a < 1e9:
-			d := 3 - int(math.Floor(math.Log10(a)))
-			if d < 0 {
-				d = 0
-			}
-			s = numfmt.Group(strconv.FormatFloat(x, 'f', d, 64))
-		default:
-			s = strconv.FormatFloat(x, 'e', 3, 64)
-		}
+		s = numfmt.Stat(x)
 	}
 	return typoMinus(s)
 }
 
-// PUnderflow is how a p-value that underflowed to 0 is written: no
-// p-value is exactly 0, it is below the smallest the arithmetic holds.
-const PUnderflow = "< 1e-300"
-
-// moneyDecimals pads an exact decimal string to two decimals ("12" ->
-// "12.00", "12.5" -> "12.50"); more decimals are kept as they are.
-func moneyDecimals(s string) string {
-	if !plainDecimal.MatchString(s) {
-		return s
-	}
-	i := strings.IndexByte(s, '.')
-	switch {
-	case i < 0:
-		return s + ".00"
-	case len(s)-i-1 < 2:
-		return s + strings.Repeat("0", 2-(len(s)-i-1))
-	}
-	return s
-}
+// PUnderflow is how a p-value that underflowed to 0 is written.
+const PUnderflow = numfmt.PUnderflow
 
 var plainDecimal = regexp.MustCompile(`^-?[0-9]+(\.[0-9]*)?$`)
 

@@ -295,7 +295,7 @@ func (m *Model) glance() []glance {
 				rr := t.Ref.At("runs")
 				g = append(g, glance{What: "Runs test, " + t.Result.Test.Name(), Anchor: "runs-" + string(t.Result.Test), Section: 4,
 					Flagged: u.P < 0.05,
-					Result:  template.HTML(fmt.Sprintf("%s runs, %s expected, p %s", rr.F("runs", u.Runs, "int"), rr.F("expected", u.Expected, "f:2"), rr.F("p", u.P, "p"))),
+					Result:  template.HTML(fmt.Sprintf("%s runs, %s expected, p %s", rr.F("runs", u.Runs, "int"), rr.F("expected", u.Expected, "sf"), rr.F("p", u.P, "p"))),
 				})
 			}
 		}
@@ -440,15 +440,9 @@ func writeParams(b *strings.Builder, n *node) {
 	}
 }
 
-func madFormat(t benford.Test) string {
-	switch t {
-	case benford.FirstThree:
-		return "f:6"
-	case benford.FirstTwo, benford.Summation, benford.SecondOrder:
-		return "f:5"
-	}
-	return "f:4"
-}
+// madFormat: a MAD is a statistic like the others, to four significant
+// figures whatever the test.
+func madFormat(benford.Test) string { return "sf" }
 
 func pctFormat(t benford.Test) string {
 	if t == benford.FirstThree {

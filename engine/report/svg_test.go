@@ -243,8 +243,9 @@ func TestFormats(t *testing.T) {
 		{-0.00812, "pct:3", "−0.812%"},
 		{0.0012345, "f:5", "0.00123"},
 		{1905.0, "f:2", "1,905.00"},
-		{3.2e-5, "p", "3.20e-05"},
-		{0.0217, "p", "0.0217"},
+		{3.2e-5, "p", "3.200e-05"}, // four significant figures, as the terminal writes it (numfmt.P)
+		{0.0217, "p", "0.02170"},
+		{0.0001234, "sf", "0.0001234"},
 		{0.0, "p", "< 1e-300"}, // underflowed, as the terminal and the workbook write it
 		{"-1234567.89", "money", "−1,234,567.89"},
 		{"12.50", "money", "12.50"},

@@ -1,5 +1,5 @@
-// Package segment reads --by columns: which ledger column (or the month of
-// the posted date) splits the records into segments, how a segment's value
+// Package segment reads --by columns: which ledger column (or the year,
+// quarter or month of the posted date) splits the records into segments, how a segment's value
 // is written in SQL, and the key that names one segment. The battery, the
 // limit probe and the range bands all segment this way, and the drill-down's
 // --segment COLUMN=VALUE reads values the same way, so a segment found by
@@ -22,9 +22,10 @@ import (
 )
 
 // Segment is one --by column: a column of the ledger (entity, account,
-// counterparty, user_id, source, or any original column) or month, the year
-// and month of the posted date (YYYY-MM), unless the ledger has a column of
-// its own named month.
+// counterparty, user_id, source, or any original column) or a period of
+// the posted date: year (YYYY), quarter (YYYY-Qn) or month (YYYY-MM),
+// unless the ledger has a column of its own of that name. A record
+// without a posted date is in the blank segment of a period.
 //
 // A segment's value is the column's text; blank values (NULL, empty or
 // white space only) form one segment, shown as "(blank)".
@@ -77,12 +78,12 @@ func Resolve(ctx context.Context, ws *workspace.Workspace, by []string) ([]Segme
 				col, typ = c.Name, c.Type
 			}
 		}
-		if col == "" && strings.EqualFold(name, "month") {
+		if d, ok := datePart(name); ok && col == "" {
 			out = append(out, Segment{
-				Name:   "month",
-				raw:    "date_trunc('month', posted)",
-				normal: "strftime(%s, '%%Y-%%m')",
-				row:    "strftime(posted, '%Y-%m')",
+				Name:   d.name,
+				raw:    fmt.Sprintf("date_trunc('%s', posted)", d.name),
+				normal: d.format,
+				row:    fmt.Sprintf(d.format, "posted"),
 			})
 			continue
 		}
@@ -90,7 +91,7 @@ func Resolve(ctx context.Context, ws *workspace.Workspace, by []string) ([]Segme
 			if err == nil {
 				err = fmt.Errorf("no column %q in the ledger", name)
 			}
-			return nil, &field.Error{Field: "by", Value: name, Reason: "{0} (segments: entity, account, counterparty, user_id, source, month, or any original column)", Args: []any{err}}
+			return nil, &field.Error{Field: "by", Value: name, Reason: "{0} (segments: entity, account, counterparty, user_id, source, year, quarter, month, or any original column)", Args: []any{err}}
 		}
 		q := queries.QuoteIdent(col)
 		s := Segment{Name: col, raw: q}

@@ -51,3 +51,28 @@ func TestKey(t *testing.T) {
 		t.Errorf("SQL forms %q %q %q", s.Raw(), s.Normal("ll_s1"), s.Row())
 	}
 }
+
+// TestPeriods: the labels of the posted date's periods are checked, and
+// each period's SQL is the label format applied to posted.
+func TestPeriods(t *testing.T) {
+	for _, c := range []struct {
+		name, value string
+		ok          bool
+	}{
+		{"year", "2025", true}, {"year", "25", false},
+		{"quarter", "2025-Q1", true}, {"Quarter", "2025-Q4", true}, {"quarter", "2025-Q5", false}, {"quarter", "2025Q1", false},
+		{"month", "2025-12", true}, {"month", "2025-13", false}, {"month", "2025-1", false},
+		{"entity", "anything", true}, // not a period: not checked here
+	} {
+		if err := CheckPeriod(c.name, c.value); (err == nil) != c.ok {
+			t.Errorf("CheckPeriod(%s, %s): %v", c.name, c.value, err)
+		}
+	}
+	expr, label, ok := PeriodOfPosted("QUARTER")
+	if !ok || label != "quarter" || expr != "strftime(posted, '%Y') || '-Q' || CAST(quarter(posted) AS VARCHAR)" {
+		t.Errorf("PeriodOfPosted(QUARTER) = %q, %q, %v", expr, label, ok)
+	}
+	if _, _, ok := PeriodOfPosted("week"); ok {
+		t.Error("week is not a period of leadline")
+	}
+}

@@ -52,6 +52,7 @@ type Workspace struct {
 	hasHandle bool
 	closed    atomic.Bool
 	onClose   []func()
+	step      atomic.Pointer[string] // what the workspace is doing, for the progress display (step.go)
 }
 
 // OnClose registers a function to run when the workspace closes (before
