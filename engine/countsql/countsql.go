@@ -11,6 +11,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/queries"
 )
 
@@ -44,6 +45,19 @@ type Spec struct {
 	// only of those at or above the local scan's last-two minimum
 	// (scan --last-two-all).
 	LastTwoAll bool `json:"last_two_all"`
+
+	// Test is what the query counts: "" for the digit battery, "limits"
+	// for the limit probe's bands, "ranges" for the range bands.
+	Test string `json:"test,omitempty"`
+	// Limits (limits: nil for the round values within the amounts) and
+	// Width (limits: the band's fraction of the limit).
+	Limits []float64 `json:"limits,omitempty"`
+	Width  float64   `json:"width,omitempty"`
+	// Layout is the range bands' layout (ranges).
+	Layout *ranges.Layout `json:"layout,omitempty"`
+	// Grid is where the band query cuts the amounts, in units (filled by
+	// Query from the test's options).
+	Grid *Grid `json:"grid,omitempty"`
 }
 
 // header starts the first line of every emitted query.
@@ -66,7 +80,7 @@ func (s Spec) WithDefaults() Spec {
 	if s.Engine == "postgres" {
 		s.Engine = "postgresql"
 	}
-	return s
+	return s.bandDefaults()
 }
 
 // Check validates the spec (after WithDefaults).
@@ -105,6 +119,9 @@ func (s Spec) Check() error {
 	}
 	if s.LastTwo != "scale" && s.LastTwo != "units" {
 		return fmt.Errorf("--last-two %q: give scale or units", s.LastTwo)
+	}
+	if err := s.checkTest(); err != nil {
+		return err
 	}
 	return checkWhere(s.Where)
 }
@@ -197,7 +214,11 @@ type dialect struct {
 	units func(col string, scale int) string
 	text  func(col string) string // segment value as text, NULL for blank
 	month func(col string) string // YYYY-MM of a date
+	lit   func(v string) string   // a string literal
 }
+
+// sqlString is a standard SQL string literal (quotes doubled).
+func sqlString(v string) string { return "'" + strings.ReplaceAll(v, "'", "''") + "'" }
 
 var dialects = map[string]*dialect{
 	"duckdb": {
@@ -212,6 +233,7 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("CASE WHEN nullif(trim(CAST(%[1]s AS VARCHAR)), '') IS NULL THEN NULL ELSE CAST(%[1]s AS VARCHAR) END", c)
 		},
 		month: func(c string) string { return fmt.Sprintf("strftime(CAST(%s AS DATE), '%%Y-%%m')", c) },
+		lit:   sqlString,
 	},
 	"postgresql": {
 		stmt:  "countsql_postgresql_battery",
@@ -225,6 +247,7 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("CASE WHEN btrim(CAST(%[1]s AS text)) = '' THEN NULL ELSE CAST(%[1]s AS text) END", c)
 		},
 		month: func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-MM')", c) },
+		lit:   sqlString, // with standard_conforming_strings on, PostgreSQL's default since 9.1
 	},
 	"clickhouse": {
 		stmt:  "countsql_clickhouse_battery",
@@ -241,6 +264,10 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("if(replaceAll(toString(%[1]s), ' ', '') = '', NULL, toString(%[1]s))", c)
 		},
 		month: func(c string) string { return fmt.Sprintf("substring(toString(toDate(%s)), 1, 7)", c) },
+		// ClickHouse reads backslash escapes inside string literals.
+		lit: func(v string) string {
+			return "'" + strings.NewReplacer(`\`, `\\`, "'", `\'`).Replace(v) + "'"
+		},
 	},
 }
 
@@ -274,8 +301,42 @@ func Query(s Spec) (string, error) {
 	if err := s.Check(); err != nil {
 		return "", err
 	}
+	if s.Test != "" {
+		return bandQuery(s)
+	}
 	d := dialects[s.Engine]
 	minU, _ := s.MinUnits()
+	f := s.frame(d)
+	other := map[string]string{"positive": "u < 0", "negative": "u > 0", "both": "1 = 0"}[s.Signs]
+	last2 := "a % 100"
+	if s.LastTwo == "units" && s.Scale > 0 {
+		last2 = "(" + d.div("a", pow10(s.Scale).String()) + ") % 100"
+	}
+	q := queries.Render(d.stmt, map[string]string{
+		"by_names": f.names, "by_select": f.sel, "table": f.table,
+		"filter": f.filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
+		"min_units": fmt.Sprint(minU), "first3": d.first3("a"), "last2": d.int64(last2),
+		"last2_min": s.lastTwoMinUnits().String(),
+	})
+	return withSpec(s, q)
+}
+
+// withSpec puts the spec, as JSON, on the query's first line.
+func withSpec(s Spec, q string) (string, error) {
+	spec, err := json.Marshal(s)
+	if err != nil {
+		return "", err
+	}
+	return header + string(spec) + "\n" + q + "\n", nil
+}
+
+// frame is what every query of a spec starts from: the segment columns
+// (their names, and their values as selected), the table and the filter.
+type frame struct {
+	names, sel, table, filter string
+}
+
+func (s Spec) frame(d *dialect) frame {
 	var sel, names []string
 	for _, b := range s.By {
 		col := d.quote(b.Column)
@@ -301,22 +362,7 @@ func Query(s Spec) (string, error) {
 	if strings.TrimSpace(s.Where) != "" {
 		filter = "(" + strings.TrimSpace(s.Where) + ")"
 	}
-	other := map[string]string{"positive": "u < 0", "negative": "u > 0", "both": "1 = 0"}[s.Signs]
-	last2 := "a % 100"
-	if s.LastTwo == "units" && s.Scale > 0 {
-		last2 = "(" + d.div("a", pow10(s.Scale).String()) + ") % 100"
-	}
-	q := queries.Render(d.stmt, map[string]string{
-		"by_names": list(names), "by_select": list(sel), "table": strings.Join(table, "."),
-		"filter": filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
-		"min_units": fmt.Sprint(minU), "first3": d.first3("a"), "last2": d.int64(last2),
-		"last2_min": s.lastTwoMinUnits().String(),
-	})
-	spec, err := json.Marshal(s)
-	if err != nil {
-		return "", err
-	}
-	return header + string(spec) + "\n" + q + "\n", nil
+	return frame{names: list(names), sel: list(sel), table: strings.Join(table, "."), filter: filter}
 }
 
 // lastTwoMinUnits is the smallest |units| counted under kind l: the local
