@@ -106,7 +106,7 @@ func (c *countSQLOptions) build() (countsql.Spec, error) {
 func init() {
 	register(&command{
 		name:    "count-sql",
-		summary: "print the digit battery's counting query for another engine (DuckDB, PostgreSQL, ClickHouse)",
+		summary: "print the counting query of the digit battery, the limit probe or the range bands for another engine (DuckDB, PostgreSQL, ClickHouse)",
 		usage: `Usage: leadline count-sql --engine ENGINE --table TABLE --map amount=COLUMN [options]
 
 Prints the digit battery's additive counting query in the SQL of the engine
@@ -129,7 +129,7 @@ ClickHouse: clickhouse client --format CSVWithNames --query "$(cat gl.sql)".
 DuckDB: COPY (query) TO 'counts.csv' (HEADER).
 
 With --test limits or --test ranges it prints the counting query of the
-limit probe's or the range bands' bands instead: per segment, the tested
+limit probe's or the range table's bands instead: per segment, the tested
 amounts between every band edge the local command could use (the limits
 given or every round value; the logarithmic grid, or the fixed-width
 grid from --from), with the smallest and largest amount, and the rows left
