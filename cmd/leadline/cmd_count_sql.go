@@ -210,9 +210,14 @@ func (c *countsFlags) check(fs *pflag.FlagSet, fixed ...string) error {
 	if len(c.files) == 0 || c.query == "" {
 		return fmt.Errorf("--counts and --count-query go together: the count files and the query count-sql printed for them")
 	}
-	for _, name := range append([]string{"where", "signs", "min", "last-two", "last-two-all", "currency"}, fixed...) {
+	for _, name := range []string{"where", "signs", "min", "last-two", "last-two-all", "currency"} {
 		if fs.Lookup(name) != nil && fs.Changed(name) {
-			return fmt.Errorf("--%s: with --counts the population and what was counted are the query's (its first line); print a new query with count-sql --%s", name, name)
+			return fmt.Errorf("--%s: with --counts the population is the one the query counted (its first line); print a new query with count-sql --%s", name, name)
+		}
+	}
+	for _, name := range fixed {
+		if fs.Changed(name) {
+			return fmt.Errorf("--%s: with --counts the bands are the ones the query counted (its first line); print a new query with count-sql --%s", name, name)
 		}
 	}
 	return nil
