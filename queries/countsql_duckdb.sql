@@ -51,3 +51,44 @@ ORDER BY {{by_names}}kind, bin;
 -- A Parquet count file, every column as text, in its own order (leadline
 -- checks the columns). Parameter: the file's path.
 SELECT CAST(COLUMNS(*) AS VARCHAR) FROM read_parquet(?);
+
+-- name: countsql_duckdb_bands
+-- The limit probe's or the range bands' additive counts (leadline
+-- count-sql --test limits|ranges), read back by `leadline limits --counts`
+-- and `leadline ranges --counts`. Every row gets one code: kind 'b', bin
+-- {{band}}, the number of the band thresholds (in units, from the spec on
+-- the query's first line) at or below |units|, for the rows the local
+-- population tests ({{tested}}: the sign kept, |units| at or above the
+-- minimum); kind 'x' with the reason a row was left out: -1 zero, -2 other
+-- sign, -3 below the minimum, -4 NULL amount, -5 dropped by the filter.
+-- lo and hi are the smallest and largest |units| of the rows counted
+-- (the range of the tested amounts). Integer arithmetic only.
+SELECT {{by_names}}kind, bin, count(*) AS n, min(a) AS lo, max(a) AS hi
+FROM (
+    SELECT {{by_names}}CASE WHEN code >= 0 THEN 'b' ELSE 'x' END AS kind, code AS bin, a
+    FROM (
+        SELECT {{by_names}}a,
+               CASE WHEN kept = 0 THEN -5
+                    WHEN u IS NULL THEN -4
+                    WHEN {{tested}} THEN {{band}}
+                    WHEN u = 0 THEN -1
+                    WHEN {{other_sign}} THEN -2
+                    ELSE -3 END AS code
+        FROM (
+            SELECT {{by_names}}kept, u, abs(u) AS a
+            FROM (
+                SELECT {{by_select}}CASE WHEN {{filter}} THEN 1 ELSE 0 END AS kept,
+                       {{units}} AS u
+                FROM {{table}}
+            ) AS r0
+        ) AS r1
+    ) AS r2
+) AS r3
+GROUP BY {{by_names}}kind, bin
+ORDER BY {{by_names}}kind, bin;
+
+-- name: countsql_duckdb_records
+-- The records behind one band (the drill-down on counts made elsewhere):
+-- {{where}} holds the tested rule, the band's bounds in units and the
+-- segment's values, on ll_units ({{units}}). One line, to print.
+SELECT * FROM (SELECT *, {{units}} AS ll_units FROM {{table}} WHERE {{filter}}) AS r WHERE {{where}} ORDER BY abs(ll_units), ll_units;

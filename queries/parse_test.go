@@ -75,6 +75,7 @@ func fragments(dir string, segmented bool) map[string]string {
 		"other_sign":     "u < 0",
 		"min_units":      "1000",
 		"last2_min":      "10000",
+		"band":           "CASE WHEN a < 100000 THEN 0 ELSE 1 END",
 		"stage":          `"ll_stage"`,
 		"temp_directory": queries.QuoteString(dir),
 		"tested":         "ll_amount > 0",

@@ -12,7 +12,7 @@ func TestOverview(t *testing.T) {
 	if code := run(context.Background(), nil, &env{stdout: &out, stderr: &errs}); code != 0 {
 		t.Fatalf("exit %d: %s", code, errs.String())
 	}
-	for _, name := range []string{"bench ", "bench-battery ", "bench-dups ", "bench-step "} {
+	for _, name := range []string{"bench ", "bench-battery ", "bench-dups ", "bench-step ", "bench-year "} {
 		if !strings.Contains(out.String(), "  "+name) {
 			t.Errorf("overview lacks %q:\n%s", name, out.String())
 		}
@@ -28,6 +28,8 @@ func TestBadFlags(t *testing.T) {
 		{[]string{"bench-battery", "--rows", "100"}, 1, "give --rows 10000 or more"},
 		{[]string{"bench-dups", "--format", "xml"}, 1, `--format "xml"`},
 		{[]string{"bench", "--bogus"}, 2, "unknown flag: --bogus"},
+		{[]string{"bench-year", "--rows-per-file", "0"}, 1, "--rows-per-file"},
+		{[]string{"bench-year", "extra"}, 1, `unexpected argument "extra"`},
 		{[]string{"scan"}, 2, `unknown command "scan"`},
 	} {
 		var out, errs bytes.Buffer

@@ -3,13 +3,16 @@ package main
 import (
 	"context"
 	"fmt"
+	"io"
 	"os"
 	"strings"
 	"time"
 
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/countsql"
+	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/spf13/pflag"
 )
@@ -25,7 +28,9 @@ type countSQLOptions struct {
 func countSQLFlags(fs *pflag.FlagSet) func(args []string) (countSQLOptions, error) {
 	var o countSQLOptions
 	var mapping map[string]string
-	var by []string
+	var by, lims []string
+	var width, from, to float64
+	var perDecade int
 	fs.StringVar(&o.spec.Engine, "engine", "", "engine that runs the query: duckdb, postgresql or clickhouse")
 	fs.StringVar(&o.spec.Table, "table", "", "table (or view) holding the records; schema.table for a schema")
 	fs.StringToStringVar(&mapping, "map", nil, "amount=COLUMN: the table's amount column")
@@ -37,6 +42,12 @@ func countSQLFlags(fs *pflag.FlagSet) func(args []string) (countSQLOptions, erro
 	fs.StringVar(&o.spec.LastTwo, "last-two", "scale", "last two digits at the amount's scale (scale) or of its whole-currency part (units)")
 	fs.BoolVar(&o.spec.LastTwoAll, "last-two-all", false, "count the last two digits of every tested amount (default: only where they are the fourth significant digit or later, e.g. 100.00 and more at scale 2, as scan does)")
 	fs.StringVarP(&o.out, "output", "o", "", "write the query to this file (default: standard output)")
+	fs.StringVar(&o.spec.Test, "test", "battery", "what to count: battery (scan --counts), limits (limits --counts) or ranges (ranges --counts)")
+	fs.StringSliceVar(&lims, "limits", nil, "--test limits: limits to probe, e.g. 1000,5000 (default: the round values, chosen from the amounts when the counts come back)")
+	fs.Float64Var(&width, "width", 0, "--test limits: band width as a fraction of the limit (default 0.10); --test ranges: fixed band width in currency units (default: logarithmic bands)")
+	fs.IntVar(&perDecade, "per-decade", 0, "--test ranges: logarithmic bands to a decade (default 10)")
+	fs.Float64Var(&from, "from", 0, "--test ranges: start of the bands (as leadline ranges)")
+	fs.Float64Var(&to, "to", 0, "--test ranges: end of the bands (as leadline ranges)")
 	return func(args []string) (countSQLOptions, error) {
 		if len(args) > 0 {
 			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
@@ -64,6 +75,37 @@ func countSQLFlags(fs *pflag.FlagSet) func(args []string) (countSQLOptions, erro
 				Quarter: ok && strings.EqualFold(name, "quarter"),
 				Year:    ok && strings.EqualFold(name, "year")})
 		}
+		var bandFlags []string
+		for _, f := range []string{"limits", "width", "per-decade", "from", "to"} {
+			if fs.Changed(f) {
+				bandFlags = append(bandFlags, f)
+			}
+		}
+		switch strings.ToLower(strings.TrimSpace(o.spec.Test)) {
+		case countsql.TestLimits:
+			for _, f := range bandFlags {
+				if f == "per-decade" || f == "from" || f == "to" {
+					return o, fmt.Errorf("--%s lays out range bands: give it with --test ranges", f)
+				}
+			}
+			if len(lims) > 0 {
+				l, err := limits.ParseLimits(lims)
+				if err != nil {
+					return o, err
+				}
+				o.spec.Limits = l
+			}
+			o.spec.Width = width
+		case countsql.TestRanges:
+			if len(lims) > 0 {
+				return o, fmt.Errorf("--limits: limits are probed with --test limits")
+			}
+			o.spec.Layout = &ranges.Layout{Width: width, PerDecade: perDecade, From: from, To: to}
+		default:
+			if len(bandFlags) > 0 {
+				return o, fmt.Errorf("--%s counts bands: give --test limits or --test ranges", bandFlags[0])
+			}
+		}
 		return o, nil
 	}
 }
@@ -84,7 +126,7 @@ func runCountSQL(ctx context.Context, e *env, o countSQLOptions) error {
 func init() {
 	register(&command{
 		name:    "count-sql",
-		summary: "print the digit battery's counting query for another engine (DuckDB, PostgreSQL, ClickHouse)",
+		summary: "print the counting query of the digit battery, the limit probe or the range bands for another engine (DuckDB, PostgreSQL, ClickHouse)",
 		usage: `Usage: leadline count-sql --engine ENGINE --table TABLE --map amount=COLUMN [options]
 
 Prints the digit battery's additive counting query in the SQL of the engine
@@ -106,6 +148,18 @@ partition, shard or month if you like, and bring the files back:
 ClickHouse: clickhouse client --format CSVWithNames --query "$(cat gl.sql)".
 DuckDB: COPY (query) TO 'counts.csv' (HEADER).
 
+With --test limits or --test ranges it prints the counting query of the
+limit probe's or the range table's bands instead: per segment, the tested
+amounts between every band edge the local command could use (the limits
+given or every round value; the logarithmic grid, or the fixed-width
+grid from --from), with the smallest and largest amount, and the rows left
+out by reason; bring the files back to leadline limits --counts or
+leadline ranges --counts:
+
+  leadline count-sql --test limits --engine postgresql --table gl --map amount=amt --by entity -o lim.sql
+  psql -X --csv -f lim.sql -o lim-counts.csv
+  leadline limits --counts lim-counts.csv --count-query lim.sql --by entity
+
 The amount column must be an exact decimal (or integer) type with at most
 --scale decimal places. --where is the engine's own SQL and is printed as
 given (one predicate, no ';' or comments). The query's first line records
@@ -115,7 +169,9 @@ SHA-256 and each file's with the run.
 Examples:
   leadline count-sql --engine clickhouse --table ledger_all --map amount=amount --by entity
   leadline count-sql --engine postgresql --table gl --map amount=amt --scale 2 --by entity --signs positive --min 10
-  leadline count-sql --engine duckdb --table ledger --map amount=amount --by month=posted`,
+  leadline count-sql --engine duckdb --table ledger --map amount=amount --by month=posted
+  leadline count-sql --test limits --engine clickhouse --table ledger_all --map amount=amount --limits 1000,5000
+  leadline count-sql --test ranges --engine postgresql --table gl --map amount=amt --width 500 --to 20000`,
 		flags: thin(countSQLFlags, runCountSQL),
 	})
 }
@@ -141,17 +197,35 @@ type countsReport struct {
 }
 
 // check refuses --counts without --count-query (or the reverse) and the
-// population flags beside them: the population is the query's.
-func (c *countsFlags) check(fs *pflag.FlagSet) error {
+// population flags beside them: the population is the query's. fixed
+// names the command's other flags the query fixes (limits: --limits and
+// --width; ranges: the layout).
+func (c *countsFlags) check(fs *pflag.FlagSet, fixed ...string) error {
 	if len(c.files) == 0 || c.query == "" {
 		return fmt.Errorf("--counts and --count-query go together: the count files and the query count-sql printed for them")
 	}
-	for _, name := range []string{"where", "signs", "min", "last-two", "last-two-all"} {
-		if fs.Changed(name) {
+	for _, name := range []string{"where", "signs", "min", "last-two", "last-two-all", "currency"} {
+		if fs.Lookup(name) != nil && fs.Changed(name) {
 			return fmt.Errorf("--%s: with --counts the population is the one the query counted (its first line); print a new query with count-sql --%s", name, name)
 		}
 	}
+	for _, name := range fixed {
+		if fs.Changed(name) {
+			return fmt.Errorf("--%s: with --counts the bands are the ones the query counted (its first line); print a new query with count-sql --%s", name, name)
+		}
+	}
 	return nil
+}
+
+// printCountsSource says where a run's counts came from.
+func printCountsSource(w io.Writer, src *countsql.Source) {
+	fmt.Fprintf(w, "Counts from %s (table %s, query %s, SHA-256 %s), %d file(s):\n", src.Engine, src.Table, src.Query, src.QuerySHA256, len(src.Files))
+	for _, f := range src.Files {
+		fmt.Fprintf(w, "  %s  %s  %d rows\n", f.SHA256, f.Path, f.Rows)
+	}
+	if src.NoAmount+src.Filtered > 0 {
+		fmt.Fprintf(w, "  not in the counts below: %d rows without an amount, %d dropped by the query's filter\n", src.NoAmount, src.Filtered)
+	}
 }
 
 // scanCounts is scan --counts: the battery's statistics on merged count
@@ -176,10 +250,7 @@ func scanCounts(ctx context.Context, e *env, o scanOptions) error {
 		return writeJSON(e.stdout, doc)
 	}
 	if o.format == "text" {
-		fmt.Fprintf(e.stdout, "Counts from %s (table %s, query %s, SHA-256 %s), %d file(s):\n", src.Engine, src.Table, src.Query, src.QuerySHA256, len(src.Files))
-		for _, f := range src.Files {
-			fmt.Fprintf(e.stdout, "  %s  %s  %d rows\n", f.SHA256, f.Path, f.Rows)
-		}
+		printCountsSource(e.stdout, src)
 	}
 	return printScan(e.stdout, o.format, rep, o.print)
 }

@@ -48,6 +48,11 @@ below 5,000 holds the amounts from -4,999.99 to -4,500.00.
 A flag is a signal for follow-up, never proof of fraud. Each row carries
 the band below its limit and the drill command that lists its records.
 
+With --counts FILE... --count-query QUERY the probe runs on band counts
+made by another engine (leadline count-sql --test limits): the files are
+added up exactly, the limits, width and population are the query's, and
+each row's drill is that engine's query listing the records.
+
 Examples:
   leadline limits                                   # round limits, whole ledger
   leadline limits --limits 1000,5000,10000 --by user_id
@@ -63,6 +68,7 @@ type limitsOptions struct {
 	format string
 	limits limits.Options
 	top    int
+	counts countsFlags // --counts, --count-query: the probe on counts made elsewhere
 }
 
 // limitsFlags registers limits' flags; the function it returns checks them.
@@ -80,12 +86,18 @@ func limitsFlags(fs *pflag.FlagSet) func(args []string) (limitsOptions, error) {
 	pop.add(fs)
 	pop.addCurrency(fs)
 	f.add(fs)
+	o.counts.add(fs)
 	return func(args []string) (limitsOptions, error) {
 		if err := f.check(); err != nil {
 			return o, err
 		}
 		if len(args) > 0 {
 			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		if o.counts.given() {
+			if err := o.counts.check(fs, "limits", "width"); err != nil {
+				return o, err
+			}
 		}
 		if fs.Changed("limits") {
 			l, err := limits.ParseLimits(texts)
@@ -108,6 +120,9 @@ func limitsFlags(fs *pflag.FlagSet) func(args []string) (limitsOptions, error) {
 
 // runLimits runs the probe, stores the run and prints it.
 func runLimits(ctx context.Context, e *env, o limitsOptions) error {
+	if o.counts.given() {
+		return limitsCounts(ctx, e, o)
+	}
 	started := time.Now()
 	ws, err := e.openWorkspace(ctx, o.db, false)
 	if err != nil {

@@ -42,6 +42,11 @@ holds the amounts from -4,999.99 to -4,500.00.
 A flag is a signal for follow-up, never proof of fraud: price lists, fee
 scales and contract values inflate ranges for ordinary reasons.
 
+With --counts FILE... --count-query QUERY the bands are counted by another
+engine (leadline count-sql --test ranges): the files are added up
+exactly, the layout and population are the query's, and each flagged
+range's drill is that engine's query listing the records.
+
 Examples:
   leadline ranges                                   # logarithmic bands, 10 a decade
   leadline ranges --width 500 --from 0 --to 20000   # fixed-width bands of 500
@@ -56,6 +61,7 @@ type rangesOptions struct {
 	db     dbFlags
 	format string
 	ranges ranges.Options
+	counts countsFlags // --counts, --count-query: the bands on counts made elsewhere
 }
 
 // rangesFlags registers ranges' flags; the function it returns checks them.
@@ -71,12 +77,18 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 	pop.add(fs)
 	pop.addCurrency(fs)
 	f.add(fs)
+	o.counts.add(fs)
 	return func(args []string) (rangesOptions, error) {
 		if err := f.check(); err != nil {
 			return o, err
 		}
 		if len(args) > 0 {
 			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
+		}
+		if o.counts.given() {
+			if err := o.counts.check(fs, "width", "per-decade", "from", "to"); err != nil {
+				return o, err
+			}
 		}
 		o.ranges.Spec = pop.base()
 		if err := o.ranges.Layout.Check(); err != nil {
@@ -89,6 +101,9 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 
 // runRanges counts the bands, stores the run and prints it.
 func runRanges(ctx context.Context, e *env, o rangesOptions) error {
+	if o.counts.given() {
+		return rangesCounts(ctx, e, o)
+	}
 	started := time.Now()
 	ws, err := e.openWorkspace(ctx, o.db, false)
 	if err != nil {
@@ -203,6 +218,13 @@ var bf bandFormat
 
 // scale reads the decimal places of an amount type "DECIMAL(p,s)".
 func (bandFormat) scale(t string) int {
+	// counts made elsewhere: "whole units of 10^-N, counted by ENGINE"
+	if _, rest, ok := strings.Cut(t, "10^-"); ok {
+		n, _, _ := strings.Cut(rest, ",")
+		if s, err := strconv.Atoi(n); err == nil {
+			return s
+		}
+	}
 	if i := strings.LastIndexByte(t, ','); i >= 0 {
 		if s, err := strconv.Atoi(strings.TrimSuffix(strings.TrimSpace(t[i+1:]), ")")); err == nil {
 			return s

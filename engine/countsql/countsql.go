@@ -11,6 +11,7 @@ import (
 
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/queries"
 )
 
@@ -47,6 +48,19 @@ type Spec struct {
 	// only of those at or above the local scan's last-two minimum
 	// (scan --last-two-all).
 	LastTwoAll bool `json:"last_two_all"`
+
+	// Test is what the query counts: "" for the digit battery, "limits"
+	// for the limit probe's bands, "ranges" for the range bands.
+	Test string `json:"test,omitempty"`
+	// Limits (limits: nil for the round values within the amounts) and
+	// Width (limits: the band's fraction of the limit).
+	Limits []float64 `json:"limits,omitempty"`
+	Width  float64   `json:"width,omitempty"`
+	// Layout is the range bands' layout (ranges).
+	Layout *ranges.Layout `json:"layout,omitempty"`
+	// Grid is where the band query cuts the amounts, in units (filled by
+	// Query from the test's options).
+	Grid *Grid `json:"grid,omitempty"`
 }
 
 // header starts the first line of every emitted query.
@@ -69,7 +83,7 @@ func (s Spec) WithDefaults() Spec {
 	if s.Engine == "postgres" {
 		s.Engine = "postgresql"
 	}
-	return s
+	return s.bandDefaults()
 }
 
 // Check validates the spec (after WithDefaults).
@@ -111,6 +125,9 @@ func (s Spec) Check() error {
 	}
 	if s.LastTwo != "scale" && s.LastTwo != "units" {
 		return fmt.Errorf("--last-two %q: give scale or units", s.LastTwo)
+	}
+	if err := s.checkTest(); err != nil {
+		return err
 	}
 	return checkWhere(s.Where)
 }
@@ -205,7 +222,11 @@ type dialect struct {
 	month   func(col string) string // YYYY-MM of a date
 	quarter func(col string) string // YYYY-Qn of a date
 	year    func(col string) string // YYYY of a date
+	lit     func(v string) string   // a string literal
 }
+
+// sqlString is a standard SQL string literal (quotes doubled).
+func sqlString(v string) string { return "'" + strings.ReplaceAll(v, "'", "''") + "'" }
 
 var dialects = map[string]*dialect{
 	"duckdb": {
@@ -224,6 +245,7 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("strftime(CAST(%[1]s AS DATE), '%%Y') || '-Q' || CAST(quarter(CAST(%[1]s AS DATE)) AS VARCHAR)", c)
 		},
 		year: func(c string) string { return fmt.Sprintf("strftime(CAST(%s AS DATE), '%%Y')", c) },
+		lit:  sqlString,
 	},
 	"postgresql": {
 		stmt:  "countsql_postgresql_battery",
@@ -239,6 +261,7 @@ var dialects = map[string]*dialect{
 		month:   func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-MM')", c) },
 		quarter: func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY-\"Q\"Q')", c) },
 		year:    func(c string) string { return fmt.Sprintf("to_char(CAST(%s AS date), 'YYYY')", c) },
+		lit:     sqlString, // with standard_conforming_strings on, PostgreSQL's default since 9.1
 	},
 	"clickhouse": {
 		stmt:  "countsql_clickhouse_battery",
@@ -259,6 +282,10 @@ var dialects = map[string]*dialect{
 			return fmt.Sprintf("concat(substring(toString(toDate(%[1]s)), 1, 4), '-Q', toString(toQuarter(toDate(%[1]s))))", c)
 		},
 		year: func(c string) string { return fmt.Sprintf("substring(toString(toDate(%s)), 1, 4)", c) },
+		// ClickHouse reads backslash escapes inside string literals.
+		lit: func(v string) string {
+			return "'" + strings.NewReplacer(`\`, `\\`, "'", `\'`).Replace(v) + "'"
+		},
 	},
 }
 
@@ -292,20 +319,60 @@ func Query(s Spec) (string, error) {
 	if err := s.Check(); err != nil {
 		return "", err
 	}
+	if s.Test != "" {
+		return bandQuery(s)
+	}
 	d := dialects[s.Engine]
 	minU, _ := s.MinUnits()
+	f := s.frame(d)
+	other := map[string]string{"positive": "u < 0", "negative": "u > 0", "both": "1 = 0"}[s.Signs]
+	last2 := "a % 100"
+	if s.LastTwo == "units" && s.Scale > 0 {
+		last2 = "(" + d.div("a", pow10(s.Scale).String()) + ") % 100"
+	}
+	q := queries.Render(d.stmt, map[string]string{
+		"by_names": f.names, "by_select": f.sel, "table": f.table,
+		"filter": f.filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
+		"min_units": fmt.Sprint(minU), "first3": d.first3("a"), "last2": d.int64(last2),
+		"last2_min": s.lastTwoMinUnits().String(),
+	})
+	return withSpec(s, q)
+}
+
+// withSpec puts the spec, as JSON, on the query's first line.
+func withSpec(s Spec, q string) (string, error) {
+	spec, err := json.Marshal(s)
+	if err != nil {
+		return "", err
+	}
+	return header + string(spec) + "\n" + q + "\n", nil
+}
+
+// segment is a segment's value as the query selects it: the column as
+// text, or the period of a date.
+func (d *dialect) segment(b Segment) string {
+	col := d.quote(b.Column)
+	switch {
+	case b.Month:
+		return d.month(col)
+	case b.Quarter:
+		return d.quarter(col)
+	case b.Year:
+		return d.year(col)
+	}
+	return d.text(col)
+}
+
+// frame is what every query of a spec starts from: the segment columns
+// (their names, and their values as selected), the table and the filter.
+type frame struct {
+	names, sel, table, filter string
+}
+
+func (s Spec) frame(d *dialect) frame {
 	var sel, names []string
 	for _, b := range s.By {
-		col := d.quote(b.Column)
-		v := d.text(col)
-		switch {
-		case b.Month:
-			v = d.month(col)
-		case b.Quarter:
-			v = d.quarter(col)
-		case b.Year:
-			v = d.year(col)
-		}
+		v := d.segment(b)
 		n := d.quote("by_" + b.Name)
 		sel = append(sel, v+" AS "+n)
 		names = append(names, n)
@@ -324,22 +391,7 @@ func Query(s Spec) (string, error) {
 	if strings.TrimSpace(s.Where) != "" {
 		filter = "(" + strings.TrimSpace(s.Where) + ")"
 	}
-	other := map[string]string{"positive": "u < 0", "negative": "u > 0", "both": "1 = 0"}[s.Signs]
-	last2 := "a % 100"
-	if s.LastTwo == "units" && s.Scale > 0 {
-		last2 = "(" + d.div("a", pow10(s.Scale).String()) + ") % 100"
-	}
-	q := queries.Render(d.stmt, map[string]string{
-		"by_names": list(names), "by_select": list(sel), "table": strings.Join(table, "."),
-		"filter": filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
-		"min_units": fmt.Sprint(minU), "first3": d.first3("a"), "last2": d.int64(last2),
-		"last2_min": s.lastTwoMinUnits().String(),
-	})
-	spec, err := json.Marshal(s)
-	if err != nil {
-		return "", err
-	}
-	return header + string(spec) + "\n" + q + "\n", nil
+	return frame{names: list(names), sel: list(sel), table: strings.Join(table, "."), filter: filter}
 }
 
 // lastTwoMinUnits is the smallest |units| counted under kind l: the local

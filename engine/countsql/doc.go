@@ -33,4 +33,19 @@
 //
 // It owns counting elsewhere: the counting query for another engine and the
 // reading and merging of the count files it returns.
+// The limit probe's and the range table's bands (Spec.Test "limits" or
+// "ranges") come back in a layout of their own:
+//
+//	by_NAME...  one column per segment
+//	kind        b: tested amounts in a bin of the grid; x: rows left out
+//	bin         kind b: the number of grid thresholds at or below |units|;
+//	            kind x: the codes -1..-5 above
+//	n           rows
+//	lo, hi      kind b: the smallest and largest |units| in the bin
+//
+// The grid (on the query's first line) holds, for every band edge a local
+// run could use, the smallest whole number of units whose amount the local
+// run puts at or above the edge (its DECIMAL converted to a double), so
+// that the merged bins add up to the local counts between any of those
+// edges exactly; the lows and highs give each segment's range of amounts.
 package countsql

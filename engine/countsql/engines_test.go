@@ -4,8 +4,11 @@ package countsql
 
 import (
 	"bytes"
+	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
+	"strings"
 	"testing"
 )
 
@@ -68,6 +71,39 @@ CREATE VIEW gl_h2 AS SELECT * FROM gl WHERE posted >= '2025-07-01';`)...)
 			sameReports(t, local, countsReport(t, q, []string{h1, h2}, v))
 		})
 	}
+	// The limit probe's and the range bands' counts, and the drill-down
+	// queries run on the server.
+	for _, v := range bandVariants() {
+		t.Run(v.name, func(t *testing.T) {
+			dir := t.TempDir()
+			local := bandLocal(t, ws, v)
+			count := func(table string) (string, string) {
+				s := v.spec
+				s.Engine, s.Table, s.Amount, s.Scale = "postgresql", table, "amt", 2
+				q, err := Query(s)
+				if err != nil {
+					t.Fatal(err)
+				}
+				qp := filepath.Join(dir, table+".sql")
+				out := filepath.Join(dir, table+".csv")
+				if err := os.WriteFile(qp, []byte(q), 0o644); err != nil {
+					t.Fatal(err)
+				}
+				run(t, nil, nil, psql, pg.args("--csv", "-f", qp, "-o", out)...)
+				return q, out
+			}
+			q, all := count("gl")
+			doc, drills := bandCounts(t, q, []string{all}, v)
+			sameDocs(t, local, doc)
+			checkDrills(t, "PostgreSQL", drills, func(q string) []byte {
+				return run(t, nil, nil, psql, pg.args("-At", "-F", ",", "-c", q)...)
+			})
+			_, h1 := count("gl_h1")
+			_, h2 := count("gl_h2")
+			doc, _ = bandCounts(t, q, []string{h1, h2}, v)
+			sameDocs(t, local, doc)
+		})
+	}
 }
 
 // TestClickHouseClusterCountsEqualLocalScan runs the emitted ClickHouse
@@ -119,5 +155,65 @@ func TestClickHouseClusterCountsEqualLocalScan(t *testing.T) {
 			_, s2 := count(shards[1], "ledger_local", "shard2")
 			sameReports(t, local, countsReport(t, q, []string{s1, s2}, v))
 		})
+	}
+	// The limit probe's and the range bands' counts, and the drill-down
+	// queries run on the Distributed table.
+	for _, v := range bandVariants() {
+		t.Run(v.name, func(t *testing.T) {
+			dir := t.TempDir()
+			local := bandLocal(t, ws, v)
+			count := func(s *chServer, table, name string) (string, string) {
+				spec := v.spec
+				spec.Engine, spec.Table, spec.Amount, spec.Scale = "clickhouse", table, "amount", 2
+				q, err := Query(spec)
+				if err != nil {
+					t.Fatal(err)
+				}
+				out := filepath.Join(dir, name+".csv")
+				if err := os.WriteFile(out, s.query(t, nil, q, "--format", "CSVWithNames"), 0o644); err != nil {
+					t.Fatal(err)
+				}
+				return q, out
+			}
+			q, all := count(shards[0], "ledger_all", "all")
+			doc, drills := bandCounts(t, q, []string{all}, v)
+			sameDocs(t, local, doc)
+			checkDrills(t, "ClickHouse", drills, func(q string) []byte {
+				return shards[0].query(t, nil, q, "--format", "CSV")
+			})
+			_, s1 := count(shards[0], "ledger_local", "shard1")
+			_, s2 := count(shards[1], "ledger_local", "shard2")
+			doc, _ = bandCounts(t, q, []string{s1, s2}, v)
+			sameDocs(t, local, doc)
+		})
+	}
+}
+
+// checkDrills runs every drill-down query on the engine, in one statement
+// (a count per query, numbered), and checks that each lists the records
+// its band counts.
+func checkDrills(t *testing.T, engine string, drills []drillCheck, query func(string) []byte) {
+	t.Helper()
+	if len(drills) == 0 {
+		t.Fatal("no drill-down query to check")
+	}
+	var parts []string
+	for i, d := range drills {
+		parts = append(parts, fmt.Sprintf("SELECT %d AS i, count(*) AS n FROM (%s) AS d%d", i, strings.TrimSuffix(d.query, ";"), i))
+	}
+	got := map[int]int64{}
+	for _, line := range strings.Split(strings.TrimSpace(string(query(strings.Join(parts, " UNION ALL ")))), "\n") {
+		a, b, _ := strings.Cut(line, ",")
+		i, err1 := strconv.Atoi(a)
+		n, err2 := strconv.ParseInt(b, 10, 64)
+		if err1 != nil || err2 != nil {
+			t.Fatalf("%s: unexpected line %q", engine, line)
+		}
+		got[i] = n
+	}
+	for i, d := range drills {
+		if n, ok := got[i]; !ok || n != d.want {
+			t.Errorf("drill-down query lists %d records on %s (listed: %v), its band counts %d:\n%s", n, engine, ok, d.want, d.query)
+		}
 	}
 }

@@ -135,28 +135,11 @@ func ReadFiles(paths []string) (*Merged, error) {
 }
 
 func (m *Merged) readFile(path string, first bool) error {
-	f, err := os.Open(path)
+	r, sum, closeFn, err := openCounts(path)
 	if err != nil {
-		return fmt.Errorf("--counts %s: %w", path, err)
+		return err
 	}
-	defer f.Close()
-	h := sha256.New()
-	var r records
-	if strings.EqualFold(filepath.Ext(path), ".parquet") {
-		if _, err := io.Copy(h, f); err != nil {
-			return fmt.Errorf("--counts %s: %w", path, err)
-		}
-		pr, err := openParquet(path)
-		if err != nil {
-			return err
-		}
-		defer pr.close()
-		r = pr
-	} else {
-		cr := csv.NewReader(bufio.NewReaderSize(io.TeeReader(f, h), 1<<16))
-		cr.ReuseRecord = true
-		r = cr
-	}
+	defer closeFn()
 	head, err := r.Read()
 	if err != nil {
 		return fmt.Errorf("%s: no header line (kind, bin, n, sum_hi, sum_lo): %w; write the query's result as CSV with a header (psql --csv, clickhouse client --format CSVWithNames, DuckDB COPY ... (HEADER))", path, err)
@@ -258,8 +241,34 @@ func (m *Merged) readFile(path string, first bool) error {
 		}
 		*slot += n
 	}
-	m.Files = append(m.Files, File{Path: path, SHA256: hex.EncodeToString(h.Sum(nil)), Rows: rows})
+	m.Files = append(m.Files, File{Path: path, SHA256: sum(), Rows: rows})
 	return nil
+}
+
+// openCounts opens a count file: CSV with a header, or Parquet (a
+// .parquet name, read through DuckDB). sum gives the file's SHA-256 once
+// every record has been read.
+func openCounts(path string) (r records, sum func() string, closeFn func(), err error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, nil, nil, fmt.Errorf("--counts %s: %w", path, err)
+	}
+	h := sha256.New()
+	sum = func() string { return hex.EncodeToString(h.Sum(nil)) }
+	if strings.EqualFold(filepath.Ext(path), ".parquet") {
+		defer f.Close()
+		if _, err := io.Copy(h, f); err != nil {
+			return nil, nil, nil, fmt.Errorf("--counts %s: %w", path, err)
+		}
+		pr, err := openParquet(path)
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		return pr, sum, pr.close, nil
+	}
+	cr := csv.NewReader(bufio.NewReaderSize(io.TeeReader(f, h), 1<<16))
+	cr.ReuseRecord = true
+	return cr, sum, func() { f.Close() }, nil
 }
 
 func sameKey(a, b battery.Key) bool {

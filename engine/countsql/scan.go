@@ -18,6 +18,11 @@ type Source struct {
 	Query       string `json:"query"` // the query file given
 	QuerySHA256 string `json:"query_sha256"`
 	Files       []File `json:"files"`
+	// Rows of a band count the bands do not show (limits and ranges
+	// count the rows the filter keeps, of an amount): NULL amounts and
+	// rows the filter dropped.
+	NoAmount int64 `json:"no_amount,omitempty"`
+	Filtered int64 `json:"filtered,omitempty"`
 }
 
 // Scan runs the digit battery on count files: the query file (as count-sql
@@ -26,25 +31,19 @@ type Source struct {
 // From o it takes the tests, the segments (--by, names among the query's
 // segments) and the ranking options; the population is the query's.
 func Scan(queryPath string, files []string, o battery.Options) (*battery.Report, *Source, error) {
-	text, err := os.ReadFile(queryPath)
+	spec, text, err := readSpec(queryPath)
 	if err != nil {
-		return nil, nil, fmt.Errorf("--count-query: %w", err)
+		return nil, nil, err
 	}
-	spec, err := ReadQuery(string(text))
-	if err != nil {
-		return nil, nil, fmt.Errorf("--count-query %s: %w", queryPath, err)
+	if spec.Test != "" {
+		return nil, nil, fmt.Errorf("--count-query %s counts the bands of leadline %s: run leadline %s --counts with it, or print the battery's query with count-sql", queryPath, spec.Test, spec.Test)
 	}
 	m, err := ReadFiles(files)
 	if err != nil {
 		return nil, nil, err
 	}
-	if len(m.By) != len(spec.By) {
-		return nil, nil, fmt.Errorf("the count files have segments %v but the query %s counts by %d columns: give the query that made the files", m.By, queryPath, len(spec.By))
-	}
-	for i, b := range spec.By {
-		if m.By[i] != b.Name {
-			return nil, nil, fmt.Errorf("the count files have segments %v but the query %s counts by %s: give the query that made the files", m.By, queryPath, b.Name)
-		}
+	if err := sameSegments(m.By, spec, queryPath); err != nil {
+		return nil, nil, err
 	}
 	all, segs, err := m.Counts(o.By, spec.Scale)
 	if err != nil {
@@ -71,6 +70,34 @@ func Scan(queryPath string, files []string, o battery.Options) (*battery.Report,
 	}
 	src := &Source{Engine: spec.Engine, Table: spec.Table, Query: queryPath, QuerySHA256: SHA256(text), Files: m.Files}
 	return rep, src, nil
+}
+
+// readSpec reads a query file count-sql printed and the spec on its first
+// line.
+func readSpec(queryPath string) (Spec, []byte, error) {
+	text, err := os.ReadFile(queryPath)
+	if err != nil {
+		return Spec{}, nil, fmt.Errorf("--count-query: %w", err)
+	}
+	spec, err := ReadQuery(string(text))
+	if err != nil {
+		return Spec{}, nil, fmt.Errorf("--count-query %s: %w", queryPath, err)
+	}
+	return spec, text, nil
+}
+
+// sameSegments checks that count files have the segment columns of the
+// query that made them.
+func sameSegments(by []string, spec Spec, queryPath string) error {
+	if len(by) != len(spec.By) {
+		return fmt.Errorf("the count files have segments %v but the query %s counts by %d columns: give the query that made the files", by, queryPath, len(spec.By))
+	}
+	for i, b := range spec.By {
+		if by[i] != b.Name {
+			return fmt.Errorf("the count files have segments %v but the query %s counts by %s: give the query that made the files", by, queryPath, b.Name)
+		}
+	}
+	return nil
 }
 
 // AmountType describes the amounts counted elsewhere, for the report.

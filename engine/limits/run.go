@@ -49,22 +49,9 @@ type Report struct {
 // Run probes the limits in one aggregate scan over all limits and segments
 // (after a cheap scan for the amounts' range). It does not store the run.
 func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, error) {
-	if o.Width == 0 {
-		o.Width = DefaultWidth
-	}
-	if o.MinCount == 0 {
-		o.MinCount = DefaultMinCount
-	}
-	if err := CheckWidth(o.Width); err != nil {
+	o, err := o.Checked()
+	if err != nil {
 		return nil, err
-	}
-	if o.MinCount < 1 {
-		return nil, fmt.Errorf("--min-count %d: give at least 1", o.MinCount)
-	}
-	for _, t := range o.Limits {
-		if err := benford.CheckLimit(t, o.Width); err != nil {
-			return nil, fmt.Errorf("--limits: %w", err)
-		}
 	}
 	pop, err := ranges.Prepare(ctx, ws, o.Spec)
 	if err != nil {
@@ -78,27 +65,15 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err != nil {
 		return nil, err
 	}
-	rep := &Report{
-		Kind: "limits", Population: pop.Spec, AmountType: pop.AmountType.SQL(), Currency: currency,
-		Width: o.Width, ExpectedRatio: benford.ExpectedBelowAboveRatio(o.Width),
-		Limits: ranges.SortedEdges(o.Limits), LimitSource: "given", By: []string{}, MinCount: o.MinCount,
-	}
-	for _, s := range segs {
-		rep.By = append(rep.By, s.Name)
-	}
+	rep := NewReport(o, pop.Spec, pop.AmountType.SQL(), currency, segs)
 	if len(o.Limits) == 0 {
 		// The round limits depend on the amounts' range: one cheap scan first.
 		sum, err := pop.Summary(ctx, ws)
 		if err != nil {
 			return nil, err
 		}
-		if sum.Tested == 0 {
-			return nil, noAmounts(sum, pop.Spec.Min)
-		}
-		rep.LimitSource = "round values"
-		rep.Limits = ScanLimits(sum.Min, sum.Max, o.Width)
-		if len(rep.Limits) == 0 {
-			return nil, fmt.Errorf("the tested amounts (%s to %s) are too narrow for any round limit with its band of ±%s%%: give --limits or a smaller --width", numfmt.MoneyFloat(sum.Min), numfmt.MoneyFloat(sum.Max), strconv.FormatFloat(100*o.Width, 'f', -1, 64))
+		if err := rep.ScanRoundLimits(sum); err != nil {
+			return nil, err
 		}
 	}
 	edges := Edges(rep.Limits, o.Width)
@@ -111,29 +86,96 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err != nil {
 		return nil, err
 	}
+	err = rep.Finish(groups, segs, edges, pop.AmountType.Scale, func(r Row) string {
+		return ranges.DrillCommand(ws.Path, r.Range, pop.Spec, r.key.DrillSegments(segs))
+	})
+	if err != nil {
+		return nil, err
+	}
+	return rep, nil
+}
+
+// Checked fills the defaults of o and checks the width, the minimum count
+// and the limits given.
+func (o Options) Checked() (Options, error) {
+	if o.Width == 0 {
+		o.Width = DefaultWidth
+	}
+	if o.MinCount == 0 {
+		o.MinCount = DefaultMinCount
+	}
+	if err := CheckWidth(o.Width); err != nil {
+		return o, err
+	}
+	if o.MinCount < 1 {
+		return o, fmt.Errorf("--min-count %d: give at least 1", o.MinCount)
+	}
+	for _, t := range o.Limits {
+		if err := benford.CheckLimit(t, o.Width); err != nil {
+			return o, fmt.Errorf("--limits: %w", err)
+		}
+	}
+	return o, nil
+}
+
+// NewReport starts the report of a run with checked options o over the
+// population spec (defaults filled in): the limits given, or none yet
+// (ScanRoundLimits finds them).
+func NewReport(o Options, spec population.Spec, amountType, currency string, segs []ranges.Segment) *Report {
+	rep := &Report{
+		Kind: "limits", Population: spec, AmountType: amountType, Currency: currency,
+		Width: o.Width, ExpectedRatio: benford.ExpectedBelowAboveRatio(o.Width),
+		Limits: ranges.SortedEdges(o.Limits), LimitSource: "given", By: []string{}, MinCount: o.MinCount,
+	}
+	for _, s := range segs {
+		rep.By = append(rep.By, s.Name)
+	}
+	return rep
+}
+
+// ScanRoundLimits sets the limits to the round values whose band lies
+// within the whole selection's tested amounts (sum).
+func (rep *Report) ScanRoundLimits(sum ranges.Counts) error {
+	if sum.Tested == 0 {
+		return noAmounts(sum, rep.Population.Min)
+	}
+	rep.LimitSource = "round values"
+	rep.Limits = ScanLimits(sum.Min, sum.Max, rep.Width)
+	if len(rep.Limits) == 0 {
+		return fmt.Errorf("the tested amounts (%s to %s) are too narrow for any round limit with its band of ±%s%%: give --limits or a smaller --width", numfmt.MoneyFloat(sum.Min), numfmt.MoneyFloat(sum.Max), strconv.FormatFloat(100*rep.Width, 'f', -1, 64))
+	}
+	return nil
+}
+
+// Finish probes the limits on the counted groups (one group, key nil,
+// without segments; else one per segment, sorted by key, each counted
+// between edges) and fills the report's rows and tallies. drill writes
+// the command or query that lists the records below a row's limit (its
+// Range set); scale is the amounts' decimal places.
+func (rep *Report) Finish(groups []ranges.Group, segs []ranges.Segment, edges []float64, scale int, drill func(Row) string) error {
 	var all ranges.Group
+	var err error
 	if len(segs) == 0 {
 		all = groups[0]
 		groups = nil
 	} else {
 		if all, err = ranges.Merge(groups, edges); err != nil {
-			return nil, err
+			return err
 		}
 		rep.Segments = len(groups)
 		if len(groups) > MaxSegments {
-			return nil, fmt.Errorf("--by %s makes %d segments, more than %d: choose a coarser column or narrow the selection with --where",
+			return fmt.Errorf("--by %s makes %d segments, more than %d: choose a coarser column or narrow the selection with --where",
 				strings.Join(rep.By, " --by "), len(groups), MaxSegments)
 		}
 	}
 	rep.Counts = all.Counts
 	if all.Tested == 0 {
-		return nil, noAmounts(all.Counts, pop.Spec.Min)
+		return noAmounts(all.Counts, rep.Population.Min)
 	}
-	rows, err := Probe(all, groups, segs, rep.Limits, o.Width, o.MinCount)
+	rows, err := Probe(all, groups, segs, rep.Limits, rep.Width, rep.MinCount)
 	if err != nil {
-		return nil, err
+		return err
 	}
-	scale := pop.AmountType.Scale
 	rep.Rows = rows[:0]
 	for _, r := range rows {
 		switch r.Status {
@@ -153,10 +195,10 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 			continue
 		}
 		r.Range = ranges.DrillRange(r.From, r.Limit, scale)
-		r.Drill = ranges.DrillCommand(ws.Path, r.Range, pop.Spec, r.key.DrillSegments(segs))
+		r.Drill = drill(r)
 		rep.Rows = append(rep.Rows, r)
 	}
-	return rep, nil
+	return nil
 }
 
 // MaxSegments bounds the segments of one probe run.

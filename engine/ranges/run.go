@@ -66,8 +66,21 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err != nil {
 		return nil, err
 	}
-	g := groups[0]
-	rows, str, err := Score(bands, g.Bins, pop.MinAmount, g.Min, g.Max)
+	rep, err := Finish(o, pop.Spec, pop.AmountType.SQL(), currency, pop.MinAmount, pop.AmountType.Scale, bands, groups[0],
+		func(_, _ float64, rangeSpec string) string { return DrillCommand(ws.Path, rangeSpec, pop.Spec, nil) })
+	if err != nil {
+		return nil, err
+	}
+	return rep, nil
+}
+
+// Finish scores the bands of the layout on g, the whole selection's
+// counts between the bands' edges, and builds the report. spec is the
+// population (defaults filled in), minAmount its minimum as a number;
+// drill writes the command or query that lists the records of a range
+// FROM:TO (DrillRange at the amounts' scale).
+func Finish(o Options, spec population.Spec, amountType, currency string, minAmount float64, scale int, bands []benford.Band, g Group, drill func(from, to float64, rangeSpec string) string) (*Report, error) {
+	rows, str, err := Score(bands, g.Bins, minAmount, g.Min, g.Max)
 	if err != nil {
 		return nil, err
 	}
@@ -77,12 +90,11 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		layout.PerDecade = DefaultPerDecade
 	}
 	rep := &Report{
-		Kind: "ranges", Population: pop.Spec, AmountType: pop.AmountType.SQL(), Currency: currency,
+		Kind: "ranges", Population: spec, AmountType: amountType, Currency: currency,
 		Layout: layout, BandScale: layout.Scale(), Counts: g.Counts,
 		BelowBands: g.Bins.Below(), AboveBands: g.Bins.Above(),
 		Bands: rows, Stretches: str,
 	}
-	scale := pop.AmountType.Scale
 	var scored []benford.Band
 	for i := range rep.Bands {
 		r := &rep.Bands[i]
@@ -93,14 +105,14 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		}
 		if r.Flagged {
 			rep.Flagged++
-			r.Drill = DrillCommand(ws.Path, r.Range, pop.Spec, nil)
+			r.Drill = drill(r.From, r.To, r.Range)
 		}
 	}
 	rep.Dispersion = benford.BandDispersion(scored)
 	for i := range rep.Stretches {
 		s := &rep.Stretches[i]
 		s.Range = DrillRange(s.From, s.To, scale)
-		s.Drill = DrillCommand(ws.Path, s.Range, pop.Spec, nil)
+		s.Drill = drill(s.From, s.To, s.Range)
 	}
 	sortStretches(rep.Stretches)
 	if rep.Stretches == nil {
