@@ -30,6 +30,7 @@ type Report struct {
 	Scored     int             `json:"scored"`      // bands scored (the Holm family)
 	Flagged    int             `json:"flagged"`
 	Dispersion float64         `json:"dispersion"` // quasi-Poisson dispersion of the scored bands
+	Fit        benford.BandFit `json:"fit"`        // the local fit chosen by cross-validation
 	Bands      []Row           `json:"bands"`
 	Stretches  []Stretch       `json:"stretches"` // adjacent flagged bands joined, largest excess first
 }
@@ -66,7 +67,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	g := groups[0]
-	rows, str, err := Score(bands, g.Bins, pop.MinAmount, g.Min, g.Max)
+	rows, str, fit, err := ScoreFit(bands, g.Bins, pop.MinAmount, g.Min, g.Max)
 	if err != nil {
 		return nil, err
 	}
@@ -79,7 +80,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		Kind: "ranges", Population: pop.Spec, AmountType: pop.AmountType.SQL(), Currency: currency,
 		Layout: layout, BandScale: layout.Scale(), Counts: g.Counts,
 		BelowBands: g.Bins.Below(), AboveBands: g.Bins.Above(),
-		Bands: rows, Stretches: str,
+		Bands: rows, Stretches: str, Fit: fit,
 	}
 	scale := pop.AmountType.Scale
 	var scored []benford.Band
