@@ -190,6 +190,10 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 	if err := t.WriteText(w, 0); err != nil {
 		return err
 	}
+	if rep.Scored == 0 {
+		fmt.Fprintln(w, "\nNo band could be scored: each needs scorable bands on both sides; give more bands (--per-decade, a smaller --width).")
+		return nil
+	}
 	if len(rep.Stretches) == 0 {
 		fmt.Fprintln(w, "\nNo range stands out against its neighbours at the 5% family-wise level.")
 		return nil
