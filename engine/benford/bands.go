@@ -219,11 +219,12 @@ func ScoreBands(bands []Band) BandFit {
 		if 2*h > m-1 && h > bandHalfWidths[0] {
 			break
 		}
+		start := lmsStart(x, y, h) // the same for both degrees
 		for deg := 1; deg <= 2; deg++ {
 			if deg == 2 && 2*min(h, (m-1)/2) < 5 {
 				continue
 			}
-			yh, vh, rw := robustLocalFit(x, y, w, h, deg)
+			yh, vh, rw := robustLocalFit(x, y, w, start, h, deg)
 			cands = append(cands, candidate{min(h, (m-1)/2), deg, yh, vh, rw})
 		}
 	}
@@ -340,26 +341,26 @@ func clampFit(yh float64, y []float64) float64 {
 	return math.Min(math.Max(yh, ylo-20), yhi+20)
 }
 
-// robustLocalFit returns, for every band s, the robust leave-one-out fit
-// ŷ_s of degree deg through the h nearest bands on each side (shifted
-// inwards at the ends), its variance, and the robustness weights of the
-// last pass (0 for the bands set aside; see ScoreBands).
-func robustLocalFit(x, y, w []float64, h, deg int) (yhat, v, rw []float64) {
+// bandWindow returns the window of band s among m bands for half-width h:
+// h bands on each side, shifted inwards at the ends.
+func bandWindow(s, m, h int) (lo, hi int) {
+	win := min(2*h, m-1)
+	lo = max(0, min(s-win/2, m-1-win))
+	return lo, lo + win
+}
+
+// lmsStart returns the robust start of the local fits of half-width h: a
+// least-median-of-squares quadratic through each band's neighbours
+// (lmsQuadraticAt0).
+func lmsStart(x, y []float64, h int) []float64 {
 	m := len(x)
 	win := min(2*h, m-1)
-	window := func(s int) (lo, hi int) {
-		lo = max(0, min(s-win/2, m-1-win))
-		return lo, lo + win
-	}
-	yhat = make([]float64, m)
-	v = make([]float64, m)
-	// Robust start: a least-median-of-squares quadratic through each
-	// band's neighbours (lmsQuadraticAt0).
+	start := make([]float64, m)
 	nx := make([]float64, 0, win)
 	ny := make([]float64, 0, win)
 	scratch := make([]float64, 0, win)
 	for s := range m {
-		lo, hi := window(s)
+		lo, hi := bandWindow(s, m, h)
 		nx, ny = nx[:0], ny[:0]
 		for t := lo; t <= hi; t++ {
 			if t != s {
@@ -367,8 +368,20 @@ func robustLocalFit(x, y, w []float64, h, deg int) (yhat, v, rw []float64) {
 				ny = append(ny, y[t])
 			}
 		}
-		yhat[s] = lmsQuadraticAt0(nx, ny, scratch)
+		start[s] = lmsQuadraticAt0(nx, ny, scratch)
 	}
+	return start
+}
+
+// robustLocalFit returns, for every band s, the robust leave-one-out fit
+// ŷ_s of degree deg through the h nearest bands on each side (shifted
+// inwards at the ends), from the robust start (lmsStart), its variance,
+// and the robustness weights of the last pass (0 for the bands set aside;
+// see ScoreBands).
+func robustLocalFit(x, y, w, start []float64, h, deg int) (yhat, v, rw []float64) {
+	m := len(x)
+	yhat = append([]float64(nil), start...)
+	v = make([]float64, m)
 	rw = make([]float64, m) // robustness weights
 	e := make([]float64, m)
 	abs := make([]float64, m)
@@ -385,7 +398,7 @@ func robustLocalFit(x, y, w []float64, h, deg int) (yhat, v, rw []float64) {
 			rw[s] = biweight(e[s] / (biweightC * math.Sqrt(sc*sc+1/w[s])))
 		}
 		for s := range m {
-			lo, hi := window(s)
+			lo, hi := bandWindow(s, m, h)
 			yhat[s], v[s] = localFit(x, y, w, rw, s, lo, hi, deg)
 		}
 		if iter == robustIterations {
