@@ -28,10 +28,18 @@ workspace:
   same_amount  same amount and counterparty under two or more documents
                (possible double payments); with --window-days N only where
                two documents fall within N days of each other
-  same_doc     same document and counterparty with different amounts
+  same_doc     same document and counterparty with different amounts,
+               leaving out the lines of documents that net to zero (the
+               lines of one balanced document differ by design)
   spread       one amount paid to or received from many counterparties
   rsf          relative size factor per counterparty: the largest amount
                divided by the second largest (Nigrini 2012)
+
+Groups are ranked by the money at stake: the amount times its extra copies
+(exact, same_amount: documents - 1, spread: counterparties - 1), or what a
+document holds beyond its largest line (same_doc). Groups whose amounts are
+all below --floor (100 by default; 0 lists every group) are left out, and
+each test says how many groups and records it left out, and why.
 
 A test whose columns the ledger lacks (no doc_id mapped, say) is reported as
 skipped with the column it needs. Every group gets a reference RUN:TEST:GROUP
@@ -47,6 +55,7 @@ Examples:
   leadline dups
   leadline dups --window-days 10 --tests same_amount,exact
   leadline dups --signs both --min 0 --where "source = 'AP'" --top 50
+  leadline dups --floor 1000 --tests same_amount,same_doc
   leadline dups --format json > dups.json`,
 		flags: thin(dupsFlags, runDups),
 	})
@@ -70,6 +79,7 @@ func dupsFlags(fs *pflag.FlagSet) func(args []string) (dupsOptions, error) {
 	fs.IntVar(&o.dups.MinCounterparties, "min-counterparties", duplicates.DefaultMinCounterparties, "spread: counterparties an amount must reach")
 	fs.IntVar(&o.dups.MinRecords, "min-records", duplicates.DefaultMinRecords, "rsf: records a counterparty must have")
 	fs.IntVar(&o.dups.Top, "top", duplicates.DefaultTop, "groups kept per test, largest first (-1: all)")
+	fs.StringVar(&o.dups.Floor, "floor", duplicates.DefaultFloor, "smallest absolute amount a group must reach to be listed (0: every group)")
 	fs.StringVar(&o.dups.Signs, "signs", population.DefaultSigns, "amounts tested: positive, negative (as absolute values) or both")
 	fs.StringVar(&o.dups.Min, "min", population.DefaultMin, "smallest absolute amount tested")
 	fs.StringVar(&o.dups.Where, "where", "", `filter on the ledger's columns, e.g. "source = 'AP'" (read-only)`)
@@ -119,8 +129,8 @@ func runDups(ctx context.Context, e *env, o dupsOptions) error {
 var dupsColumns = map[string][]string{
 	duplicates.Exact:      {"ref", "amount", "counterparty", "posted", "doc_id", "records", "excess"},
 	duplicates.SameAmount: {"ref", "amount", "counterparty", "documents", "records", "first_posted", "last_posted", "excess"},
-	duplicates.SameDoc:    {"ref", "doc_id", "counterparty", "amounts", "records", "min_amount", "max_amount", "first_posted", "last_posted", "total"},
-	duplicates.Spread:     {"ref", "amount", "counterparties", "records", "total"},
+	duplicates.SameDoc:    {"ref", "doc_id", "counterparty", "amounts", "records", "min_amount", "max_amount", "first_posted", "last_posted", "excess", "total"},
+	duplicates.Spread:     {"ref", "amount", "counterparties", "records", "excess", "total"},
 	duplicates.RSF:        {"ref", "counterparty", "records", "largest", "second", "rsf", "total"},
 }
 
@@ -174,6 +184,22 @@ func dupsValue(g duplicates.Group, col string) any {
 	return ""
 }
 
+// dupsLeftOut says which groups a test left out, and why.
+func dupsLeftOut(tr duplicates.TestResult, floor string) string {
+	var parts []string
+	for _, l := range tr.LeftOut {
+		why := l.Reason
+		switch l.Reason {
+		case duplicates.LeftBelowFloor:
+			why = "with every amount below the floor of " + floor + " (--floor)"
+		case duplicates.LeftBalanced:
+			why = "lines of documents that net to zero"
+		}
+		parts = append(parts, fmt.Sprintf("%s groups (%s records) %s", numfmt.Int(l.Groups), numfmt.Int(l.Records), why))
+	}
+	return strings.Join(parts, "; ")
+}
+
 func printDups(w io.Writer, format string, res *duplicates.Result, dbPath string) error {
 	switch format {
 	case "json":
@@ -221,6 +247,9 @@ func printDups(w io.Writer, format string, res *duplicates.Result, dbPath string
 		if tr.Status != "ok" {
 			fmt.Fprintf(w, "  %s: %s\n", tr.Status, tr.Reason)
 			continue
+		}
+		if left := dupsLeftOut(tr, o.Floor); left != "" {
+			fmt.Fprintf(w, "  left out: %s\n", left)
 		}
 		if tr.GroupsTotal == 0 {
 			fmt.Fprintln(w, "  no groups")

@@ -9,6 +9,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
@@ -26,13 +27,23 @@ func init() {
 Counts the tested amounts in bands, either of a fixed width (--width 500
 over [--from, --to)) or of equal width on a logarithmic scale (--per-decade
 10, the default), and compares each band with a smooth expectation fitted
-to its neighbouring bands: a straight line on the log scale through the
-neighbours by repeated medians, robust to several inflated bands side by
-side. Bands well above their expectation are flagged (one-sided Poisson
-test with a dispersion estimated from all bands, Holm-adjusted over the
-bands at 5%), and adjacent flagged bands are joined into inflated ranges,
-each with the drill command that lists its records. Bands cut by the
-minimum amount or reaching past the largest amount are listed, not scored.
+to its neighbouring bands, the band itself left out: a local line or
+quadratic on the log scale (log count per unit of log width against the
+log amount), made robust to inflated bands (a least-median-of-squares
+start, then Tukey-biweight reweighting, so one inflated band or a block of
+them does not lift its neighbours' expectations). How many neighbours on
+each side (2 to 64) and which degree are chosen by leave-one-out
+cross-validation over the bands: the widest window within one standard
+error of the best. No band is judged against an extrapolation: the first
+and the last band that could be scored (with a quadratic, the first two
+and the last two) are listed as "not scored", as are bands cut by the
+minimum amount or reaching past the largest amount. Bands well above their
+expectation are flagged (one-sided quasi-Poisson test with a dispersion
+estimated from all scored bands, Holm-adjusted over the scored bands at
+5%), and adjacent flagged bands are joined into inflated ranges, each with
+the drill command that lists its records. The rates at which it flags
+bands without cause, and finds injected ones, are in the README (Range
+table: false alarms and detection).
 
 The amounts tested are those of the digit battery and the drill-down:
 positive amounts of at least 10 by default (--signs, --min), narrowed by
@@ -179,8 +190,8 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 		fmt.Fprintf(w, "Bands: %d logarithmic, %d to a decade, from %s to %s", len(rep.Bands), l.PerDecade, bandAmount(l.From, scale), bandAmount(l.To, scale))
 	}
 	fmt.Fprintf(w, "; %s tested amounts below the first band, %s at or above the end of the last\n", numfmt.Int(rep.BelowBands), numfmt.Int(rep.AboveBands))
-	fmt.Fprintf(w, "Each band against a smooth expectation from its neighbours; dispersion %s; %s bands scored, Holm-adjusted at 5%%: %s flagged\n\n",
-		numfmt.Stat(rep.Dispersion), numfmt.Int(int64(rep.Scored)), numfmt.Int(int64(rep.Flagged)))
+	fmt.Fprintf(w, "Each band against a smooth expectation from its neighbours (%s); dispersion %s; %s bands scored, Holm-adjusted at 5%%: %s flagged\n\n",
+		fitText(rep.Fit), numfmt.Stat(rep.Dispersion), numfmt.Int(int64(rep.Scored)), numfmt.Int(int64(rep.Flagged)))
 	t.Columns = []string{"from", "to", "count", "expected", "ratio", "z", "p_adjusted", "flag", "note"}
 	for _, b := range rep.Bands {
 		if !b.Scored {
@@ -193,6 +204,10 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 	}
 	if err := t.WriteText(w, 0); err != nil {
 		return err
+	}
+	if rep.Scored == 0 {
+		fmt.Fprintln(w, "\nNo band could be scored: each needs scorable bands on both sides; give more bands (--per-decade, a smaller --width).")
+		return nil
 	}
 	if len(rep.Stretches) == 0 {
 		fmt.Fprintln(w, "\nNo range stands out against its neighbours at the 5% family-wise level.")
@@ -209,6 +224,18 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 			numfmt.Int(s.Count), numfmt.Int(int64(s.Expected+0.5)), numfmt.Int(int64(math.Round(s.Excess))), s.Drill)
 	}
 	return nil
+}
+
+// fitText describes the local fit chosen by cross-validation.
+func fitText(f benford.BandFit) string {
+	if f.Candidates == 0 {
+		return "too few bands to fit"
+	}
+	shape := "line"
+	if f.Degree == 2 {
+		shape = "quadratic"
+	}
+	return fmt.Sprintf("local %s through %d bands on each side, chosen by cross-validation", shape, f.HalfWidth)
 }
 
 // bandFormat holds the text formatting of the ranges and limits commands.

@@ -187,7 +187,7 @@ func TestRangesFlags(t *testing.T) {
 }
 
 func TestDupsFlags(t *testing.T) {
-	got, err := parseFlags(dupsFlags, "--tests", "same_amount, exact", "--window-days", "10", "--top", "-1", "--min", "0", "--db", "w.duckdb")
+	got, err := parseFlags(dupsFlags, "--tests", "same_amount, exact", "--window-days", "10", "--top", "-1", "--min", "0", "--floor", "250.5", "--db", "w.duckdb")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -198,6 +198,7 @@ func TestDupsFlags(t *testing.T) {
 		MinCounterparties: duplicates.DefaultMinCounterparties,
 		MinRecords:        duplicates.DefaultMinRecords,
 		Top:               -1,
+		Floor:             "250.5",
 	}}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("dups options\n got %+v\nwant %+v", got, want)

@@ -29,10 +29,6 @@ const (
 	MinScoredBands = 5
 	// BandAlpha is the family-wise error rate at which bands are flagged.
 	BandAlpha = 0.05
-	// minNeighbours and maxNeighbours bound the neighbours on each side of
-	// a band in its local fit (see ScoreBands).
-	minNeighbours = 10
-	maxNeighbours = 60
 )
 
 // LinearBands returns bands of equal width covering [min, max):
@@ -101,9 +97,20 @@ func LogBands(min, max float64, perDecade int) []Band {
 	return bands
 }
 
+// BandFit says how ScoreBands fitted the expectation: the local fit's
+// half-width (neighbours on each side) and degree chosen by
+// cross-validation, and the cross-validation score of the choice.
+type BandFit struct {
+	HalfWidth  int     `json:"half_width"` // neighbours on each side of a band in its local fit
+	Degree     int     `json:"degree"`     // 1 (line) or 2 (quadratic) on the log scale
+	CVScore    float64 `json:"cv_score"`   // robust mean squared leave-one-out Pearson residual of the choice
+	Candidates int     `json:"candidates"` // (half-width, degree) pairs compared
+}
+
 // ScoreBands compares each band's count with a smooth expectation drawn
 // from the other bands and flags the bands well above it. Bands must be in
-// ascending order of amount; only From, To and Count are read.
+// ascending order of amount; only From, To and Count are read. It returns
+// the fit it chose.
 //
 // The expectation works on the log scale, where a scale-invariant density
 // f(x) ∝ 1/x (the Benford case) is flat and a log-normal density is a
@@ -115,10 +122,10 @@ func LogBands(min, max float64, perDecade int) []Band {
 //
 // (the logarithmic mean is where a 1/x density takes its band average; the
 // 1/2 is the usual start for counts that may be 0). For each band a
-// quadratic in x is fitted through its nearest scorable neighbours, h on
-// each side (h = m/4 clamped to [10, 60] for m scorable bands; the window
-// is shifted inwards at the ends of the range), the band itself left out;
-// then Expected_i = u_i exp(ŷ_i). The fit is robust in two steps:
+// polynomial of degree d in x is fitted through its nearest scorable
+// neighbours, h on each side (the window is shifted inwards at the ends of
+// the range), the band itself left out; then Expected_i = u_i exp(ŷ_i).
+// The fit is robust in two steps:
 //
 //  1. start: a least-median-of-squares quadratic (Rousseeuw 1984) through
 //     each band's window, searched over triples with one point from each
@@ -131,15 +138,33 @@ func LogBands(min, max float64, perDecade int) []Band {
 //     where n_j + 1/2 is the precision of y_j and B(t) = (1 - t²)² for
 //     |t| < 1, else 0, is Tukey's biweight. A residual is thus judged
 //     against the larger of the common misfit and the band's own Poisson
-//     noise. A straight line is used where fewer than 10 neighbours carry
-//     weight.
+//     noise.
 //
-// Inflated bands, alone or in a block up to about a third of the window,
-// get weight 0 and neither hide themselves nor lift their neighbours'
-// expectations. Linear and logarithmic bands are treated alike.
+// The half-width h and the degree d (1 or 2) are chosen by leave-one-out
+// cross-validation over the bands: each candidate pair (h from 2 up to 64,
+// or what the bands allow) is fitted as above, and scores
+// CV = mean r_i² with r_i = (n_i - E_i)/sqrt(E_i) the Pearson residual of
+// band i against its leave-one-out expectation, over the bands that no
+// candidate's robust fit set aside (weight 0), so that an inflated band
+// does not reward the windows narrow enough to absorb it. A window too
+// narrow is penalised by the noise of its expectations, one too wide by
+// its misfit. The widest window (then the lower degree) whose CV is within
+// one standard error of the smallest is chosen (the one-standard-error
+// rule of cross-validation: Breiman, Friedman, Olshen and Stone,
+// Classification and Regression Trees, 1984), which keeps a wide block of
+// inflated bands visible on data that a wide window fits.
+//
+// No band is scored by extrapolation: the first and the last scorable band
+// have no band beyond them, and with a quadratic the second and the
+// second-last have one, too few to pin its curvature (on smooth non-1/x
+// data a quadratic through one band on one side and many on the other
+// misses by several per cent at the ends). These bands take part in their
+// neighbours' fits but are left unscored (Scored false), like the bands at
+// or below zero. The cross-validation compares the candidates over the
+// bands with at least two bands on each side.
+//
 // ExpectedSE = Expected · sqrt(v_i) is the standard error of Expected,
 // v_i = [(XᵀWX)⁻¹]₀₀ the variance of the last pass's fit at x_i.
-//
 // With z_i = (n_i - E_i)/sqrt(E_i + E_i² v_i), the dispersion is
 // φ = max(1, (1.4826 · MAD(z))²), a robust quasi-Poisson scale (the median
 // absolute deviation about the median scaled to a normal standard
@@ -158,7 +183,7 @@ func LogBands(min, max float64, perDecade int) []Band {
 // bands when fewer than MinScoredBands are scorable. The first band of
 // LinearBands(0, ...) is such a band; under a 1/x density its count is
 // dominated by the smallest amounts in any case.
-func ScoreBands(bands []Band) {
+func ScoreBands(bands []Band) BandFit {
 	var idx []int // scorable bands
 	for i := range bands {
 		b := &bands[i]
@@ -169,46 +194,195 @@ func ScoreBands(bands []Band) {
 	}
 	m := len(idx)
 	if m < MinScoredBands {
-		return
+		return BandFit{}
 	}
 	x := make([]float64, m)
 	y := make([]float64, m)
 	u := make([]float64, m)
 	w := make([]float64, m) // precision of y
+	n := make([]float64, m)
 	for s, i := range idx {
 		b := bands[i]
 		u[s] = math.Log(b.To / b.From)
 		x[s] = math.Log((b.To - b.From) / u[s])
-		w[s] = float64(b.Count) + 0.5
+		n[s] = float64(b.Count)
+		w[s] = n[s] + 0.5
 		y[s] = math.Log(w[s] / u[s])
 	}
-	h := min(max(m/4, minNeighbours), maxNeighbours)
-	win := min(2*h, m-1)
-	window := func(s, win int) (lo, hi int) {
-		lo = max(0, min(s-win/2, m-1-win))
-		return lo, lo + win
+	type candidate struct {
+		h, deg int
+		yhat   []float64
+		v, rw  []float64
 	}
-	yhat := make([]float64, m)
-	v := make([]float64, m)
-	// Robust start: a least-median-of-squares quadratic through each
-	// band's neighbours (lmsQuadraticAt0).
-	{
-		nx := make([]float64, 0, win)
-		ny := make([]float64, 0, win)
-		scratch := make([]float64, 0, win)
-		for s := range m {
-			lo, hi := window(s, win)
-			nx, ny = nx[:0], ny[:0]
-			for t := lo; t <= hi; t++ {
-				if t != s {
-					nx = append(nx, x[t]-x[s])
-					ny = append(ny, y[t])
-				}
+	var cands []candidate
+	for _, h := range bandHalfWidths {
+		if 2*h > m-1 && h > bandHalfWidths[0] {
+			break
+		}
+		start := lmsStart(x, y, h) // the same for both degrees
+		for deg := 1; deg <= 2; deg++ {
+			if deg == 2 && 2*min(h, (m-1)/2) < 5 {
+				continue
 			}
-			yhat[s] = lmsQuadraticAt0(nx, ny, scratch)
+			yh, vh, rw := robustLocalFit(x, y, w, start, h, deg)
+			cands = append(cands, candidate{min(h, (m-1)/2), deg, yh, vh, rw})
 		}
 	}
-	rw := make([]float64, m) // robustness weights
+	// The cross-validation compares the candidates on the same bands: those
+	// that no candidate's robust fit set aside (a band inflated in any
+	// fit's eyes would otherwise reward the windows narrow enough to absorb
+	// it).
+	clean := make([]bool, m)
+	for s := 2; s < m-2; s++ {
+		clean[s] = true
+		for _, c := range cands {
+			if c.rw[s] == 0 {
+				clean[s] = false
+			}
+		}
+	}
+	// Each candidate's score is the mean squared Pearson residual over the
+	// clean bands, with its standard error; the widest window (then the
+	// lower degree) within one standard error of the best is chosen.
+	score := make([]float64, len(cands))
+	best := -1
+	var bestSE float64
+	for k, c := range cands {
+		var sum, sum2 float64
+		cnt := 0
+		for s := 2; s < m-2; s++ {
+			if clean[s] {
+				e := u[s] * math.Exp(clampFit(c.yhat[s], y))
+				r2 := (n[s] - e) * (n[s] - e) / e
+				sum += r2
+				sum2 += r2 * r2
+				cnt++
+			}
+		}
+		if cnt == 0 {
+			score[k] = math.Inf(1)
+			continue
+		}
+		mean := sum / float64(cnt)
+		score[k] = mean
+		if best < 0 || mean < score[best] {
+			best = k
+			bestSE = math.Sqrt(math.Max(0, sum2/float64(cnt)-mean*mean) / float64(cnt))
+		}
+	}
+	choice := 0
+	if best >= 0 {
+		choice = best
+		for k, c := range cands {
+			if score[k] <= score[best]+bestSE && (c.h > cands[choice].h || c.h == cands[choice].h && c.deg < cands[choice].deg) {
+				choice = k
+			}
+		}
+	}
+	c := cands[choice]
+	fit := BandFit{HalfWidth: c.h, Degree: c.deg, CVScore: score[choice], Candidates: len(cands)}
+	yhat, v := c.yhat, c.v
+	z := make([]float64, 0, m)
+	for s, i := range idx {
+		if s < c.deg || s > m-1-c.deg {
+			continue // too few bands beyond it: never scored by extrapolation
+		}
+		b := &bands[i]
+		yh := clampFit(yhat[s], y)
+		vs := v[s]
+		if !(vs <= 100) {
+			vs = 100
+		}
+		e := u[s] * math.Exp(yh)
+		b.Expected = e
+		b.ExpectedSE = e * math.Sqrt(vs)
+		b.Scored = true
+		b.Ratio = float64(b.Count) / e
+		z = append(z, (float64(b.Count)-e)/math.Sqrt(e+b.ExpectedSE*b.ExpectedSE))
+	}
+	phi := dispersion(z)
+	var p []float64
+	var pi []int
+	for _, i := range idx {
+		b := &bands[i]
+		if !b.Scored {
+			continue
+		}
+		phiI := phi * (1 + b.ExpectedSE*b.ExpectedSE/b.Expected)
+		b.Z = (float64(b.Count) - b.Expected) / math.Sqrt(phiI*b.Expected)
+		b.P = PoissonUpperTail(float64(b.Count)/phiI, b.Expected/phiI)
+		p = append(p, b.P)
+		pi = append(pi, i)
+	}
+	adj := Holm(p)
+	for k, i := range pi {
+		b := &bands[i]
+		b.PAdjusted = adj[k]
+		b.Flagged = adj[k] < BandAlpha && float64(b.Count) > b.Expected
+	}
+	return fit
+}
+
+// bandHalfWidths are the local fit's half-widths that ScoreBands compares
+// by cross-validation (roughly doubling: the criterion is flat near its
+// minimum).
+var bandHalfWidths = []int{2, 3, 4, 6, 8, 12, 16, 24, 32, 48, 64}
+
+// clampFit keeps a fitted log density finite and within e^20 of the
+// observed ones (a NaN fit takes the median of y).
+func clampFit(yh float64, y []float64) float64 {
+	ylo, yhi := y[0], y[0]
+	for _, t := range y {
+		ylo, yhi = math.Min(ylo, t), math.Max(yhi, t)
+	}
+	if math.IsNaN(yh) {
+		yh = median(append([]float64(nil), y...))
+	}
+	return math.Min(math.Max(yh, ylo-20), yhi+20)
+}
+
+// bandWindow returns the window of band s among m bands for half-width h:
+// h bands on each side, shifted inwards at the ends.
+func bandWindow(s, m, h int) (lo, hi int) {
+	win := min(2*h, m-1)
+	lo = max(0, min(s-win/2, m-1-win))
+	return lo, lo + win
+}
+
+// lmsStart returns the robust start of the local fits of half-width h: a
+// least-median-of-squares quadratic through each band's neighbours
+// (lmsQuadraticAt0).
+func lmsStart(x, y []float64, h int) []float64 {
+	m := len(x)
+	win := min(2*h, m-1)
+	start := make([]float64, m)
+	nx := make([]float64, 0, win)
+	ny := make([]float64, 0, win)
+	scratch := make([]float64, 0, win)
+	for s := range m {
+		lo, hi := bandWindow(s, m, h)
+		nx, ny = nx[:0], ny[:0]
+		for t := lo; t <= hi; t++ {
+			if t != s {
+				nx = append(nx, x[t]-x[s])
+				ny = append(ny, y[t])
+			}
+		}
+		start[s] = lmsQuadraticAt0(nx, ny, scratch)
+	}
+	return start
+}
+
+// robustLocalFit returns, for every band s, the robust leave-one-out fit
+// ŷ_s of degree deg through the h nearest bands on each side (shifted
+// inwards at the ends), from the robust start (lmsStart), its variance,
+// and the robustness weights of the last pass (0 for the bands set aside;
+// see ScoreBands).
+func robustLocalFit(x, y, w, start []float64, h, deg int) (yhat, v, rw []float64) {
+	m := len(x)
+	yhat = append([]float64(nil), start...)
+	v = make([]float64, m)
+	rw = make([]float64, m) // robustness weights
 	e := make([]float64, m)
 	abs := make([]float64, m)
 	for iter := 0; ; iter++ {
@@ -224,52 +398,14 @@ func ScoreBands(bands []Band) {
 			rw[s] = biweight(e[s] / (biweightC * math.Sqrt(sc*sc+1/w[s])))
 		}
 		for s := range m {
-			lo, hi := window(s, win)
-			yhat[s], v[s] = localFit(x, y, w, rw, s, lo, hi)
+			lo, hi := bandWindow(s, m, h)
+			yhat[s], v[s] = localFit(x, y, w, rw, s, lo, hi, deg)
 		}
 		if iter == robustIterations {
 			break
 		}
 	}
-	// Keep extrapolations at the ends of the range finite: no expectation
-	// beyond e^20 times the extreme observed densities, and a relative
-	// standard error of at most 10.
-	ylo, yhi := y[0], y[0]
-	for _, t := range y {
-		ylo, yhi = math.Min(ylo, t), math.Max(yhi, t)
-	}
-	z := make([]float64, m)
-	for s, i := range idx {
-		b := &bands[i]
-		if math.IsNaN(yhat[s]) {
-			yhat[s] = median(append([]float64(nil), y...))
-		}
-		yhat[s] = math.Min(math.Max(yhat[s], ylo-20), yhi+20)
-		if !(v[s] <= 100) {
-			v[s] = 100
-		}
-		e := u[s] * math.Exp(yhat[s])
-		b.Expected = e
-		b.ExpectedSE = e * math.Sqrt(v[s])
-		b.Scored = true
-		b.Ratio = float64(b.Count) / e
-		z[s] = (float64(b.Count) - e) / math.Sqrt(e+b.ExpectedSE*b.ExpectedSE)
-	}
-	phi := dispersion(z)
-	p := make([]float64, m)
-	for s, i := range idx {
-		b := &bands[i]
-		phiI := phi * (1 + b.ExpectedSE*b.ExpectedSE/b.Expected)
-		b.Z = (float64(b.Count) - b.Expected) / math.Sqrt(phiI*b.Expected)
-		b.P = PoissonUpperTail(float64(b.Count)/phiI, b.Expected/phiI)
-		p[s] = b.P
-	}
-	adj := Holm(p)
-	for s, i := range idx {
-		b := &bands[i]
-		b.PAdjusted = adj[s]
-		b.Flagged = adj[s] < BandAlpha && float64(b.Count) > b.Expected
-	}
+	return yhat, v, rw
 }
 
 const (
@@ -287,25 +423,22 @@ func biweight(t float64) float64 {
 	return a * a
 }
 
-// localFit fits y ≈ b0 + b1 (x - x_s) + b2 (x - x_s)² by weighted least
-// squares over positions lo..hi except s, with weights w·rw, and returns
-// the fitted value b0 at x_s and its variance [(XᵀWX)⁻¹]₀₀. It uses a
-// straight line when fewer than 10 points carry weight, and falls back to
-// lower degrees when the normal equations are singular; with no weight at
-// all it returns the median of the window's y and a variance of 0.
-func localFit(x, y, w, rw []float64, s, lo, hi int) (fit, variance float64) {
+// localFit fits y ≈ b0 + b1 (x - x_s) + b2 (x - x_s)² (up to degree
+// maxDeg) by weighted least squares over positions lo..hi except s, with
+// weights w·rw, and returns the fitted value b0 at x_s and its variance
+// [(XᵀWX)⁻¹]₀₀. It keeps at least one point more than the fit's
+// coefficients (a lower degree otherwise), and falls back to lower degrees
+// when the normal equations are singular; with no weight at all it returns
+// the median of the window's y and a variance of 0.
+func localFit(x, y, w, rw []float64, s, lo, hi, maxDeg int) (fit, variance float64) {
 	npos := 0
 	for t := lo; t <= hi; t++ {
 		if t != s && w[t]*rw[t] > 0 {
 			npos++
 		}
 	}
-	deg := 2
-	if npos < 10 {
-		deg = 1
-	}
-	for ; deg >= 0; deg-- {
-		if npos <= deg {
+	for deg := maxDeg; deg >= 0; deg-- {
+		if npos <= deg || (deg > 0 && npos == deg+1) {
 			continue
 		}
 		var a [3][3]float64

@@ -1,30 +1,13 @@
 package benford
 
 import (
-	"math"
 	"math/rand/v2"
 	"sort"
 	"testing"
-
-	"gonum.org/v1/gonum/stat/distuv"
 )
 
-// A smooth population that does not follow 1/x locally: a mixture of three
-// lognormals (invented for the test), median amounts 150, 2,500 and 40,000.
-var mixture = []struct{ w, mu, sigma float64 }{
-	{0.5, math.Log(150), 1.0}, {0.35, math.Log(2500), 0.9}, {0.15, math.Log(40000), 1.1},
-}
-
-func mixtureCDF(x float64) float64 {
-	if x <= 0 {
-		return 0
-	}
-	var c float64
-	for _, m := range mixture {
-		c += m.w * distuv.UnitNormal.CDF((math.Log(x)-m.mu)/m.sigma)
-	}
-	return c
-}
+// mixtureCDF is the smooth non-1/x population of the simulations.
+var mixtureCDF = SmoothMixtureCDF
 
 // flankCounts draws n amounts from the mixture (multinomial over the
 // intervals between the probe's edges, through Multinomial) plus inject

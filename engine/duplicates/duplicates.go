@@ -12,6 +12,15 @@
 //     divided by the second largest (M. J. Nigrini (2012), Benford's Law,
 //     Wiley; the factor as described there, from memory).
 //
+// What a practitioner follows up is money at stake: exact, same_amount and
+// spread groups are ranked by the amount times its extra copies, same_doc
+// groups by what the document holds beyond its largest line. Groups whose
+// amounts are all below a floor (Options.Floor, DefaultFloor unless set)
+// are left out, and so are same_doc groups whose lines all belong to
+// documents that net to zero (the lines of one balanced document differ by
+// design). Each test says how many groups and records it left out for
+// each reason (TestResult.LeftOut).
+//
 // A test whose key columns the ledger lacks (never filled: not mapped at
 // load) is reported as skipped with the column it needs, not as an error.
 // The tests run in DuckDB over the population (engine/population: filter,
@@ -63,6 +72,16 @@ const (
 	DefaultTop               = 20 // groups kept per test
 	DefaultMinCounterparties = 3  // spread: counterparties an amount must reach
 	DefaultMinRecords        = 3  // rsf: records a counterparty must have (our own default)
+	// DefaultFloor is the smallest absolute amount a group must reach to
+	// be listed (our own default, common practice, no source: below it a
+	// repeat rarely repays the follow-up; 0 lists every group).
+	DefaultFloor = "100"
+)
+
+// Reasons a group is left out (LeftOut.Reason).
+const (
+	LeftBelowFloor = "below_floor"       // every amount of the group below the floor
+	LeftBalanced   = "balanced_document" // same_doc: lines of documents that net to zero
 )
 
 // Kind is the kind of the stored run.
@@ -76,6 +95,7 @@ type Options struct {
 	MinCounterparties int      `json:"min_counterparties"` // spread
 	MinRecords        int      `json:"min_records"`        // rsf
 	Top               int      `json:"top"`                // groups kept per test; -1 = all
+	Floor             string   `json:"floor"`              // smallest absolute amount a group must reach (exact decimal; "0" lists all)
 }
 
 func (o *Options) defaults() {
@@ -91,6 +111,9 @@ func (o *Options) defaults() {
 	}
 	if o.Top == 0 {
 		o.Top = DefaultTop
+	}
+	if strings.TrimSpace(o.Floor) == "" {
+		o.Floor = DefaultFloor
 	}
 }
 
@@ -119,6 +142,11 @@ func (o *Options) check() error {
 	if o.Top < -1 {
 		return fmt.Errorf("--top %d: give a number of groups, or -1 for all", o.Top)
 	}
+	f, ok := population.ParseDecimal(o.Floor)
+	if !ok || f.Sign() < 0 {
+		return fmt.Errorf("--floor %q: give the smallest absolute amount a group must reach, 0 or more (0 lists every group); %s", o.Floor, population.DecimalHint)
+	}
+	o.Floor = strings.ReplaceAll(strings.TrimPrefix(strings.TrimSpace(o.Floor), "+"), "_", "")
 	return o.Spec.Check()
 }
 
@@ -133,8 +161,8 @@ var titles = map[string]string{
 var rankings = map[string]string{
 	Exact:      "excess amount |amount| x (records - 1), largest first",
 	SameAmount: "excess amount |amount| x (documents - 1), largest first",
-	SameDoc:    "sum of absolute amounts, largest first",
-	Spread:     "counterparties, then records, most first",
+	SameDoc:    "excess amount: sum of |amount| beyond the largest line, largest first",
+	Spread:     "excess amount |amount| x (counterparties - 1), largest first",
 	RSF:        "relative size factor, largest first",
 }
 
@@ -180,16 +208,24 @@ type Group struct {
 
 // TestResult is what one test found.
 type TestResult struct {
-	Test         string   `json:"test"`
-	Title        string   `json:"title"`
-	Status       string   `json:"status"`           // ok or skipped
-	Reason       string   `json:"reason,omitempty"` // why skipped, e.g. "needs doc_id"
-	Needs        []string `json:"needs"`
-	Ranking      string   `json:"ranking"`
-	GroupsTotal  int64    `json:"groups_total"`  // groups found (Groups holds the top ones)
-	RecordsTotal int64    `json:"records_total"` // records in all groups found
-	Groups       []Group  `json:"groups"`
-	Seconds      float64  `json:"seconds"`
+	Test         string    `json:"test"`
+	Title        string    `json:"title"`
+	Status       string    `json:"status"`           // ok or skipped
+	Reason       string    `json:"reason,omitempty"` // why skipped, e.g. "needs doc_id"
+	Needs        []string  `json:"needs"`
+	Ranking      string    `json:"ranking"`
+	GroupsTotal  int64     `json:"groups_total"`  // groups found and kept (Groups holds the top ones)
+	RecordsTotal int64     `json:"records_total"` // records in all groups kept
+	LeftOut      []LeftOut `json:"left_out"`      // groups found but left out, by reason
+	Groups       []Group   `json:"groups"`
+	Seconds      float64   `json:"seconds"`
+}
+
+// LeftOut counts the groups of a test left out for one reason.
+type LeftOut struct {
+	Reason  string `json:"reason"` // below_floor or balanced_document
+	Groups  int64  `json:"groups"`
+	Records int64  `json:"records"`
 }
 
 // Result is a duplicates run: the document `leadline dups --format json`
@@ -243,7 +279,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Result, erro
 	}
 	defer ws.Step("duplicates")()
 	for _, test := range o.Tests {
-		tr := TestResult{Test: test, Title: titles[test], Status: "ok", Needs: needs(test, o), Ranking: rankings[test], Groups: []Group{}}
+		tr := TestResult{Test: test, Title: titles[test], Status: "ok", Needs: needs(test, o), Ranking: rankings[test], Groups: []Group{}, LeftOut: []LeftOut{}}
 		var missing []string
 		for _, c := range tr.Needs {
 			if !have[c] {
@@ -282,12 +318,14 @@ func runTest(ctx context.Context, ws *workspace.Workspace, test string, o Option
 	case RSF:
 		args = append(args, o.MinRecords)
 	}
-	args = append(args, limit)
+	args = append(args, o.Floor, limit)
 	rows, err := ws.Conn.QueryContext(ctx, queries.Render(name, repl), args...)
 	if err != nil {
 		return err
 	}
 	defer rows.Close()
+	var keep bool
+	var floorGroups, floorRecords, balGroups, balRecords int64
 	for rows.Next() {
 		g := Group{ID: len(tr.Groups) + 1}
 		var ns [4]sql.NullString
@@ -298,20 +336,32 @@ func runTest(ctx context.Context, ws *workspace.Workspace, test string, o Option
 		case SameAmount:
 			dest = []any{&g.Amount, &g.Counterparty, &g.Records, &g.Documents, &ns[0], &ns[1], &g.Excess, &g.Total}
 		case SameDoc:
-			dest = []any{&g.DocID, &g.Counterparty, &g.Records, &g.Amounts, &g.MinAmount, &g.MaxAmount, &ns[0], &ns[1], &g.Total}
+			dest = []any{&g.DocID, &g.Counterparty, &g.Records, &g.Amounts, &g.MinAmount, &g.MaxAmount, &ns[0], &ns[1], &g.Excess, &g.Total}
 		case Spread:
-			dest = []any{&g.Amount, &g.Counterparties, &g.Records, &g.Total}
+			dest = []any{&g.Amount, &g.Counterparties, &g.Records, &g.Excess, &g.Total}
 		case RSF:
 			dest = []any{&g.Counterparty, &g.Records, &g.Largest, &g.Second, &g.RSF, &g.Total}
 		}
-		dest = append(dest, &tr.GroupsTotal, &tr.RecordsTotal)
+		dest = append(dest, &keep, &tr.GroupsTotal, &tr.RecordsTotal, &floorGroups, &floorRecords, &balGroups, &balRecords)
 		if err := rows.Scan(dest...); err != nil {
 			return err
+		}
+		if !keep { // rows of groups left out only carry the counts
+			continue
 		}
 		g.FirstPosted, g.LastPosted = ns[0].String, ns[1].String
 		tr.Groups = append(tr.Groups, g)
 	}
-	return rows.Err()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	if balGroups > 0 {
+		tr.LeftOut = append(tr.LeftOut, LeftOut{Reason: LeftBalanced, Groups: balGroups, Records: balRecords})
+	}
+	if floorGroups > 0 {
+		tr.LeftOut = append(tr.LeftOut, LeftOut{Reason: LeftBelowFloor, Groups: floorGroups, Records: floorRecords})
+	}
+	return nil
 }
 
 // Save stores the result as a run of kind "duplicates" and gives it and its

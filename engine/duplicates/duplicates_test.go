@@ -123,10 +123,15 @@ func keyOf(test string, g duplicates.Group) (string, string) {
 	return "", ""
 }
 
-// expected computes every group of a test over the population in Go.
-func expected(test string, pop []drilltest.Row, windowDays int) map[string]expectation {
-	return expectedWith(test, pop, windowDays, duplicates.DefaultMinCounterparties, duplicates.DefaultMinRecords)
+// expected computes every group of a test over the population in Go, with
+// the default options (all: every row of the ledger, for the documents'
+// balances).
+func expected(test string, pop, all []drilltest.Row, windowDays int) (map[string]expectation, map[string][2]int64) {
+	return expectedWith(test, pop, all, windowDays, duplicates.DefaultMinCounterparties, duplicates.DefaultMinRecords, defaultFloorCents)
 }
+
+// defaultFloorCents is duplicates.DefaultFloor in cents.
+const defaultFloorCents = 10000
 
 func absC(c int64) int64 {
 	if c < 0 {
@@ -135,8 +140,17 @@ func absC(c int64) int64 {
 	return c
 }
 
-func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecords int) map[string]expectation {
+// expectedWith computes the groups a test keeps, and per reason the groups
+// and records it leaves out: groups whose amounts are all below floor
+// (cents), and same_doc groups whose lines all belong to documents
+// (entity, doc_id) that net to zero over all.
+func expectedWith(test string, pop, all []drilltest.Row, windowDays, minCPs, minRecords int, floor int64) (map[string]expectation, map[string][2]int64) {
 	out := map[string]expectation{}
+	left := map[string][2]int64{}
+	leave := func(reason string, records int64) {
+		l := left[reason]
+		left[reason] = [2]int64{l[0] + 1, l[1] + records}
+	}
 	ct := drilltest.CentsText
 	switch test {
 	case duplicates.Exact:
@@ -148,7 +162,11 @@ func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecor
 			cents[k] = r.Cents
 		}
 		for k, c := range n {
-			if c >= 2 {
+			switch {
+			case c < 2:
+			case absC(cents[k]) < floor:
+				leave(duplicates.LeftBelowFloor, c)
+			default:
 				out[k] = expectation{key: k, records: c, extra: ct(absC(cents[k]) * (c - 1))}
 			}
 		}
@@ -173,7 +191,9 @@ func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecor
 				for _, r := range c {
 					docs[r.DocID] = true
 				}
-				if len(docs) >= 2 {
+				if len(docs) >= 2 && absC(c[0].Cents) < floor {
+					leave(duplicates.LeftBelowFloor, int64(len(c)))
+				} else if len(docs) >= 2 {
 					kk := k + "|" + day(c[0].Posted)
 					out[kk] = expectation{key: kk, records: int64(len(c)), extra: fmt.Sprintf("docs=%d last=%s", len(docs), day(c[len(c)-1].Posted))}
 				}
@@ -181,24 +201,39 @@ func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecor
 		}
 	case duplicates.SameDoc:
 		type agg struct {
-			n        int64
-			amounts  map[int64]bool
-			min, max int64
+			n                 int64
+			amounts           map[int64]bool
+			min, max, largest int64
+			balanced          bool
+		}
+		net := map[string]int64{}
+		for _, r := range all {
+			if r.DocID != "" {
+				net[r.Entity+"|"+r.DocID] += r.Cents
+			}
 		}
 		by := map[string]*agg{}
 		for _, r := range pop {
 			k := r.DocID + "|" + r.Counterparty
 			a := by[k]
 			if a == nil {
-				a = &agg{amounts: map[int64]bool{}, min: math.MaxInt64, max: math.MinInt64}
+				a = &agg{amounts: map[int64]bool{}, min: math.MaxInt64, max: math.MinInt64, balanced: true}
 				by[k] = a
 			}
 			a.n++
 			a.amounts[r.Cents] = true
 			a.min, a.max = min(a.min, r.Cents), max(a.max, r.Cents)
+			a.largest = max(a.largest, absC(r.Cents))
+			a.balanced = a.balanced && net[r.Entity+"|"+r.DocID] == 0
 		}
 		for k, a := range by {
-			if len(a.amounts) >= 2 {
+			switch {
+			case len(a.amounts) < 2:
+			case a.balanced:
+				leave(duplicates.LeftBalanced, a.n)
+			case a.largest < floor:
+				leave(duplicates.LeftBelowFloor, a.n)
+			default:
 				out[k] = expectation{key: k, records: a.n, extra: fmt.Sprintf("amounts=%d min=%s max=%s", len(a.amounts), ct(a.min), ct(a.max))}
 			}
 		}
@@ -213,7 +248,11 @@ func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecor
 			n[r.Cents]++
 		}
 		for c, s := range cps {
-			if len(s) >= minCPs {
+			switch {
+			case len(s) < minCPs:
+			case absC(c) < floor:
+				leave(duplicates.LeftBelowFloor, n[c])
+			default:
 				out[ct(c)] = expectation{key: ct(c), records: n[c], extra: fmt.Sprintf("cps=%d", len(s))}
 			}
 		}
@@ -230,11 +269,24 @@ func expectedWith(test string, pop []drilltest.Row, windowDays, minCPs, minRecor
 			if as[1] == 0 {
 				continue
 			}
+			if as[0] < floor {
+				leave(duplicates.LeftBelowFloor, int64(len(as)))
+				continue
+			}
 			rsf := (float64(as[0]) / 100) / (float64(as[1]) / 100)
 			out[cp] = expectation{key: cp, records: int64(len(as)), extra: fmt.Sprintf("largest=%s second=%s rsf=%.6f", ct(as[0]), ct(as[1]), rsf)}
 		}
 	}
-	return out
+	return out, left
+}
+
+// leftOf turns a test's LeftOut into the shape expectedWith returns.
+func leftOf(tr duplicates.TestResult) map[string][2]int64 {
+	m := map[string][2]int64{}
+	for _, l := range tr.LeftOut {
+		m[l.Reason] = [2]int64{l.Groups, l.Records}
+	}
+	return m
 }
 
 // plantFound reports whether a reported group holds the planted one.
@@ -298,7 +350,10 @@ func TestPlantedAndCoincidences(t *testing.T) {
 			if tr.Status != "ok" {
 				t.Fatalf("window %d: test %s %s: %s", window, tr.Test, tr.Status, tr.Reason)
 			}
-			want := expected(tr.Test, pop, window)
+			want, wantLeft := expected(tr.Test, pop, l.Rows, window)
+			if got := leftOf(tr); fmt.Sprint(got) != fmt.Sprint(wantLeft) {
+				t.Errorf("window %d, %s: left out %v, Go: %v", window, tr.Test, got, wantLeft)
+			}
 			got := map[string]duplicates.Group{}
 			var records int64
 			for _, g := range tr.Groups {
@@ -334,6 +389,16 @@ func TestPlantedAndCoincidences(t *testing.T) {
 				if tr.Test == duplicates.SameAmount && window > 0 && p.GapDays > window {
 					continue // outside the window by design: TestPlantedInWindow checks these
 				}
+				amountKeyed := tr.Test == duplicates.Exact || tr.Test == duplicates.SameAmount || tr.Test == duplicates.Spread
+				if amountKeyed && absC(p.Cents) < defaultFloorCents {
+					// below the default floor by design: left out, counted
+					// (left_out is checked against Go above), listed with
+					// --floor 0 (TestOtherPopulation)
+					if plantFound(tr.Test, p, tr.Groups) {
+						t.Errorf("window %d, %s: planted group %s below the floor is listed", window, tr.Test, plantKey(p))
+					}
+					continue
+				}
 				if plantFound(tr.Test, p, tr.Groups) {
 					found++
 				} else {
@@ -356,10 +421,13 @@ func TestOtherPopulation(t *testing.T) {
 			pop = append(pop, r)
 		}
 	}
-	o := duplicates.Options{Spec: popn.Spec{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1}
+	o := duplicates.Options{Spec: popn.Spec{Signs: "both", Min: "0", Where: "entity <> 'WEST'"}, WindowDays: 3, MinCounterparties: 4, MinRecords: 5, Top: -1, Floor: "0"}
 	res := runAll(t, ws, o)
 	for _, tr := range res.Tests {
-		want := expectedWith(tr.Test, pop, 3, 4, 5)
+		want, wantLeft := expectedWith(tr.Test, pop, l.Rows, 3, 4, 5, 0)
+		if got := leftOf(tr); fmt.Sprint(got) != fmt.Sprint(wantLeft) {
+			t.Errorf("%s: left out %v, Go: %v", tr.Test, got, wantLeft)
+		}
 		n := 0
 		for _, g := range tr.Groups {
 			k, extra := keyOf(tr.Test, g)
@@ -422,12 +490,8 @@ func TestRanking(t *testing.T) {
 			p, g := tr.Groups[j-1], tr.Groups[j]
 			var ok bool
 			switch tr.Test {
-			case duplicates.Exact, duplicates.SameAmount:
+			case duplicates.Exact, duplicates.SameAmount, duplicates.SameDoc, duplicates.Spread:
 				ok = ratOf(p.Excess) >= ratOf(g.Excess)
-			case duplicates.SameDoc:
-				ok = true // sum of absolute amounts: not in the group, checked by drill below
-			case duplicates.Spread:
-				ok = p.Counterparties > g.Counterparties || p.Counterparties == g.Counterparties && p.Records >= g.Records
 			case duplicates.RSF:
 				ok = p.RSF >= g.RSF
 			}
@@ -626,5 +690,66 @@ func TestBadInput(t *testing.T) {
 		if _, _, err := duplicates.GroupSelection(ctx, ws, c.ref); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("GroupSelection(%+v): %v, want %q", c.ref, err, c.want)
 		}
+	}
+}
+
+// TestGeneralLedger: on a small general ledger in double entry, same_doc
+// leaves out the lines of documents that net to zero (before, every
+// multi-line document was a group) and keeps a document that does not;
+// groups below the floor are left out and counted; spread ranks by money
+// at stake (before, by counterparties: an amount of 12.00 to five
+// counterparties ranked above 4,800.00 to four); the text output says what
+// was left out.
+func TestGeneralLedger(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "gl.csv")
+	rows := "doc_id,counterparty,posted,amount,entity,account\n" +
+		// balanced supplier invoices: two expense lines and the payable
+		"D1,Acme,2025-03-01,400.00,E1,5010\nD1,Acme,2025-03-01,250.00,E1,5020\nD1,Acme,2025-03-01,-650.00,E1,2000\n" +
+		"D2,Bolt,2025-03-02,900.00,E1,5010\nD2,Bolt,2025-03-02,300.00,E1,5020\nD2,Bolt,2025-03-02,-1200.00,E1,2000\n" +
+		// an invoice whose expense line was entered twice: no longer balanced
+		"D3,Crane,2025-03-03,700.00,E1,5010\nD3,Crane,2025-03-03,700.00,E1,5010\nD3,Crane,2025-03-03,150.00,E1,5020\nD3,Crane,2025-03-03,-850.00,E1,2000\n" +
+		// the same doc_id in another entity, balanced there
+		"D3,Crane,2025-03-04,20.00,E2,5010\nD3,Crane,2025-03-04,-20.00,E2,2000\n"
+	for i, cp := range []string{"P1", "P2", "P3", "P4", "P5"} {
+		rows += fmt.Sprintf("S%d,%s,2025-04-0%d,12.00,E1,6000\nS%d,%s,2025-04-0%d,-12.00,E1,1020\n", i, cp, i+1, i, cp, i+1)
+	}
+	for i, cp := range []string{"Q1", "Q2", "Q3", "Q4"} {
+		rows += fmt.Sprintf("T%d,%s,2025-05-0%d,4800.00,E1,6100\nT%d,%s,2025-05-0%d,-4800.00,E1,1020\n", i, cp, i+1, i, cp, i+1)
+	}
+	if err := os.WriteFile(path, []byte(rows), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	ctx := context.Background()
+	ws, err := workspace.Open(ctx, ":memory:", workspace.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ws.Close()
+	if _, err := load.Load(ctx, ws, []string{path}, load.Options{}); err != nil {
+		t.Fatal(err)
+	}
+	res := runAll(t, ws, duplicates.Options{Tests: []string{duplicates.SameDoc, duplicates.Spread}})
+	doc, spread := res.Tests[0], res.Tests[1]
+	// D3's group (the key is document and counterparty) holds E1's three
+	// positive lines and E2's one: 1,570.00, 870.00 beyond the largest line.
+	if len(doc.Groups) != 1 || doc.Groups[0].DocID != "D3" || doc.Groups[0].Records != 4 || doc.Groups[0].Excess != "870.00" {
+		t.Errorf("same_doc: groups %+v, want only D3 (4 positive lines, 870.00 beyond the largest)", doc.Groups)
+	}
+	if got := leftOf(doc); got[duplicates.LeftBalanced] != [2]int64{2, 4} {
+		t.Errorf("same_doc left out %v, want the balanced documents D1 and D2: 2 groups of 4 records", got)
+	}
+	if len(spread.Groups) != 1 || spread.Groups[0].Amount != "4800.00" || spread.Groups[0].Excess != "14400.00" {
+		t.Errorf("spread: groups %+v, want only 4,800.00 (the 12.00 below the floor)", spread.Groups)
+	}
+	if got := leftOf(spread); got[duplicates.LeftBelowFloor] != [2]int64{1, 5} {
+		t.Errorf("spread left out %v, want 12.00: 1 group of 5 records below the floor", got)
+	}
+	all := runAll(t, ws, duplicates.Options{Tests: []string{duplicates.Spread}, Floor: "0"})
+	if g := all.Tests[0].Groups; len(g) != 2 || g[0].Amount != "4800.00" || g[1].Amount != "12.00" || len(all.Tests[0].LeftOut) != 0 {
+		t.Errorf("spread with floor 0: %+v, want 4,800.00 (4 counterparties, 14,400.00 at stake) before 12.00 (5 counterparties, 48.00)", g)
+	}
+	if _, err := duplicates.Run(ctx, ws, duplicates.Options{Floor: "1e3"}); err == nil || !strings.Contains(err.Error(), "--floor") {
+		t.Errorf("floor 1e3: error %v, want one naming --floor", err)
 	}
 }

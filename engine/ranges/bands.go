@@ -125,6 +125,13 @@ const (
 	NoteAboveData  = "reaches past the largest tested amount"
 	NoteAtZero     = "starts at zero"
 	NoteTooFewBand = "too few bands to score"
+	// NoteEdge marks the first and the last band that could be scored:
+	// their expectation would be an extrapolation, so they only help fit
+	// their neighbours.
+	NoteEdge = "not scored: no band beyond it"
+	// NoteNearEdge marks the second and the second-last such band when the
+	// fit is a quadratic, which one band on a side does not pin.
+	NoteNearEdge = "not scored: one band beyond it, too few for the fit"
 )
 
 // Row is one band of the range table.
@@ -153,13 +160,20 @@ type Stretch struct {
 // with benford.ScoreBands and joins adjacent flagged bands into stretches.
 // Drill ranges and commands are left to the caller.
 func Score(bands []benford.Band, b Bins, minCut, lo, hi float64) ([]Row, []Stretch, error) {
+	rows, str, _, err := ScoreFit(bands, b, minCut, lo, hi)
+	return rows, str, err
+}
+
+// ScoreFit is Score that also returns the local fit that
+// benford.ScoreBands chose by cross-validation.
+func ScoreFit(bands []benford.Band, b Bins, minCut, lo, hi float64) ([]Row, []Stretch, benford.BandFit, error) {
 	rows := make([]Row, len(bands))
 	var scorable []benford.Band
 	var idx []int
 	for i, band := range bands {
 		n, err := b.Between(band.From, band.To)
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, benford.BandFit{}, err
 		}
 		band.Count = n
 		rows[i] = Row{Band: band}
@@ -177,10 +191,16 @@ func Score(bands []benford.Band, b Bins, minCut, lo, hi float64) ([]Row, []Stret
 			idx = append(idx, i)
 		}
 	}
-	benford.ScoreBands(scorable)
+	fit := benford.ScoreBands(scorable)
 	for k, i := range idx {
 		rows[i].Band = scorable[k]
-		if !scorable[k].Scored {
+		switch {
+		case scorable[k].Scored:
+		case len(scorable) >= benford.MinScoredBands && (k == 0 || k == len(scorable)-1):
+			rows[i].Note = NoteEdge
+		case len(scorable) >= benford.MinScoredBands && (k == 1 || k == len(scorable)-2):
+			rows[i].Note = NoteNearEdge
+		default:
 			rows[i].Note = NoteTooFewBand
 		}
 	}
@@ -189,7 +209,7 @@ func Score(bands []benford.Band, b Bins, minCut, lo, hi float64) ([]Row, []Stret
 			rows[i].P, rows[i].PAdjusted = 1, 1
 		}
 	}
-	return rows, stretches(rows), nil
+	return rows, stretches(rows), fit, nil
 }
 
 func stretches(rows []Row) []Stretch {

@@ -13,10 +13,13 @@
 // The range table: bands of a fixed width over [FROM, TO), or of equal
 // width on a logarithmic scale (so many to a decade), each compared with a
 // smooth expectation fitted to its neighbouring bands and flagged when well
-// above it (benford.ScoreBands: a repeated-median line on the log scale, a
-// robust quasi-Poisson dispersion, Holm's adjustment over the bands). Bands
-// cut by the minimum amount or reaching past the largest amount are listed
-// but not scored. Adjacent flagged bands are joined into stretches, each
+// above it (benford.ScoreBands: a robust local line or quadratic on the log
+// scale whose width and degree are chosen by leave-one-out
+// cross-validation, a robust quasi-Poisson dispersion, Holm's adjustment
+// over the bands). Bands cut by the minimum amount or reaching past the
+// largest amount are listed but not scored, and so are the outermost
+// scorable bands, whose expectation would be an extrapolation (NoteEdge,
+// NoteNearEdge). Adjacent flagged bands are joined into stretches, each
 // with the drill-down command that lists its records.
 //
 // The population is every test's (engine/population):

@@ -30,6 +30,7 @@ type Report struct {
 	Scored     int             `json:"scored"`      // bands scored (the Holm family)
 	Flagged    int             `json:"flagged"`
 	Dispersion float64         `json:"dispersion"` // quasi-Poisson dispersion of the scored bands
+	Fit        benford.BandFit `json:"fit"`        // the local fit chosen by cross-validation
 	Bands      []Row           `json:"bands"`
 	Stretches  []Stretch       `json:"stretches"` // adjacent flagged bands joined, largest excess first
 }
@@ -80,7 +81,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 // drill writes the command or query that lists the records of a range
 // FROM:TO (DrillRange at the amounts' scale).
 func Finish(o Options, spec population.Spec, amountType, currency string, minAmount float64, scale int, bands []benford.Band, g Group, drill func(from, to float64, rangeSpec string) string) (*Report, error) {
-	rows, str, err := Score(bands, g.Bins, minAmount, g.Min, g.Max)
+	rows, str, fit, err := ScoreFit(bands, g.Bins, minAmount, g.Min, g.Max)
 	if err != nil {
 		return nil, err
 	}
@@ -93,7 +94,7 @@ func Finish(o Options, spec population.Spec, amountType, currency string, minAmo
 		Kind: "ranges", Population: spec, AmountType: amountType, Currency: currency,
 		Layout: layout, BandScale: layout.Scale(), Counts: g.Counts,
 		BelowBands: g.Bins.Below(), AboveBands: g.Bins.Above(),
-		Bands: rows, Stretches: str,
+		Bands: rows, Stretches: str, Fit: fit,
 	}
 	var scored []benford.Band
 	for i := range rep.Bands {
