@@ -380,6 +380,7 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 	}
 	if r.DF > 0 {
 		fmt.Fprintf(w, "Chi-square %.2f, %d df, p %.3g; Kolmogorov-Smirnov D %.5f (5%% critical value %.5f)\n", r.Chi2, r.DF, r.PValue, r.KSD, r.KSCritical)
+		fmt.Fprintf(w, "Cramér-von Mises U² %.4g, p %.3g (W² %.4g, p %.3g; asymptotic)\n", r.CvMU2, r.CvMU2P, r.CvMW2, r.CvMW2P)
 	}
 	lo, hi := r.Test.Bins()
 	fmt.Fprintf(w, "Flagged bins: %d of %d", r.Flagged, hi-lo+1)
