@@ -156,7 +156,7 @@ func TestCvMSimulated(t *testing.T) {
 	for _, tc := range []struct {
 		test Test
 		n    int64
-	}{{FirstDigit, 100}, {FirstDigit, 1000}, {FirstTwo, 1000}, {SecondDigit, 300}} {
+	}{{FirstDigit, 100}, {FirstDigit, 1000}, {FirstTwo, 1000}, {FirstTwo, 5000}, {SecondDigit, 300}} {
 		exp := Expected(tc.test)
 		rng := rand.New(rand.NewPCG(uint64(tc.n), 0xc7a))
 		for _, k := range []CvMKind{CvMU2, CvMW2} {
@@ -233,5 +233,38 @@ func TestAnalyzeCvM(t *testing.T) {
 		if x.CvMU2 != 0 || x.CvMU2P != 1 || x.CvMW2P != 1 {
 			t.Errorf("%s N %d: U² %v p %v, W² p %v: want 0, 1, 1", x.Test, x.N, x.CvMU2, x.CvMU2P, x.CvMW2P)
 		}
+	}
+}
+
+// Far in the tail, below what the integral resolves, the p-value is
+// Chernoff's upper bound: never below the true tail (gonum's χ² for equal
+// weights), at most 1e-7, and falling as the statistic grows, where the
+// integral alone gave noise around 1e-9 (a U² of 25 read p 1.2e-10 and a
+// U² of 5.7 read 0).
+func TestQuadFormSurvivalFarTail(t *testing.T) {
+	lam := []float64{0.05, 0.05, 0.05, 0.05, 0.05, 0.05}
+	chi := distuv.ChiSquared{K: 6}
+	prev := 1.0
+	for _, x := range []float64{3, 5, 10, 30} {
+		got, want := QuadFormSurvival(x, lam), chi.Survival(x/0.05)
+		if got < want || got > 1e-7 || got >= prev {
+			t.Errorf("x %v: %v, gonum %v, previous %v: want an upper bound at most 1e-7, falling", x, got, want, prev)
+		}
+		prev = got
+	}
+	exp := Expected(FirstDigit)
+	prev = 1
+	for _, shift := range []int64{500, 1000, 2000, 3000} {
+		c := make([]int64, 9)
+		for i, p := range exp {
+			c[i] = int64(math.Round(100000 * p))
+		}
+		c[0] -= shift
+		c[4] += shift
+		u, p := CramerVonMises(CvMU2, c, exp)
+		if !(p > 0 && p < prev) {
+			t.Errorf("shift %d: U² %v, p %v, previous %v: want positive and falling", shift, u, p, prev)
+		}
+		prev = p
 	}
 }
