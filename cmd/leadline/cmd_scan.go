@@ -385,6 +385,8 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 	if r.DF > 0 {
 		fmt.Fprintf(w, "Chi-square %s, %d df, p %s; Kolmogorov-Smirnov D %s (5%% critical value %s)\n",
 			numfmt.Stat(r.Chi2), r.DF, numfmt.P(r.PValue), numfmt.Stat(r.KSD), numfmt.Stat(r.KSCritical))
+		fmt.Fprintf(w, "Cramér-von Mises U² %s, p %s (W² %s, p %s; asymptotic)\n",
+			numfmt.Stat(r.CvMU2), numfmt.P(r.CvMU2P), numfmt.Stat(r.CvMW2), numfmt.P(r.CvMW2P))
 	}
 	lo, hi := r.Test.Bins()
 	fmt.Fprintf(w, "Flagged bins: %d of %d", r.Flagged, hi-lo+1)

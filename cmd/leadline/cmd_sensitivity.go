@@ -25,7 +25,12 @@ population. The population's bin counts are read once; for each rate and
 seed, synthetic amounts of the chosen kind are added to those counts in
 memory and the tests are run again. The loaded ledger is never changed or
 copied. The table gives, per signal and rate, the share of seeds in which
-the signal fired.
+the signal fired. The signals are the flags scan and limits raise: the bin
+flag (exact binomial with Holm's step-down and the materiality margin), the
+runs test's simulated p, chi-square and Cramér-von Mises U² at 5%, the MAD
+severity verdict and the limit probe with the density modelled from its
+flanking bands; rows named reference are the trade's older rules, kept for
+comparison.
 
 Kinds:
   uniform       amounts uniform in --range FROM:TO

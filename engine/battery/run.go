@@ -115,6 +115,8 @@ type SegmentRow struct {
 	Chi2           float64            `json:"chi2"`
 	DF             int                `json:"df"`
 	PValue         float64            `json:"p_value"`
+	CvMU2          float64            `json:"cvm_u2"`   // discrete Cramér–von Mises U²
+	CvMU2P         float64            `json:"cvm_u2_p"` // its asymptotic p-value
 	Flagged        int                `json:"flagged"`
 	OutsideGoodman int                `json:"outside_goodman"`
 	TopFlagged     []int              `json:"top_flagged"`
@@ -347,7 +349,7 @@ func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []Segme
 		for _, r := range res {
 			row := SegmentRow{Segment: info.Segment, Values: info.Values, Test: r.Test, N: r.N, MAD: r.MAD,
 				Conformity: r.Conformity, ExpectedMAD: r.ExpectedMAD, ExcessMAD: r.ExcessMAD, Chi2: r.Chi2, DF: r.DF,
-				PValue: r.PValue, Flagged: r.Flagged, OutsideGoodman: r.OutsideGoodman, TopFlagged: r.TopFlagged}
+				PValue: r.PValue, CvMU2: r.CvMU2, CvMU2P: r.CvMU2P, Flagged: r.Flagged, OutsideGoodman: r.OutsideGoodman, TopFlagged: r.TopFlagged}
 			if r.Runs != nil {
 				n, pv := r.Runs.Runs, r.Runs.P
 				row.Runs, row.RunsP = &n, &pv

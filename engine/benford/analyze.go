@@ -68,6 +68,10 @@ type Result struct {
 	PValue         float64  `json:"p_value"`
 	KSD            float64  `json:"ks_d"`
 	KSCritical     float64  `json:"ks_critical"` // 0: not computed (N == 0, Summation)
+	CvMU2          float64  `json:"cvm_u2"`      // discrete Cramér–von Mises: Watson's U² (cvm.go), the same wherever the cycle of bins starts
+	CvMU2P         float64  `json:"cvm_u2_p"`    // its asymptotic p-value (1: not computed, N == 0, Summation)
+	CvMW2          float64  `json:"cvm_w2"`      // discrete Cramér–von Mises W²
+	CvMW2P         float64  `json:"cvm_w2_p"`    // its asymptotic p-value
 	Flagged        int      `json:"flagged"`     // bins flagged (Bin.Flagged)
 	ZFlagged       int      `json:"z_flagged"`   // bins outside the per-bin 95% reference bounds
 	FlagRule       Flagging `json:"flag_rule"`   // the family-wise alpha and the materiality margin of Flagged
@@ -105,7 +109,9 @@ func Analyze(t Test, counts []int64) (Result, error) {
 // Over the bins: the MAD with its published conformity range
 // (Conformity), the MAD expected for N (ExpectedMAD) and the excess over
 // it, the chi-square test (ChiSquare), the Kolmogorov-Smirnov distance
-// with its 5% critical value (KS, KSCritical) and, for the first-two,
+// with its 5% critical value (KS, KSCritical), the discrete Cramér–von
+// Mises U² and W² with their asymptotic p-values (CramerVonMises) and, for
+// the first-two,
 // first-three and second-order tests, the runs test over the ordered bins
 // (RunsTest).
 //
@@ -171,7 +177,7 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 	res.GoodmanHolds = n > 0 && minExp >= GoodmanMinExpected
 	if n == 0 {
 		res.Conformity = NoAmounts
-		res.PValue = 1
+		res.PValue, res.CvMU2P, res.CvMW2P = 1, 1, 1
 		res.Notes = append(res.Notes, "no amounts")
 		return res, nil
 	}
@@ -186,6 +192,8 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 	res.Chi2, res.DF, res.PValue = ChiSquare(counts, exp)
 	res.KSD = KS(actual, exp)
 	res.KSCritical = KSCritical(n)
+	res.CvMU2, res.CvMU2P = CramerVonMises(CvMU2, counts, exp)
+	res.CvMW2, res.CvMW2P = CramerVonMises(CvMW2, counts, exp)
 	res.countFlags()
 	if t == FirstTwo || t == FirstThree || t == SecondOrder {
 		r := RunsTest(actual, exp, lo)
@@ -269,9 +277,10 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 // published for the summation test).
 //
 // The per-bin Z of counts, Goodman's intervals, the chi-square and the
-// Kolmogorov-Smirnov test are built on counts; the spread of a share of
-// amounts depends on the spread of the amounts, which N does not give. So
-// DF and KSCritical are 0 ("not computed"), PValue is 1, ExpectedMAD and
+// Kolmogorov-Smirnov and Cramér–von Mises tests are built on counts; the
+// spread of a share of amounts depends on the spread of the amounts, which
+// N does not give. So DF and KSCritical are 0 ("not computed"), PValue,
+// CvMU2P and CvMW2P are 1, ExpectedMAD and
 // ExcessMAD are 0, and each Goodman interval is [0, 1]. The flag is
 // calibrated by simulation instead (flagSummation, summation.go): Z is the
 // bin's share standardized against N amounts following Benford's law over
@@ -312,7 +321,7 @@ func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f F
 		return Result{}, fmt.Errorf("benford: summation test: total absolute amount overflows")
 	}
 	exp := Expected(t)
-	res := Result{Test: t, N: n, Total: total, Bins: make([]Bin, K), PValue: 1, TopFlagged: []int{}, Notes: []string{}, FlagRule: f}
+	res := Result{Test: t, N: n, Total: total, Bins: make([]Bin, K), PValue: 1, CvMU2P: 1, CvMW2P: 1, TopFlagged: []int{}, Notes: []string{}, FlagRule: f}
 	actual := make([]float64, K)
 	for i := range sums {
 		b := Bin{Bin: lo + i, Label: t.Label(lo + i), Amount: sums[i], Expected: exp[i],

@@ -40,6 +40,8 @@ var rateRows = func() []rateRow {
 			rateRow{t, "flag (any bin flagged)", true, func(r Result) bool { return r.Flagged > 0 }},
 			rateRow{t, "chi-square p < 0.05", false, func(r Result) bool { return r.DF > 0 && r.PValue < 0.05 }},
 			rateRow{t, "Kolmogorov-Smirnov D > 1.36/sqrt(N)", false, func(r Result) bool { return r.KSD > r.KSCritical }},
+			rateRow{t, "Cramér-von Mises U² p < 0.05", false, func(r Result) bool { return r.CvMU2P < 0.05 }},
+			rateRow{t, "Cramér-von Mises W² p < 0.05", false, func(r Result) bool { return r.CvMW2P < 0.05 }},
 			rateRow{t, "reference: any bin outside Z bounds", false, func(r Result) bool { return r.ZFlagged > 0 }},
 			rateRow{t, "reference: any bin outside Goodman", false, func(r Result) bool { return r.OutsideGoodman > 0 }},
 		)
@@ -75,7 +77,8 @@ var rateRows = func() []rateRow {
 // populations are amounts drawn one by one (summationPopulation), and the
 // former fixed rule (a bin above twice 1/90) is measured beside its flag.
 // The chi-square, the
-// Kolmogorov-Smirnov test and the per-bin references are measured and
+// Kolmogorov-Smirnov test, the Cramér–von Mises U² and W² (whose rate
+// TestCvMSimulated holds) and the per-bin references are measured and
 // printed, not held to 5%.
 //
 // -short: N = 1,000, 5,000 and 50,000, 150 populations each. Default: also

@@ -53,6 +53,7 @@ func SheetNames(tables []*Table) map[string]string {
 var headings = map[string]string{
 	"n": "N", "z": "Z", "p": "p", "p_value": "p-value", "p_adjusted": "p (adjusted)", "runs_p": "Runs p-value",
 	"chi2": "Chi-square", "df": "Degrees of freedom", "ks_d": "KS D", "ks_critical": "KS critical value",
+	"cvm_u2": "Cramér-von Mises U²", "cvm_u2_p": "U² p-value", "cvm_w2": "Cramér-von Mises W²", "cvm_w2_p": "W² p-value",
 	"mad": "MAD", "expected_mad": "Expected MAD", "excess_mad": "Excess MAD",
 	"goodman_lower": "Goodman lower bound", "goodman_upper": "Goodman upper bound", "outside_goodman": "Outside Goodman bounds",
 	"row_id": "Row id", "file_id": "File id", "doc_id": "Document id", "sha256": "SHA-256", "size_bytes": "Size (bytes)",

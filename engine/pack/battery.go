@@ -53,19 +53,19 @@ func (r *runner) batteryStep(ctx context.Context) error {
 
 	// The tests' statistics over the whole population.
 	st := &tabular.Table{Columns: []string{"test", "name", "n", "mad", "conformity", "expected_mad", "excess_mad", "chi2", "df", "p_value",
-		"ks_d", "ks_critical", "flagged", "outside_goodman", "top_flagged", "runs", "runs_expected", "runs_p", "notes"}}
+		"ks_d", "ks_critical", "cvm_u2", "cvm_u2_p", "cvm_w2", "cvm_w2_p", "flagged", "outside_goodman", "top_flagged", "runs", "runs_expected", "runs_p", "notes"}}
 	for _, t := range rep.Tests {
 		var runs, runsExp, runsP any
 		if t.Runs != nil {
 			runs, runsExp, runsP = int64(t.Runs.Runs), t.Runs.Expected, t.Runs.P
 		}
 		st.Add(string(t.Test), t.Test.Name(), t.N, t.MAD, t.Conformity, t.ExpectedMAD, t.ExcessMAD, t.Chi2, int64(t.DF), t.PValue,
-			t.KSD, t.KSCritical, int64(t.Flagged), int64(t.OutsideGoodman), binsText(t.Test, t.TopFlagged), runs, runsExp, runsP, strings.Join(t.Notes, " "))
+			t.KSD, t.KSCritical, t.CvMU2, t.CvMU2P, t.CvMW2, t.CvMW2P, int64(t.Flagged), int64(t.OutsideGoodman), binsText(t.Test, t.TopFlagged), runs, runsExp, runsP, strings.Join(t.Notes, " "))
 	}
-	r.add(output.FromTabular(st, "digit_tests", "Digit tests on the whole population: MAD, conformity, chi-square, Kolmogorov-Smirnov, runs", "battery",
+	r.add(output.FromTabular(st, "digit_tests", "Digit tests on the whole population: MAD, conformity, chi-square, Kolmogorov-Smirnov, Cramér-von Mises, runs", "battery",
 		map[string]output.Kind{"n": output.Count, "mad": output.Number, "expected_mad": output.Number, "excess_mad": output.Number, "chi2": output.Number,
-			"df": output.Count, "p_value": output.Proportion, "ks_d": output.Number, "ks_critical": output.Number, "flagged": output.Count,
-			"outside_goodman": output.Count, "top_flagged": output.Text, "runs": output.Count, "runs_expected": output.Number, "runs_p": output.Proportion, "notes": output.Text}))
+			"df": output.Count, "p_value": output.Proportion, "ks_d": output.Number, "ks_critical": output.Number, "cvm_u2": output.Number, "cvm_u2_p": output.Proportion,
+			"cvm_w2": output.Number, "cvm_w2_p": output.Proportion, "flagged": output.Count, "outside_goodman": output.Count, "top_flagged": output.Text, "runs": output.Count, "runs_expected": output.Number, "runs_p": output.Proportion, "notes": output.Text}))
 	for _, t := range rep.Tests {
 		bt := &tabular.Table{Columns: []string{"bin", "count", "amount", "actual", "expected", "diff", "z", "lower", "upper", "flagged",
 			"goodman_lower", "goodman_upper", "outside_goodman"}}
@@ -101,7 +101,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 			continue
 		}
 		t := &tabular.Table{Columns: []string{"test", "rank", "segment", "n", "mad", "conformity", "expected_mad", "excess_mad", "chi2", "df", "p_value",
-			"flagged", "outside_goodman", "top_flagged", "runs", "runs_p"}}
+			"cvm_u2", "cvm_u2_p", "flagged", "outside_goodman", "top_flagged", "runs", "runs_p"}}
 		for _, rk := range sg.Rankings {
 			for _, row := range rk.Rows {
 				var runs, runsP any
@@ -112,13 +112,14 @@ func (r *runner) batteryStep(ctx context.Context) error {
 					runsP = *row.RunsP
 				}
 				t.Add(string(rk.Test), int64(row.Rank), row.Segment, row.N, row.MAD, row.Conformity, row.ExpectedMAD, row.ExcessMAD, row.Chi2, int64(row.DF),
-					row.PValue, int64(row.Flagged), int64(row.OutsideGoodman), binsText(rk.Test, row.TopFlagged), runs, runsP)
+					row.PValue, row.CvMU2, row.CvMU2P, int64(row.Flagged), int64(row.OutsideGoodman), binsText(rk.Test, row.TopFlagged), runs, runsP)
 			}
 		}
 		ot := output.FromTabular(t, "segments_"+output.SafeName(strings.ReplaceAll(name, "+", "_")),
 			fmt.Sprintf("Segments by %s ranked per test, most distorted first (excess MAD)", strings.ReplaceAll(name, "+", " and ")), "battery",
 			map[string]output.Kind{"rank": output.Count, "n": output.Count, "mad": output.Number, "expected_mad": output.Number, "excess_mad": output.Number,
-				"chi2": output.Number, "df": output.Count, "p_value": output.Proportion, "flagged": output.Count, "outside_goodman": output.Count,
+				"chi2": output.Number, "df": output.Count, "p_value": output.Proportion, "cvm_u2": output.Number, "cvm_u2_p": output.Proportion,
+				"flagged": output.Count, "outside_goodman": output.Count,
 				"top_flagged": output.Text, "runs": output.Count, "runs_p": output.Proportion, "segment": output.Text, "conformity": output.Text})
 		ot.Note = fmt.Sprintf("%s segments, %s with at least %s amounts ranked", numfmt.Int(int64(sg.Count)), numfmt.Int(int64(sg.Ranked)), numfmt.Int(int64(sg.MinRows)))
 		r.add(ot)

@@ -31,11 +31,17 @@ type Population struct {
 	Extra      map[int64]int64 `json:"-"`           // counts of specific amounts (cents) asked for
 }
 
-// LimitCounts are a limit's band counts in the population.
+// LimitCounts are a limit's band counts in the population: the tested
+// bands [T(1-w), T) and [T, T(1+w)) and, when the probe could model the
+// density near T from them (Flanked), the flanking bands [T(1-2w),
+// T(1-w)) and [T(1+w), T(1+2w)).
 type LimitCounts struct {
-	Limit float64 `json:"limit"`
-	Below int64   `json:"below"`
-	Above int64   `json:"above"`
+	Limit   float64 `json:"limit"`
+	Below   int64   `json:"below"`
+	Above   int64   `json:"above"`
+	Flanked bool    `json:"flanked"`
+	Left    int64   `json:"left,omitempty"`
+	Right   int64   `json:"right,omitempty"`
 }
 
 // AmountCount is one exact amount (in cents) and how often it occurs.
@@ -124,20 +130,24 @@ func (o *Options) Validate() error {
 	return nil
 }
 
-// Signal names, each a flag the engagement team would act on.
+// Signal names: the flags the product raises (the same rules as the scan,
+// the report and the limit probe), then the trade's older rules, named as
+// references.
 const (
 	SigFirstTwoFlag  = "first_two bin flagged"   // the battery's bin flag: exact binomial, Holm, material
 	SigRunsP         = "first_two runs p < 0.05" // the runs test against its simulated null
+	SigFirstTwoChi   = "first_two chi-square p < 0.05"
+	SigFirstTwoCvM   = "first_two Cramér-von Mises U² p < 0.05"
+	SigFirstTwoSev   = "first_two MAD beyond chance, material" // the severity verdict: MAD beyond its simulated null and in the marginal or nonconforming class
 	SigFirstThreeFlg = "first_three bin flagged"
 	SigLastTwoFlag   = "last_two bin flagged"
-	SigFirstTwoMAD   = "first_two MAD nonconforming"
-	SigFirstTwoChi   = "first_two chi-square p < 0.01"
-	SigGoodman       = "first_two bin outside Goodman 95%"
-	SigRuns          = "first_two runs < 35"
-	SigFirstThreeMAD = "first_three MAD nonconforming"
-	SigLastTwoChi    = "last_two chi-square p < 0.01"
-	SigLimit         = "limit probe flags the limit"
+	SigLimit         = "limit probe flags the limit" // flanked: the density near the limit modelled from its flanking bands
 	SigDuplication   = "amount among the 10 most frequent"
+
+	SigFirstTwoMAD = "reference: first_two MAD nonconforming"
+	SigGoodman     = "reference: first_two bin outside Goodman 95%"
+	SigRuns        = "reference: first_two runs < 35"
+	SigLimitOneX   = "reference: limit probe under a 1/x density"
 )
 
 // Row is one signal's detection share per rate.
@@ -167,12 +177,16 @@ func Run(pop Population, o Options) (*Result, error) {
 	if n == 0 {
 		return nil, fmt.Errorf("the population has no amounts to test")
 	}
-	signals := []string{SigFirstTwoFlag, SigRunsP, SigFirstThreeFlg, SigLastTwoFlag, SigFirstTwoMAD, SigFirstTwoChi, SigGoodman, SigRuns, SigFirstThreeMAD, SigLastTwoChi}
+	signals := []string{SigFirstTwoFlag, SigRunsP, SigFirstTwoChi, SigFirstTwoCvM, SigFirstTwoSev, SigFirstThreeFlg, SigLastTwoFlag}
 	if o.Kind == BelowLimit {
 		signals = append(signals, SigLimit)
 	}
 	if o.Kind == Repeated {
 		signals = append(signals, SigDuplication)
+	}
+	signals = append(signals, SigFirstTwoMAD, SigGoodman, SigRuns)
+	if o.Kind == BelowLimit {
+		signals = append(signals, SigLimitOneX)
 	}
 	fired := make(map[string][]int, len(signals))
 	for _, s := range signals {
@@ -189,18 +203,14 @@ func Run(pop Population, o Options) (*Result, error) {
 			}
 			k := int64(math.Round(rate * float64(n)))
 			inj := inject(rng, o, k)
-			below, above := int64(0), int64(0)
+			var bands [4]int64 // injected amounts in the left flank, below, above and the right flank of the limit
 			var injRepeat int64
 			for _, c := range inj {
 				f3[firstThree(c)-100]++
 				l2[c%100]++
 				if o.Kind == BelowLimit {
-					lim := int64(math.Round(o.Limit * 100))
-					lo := int64(math.Ceil(o.Limit * (1 - o.Width) * 100))
-					if c >= lo && c < lim {
-						below++
-					} else if c >= lim {
-						above++
+					if b := bandOf(c, o.Limit, o.Width); b >= 0 {
+						bands[b]++
 					}
 				}
 				if o.Kind == Repeated {
@@ -209,7 +219,7 @@ func Run(pop Population, o Options) (*Result, error) {
 			}
 			fire := evaluate(f3, l2)
 			if o.Kind == BelowLimit {
-				fire[SigLimit] = limitFires(rng, pop, o, below, above)
+				fire[SigLimit], fire[SigLimitOneX] = limitFires(rng, pop, o, bands)
 			}
 			if o.Kind == Repeated {
 				fire[SigDuplication] = repeatFires(pop, o, injRepeat)
@@ -234,7 +244,8 @@ func Run(pop Population, o Options) (*Result, error) {
 	} else {
 		res.Notes = append(res.Notes, "baseline: the workspace's own counts, the same in every seed; the rate-0 column says whether a signal already fires on the population itself")
 	}
-	res.Notes = append(res.Notes, "rules of thumb used as signals (MAD ranges, runs < 35, top 10) are common practice, no source")
+	res.Notes = append(res.Notes, "the signals are the product's flags (bin flag with Holm's step-down and materiality, calibrated runs test, chi-square, Cramér-von Mises U², MAD severity, the limit probe with the density modelled from its flanking bands); rows named reference are the trade's older rules, kept for comparison")
+	res.Notes = append(res.Notes, "rules of thumb among the signals (MAD ranges, runs < 35, top 10) are common practice, no source")
 	return res, nil
 }
 
@@ -310,50 +321,103 @@ func evaluate(f3, l2 []int64) map[string]bool {
 	r2, _ := benford.Analyze(benford.FirstTwo, f2)
 	out[SigFirstTwoFlag] = r2.Flagged > 0
 	out[SigRunsP] = r2.Runs != nil && r2.Runs.P < 0.05
+	out[SigFirstTwoChi] = r2.DF > 0 && r2.PValue < 0.05
+	out[SigFirstTwoCvM] = r2.DF > 0 && r2.CvMU2P < 0.05
+	out[SigFirstTwoSev] = r2.Severity == benford.BeyondChanceMaterial
 	out[SigFirstTwoMAD] = r2.Conformity == "nonconforming"
-	out[SigFirstTwoChi] = r2.DF > 0 && r2.PValue < 0.01
 	out[SigGoodman] = r2.OutsideGoodman > 0
-	out[SigRuns] = r2.Runs != nil && r2.Runs.Runs < 35
+	out[SigRuns] = r2.Runs != nil && r2.Runs.Runs < benford.FewRunsFirstTwo
 	r3, _ := benford.Analyze(benford.FirstThree, f3)
-	out[SigFirstThreeMAD] = r3.Conformity == "nonconforming"
 	out[SigFirstThreeFlg] = r3.Flagged > 0
 	rl, _ := benford.Analyze(benford.LastTwo, l2)
-	out[SigLastTwoChi] = rl.DF > 0 && rl.PValue < 0.01
 	out[SigLastTwoFlag] = rl.Flagged > 0
 	return out
 }
 
-// limitFires probes the population's limits with the injected counts
-// added at the target limit, Holm-adjusted together, and says whether the
-// target is flagged. With a benford baseline the band counts are redrawn
-// from the null split (the 1/x density) around the population's totals.
-func limitFires(rng *rand.Rand, pop Population, o Options, below, above int64) bool {
-	var rs []benford.LimitResult
+// bandOf returns which band of limit T an amount in cents falls in: 0 the
+// left flank [T(1-2w), T(1-w)), 1 below [T(1-w), T), 2 above [T, T(1+w)),
+// 3 the right flank [T(1+w), T(1+2w)); -1 outside them.
+func bandOf(c int64, limit, w float64) int {
+	edges := [5]float64{limit * (1 - 2*w), limit * (1 - w), limit, limit * (1 + w), limit * (1 + 2*w)}
+	for b := 0; b < 4; b++ {
+		lo, hi := int64(math.Ceil(edges[b]*100)), int64(math.Ceil(edges[b+1]*100))
+		if c >= lo && c < hi {
+			return b
+		}
+	}
+	return -1
+}
+
+// limitFires probes the population's limits with the injected band counts
+// added at the target limit, Holm-adjusted together like the limit probe,
+// and says whether the target is flagged: by the probe the product runs
+// (the density near each limit modelled from its flanking bands,
+// benford.LimitProbeFlanked; the 1/x split where the population gave no
+// flanks) and, as a reference, under the 1/x density. With a benford
+// baseline the band counts are redrawn around the population's totals
+// from the 1/x density (shares of the bands' log widths), which is what a
+// population following Benford's law gives.
+func limitFires(rng *rand.Rand, pop Population, o Options, inj [4]int64) (flanked, oneX bool) {
+	w := o.Width
+	var rs, ro []benford.LimitResult
 	found := false
 	for _, l := range pop.Limits {
-		b, a := l.Below, l.Above
+		bands := [4]int64{l.Left, l.Below, l.Above, l.Right}
 		if o.Baseline == "benford" {
-			r := benford.ExpectedBelowAboveRatio(o.Width)
-			tot := b + a
-			if tot > 0 {
-				bin := distuv.Binomial{N: float64(tot), P: r / (1 + r), Src: rngSource{rng}}
-				b = int64(bin.Rand())
-				a = tot - b
+			if l.Flanked {
+				bands = redraw(rng, bands[:], []float64{math.Log((1 - w) / (1 - 2*w)), -math.Log(1 - w), math.Log(1 + w), math.Log((1 + 2*w) / (1 + w))})
+			} else {
+				r := benford.ExpectedBelowAboveRatio(w)
+				b := redraw(rng, bands[1:3], []float64{r, 1})
+				bands = [4]int64{0, b[0], b[1], 0}
 			}
 		}
 		if l.Limit == o.Limit {
-			b += below
-			a += above
+			for i := range bands {
+				bands[i] += inj[i]
+			}
 			found = true
 		}
-		rs = append(rs, benford.LimitProbe(l.Limit, o.Width, b, a))
+		ro = append(ro, benford.LimitProbe(l.Limit, w, bands[1], bands[2]))
+		if l.Flanked {
+			rs = append(rs, benford.LimitProbeFlanked(l.Limit, w, bands[1], bands[2], bands[0], bands[3]))
+		} else {
+			rs = append(rs, benford.LimitProbe(l.Limit, w, bands[1], bands[2]))
+		}
 	}
 	if !found {
-		rs = append(rs, benford.LimitProbe(o.Limit, o.Width, below, above))
+		ro = append(ro, benford.LimitProbe(o.Limit, w, inj[1], inj[2]))
+		rs = append(rs, benford.LimitProbe(o.Limit, w, inj[1], inj[2]))
 	}
+	return flaggedAt(rs, o.Limit), flaggedAt(ro, o.Limit)
+}
+
+// redraw draws the total of counts again over len(counts) bands with
+// weights w (multinomial), returned in the first len(counts) places.
+func redraw(rng *rand.Rand, counts []int64, w []float64) [4]int64 {
+	var tot int64
+	for _, c := range counts {
+		tot += c
+	}
+	var sum float64
+	for _, x := range w {
+		sum += x
+	}
+	p := make([]float64, len(w))
+	for i, x := range w {
+		p[i] = x / sum
+	}
+	var out [4]int64
+	copy(out[:], multinomial(rng, tot, p))
+	return out
+}
+
+// flaggedAt adjusts the probes together (Holm) and says whether the one at
+// limit is flagged.
+func flaggedAt(rs []benford.LimitResult, limit float64) bool {
 	benford.AdjustLimits(rs)
 	for _, r := range rs {
-		if r.Limit == o.Limit {
+		if r.Limit == limit {
 			return r.Flagged
 		}
 	}

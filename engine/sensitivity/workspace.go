@@ -40,7 +40,7 @@ func FromWorkspace(ctx context.Context, ws *workspace.Workspace, base popn.Spec,
 		}
 		for _, r := range rep.Rows {
 			if r.Segment == nil && r.Rank > 0 {
-				pop.Limits = append(pop.Limits, LimitCounts{Limit: r.Limit, Below: r.Below, Above: r.Above})
+				pop.Limits = append(pop.Limits, LimitCounts{Limit: r.Limit, Below: r.Below, Above: r.Above, Flanked: r.Flanked, Left: r.Left, Right: r.Right})
 			}
 		}
 	}
