@@ -68,7 +68,7 @@ func (o Options) Check() error {
 // Side is one of the two tables: a label and the bin counts of each test
 // (counts[i] is bin lo+i of the test's range).
 type Side struct {
-	Label  string                  `json:"label"`
+	Label  string                   `json:"label"`
 	Counts map[benford.Test][]int64 `json:"-"`
 }
 
