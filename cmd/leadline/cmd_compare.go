@@ -254,6 +254,13 @@ func runCompare(ctx context.Context, e *env, o compareOptions) error {
 	if right.Workspace == "" {
 		right.Workspace = path
 	}
+	for i, side := range []compare.SideInfo{left, right} {
+		if side.Tested == 0 {
+			flag := map[string][2]string{compare.ModeRuns: {"--runs", "--runs"}, compare.ModeFilters: {"--left", "--right"},
+				compare.ModeSplit: {"--split", "--split"}, compare.ModeWorkspaces: {"--db", "--against"}}[o.mode()][i]
+			return fmt.Errorf("%s: no amounts tested on the %s side (%s): nothing to compare; check the filter, --signs and --min", flag, []string{"left", "right"}[i], sideLine(side))
+		}
+	}
 	rep, err := compare.NewReport(o.mode(), left, right, lc, rc, o.compare)
 	if err != nil {
 		return err
