@@ -258,7 +258,7 @@ func runCompare(ctx context.Context, e *env, o compareOptions) error {
 		if side.Tested == 0 {
 			flag := map[string][2]string{compare.ModeRuns: {"--runs", "--runs"}, compare.ModeFilters: {"--left", "--right"},
 				compare.ModeSplit: {"--split", "--split"}, compare.ModeWorkspaces: {"--db", "--against"}}[o.mode()][i]
-			return fmt.Errorf("%s: no amounts tested on the %s side (%s): nothing to compare; check the filter, --signs and --min", flag, []string{"left", "right"}[i], sideLine(side))
+			return fmt.Errorf("%s: no amounts tested on the %s side (%s): nothing to compare; check the filter, --signs and --min", flag, []string{"left", "right"}[i], sideLine(side, true))
 		}
 	}
 	rep, err := compare.NewReport(o.mode(), left, right, lc, rc, o.compare)
@@ -425,13 +425,13 @@ func compareBinsTable(rep *compare.Report) *tabular.Table {
 	return t
 }
 
-func sideLine(s compare.SideInfo) string {
+func sideLine(s compare.SideInfo, workspaces bool) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "%s: %s amounts (%s, |amount| >= %s", s.Label, numfmt.Int(s.Tested), s.Signs, s.Min)
 	if w := strings.TrimSpace(s.Where); w != "" && w != s.Label && !strings.Contains(s.Label, w) {
 		fmt.Fprintf(&b, ", where %s", w)
 	}
-	if s.Workspace != "" {
+	if workspaces && s.Workspace != "" {
 		fmt.Fprintf(&b, ", workspace %s", s.Workspace)
 	}
 	b.WriteString(")")
@@ -442,7 +442,7 @@ func printCompareText(w io.Writer, rep *compare.Report, top int) error {
 	fmt.Fprintf(w, "Comparison (run %d) of two %s\n", rep.RunID, map[string]string{
 		compare.ModeRuns: "stored scan runs", compare.ModeFilters: "filters of one ledger",
 		compare.ModeSplit: "values of one column", compare.ModeWorkspaces: "workspaces"}[rep.Mode])
-	fmt.Fprintf(w, "Left  %s\nRight %s\n", sideLine(rep.Left), sideLine(rep.Right))
+	fmt.Fprintf(w, "Left  %s\nRight %s\n", sideLine(rep.Left, rep.Mode == compare.ModeWorkspaces), sideLine(rep.Right, rep.Mode == compare.ModeWorkspaces))
 	fmt.Fprintf(w, "Bin flag: Holm-adjusted exact p below %.0f%% over each test's bins and a change of at least %g of the bin's share (--min-excess)\n", 100*rep.Options.Alpha, rep.Options.MinExcess)
 	for _, n := range rep.Notes {
 		fmt.Fprintf(w, "Note: %s.\n", n)
