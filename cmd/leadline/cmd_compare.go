@@ -33,9 +33,11 @@ Sets two bin-count tables of the digit tests side by side (first digit,
 second digit, first two, first three and last two digits) and says, per
 test, whether they differ and where. The two sides come from one of:
 
-  --runs A,B          two stored scan runs of the workspace (run ids, see
-                      leadline report or the runs table); a pack's scan
-                      steps are scan runs too
+  --runs A,B          two stored runs of the workspace (run ids, see
+                      leadline report or the runs table): scan runs, or
+                      pack runs (their digit battery); with --against
+                      FILE run B is read from that workspace (last
+                      year's pack run against this year's)
   --left SQL --right SQL
                       two filters over the workspace's ledger, e.g. two
                       periods (read-only predicates, checked as --where is)
@@ -77,6 +79,7 @@ Examples:
   leadline compare --left "posted < DATE '2025-07-01'" --right "posted >= DATE '2025-07-01'"
   leadline compare --split entity=KELP,TIDE --signs both
   leadline compare --runs 3,9
+  leadline compare --db fy2025.duckdb --runs 1,1 --against fy2024.duckdb
   leadline compare --db 2025.duckdb --against 2024.duckdb --format json`,
 		flags: thin(compareFlags, runCompare),
 	})
@@ -142,7 +145,8 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 			return o, err
 		}
 		modes := 0
-		for _, given := range []bool{runs != "", o.left != "" || o.right != "", split != "", o.against != ""} {
+		// --against with --runs reads the right run from the other workspace.
+		for _, given := range []bool{runs != "", o.left != "" || o.right != "", split != "", o.against != "" && runs == ""} {
 			if given {
 				modes++
 			}
@@ -208,9 +212,26 @@ func runCompare(ctx context.Context, e *env, o compareOptions) error {
 		if left, lc, err = storedSide(ctx, ws, o.runs[0]); err != nil {
 			return err
 		}
-		if right, rc, err = storedSide(ctx, ws, o.runs[1]); err != nil {
+		if o.against == "" {
+			if right, rc, err = storedSide(ctx, ws, o.runs[1]); err != nil {
+				return err
+			}
+			break
+		}
+		other := o.db
+		other.path = o.against
+		ws2, err := e.openWorkspace(ctx, other, true)
+		if err != nil {
+			return fmt.Errorf("--against %s: %w", o.against, err)
+		}
+		right, rc, err = storedSide(ctx, ws2, o.runs[1])
+		ws2.Close()
+		if err != nil {
 			return err
 		}
+		left.Label += " of " + path
+		right.Label += " of " + o.against
+		left.Workspace, right.Workspace = path, o.against
 	case compare.ModeFilters:
 		for i, where := range []string{o.left, o.right} {
 			s := o.spec
@@ -310,6 +331,8 @@ func countBattery(ctx context.Context, ws *workspace.Workspace, s population.Spe
 func splitSides(ctx context.Context, ws *workspace.Workspace, o compareOptions) (l compare.SideInfo, lc map[benford.Test][]int64, r compare.SideInfo, rc map[benford.Test][]int64, err error) {
 	rep, err := countBattery(ctx, ws, o.spec, []string{o.split}, "--split")
 	if err != nil {
+		// The column is checked as a segment column: name it as --split's.
+		err = errors.New(strings.Replace(err.Error(), "--by "+o.split+": ", "", 1))
 		return
 	}
 	var found [2]*battery.SegmentResult
@@ -353,8 +376,20 @@ func storedSide(ctx context.Context, ws *workspace.Workspace, id int64) (compare
 	if err != nil {
 		return compare.SideInfo{}, nil, err
 	}
-	if kind != "scan" {
-		return compare.SideInfo{}, nil, fmt.Errorf("--runs: run %d is a %s run; give scan runs (leadline scan stores one)", id, kind)
+	if kind == "pack" {
+		// A pack run holds its digit battery as results.battery, a scan
+		// report.
+		var pack struct {
+			Results struct {
+				Battery json.RawMessage `json:"battery"`
+			} `json:"results"`
+		}
+		if err := json.Unmarshal([]byte(result), &pack); err != nil || len(pack.Results.Battery) == 0 || string(pack.Results.Battery) == "null" {
+			return compare.SideInfo{}, nil, fmt.Errorf("--runs: pack run %d holds no digit battery (its pack has no [battery] step)", id)
+		}
+		result = string(pack.Results.Battery)
+	} else if kind != "scan" {
+		return compare.SideInfo{}, nil, fmt.Errorf("--runs: run %d is a %s run; give scan or pack runs (leadline scan and leadline run store them)", id, kind)
 	}
 	var doc struct {
 		Params population.Spec `json:"params"`
@@ -389,6 +424,9 @@ func storedSide(ctx context.Context, ws *workspace.Workspace, id int64) (compare
 	}
 	s := doc.Params.WithDefaults()
 	label := fmt.Sprintf("run %d", id)
+	if kind == "pack" {
+		label = fmt.Sprintf("pack run %d", id)
+	}
 	if w := strings.TrimSpace(s.Where); w != "" {
 		label += " (" + w + ")"
 	}
@@ -440,10 +478,10 @@ func sideLine(s compare.SideInfo, workspaces bool) string {
 
 func printCompareText(w io.Writer, rep *compare.Report, top int) error {
 	fmt.Fprintf(w, "Comparison (run %d) of two %s\n", rep.RunID, map[string]string{
-		compare.ModeRuns: "stored scan runs", compare.ModeFilters: "filters of one ledger",
+		compare.ModeRuns: "stored runs", compare.ModeFilters: "filters of one ledger",
 		compare.ModeSplit: "values of one column", compare.ModeWorkspaces: "workspaces"}[rep.Mode])
 	fmt.Fprintf(w, "Left  %s\nRight %s\n", sideLine(rep.Left, rep.Mode == compare.ModeWorkspaces), sideLine(rep.Right, rep.Mode == compare.ModeWorkspaces))
-	fmt.Fprintf(w, "Bin flag: Holm-adjusted exact p below %.0f%% over each test's bins and a change of at least %g of the bin's share (--min-excess)\n", 100*rep.Options.Alpha, rep.Options.MinExcess)
+	fmt.Fprintf(w, "Bin flag: Holm-adjusted exact p below %.0f%% over each test's bins and a change of at least %g%% of the bin's share (--min-excess)\n", 100*rep.Options.Alpha, 100*rep.Options.MinExcess)
 	for _, n := range rep.Notes {
 		fmt.Fprintf(w, "Note: %s.\n", n)
 	}

@@ -9,8 +9,10 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/leadline/leadline/engine/compare"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
 	"github.com/spf13/pflag"
 )
@@ -160,11 +162,29 @@ func TestCompareCommand(t *testing.T) {
 
 	// The same two populations from two stored scan runs, and from two
 	// workspaces: the same counts, so the same statistic.
-	idA := parse(cmd("scan", "--db", db, "--where", "entity = 'A'", "--format", "json")).RunID
+	scanA := cmd("scan", "--db", db, "--where", "entity = 'A'", "--format", "json")
+	idA := parse(scanA).RunID
 	idB := parse(cmd("scan", "--db", db, "--where", "entity = 'B'", "--format", "json")).RunID
 	runs := parse(cmd("compare", "--db", db, "--runs", fmt.Sprintf("%d,%d", idA, idB), "--format", "json"))
 	ws := parse(cmd("compare", "--db", dbA, "--against", dbB, "--format", "json"))
-	for _, d := range []compareDoc{runs, ws} {
+	// A pack run holds its battery as results.battery; --runs with
+	// --against reads the right run from the other workspace.
+	w, err := workspace.Open(context.Background(), db, workspace.Options{MustExist: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	packID, err := w.SaveRun(context.Background(), workspace.Run{Kind: "pack", Started: time.Now(), Params: map[string]any{},
+		Result: json.RawMessage(`{"results": {"battery": ` + scanA + `}}`)})
+	w.Close()
+	if err != nil {
+		t.Fatal(err)
+	}
+	idBOnly := parse(cmd("scan", "--db", dbB, "--format", "json")).RunID
+	packs := parse(cmd("compare", "--db", db, "--runs", fmt.Sprintf("%d,%d", packID, idBOnly), "--against", dbB, "--format", "json"))
+	if !strings.HasPrefix(packs.Left.Label, fmt.Sprintf("pack run %d (entity = 'A') of ", packID)) {
+		t.Errorf("pack run side: %q", packs.Left.Label)
+	}
+	for _, d := range []compareDoc{runs, ws, packs} {
 		if len(d.Tests) != 5 {
 			t.Fatalf("%s: %d tests", d.Mode, len(d.Tests))
 		}
@@ -188,7 +208,7 @@ func TestCompareCommand(t *testing.T) {
 
 	// Each comparison is stored as a run (--against: in the --db workspace).
 	out := cmd("sql", "--db", db, "--format", "csv", "SELECT count(*) AS n FROM runs WHERE kind = 'compare'")
-	if strings.TrimSpace(out) != "n\n3" {
+	if strings.TrimSpace(out) != "n\n4" {
 		t.Errorf("compare runs stored: %s", out)
 	}
 
@@ -198,7 +218,7 @@ func TestCompareCommand(t *testing.T) {
 		t.Errorf("missing value: exit %d, %s", code, errs.String())
 	}
 	errs.Reset()
-	if code := run(context.Background(), []string{"compare", "--db", db, "--runs", fmt.Sprintf("%d,%d", idA, split.RunID)}, &env{stdout: &bytes.Buffer{}, stderr: &errs}); code == 0 || !strings.Contains(errs.String(), "is a compare run; give scan runs") {
+	if code := run(context.Background(), []string{"compare", "--db", db, "--runs", fmt.Sprintf("%d,%d", idA, split.RunID)}, &env{stdout: &bytes.Buffer{}, stderr: &errs}); code == 0 || !strings.Contains(errs.String(), "is a compare run; give scan or pack runs") {
 		t.Errorf("a compare run as a side: exit %d, %s", code, errs.String())
 	}
 	errs.Reset()
