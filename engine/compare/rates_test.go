@@ -1,6 +1,7 @@
 package compare
 
 import (
+	"flag"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -9,6 +10,11 @@ import (
 
 	"github.com/leadline/leadline/engine/benford"
 )
+
+// fullRates runs the rate simulations at the size the README's tables
+// quote (400 and 200 pairs per N); without it 150 and 80 (-short: 60 and
+// 30).
+var fullRates = flag.Bool("full", false, "compare: the rate simulations at the README's size")
 
 // drawSide draws n conforming amounts as the bin counts of every test:
 // first-three digits from Benford's law (the first, second and first-two
@@ -96,10 +102,13 @@ func rateTable(rows []rateRow) string {
 // simulation noise (three binomial standard errors) at every N. The full
 // run (400 pairs per N) is the README's table:
 //
-//	go test ./engine/compare -run TestCompareFalseAlarmRates -v
+//	go test ./engine/compare -run TestCompareFalseAlarmRates -v -args -full
 func TestCompareFalseAlarmRates(t *testing.T) {
-	reps := 400
-	if testing.Short() {
+	reps := 150
+	switch {
+	case *fullRates:
+		reps = 400
+	case testing.Short():
 		reps = 60
 	}
 	noise := 3 * math.Sqrt(0.05*0.95/float64(reps))
@@ -124,10 +133,13 @@ func TestCompareFalseAlarmRates(t *testing.T) {
 // more: the injection adds about 44% to each of 50 of 900 bins, and Holm's
 // step-down over 900 bins asks for more than at 50,000.)
 //
-//	go test ./engine/compare -run TestCompareDetection -v
+//	go test ./engine/compare -run TestCompareDetection -v -args -full
 func TestCompareDetection(t *testing.T) {
-	reps := 200
-	if testing.Short() {
+	reps := 80
+	switch {
+	case *fullRates:
+		reps = 200
+	case testing.Short():
 		reps = 30
 	}
 	var rows []rateRow
