@@ -288,6 +288,8 @@ func TestCommandsRefuseInjection(t *testing.T) {
 		{func(h string) []string { return []string{"dups", "--where", h} }, "1=1", false},
 		{func(h string) []string { return []string{"ranges", "--where", h} }, "1=1", false},
 		{func(h string) []string { return []string{"limits", "--by", h} }, "entity", false},
+		{func(h string) []string { return []string{"compare", "--left", h, "--right", "1=1"} }, "1=1", false},
+		{func(h string) []string { return []string{"compare", "--split", h + "=A,B"} }, "", false},
 		{func(h string) []string {
 			return []string{"sensitivity", "--kind", "repeated", "--amount", "15", "--seeds", "2", "--rates", "0,0.1", "--where", h}
 		}, "1=1", false},

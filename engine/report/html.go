@@ -130,6 +130,9 @@ func Write(w io.Writer, m *Model) error {
 	if len(m.Sensitivity) > 0 {
 		add("sensitivity", "Sensitivity: what the tests would have detected", "", m.Sensitivity)
 	}
+	if len(m.Compares) > 0 {
+		add("compare", "Comparisons of two count sets", "", m.Compares)
+	}
 	if len(m.Checks) > 0 {
 		add("checks", "Journal-entry checks", "", m.Checks)
 	} else {

@@ -51,6 +51,7 @@ type Model struct {
 	Duplicates   *DuplicateSection
 	Drills       *DrillSection
 	Sensitivity  []*SensitivitySection
+	Compares     []*CompareSection // leadline compare runs (compare.go)
 	Manifest     *ManifestSection
 	// Checks are the journal-entry checks of a pack run, each with the
 	// SQL that produced it.

@@ -317,6 +317,8 @@ func (m *Model) addRuns(runs []*Run) error {
 			err = m.addPackDoc(r, r.Result, base)
 		case KindSensitivity:
 			err = m.addSensitivity(r, r.Result, base)
+		case KindCompare:
+			err = m.addCompare(r, r.Result, base)
 		default:
 			err = m.addOther(r, fmt.Sprintf("Run %d: %s", r.ID, r.Kind))
 		}
