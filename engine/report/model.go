@@ -50,6 +50,7 @@ type Model struct {
 	Ranges       *RangeSection
 	Duplicates   *DuplicateSection
 	Drills       *DrillSection
+	Followup     *FollowupSection // the team's follow-up read back (followup.go)
 	Sensitivity  []*SensitivitySection
 	Manifest     *ManifestSection
 	// Checks are the journal-entry checks of a pack run, each with the

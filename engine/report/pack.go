@@ -99,6 +99,9 @@ func FromRun(run *output.Run, opts Options) (*Model, error) {
 	if err := m.completenessFromTables(r.Result, packDocBase); err != nil {
 		return nil, err
 	}
+	if err := m.followupFromDoc(r.Result, packDocBase); err != nil {
+		return nil, err
+	}
 	m.Set = &RunSet{Name: SetPack, How: "this pack run"}
 	m.explainAbsent()
 	return m, nil
