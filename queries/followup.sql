@@ -116,10 +116,11 @@ WHERE coalesce(matches, 0) <> 1
 ORDER BY source_line;
 
 -- name: followup_counts
--- Rows stored and refused by one read. Bound parameters: the read id,
--- twice.
+-- Rows stored, refused, and stored with a status or note entered, by one
+-- read. Bound parameters: the read id, three times.
 SELECT (SELECT count(*) FROM followup WHERE read_id = ?),
-       (SELECT count(*) FROM followup_refused WHERE read_id = ?);
+       (SELECT count(*) FROM followup_refused WHERE read_id = ?),
+       (SELECT count(*) FROM followup WHERE read_id = ? AND (status IS NOT NULL OR note IS NOT NULL));
 
 -- name: followup_refused_first
 -- The first refused rows of one read. Bound parameters: the read id, the
@@ -165,3 +166,7 @@ SELECT rd.path, x.source_line, coalesce(x.file_name, ''), coalesce(x.line, ''), 
 FROM followup_refused x JOIN followup_reads rd ON rd.read_id = x.read_id
 ORDER BY x.read_id, x.source_line
 LIMIT ?;
+
+-- name: followup_statuses
+-- The distinct statuses one read stored. Bound parameter: the read id.
+SELECT DISTINCT status FROM followup WHERE read_id = ? AND status IS NOT NULL ORDER BY status;

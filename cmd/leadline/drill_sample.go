@@ -125,7 +125,7 @@ func runDrillSample(ctx context.Context, e *env, o drillOptions, ws *workspace.W
 	}
 	w := e.stdout
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "Population: %s records, total %s (|amount| %s), in %s\n", numfmt.Int(sum.Records), sum.Total, d.PopulationTotal, d.Order)
+	fmt.Fprintf(w, "Population: %s records, total %s (sum of |amount| %s)\nOrder: %s\n", numfmt.Int(sum.Records), sum.Total, d.PopulationTotal, d.Order)
 	method := "simple random (each record equally likely)"
 	if d.Method == "monetary" {
 		method = "monetary-unit (probability proportional to |amount|, systematic from a random start)"

@@ -81,7 +81,7 @@ type FileResult struct {
 	RowsRead    int64     `json:"rows_read"`
 	RowsStored  int64     `json:"rows_stored"`
 	RowsRefused int64     `json:"rows_refused"`
-	Filled      int64     `json:"rows_filled"`      // stored rows with a status or a note
+	Filled      int64     `json:"rows_filled"`      // stored rows with a status or a note entered
 	Refusals    []Refusal `json:"refused_first"`    // the first refused rows
 	Missing     []string  `json:"columns_missing"`  // follow-up columns the file lacks (read as blank)
 	Statuses    []string  `json:"statuses_entered"` // distinct statuses entered, sorted
@@ -191,7 +191,7 @@ func readOne(ctx context.Context, ws *workspace.Workspace, path string, o Option
 			return nil, fmt.Errorf("follow-up: %s: %w", path, err)
 		}
 	}
-	if err := tx.QueryRowContext(ctx, queries.Get("followup_counts"), fr.ReadID, fr.ReadID).Scan(&fr.RowsStored, &fr.RowsRefused); err != nil {
+	if err := tx.QueryRowContext(ctx, queries.Get("followup_counts"), fr.ReadID, fr.ReadID, fr.ReadID).Scan(&fr.RowsStored, &fr.RowsRefused, &fr.Filled); err != nil {
 		return nil, err
 	}
 	if fr.RowsStored+fr.RowsRefused != fr.RowsRead {
@@ -213,23 +213,28 @@ func readOne(ctx context.Context, ws *workspace.Workspace, path string, o Option
 	if err := ref.Err(); err != nil {
 		return nil, err
 	}
+	sts, err := tx.QueryContext(ctx, queries.Get("followup_statuses"), fr.ReadID)
+	if err != nil {
+		return nil, err
+	}
+	for sts.Next() {
+		var s string
+		if err := sts.Scan(&s); err != nil {
+			sts.Close()
+			return nil, err
+		}
+		fr.Statuses = append(fr.Statuses, s)
+	}
+	sts.Close()
+	if err := sts.Err(); err != nil {
+		return nil, err
+	}
 	if _, err := tx.ExecContext(ctx, queries.Get("followup_insert_read"), fr.ReadID, o.Now.UTC(), fr.Path, nullable(fr.Sheet), fr.SHA256, fr.RowsRead, fr.RowsStored, fr.RowsRefused); err != nil {
 		return nil, err
 	}
 	if err := tx.Commit(); err != nil {
 		return nil, err
 	}
-	seen := map[string]bool{}
-	for _, r := range rows {
-		if strings.TrimSpace(r.status) != "" || strings.TrimSpace(r.note) != "" {
-			fr.Filled++
-		}
-		if s := strings.ToLower(strings.TrimSpace(r.status)); s != "" && !seen[s] {
-			seen[s] = true
-			fr.Statuses = append(fr.Statuses, s)
-		}
-	}
-	sortStrings(fr.Statuses)
 	return fr, nil
 }
 
@@ -333,12 +338,4 @@ func unneutral(s string) string {
 		return s[1:]
 	}
 	return s
-}
-
-func sortStrings(s []string) {
-	for i := 1; i < len(s); i++ {
-		for j := i; j > 0 && s[j] < s[j-1]; j-- {
-			s[j], s[j-1] = s[j-1], s[j]
-		}
-	}
 }
