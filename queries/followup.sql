@@ -53,10 +53,12 @@ CREATE TABLE IF NOT EXISTS followup_refused (
 );
 
 -- name: followup_next_read
+-- The next read id. No bound parameters.
 SELECT nextval('followup_read_seq');
 
 -- name: followup_stage_create
--- The rows of one returned file as read, before they are matched.
+-- The rows of one returned file as read, before they are matched. No
+-- bound parameters.
 CREATE OR REPLACE TEMP TABLE ll_followup_stage (
     source_line BIGINT,
     file_name   VARCHAR,
@@ -128,6 +130,8 @@ SELECT (SELECT count(*) FROM followup WHERE read_id = ?),
 SELECT source_line, reason FROM followup_refused WHERE read_id = ? ORDER BY source_line LIMIT ?;
 
 -- name: followup_insert_read
+-- One returned file read. Bound parameters: read id, time, path, sheet
+-- (NULL for a CSV), SHA-256, rows read, stored, refused.
 INSERT INTO followup_reads VALUES (?, ?, ?, ?, ?, ?, ?, ?);
 
 -- name: followup_has_tables

@@ -116,3 +116,59 @@ func statusSentence(t *node) string {
 	}
 	return fmt.Sprintf("%d record(s) returned with follow-up columns: %s.", total, strings.Join(parts, ", "))
 }
+
+// trimFollowupColumns leaves out of an extract's table the follow-up
+// columns when every row shown has them empty: they are there for the
+// team to fill in the CSV and the workbook, and would only widen the page.
+func trimFollowupColumns(g *GenericSection) {
+	for ti := range g.Tables {
+		t := &g.Tables[ti]
+		drop := map[int]bool{}
+		for j, c := range t.Columns {
+			for _, f := range followup.Columns {
+				if c == humanLabel(f) {
+					drop[j] = true
+				}
+			}
+		}
+		for _, r := range t.Rows {
+			for j := range drop {
+				if j < len(r) && r[j] != "" {
+					delete(drop, j)
+				}
+			}
+		}
+		if len(drop) == 0 {
+			continue
+		}
+		keep := func(n int) []int {
+			var out []int
+			for j := 0; j < n; j++ {
+				if !drop[j] {
+					out = append(out, j)
+				}
+			}
+			return out
+		}(len(t.Columns))
+		var cols []string
+		var num []bool
+		for _, j := range keep {
+			cols = append(cols, t.Columns[j])
+			if j < len(t.Num) {
+				num = append(num, t.Num[j])
+			}
+		}
+		for ri, r := range t.Rows {
+			var nr []template.HTML
+			for _, j := range keep {
+				if j < len(r) {
+					nr = append(nr, r[j])
+				}
+			}
+			t.Rows[ri] = nr
+		}
+		t.Columns, t.Num = cols, num
+		g.Facts = append(g.Facts, Fact{Label: "follow-up columns", Value: template.HTML(template.HTMLEscapeString(
+			"empty here; fill them in the CSV or the workbook sheet and read the file back with leadline followup"))})
+	}
+}

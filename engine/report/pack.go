@@ -205,6 +205,7 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 			}
 			g := tableFromOutput(r, t, srcRef(base, "/tables/"+strconv.Itoa(i), ""), maxExtractRows)
 			if sec.str == "extract" {
+				trimFollowupColumns(g)
 				if m.Drills == nil {
 					m.Drills = &DrillSection{}
 				}
