@@ -40,18 +40,6 @@ SELECT count(*) FROM (
 -- stage table of extract_stage, quoted with QuoteIdent. No bound parameters.
 SELECT * EXCLUDE (ll_item_no, ll_pos) FROM {{table}} ORDER BY ll_pos
 
--- name: pack_extract_sizes
--- The absolute amount of every record of an extract, in its order, as exact
--- text (the sizes a monetary sample is drawn by). Placeholder {{table}}: the
--- stage table, quoted with QuoteIdent. No bound parameters.
-SELECT CAST(abs(amount) AS VARCHAR) FROM {{table}} ORDER BY ll_pos;
-
--- name: pack_extract_sample
--- The records a sample drew, by their position in the extract.
--- Placeholders: {{table}}, the stage table quoted with QuoteIdent; {{ids}},
--- one "?" per position (NULL when none). Bound parameters: the positions.
-SELECT * EXCLUDE (ll_item_no, ll_pos) FROM {{table}} WHERE ll_pos IN ({{ids}}) ORDER BY ll_pos;
-
 -- name: pack_parquet_columns
 -- The column names of a Parquet input, for checking a pack without a
 -- workspace. No bound parameters: DuckDB takes none as a table-function

@@ -36,6 +36,7 @@ func fragments(dir string, segmented bool) map[string]string {
 		"group_by":       "",
 		"group_expr":     "entity",
 		"ids":            "1, 2",
+		"exclude":        "ll_pos",
 		"last2":          "ll_a % 100",
 		"limit":          "LIMIT 10",
 		"line_offset":    "1",

@@ -46,7 +46,21 @@ told otherwise. A duplicate group keeps the population of its run.
 account, entity, an original column, file_name, year, quarter or month) with its records,
 total, distinct amounts and the most repeated amounts ("1847.23×312"),
 most records first. --out FILE writes every record (or every group) to a
-.csv, .json or .parquet file; --limit only cuts what is shown.
+.csv, .json or .parquet file; --limit only cuts what is shown. Every
+exported record ends in four empty follow-up columns (followup_status,
+followup_note, followup_reviewer, followup_reviewed_on) for the team to
+fill; leadline followup FILE reads them back into the workspace.
+
+--sample random|monetary draws a reproducible sample of the selected
+records to vouch: random draws --sample-size records with equal
+probability; monetary draws by |amount| (monetary-unit sampling: interval
+= total / size rounded up, a random start, every record of at least the
+interval always selected). Records are numbered in file order (by file as
+loaded, then line: the order of --out without --sort), so the same
+records and --seed draw the same sample again. The method, seed,
+interval, population count and total are printed, stored as a drill run
+(the report shows it) and, with --out, written beside the file as
+NAME.sample.json; --out then holds the sample's records.
 
 Examples:
   leadline drill --test first_two --bin 47
@@ -55,7 +69,8 @@ Examples:
   leadline drill --amount 1847.23 --group user_id
   leadline drill --amount -250 --group counterparty --limit 20
   leadline drill --dup 7:same_amount:1
-  leadline drill --test last_two --bin 0 --where "entity = 'HAUL'" --out round.parquet`,
+  leadline drill --test last_two --bin 0 --where "entity = 'HAUL'" --out round.parquet
+  leadline drill --test first_two --bin 47 --sample monetary --sample-size 30 --seed 7 --out vouch.csv`,
 		flags: thin(drillFlags, runDrill),
 	})
 }
@@ -71,6 +86,7 @@ type drillOptions struct {
 	out     string
 	// limitGiven: --limit was given, so --out writes only that many.
 	limitGiven bool
+	sample     drillSample
 }
 
 // drillFlags registers drill's flags; the function it returns checks them.
@@ -96,6 +112,7 @@ func drillFlags(fs *pflag.FlagSet) func(args []string) (drillOptions, error) {
 	fs.StringVar(&o.group.Column, "group", "", "one row per value of this column: counterparty, user_id, account, entity, any original column, file_name, year, quarter, month")
 	fs.IntVar(&o.group.Top, "top-amounts", drill.DefaultTopAmounts, "repeated amounts listed per group")
 	fs.StringVar(&o.out, "out", "", "write every record (or group) to a .csv, .json or .parquet file")
+	checkSample := o.sample.add(fs)
 	f.add(fs)
 	return func(args []string) (drillOptions, error) {
 		if err := f.check(); err != nil {
@@ -132,6 +149,9 @@ func drillFlags(fs *pflag.FlagSet) func(args []string) (drillOptions, error) {
 		}
 		o.limitGiven = fs.Changed("limit")
 		o.format = f.value
+		if err := checkSample(&o); err != nil {
+			return o, err
+		}
 		return o, nil
 	}
 }
@@ -140,7 +160,7 @@ func drillFlags(fs *pflag.FlagSet) func(args []string) (drillOptions, error) {
 // --dup) and prints or exports its records or groups.
 func runDrill(ctx context.Context, e *env, o drillOptions) error {
 	sel := o.sel
-	ws, err := e.openWorkspace(ctx, o.db, true)
+	ws, err := e.openWorkspace(ctx, o.db, o.sample.Method == "")
 	if err != nil {
 		return err
 	}
@@ -184,6 +204,9 @@ func runDrill(ctx context.Context, e *env, o drillOptions) error {
 	if sum.Records == 0 {
 		return drill.NoRecordsError(b)
 	}
+	if o.sample.Method != "" {
+		return runDrillSample(ctx, e, o, ws, b, sum)
+	}
 	if o.out != "" {
 		return drillExport(ctx, e.stdout, o.format, o.limitGiven, b, sum, o.records, o.group, o.out, ws)
 	}
@@ -216,6 +239,10 @@ type drillJSON struct {
 	Rows        []map[string]any `json:"rows"`
 	Out         string           `json:"out,omitempty"`
 	OutFormat   string           `json:"out_format,omitempty"`
+	// A sample drawn with --sample: how, and the run it is stored as.
+	Sample    *drill.SampleDrawn `json:"sample,omitempty"`
+	Companion string             `json:"sample_file,omitempty"`
+	RunID     int64              `json:"run_id,omitempty"`
 }
 
 func printDrillRecords(w io.Writer, format string, b *drill.Built, sum drill.Summary, t *tabular.Table, more bool) error {

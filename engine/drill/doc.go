@@ -8,8 +8,11 @@
 // A selection is built into one SQL predicate over the ledger (Build); its
 // records are then listed with every original column (Records), grouped by
 // any column with counts, totals and the most repeated amounts (Group), or
-// written by DuckDB straight to a CSV, JSON or Parquet file (Export). Only
-// the rows shown are ever held in Go memory.
+// written by DuckDB straight to a CSV, JSON or Parquet file (Export), each
+// record followed by the empty follow-up columns of engine/followup. Only
+// the rows shown are ever held in Go memory. Sample draws a reproducible
+// sample of the records in file order (engine/sample over DrawSample,
+// which pack extracts share).
 //
 // Amounts: --amount and --range are compared with the absolute amount under
 // the signs kept (positive amounts by default, as in the scan), so that a

@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/duckdb/duckdb-go/v2"
+	"github.com/leadline/leadline/engine/followup"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/sqlguard"
@@ -298,7 +299,8 @@ var copyOptions = map[string]string{
 }
 
 // Export writes the selection's records (o.Limit of them, 0 = all) to the
-// file at path, in the format its extension names. In CSV, text that a
+// file at path, in the format its extension names, each followed by the
+// empty follow-up columns the engagement team fills (engine/followup). In CSV, text that a
 // spreadsheet would run as a formula gets a leading quote
 // (output.NeutralizeText); Parquet and JSON keep it as it is. DuckDB writes the file
 // straight from the query: no row passes through Go. Amounts keep their
@@ -313,9 +315,18 @@ func Export(ctx context.Context, ws *workspace.Workspace, b *Built, o RecordOpti
 	if err != nil {
 		return err
 	}
+	return exportRecords(ctx, ws, q, args, path, format)
+}
+
+// exportRecords writes the records of q to path: amounts as exact text
+// (but in Parquet), the empty follow-up columns after the record's own
+// (engine/followup), text neutralised in CSV.
+func exportRecords(ctx context.Context, ws *workspace.Workspace, q string, args []any, path, format string) error {
+	var err error
 	if format != "parquet" {
 		q = queries.Render("drill_export_text_amounts", map[string]string{"query": strings.TrimSuffix(strings.TrimSpace(q), ";")})
 	}
+	q = followup.WithColumns(q)
 	if format == "csv" {
 		if q, err = output.NeutralCSVQuery(ctx, ws.Conn, q, args); err != nil {
 			return fmt.Errorf("--out %s: %s", path, firstLine(err.Error()))

@@ -149,6 +149,7 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		c := c
 		step("check "+c.Name, func(ctx context.Context) error { return r.checkStep(ctx, c) })
 	}
+	step("follow-up", r.followupStep)
 	if err := ctx.Err(); err != nil {
 		return nil, fmt.Errorf("run interrupted; nothing was written: %w", err)
 	}

@@ -6,7 +6,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"math/big"
 	"sort"
 	"strconv"
 	"strings"
@@ -15,13 +14,13 @@ import (
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/duplicates"
+	"github.com/leadline/leadline/engine/followup"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/output"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/reconcile"
-	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
@@ -605,6 +604,9 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		recCols = []string{"item"}
 	}
 	kinds := map[string]output.Kind{"item": output.Text, "line": output.Count, "row_id": output.Count, "file_id": output.Count, "amount": output.Money}
+	if len(recCols) > 1 {
+		recCols, recRows = withFollowup(recCols, recRows, kinds)
+	}
 	rt := output.NewTable("extract_"+e.Name, fmt.Sprintf("Extract %s: records behind the top %d result(s) of %s", e.Name, e.Top, e.From), "extract", recCols, recRows, kinds)
 	rt.RowsTotal = total
 	rt.Truncated = total > int64(len(recRows))
@@ -617,7 +619,7 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 		if _, err := r.ws.Conn.ExecContext(ctx, q, args...); err != nil {
 			return err
 		}
-		rt.Source = &output.Source{DB: r.ws.Conn, SQL: queries.Render("pack_extract_rows", map[string]string{"table": stage})}
+		rt.Source = &output.Source{DB: r.ws.Conn, SQL: followup.WithColumns(queries.Render("pack_extract_rows", map[string]string{"table": stage}))}
 		rt.Complete = true
 	}
 	var drawn *SampleDrawn
@@ -684,88 +686,30 @@ func selectionForBin(o battery.Options, test string, bin int) drill.Selection {
 // and what was drawn. Simple random: sample_size records with equal
 // probability; monetary: by |amount| (see engine/sample).
 func (r *runner) drawSample(ctx context.Context, e ExtractPlan, stage string, records int64, kinds map[string]output.Kind) (*output.Table, *SampleDrawn, error) {
-	d := &SampleDrawn{Method: e.Sample, Seed: e.Seed, Size: e.SampleSize, PopulationRecords: records,
-		Order: "the extract's records in its order: by item, then row_id (file order)"}
-	rows, err := r.ws.Conn.QueryContext(ctx, queries.Render("pack_extract_sizes", map[string]string{"table": stage}))
+	tt, d, err := drill.DrawSample(ctx, r.ws.Conn, stage, []string{"ll_item_no"}, e.Sample, e.SampleSize, e.Seed, r.scale,
+		"the extract's records in its order: by item, then row_id (file order)")
 	if err != nil {
 		return nil, nil, err
 	}
-	var sizes []*big.Int
-	total := new(big.Int)
-	for rows.Next() {
-		var a sql.NullString
-		if err := rows.Scan(&a); err != nil {
-			rows.Close()
-			return nil, nil, err
-		}
-		u := new(big.Int)
-		if a.Valid {
-			if _, ok := u.SetString(strings.Replace(a.String, ".", "", 1), 10); !ok {
-				rows.Close()
-				return nil, nil, fmt.Errorf("amount %q is not a decimal", a.String)
-			}
-		}
-		sizes = append(sizes, u)
-		total.Add(total, u)
+	if d.PopulationRecords != records {
+		return nil, nil, fmt.Errorf("the extract holds %d records, the sample read %d", records, d.PopulationRecords)
 	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return nil, nil, err
-	}
-	d.PopulationTotal = r.unitsText(total)
-	var positions []int64
-	switch e.Sample {
-	case "random":
-		positions = sample.Random(int64(len(sizes)), e.SampleSize, uint64(e.Seed))
-	case "monetary":
-		res, err := sample.Monetary(sizes, e.SampleSize, uint64(e.Seed))
-		if err != nil {
-			return nil, nil, err
-		}
-		positions = res.Positions
-		d.Interval, d.Start = r.unitsText(res.Interval), r.unitsText(res.Start)
-	default:
-		return nil, nil, fmt.Errorf("unknown sampling method %q", e.Sample)
-	}
-	d.Selected = len(positions)
-	marks := "NULL"
-	var sargs []any
-	if len(positions) > 0 {
-		marks = strings.TrimSuffix(strings.Repeat("?, ", len(positions)), ", ")
-		for _, p := range positions {
-			sargs = append(sargs, p)
-		}
-	}
-	srows, err := r.ws.Conn.QueryContext(ctx, queries.Render("pack_extract_sample", map[string]string{"table": stage, "ids": marks}), sargs...)
-	if err != nil {
-		return nil, nil, err
-	}
-	tt, _, err := tabular.FromRows(srows, len(positions)+1)
-	if err != nil {
-		return nil, nil, err
-	}
-	how := "simple random sample (each record equally likely)"
-	if e.Sample == "monetary" {
-		how = fmt.Sprintf("monetary-unit sample (probability proportional to |amount|; interval %s, random start %s)", d.Interval, d.Start)
-	}
-	t := output.NewTable("extract_"+e.Name+"_sample", fmt.Sprintf("Extract %s: sample of %d record(s) to vouch", e.Name, len(tt.Rows)), "extract", tt.Columns, tt.Rows, kinds)
-	t.Note = fmt.Sprintf("%s of %s record(s) asked, %s selected, from the extract's %s records totalling %s (|amount|), seed %d; drawn again by the same pack on the same records",
-		how, numfmt.Int(int64(e.SampleSize)), numfmt.Int(int64(d.Selected)), numfmt.Int(records), d.PopulationTotal, e.Seed)
+	cols, rows := withFollowup(tt.Columns, tt.Rows, kinds)
+	t := output.NewTable("extract_"+e.Name+"_sample", fmt.Sprintf("Extract %s: sample of %d record(s) to vouch", e.Name, len(tt.Rows)), "extract", cols, rows, kinds)
+	t.Note = d.Describe() + "; drawn again by the same pack on the same records"
 	return t, d, nil
 }
 
-// unitsText writes an amount in the ledger's smallest units as decimal
-// text at the ledger's scale.
-func (r *runner) unitsText(u *big.Int) string {
-	s := new(big.Int).Abs(u).String()
-	if r.scale > 0 {
-		if len(s) <= r.scale {
-			s = strings.Repeat("0", r.scale-len(s)+1) + s
-		}
-		s = s[:len(s)-r.scale] + "." + s[len(s)-r.scale:]
+// withFollowup adds the empty follow-up columns (engine/followup) to an
+// extract's records, so that the team can record what it found in the
+// CSV, Parquet or workbook and return it (leadline followup).
+func withFollowup(cols []string, rows [][]any, kinds map[string]output.Kind) ([]string, [][]any) {
+	cols = append(append([]string(nil), cols...), followup.Columns...)
+	for i := range rows {
+		rows[i] = append(rows[i], make([]any, len(followup.Columns))...)
 	}
-	if u.Sign() < 0 {
-		s = "-" + s
+	for _, c := range followup.Columns {
+		kinds[c] = output.Text
 	}
-	return s
+	return cols, rows
 }

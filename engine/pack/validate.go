@@ -99,19 +99,8 @@ type ExtractPlan struct {
 	Drawn      *SampleDrawn `json:"drawn,omitempty"`
 }
 
-// SampleDrawn records a sample as drawn: enough for a reviewer to draw it
-// again from the same records in the same order.
-type SampleDrawn struct {
-	Method            string `json:"method"`
-	Seed              int64  `json:"seed"`
-	Size              int    `json:"size"`               // asked for
-	Selected          int    `json:"selected"`           // records selected
-	PopulationRecords int64  `json:"population_records"` // the extract's records
-	PopulationTotal   string `json:"population_total"`   // sum of |amount| over them
-	Interval          string `json:"interval,omitempty"` // monetary: the sampling interval
-	Start             string `json:"start,omitempty"`    // monetary: the random start
-	Order             string `json:"order"`              // the population's order
-}
+// SampleDrawn records a sample as drawn (shared with drill --sample).
+type SampleDrawn = drill.SampleDrawn
 
 // CheckPlan is one extra SQL check, checked read-only, with its bound
 // parameters.

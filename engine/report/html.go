@@ -127,6 +127,9 @@ func Write(w io.Writer, m *Model) error {
 	add("ranges", "Amount ranges", m.absent["ranges"], m.Ranges)
 	add("duplicates", "Duplicate groups", m.absent["duplicates"], m.Duplicates)
 	add("drill", "Drill-down extracts", m.absent["drill"], m.Drills)
+	if m.Followup != nil {
+		add("followup", "Follow-up returned by the team", "", m.Followup)
+	}
 	if len(m.Sensitivity) > 0 {
 		add("sensitivity", "Sensitivity: what the tests would have detected", "", m.Sensitivity)
 	}

@@ -50,6 +50,7 @@ type Model struct {
 	Ranges       *RangeSection
 	Duplicates   *DuplicateSection
 	Drills       *DrillSection
+	Followup     *FollowupSection // the team's follow-up read back (followup.go)
 	Sensitivity  []*SensitivitySection
 	Compares     []*CompareSection // leadline compare runs (compare.go)
 	Manifest     *ManifestSection

@@ -99,6 +99,9 @@ func FromRun(run *output.Run, opts Options) (*Model, error) {
 	if err := m.completenessFromTables(r.Result, packDocBase); err != nil {
 		return nil, err
 	}
+	if err := m.followupFromDoc(r.Result, packDocBase); err != nil {
+		return nil, err
+	}
 	m.Set = &RunSet{Name: SetPack, How: "this pack run"}
 	m.explainAbsent()
 	return m, nil
@@ -202,6 +205,7 @@ func (m *Model) addPackDoc(r *Run, doc json.RawMessage, base string) error {
 			}
 			g := tableFromOutput(r, t, srcRef(base, "/tables/"+strconv.Itoa(i), ""), maxExtractRows)
 			if sec.str == "extract" {
+				trimFollowupColumns(g)
 				if m.Drills == nil {
 					m.Drills = &DrillSection{}
 				}

@@ -245,6 +245,10 @@ func chooseSet(all []*Run, opts Options, wsPath string) ([]*Run, *RunSet, error)
 			case steps[r.ID]:
 				r.PartOf = latestPack.ID
 				picked = append(picked, r)
+			case r.Kind == KindDrill && r.ID > latestPack.ID:
+				// a drill-down or sample drawn on the pack's workspace
+				// since: shown under its own selection
+				picked = append(picked, r)
 			case r.ID > latestPack.ID:
 				left(rs, r, "made after the pack run, with its own settings")
 			default:

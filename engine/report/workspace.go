@@ -102,6 +102,9 @@ func FromWorkspace(ctx context.Context, ws *workspace.Workspace, opts Options) (
 	if err := m.addRuns(runs); err != nil {
 		return nil, err
 	}
+	if err := m.followupFromWorkspace(ctx, ws); err != nil {
+		return nil, err
+	}
 	if len(opts.Manifest) > 0 {
 		ms, err := manifestFrom(nil, opts.Manifest, "manifest#", "")
 		if err != nil {
