@@ -6,14 +6,13 @@ import (
 	"strconv"
 
 	"github.com/leadline/leadline/engine/benford"
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 )
 
 // lastTwoMinUnits returns the smallest |amount|, in units of 10^-scale,
 // whose last two digits the test reads ("": every amount). The rule is
-// drill.LastTwoMinUnits, shared with the drill-down: the two digits read
+// population.LastTwoMinUnits, shared with the drill-down: the two digits read
 // must be the fourth significant digit or later. The third significant
 // digit of Benford-distributed amounts runs from 10.2% for 0 to 9.8% for 9
 // (Hill 1995, from memory), which a few million amounts detect: at scale 2
@@ -23,7 +22,7 @@ func lastTwoMinUnits(o Options, at population.AmountType) string {
 	if o.LastTwoAll {
 		return ""
 	}
-	return drill.LastTwoMinUnits(o.LastTwo, at).String()
+	return population.LastTwoMinUnits(o.LastTwo, at).String()
 }
 
 // lastTwoSQL returns the SQL over ll_a (|amount| in units) of the last-two

@@ -16,17 +16,10 @@ import (
 	"github.com/leadline/leadline/queries"
 )
 
-// Last-two digits readings (Options.LastTwo).
+// Last-two digits readings (Options.LastTwo): see engine/population.
 const (
-	// LastTwoScale reads the two rightmost digits of the amount written at
-	// the ledger's scale: 1234.56 -> 56, 1200.00 -> 00, and at scale 0
-	// 1234 -> 34. This is the default.
-	LastTwoScale = "scale"
-	// LastTwoUnits reads the two rightmost digits of the whole-currency
-	// part: 1234.56 -> 34, 1200.00 -> 00. Practitioners often apply the
-	// last-two digits test to whole amounts, where invented numbers end in
-	// round figures.
-	LastTwoUnits = "units"
+	LastTwoScale = population.LastTwoScale
+	LastTwoUnits = population.LastTwoUnits
 )
 
 // Plan is a checked battery, its SQL built, ready to scan.

@@ -9,7 +9,6 @@ import (
 	"regexp"
 	"strings"
 
-	"github.com/leadline/leadline/engine/drill"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/queries"
@@ -395,12 +394,12 @@ func (s Spec) frame(d *dialect) frame {
 }
 
 // lastTwoMinUnits is the smallest |units| counted under kind l: the local
-// scan's rule (drill.LastTwoMinUnits), or 0 with LastTwoAll.
+// scan's rule (population.LastTwoMinUnits), or 0 with LastTwoAll.
 func (s Spec) lastTwoMinUnits() *big.Int {
 	if s.LastTwoAll {
 		return new(big.Int)
 	}
-	return drill.LastTwoMinUnits(s.LastTwo, population.AmountType{Scale: s.Scale})
+	return population.LastTwoMinUnits(s.LastTwo, population.AmountType{Scale: s.Scale})
 }
 
 // ReadQuery reads the spec back from a query's first line.

@@ -31,29 +31,18 @@ import (
 // column, so DuckDB compares integers and can use the column directly:
 // first_two bin 47 <=> |x| in [47*10^k, 48*10^k) for some integer k.
 
-// Readings of the last-two digits test (as in the digit battery).
+// Readings of the last-two digits test and its minimum (the digit
+// battery's rule; a drill into a last-two bin selects the same amounts
+// unless LastTwoAll is set): see engine/population.
 const (
-	LastTwoScale = "scale" // the two rightmost digits at the ledger's scale: 1234.56 -> 56
-	LastTwoUnits = "units" // the two rightmost digits of the whole-currency part: 1234.56 -> 34
+	LastTwoScale     = population.LastTwoScale
+	LastTwoUnits     = population.LastTwoUnits
+	LastTwoMinDigits = population.LastTwoMinDigits
 )
 
-// LastTwoMinDigits: the last-two digits test takes only whole numbers
-// (amounts in units of the scale, or their whole-currency part with the
-// units reading) of at least this many digits, so that the two digits read
-// are the fourth significant digit or later, where Benford-distributed
-// amounts have them close to uniform (the digit battery's rule; a drill
-// into a last-two bin selects the same amounts unless LastTwoAll is set).
-const LastTwoMinDigits = 5
-
-// LastTwoMinUnits returns the smallest |amount|, in units of the scale,
-// that the last-two digits test takes under a reading: 10^4 units, or
-// 10^(4+scale) with the units reading.
+// LastTwoMinUnits is population.LastTwoMinUnits.
 func LastTwoMinUnits(reading string, at population.AmountType) *big.Int {
-	e := LastTwoMinDigits - 1
-	if reading == LastTwoUnits {
-		e += at.Scale
-	}
-	return pow10(e)
+	return population.LastTwoMinUnits(reading, at)
 }
 
 // DrillTests are the tests whose bins hold records and can be drilled.
