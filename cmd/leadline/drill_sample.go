@@ -125,14 +125,14 @@ func runDrillSample(ctx context.Context, e *env, o drillOptions, ws *workspace.W
 	}
 	w := e.stdout
 	fmt.Fprintf(w, "Selection: %s\n", strings.Join(b.Description, "; "))
-	fmt.Fprintf(w, "Population: %s records, total %s (sum of |amount| %s)\nOrder: %s\n", numfmt.Int(sum.Records), sum.Total, d.PopulationTotal, d.Order)
+	fmt.Fprintf(w, "Population: %s records, total %s (sum of |amount| %s)\nOrder: %s\n", numfmt.Int(sum.Records), numfmt.Money(sum.Total), numfmt.Money(d.PopulationTotal), d.Order)
 	method := "simple random (each record equally likely)"
 	if d.Method == "monetary" {
 		method = "monetary-unit (probability proportional to |amount|, systematic from a random start)"
 	}
 	fmt.Fprintf(w, "Sample: %s, seed %d, %s record(s) asked, %s selected\n", method, d.Seed, numfmt.Int(int64(d.Size)), numfmt.Int(int64(d.Selected)))
 	if d.Method == "monetary" {
-		fmt.Fprintf(w, "Sampling interval %s, random start %s: every record of |amount| >= %s is selected\n", d.Interval, d.Start, d.Interval)
+		fmt.Fprintf(w, "Sampling interval %s, random start %s: every record of |amount| >= %s is selected\n", numfmt.Money(d.Interval), numfmt.Money(d.Start), numfmt.Money(d.Interval))
 	}
 	fmt.Fprintf(w, "Stored as run %d (leadline report shows it)\n", doc.RunID)
 	if o.out != "" {

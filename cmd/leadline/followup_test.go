@@ -38,7 +38,7 @@ func TestSampleFollowupReport(t *testing.T) {
 	if code != 0 {
 		t.Fatal(stderr)
 	}
-	for _, re := range []string{`Population: [0-9,]+ records`, `monetary-unit .*seed 9, 8 record\(s\) asked`, `Sampling interval [0-9.]+, random start [0-9.]+`, `Stored as run [0-9]+`} {
+	for _, re := range []string{`Population: [0-9,]+ records`, `monetary-unit .*seed 9, 8 record\(s\) asked`, `Sampling interval [0-9,.]+, random start [0-9,.]+`, `Stored as run [0-9]+`} {
 		if !regexp.MustCompile(re).MatchString(stdout) {
 			t.Errorf("drill --sample output lacks %s:\n%s", re, stdout)
 		}

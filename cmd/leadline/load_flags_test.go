@@ -68,7 +68,7 @@ func TestCountSQLFlags(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := countSQLOptions{out: "gl.sql", spec: countsql.Spec{Engine: "postgresql", Table: "gl", Amount: "amt", Scale: 2, Signs: "positive", Min: "5", LastTwo: "scale",
+	want := countSQLOptions{out: "gl.sql", spec: countsql.Spec{Engine: "postgresql", Table: "gl", Amount: "amt", Scale: 2, Signs: "positive", Min: "5", LastTwo: "scale", Test: "battery",
 		By: []countsql.Segment{{Name: "entity", Column: "entity"}, {Name: "month", Column: "posted", Month: true}}}}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("count-sql options\n got %+v\nwant %+v", got, want)
@@ -81,6 +81,9 @@ func TestCountSQLFlags(t *testing.T) {
 		{[]string{"--engine", "duckdb", "--map", "amount=a"}, "--engine and --table are required"},
 		{[]string{"--engine", "duckdb", "--table", "gl"}, "--map amount=COLUMN"},
 		{[]string{"--engine", "duckdb", "--table", "gl", "--map", "entity=co"}, "only amount=COLUMN"},
+		{[]string{"--engine", "duckdb", "--table", "gl", "--map", "amount=a", "--width", "0.05"}, "--width counts bands: give --test limits or --test ranges"},
+		{[]string{"--engine", "duckdb", "--table", "gl", "--map", "amount=a", "--test", "limits", "--per-decade", "5"}, "--per-decade lays out range bands"},
+		{[]string{"--engine", "duckdb", "--table", "gl", "--map", "amount=a", "--test", "ranges", "--limits", "1000"}, "limits are probed with --test limits"},
 	} {
 		_, err := parseFlags(countSQLFlags, c.args...)
 		wantErr(t, c.args, err, c.want)
@@ -149,5 +152,30 @@ func TestLoadRunWithoutFlags(t *testing.T) {
 	}
 	if !strings.Contains(out.String(), "ledger") || !strings.Contains(out.String(), "SELECT") {
 		t.Errorf("count-sql from options:\n%s", out.String())
+	}
+}
+
+// TestCountSQLBandFlags: --test limits and --test ranges carry their band
+// options into the spec, and --by takes the periods of a date.
+func TestCountSQLBandFlags(t *testing.T) {
+	got, err := parseFlags(countSQLFlags, "--engine", "clickhouse", "--table", "t", "--map", "amount=a", "--test", "limits", "--limits", "1000,5000", "--width", "0.05", "--by", "quarter=posted")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.spec.Width != 0.05 || len(got.spec.Limits) != 2 || got.spec.Layout != nil {
+		t.Errorf("limits spec %+v", got.spec)
+	}
+	if len(got.spec.By) != 1 || !got.spec.By[0].Quarter || got.spec.By[0].Column != "posted" {
+		t.Errorf("--by quarter=posted: %+v", got.spec.By)
+	}
+	got, err = parseFlags(countSQLFlags, "--engine", "postgresql", "--table", "t", "--map", "amount=a", "--test", "ranges", "--width", "500", "--to", "20000", "--by", "year=posted")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l := got.spec.Layout; l == nil || l.Width != 500 || l.To != 20000 {
+		t.Errorf("ranges layout %+v", got.spec.Layout)
+	}
+	if !got.spec.By[0].Year {
+		t.Errorf("--by year=posted: %+v", got.spec.By)
 	}
 }

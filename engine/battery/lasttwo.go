@@ -64,8 +64,8 @@ func noteLastTwo(r *benford.Result, min string, tested int64) {
 		return
 	}
 	r.Notes = append(r.Notes, fmt.Sprintf(
-		"last-two digits: only amounts of at least %s are tested, whose two digits read are the fourth significant digit or later (uniform there); %d of %d amounts are smaller and left out of this test only (--last-two-all tests them all)",
-		min, tested-r.N, tested))
+		"last-two digits: only amounts of at least %s are tested, whose two digits read are the fourth significant digit or later (uniform there); %s of %s amounts are smaller and left out of this test only (--last-two-all tests them all)",
+		min, numfmt.Int(tested-r.N), numfmt.Int(tested)))
 }
 
 // noteSecondOrder tests the second-order bins again against the shares

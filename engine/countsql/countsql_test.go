@@ -13,6 +13,7 @@ import (
 	_ "github.com/duckdb/duckdb-go/v2"
 
 	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/segment"
 )
 
 // TestFirst3TreeEdges runs the emitted DuckDB query on amounts at every
@@ -220,5 +221,29 @@ func TestSpecChecks(t *testing.T) {
 	}
 	if _, err := ReadQuery("SELECT 1"); err == nil {
 		t.Errorf("a query without the spec line was read")
+	}
+}
+
+// TestRecordsQueryPeriodSegment: the drill-down query on counts made
+// elsewhere selects a period segment as the counting query did (the
+// quarter or year of the date, not the date as text), so that a band of
+// one quarter lists that quarter's records.
+func TestRecordsQueryPeriodSegment(t *testing.T) {
+	for _, c := range []struct {
+		seg  Segment
+		want string
+	}{
+		{Segment{Name: "quarter", Column: "posted", Quarter: true}, `strftime(CAST("posted" AS DATE), '%Y') || '-Q' || CAST(quarter(CAST("posted" AS DATE)) AS VARCHAR) = '2025-Q3'`},
+		{Segment{Name: "year", Column: "posted", Year: true}, `strftime(CAST("posted" AS DATE), '%Y') = '2025-Q3'`},
+		{Segment{Name: "month", Column: "posted", Month: true}, `strftime(CAST("posted" AS DATE), '%Y-%m') = '2025-Q3'`},
+	} {
+		s := Spec{Engine: "duckdb", Table: "gl", Amount: "amt", Scale: 2, Signs: "positive", Min: "10", LastTwo: "scale", By: []Segment{c.seg}}
+		q, err := RecordsQuery(s, 4500, 5000, []string{c.seg.Name}, segment.Key{{String: "2025-Q3", Valid: true}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !strings.Contains(q, c.want) {
+			t.Errorf("%s segment: %s\nlacks %s", c.seg.Name, q, c.want)
+		}
 	}
 }

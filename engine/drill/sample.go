@@ -7,6 +7,7 @@ import (
 	"math/big"
 	"strings"
 
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/sample"
 	"github.com/leadline/leadline/engine/tabular"
 	"github.com/leadline/leadline/engine/workspace"
@@ -45,10 +46,10 @@ type Querier interface {
 func (d *SampleDrawn) Describe() string {
 	how := "simple random sample (each record equally likely)"
 	if d.Method == "monetary" {
-		how = fmt.Sprintf("monetary-unit sample (probability proportional to |amount|; interval %s, random start %s)", d.Interval, d.Start)
+		how = fmt.Sprintf("monetary-unit sample (probability proportional to |amount|; interval %s, random start %s)", numfmt.Money(d.Interval), numfmt.Money(d.Start))
 	}
-	return fmt.Sprintf("%s of %d record(s) asked, %d selected, from %d records totalling %s (|amount|), seed %d",
-		how, d.Size, d.Selected, d.PopulationRecords, d.PopulationTotal, d.Seed)
+	return fmt.Sprintf("%s of %s record(s) asked, %s selected, from %s records totalling %s (|amount|), seed %d",
+		how, numfmt.Int(int64(d.Size)), numfmt.Int(int64(d.Selected)), numfmt.Int(d.PopulationRecords), numfmt.Money(d.PopulationTotal), d.Seed)
 }
 
 // DrawSample draws a sample from stage, a table of records numbered in
