@@ -50,6 +50,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/leadline/leadline/engine/field"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/queries"
@@ -117,34 +118,43 @@ func (o *Options) defaults() {
 	}
 }
 
+// Check fills in the defaults and checks the options as Run does, so that
+// a pack refuses a setting for the same reason as the command line. Its
+// refusals are *field.Error values naming the setting (tests,
+// window_days, top, min_counterparties, min_records, floor).
+func (o *Options) Check() error {
+	o.defaults()
+	return o.check()
+}
+
 func (o *Options) check() error {
 	seen := map[string]bool{}
 	for i, t := range o.Tests {
 		t = strings.ToLower(strings.TrimSpace(t))
 		o.Tests[i] = t
 		if _, ok := titles[t]; !ok {
-			return fmt.Errorf("--tests: unknown test %q; give any of %s", t, strings.Join(Tests, ", "))
+			return &field.Error{Field: "tests", Reason: "unknown test {0}; give any of {1}", Args: []any{strconv.Quote(t), strings.Join(Tests, ", ")}}
 		}
 		if seen[t] {
-			return fmt.Errorf("--tests: %s given twice", t)
+			return &field.Error{Field: "tests", Reason: "{0} given twice", Args: []any{t}}
 		}
 		seen[t] = true
 	}
 	if o.WindowDays < 0 {
-		return fmt.Errorf("--window-days %d: give 0 (any dates) or a number of days", o.WindowDays)
+		return &field.Error{Field: "window_days", Value: strconv.Itoa(o.WindowDays), Reason: "give 0 (any dates) or a number of days"}
 	}
 	if o.MinCounterparties < 2 {
-		return fmt.Errorf("--min-counterparties %d: give 2 or more", o.MinCounterparties)
+		return &field.Error{Field: "min_counterparties", Value: strconv.Itoa(o.MinCounterparties), Reason: "give 2 or more"}
 	}
 	if o.MinRecords < 2 {
-		return fmt.Errorf("--min-records %d: the size factor needs 2 records or more", o.MinRecords)
+		return &field.Error{Field: "min_records", Value: strconv.Itoa(o.MinRecords), Reason: "the size factor needs 2 records or more"}
 	}
 	if o.Top < -1 {
-		return fmt.Errorf("--top %d: give a number of groups, or -1 for all", o.Top)
+		return &field.Error{Field: "top", Value: strconv.Itoa(o.Top), Reason: "give a number of groups, or -1 for all"}
 	}
 	f, ok := population.ParseDecimal(o.Floor)
 	if !ok || f.Sign() < 0 {
-		return fmt.Errorf("--floor %q: give the smallest absolute amount a group must reach, 0 or more (0 lists every group); %s", o.Floor, population.DecimalHint)
+		return &field.Error{Field: "floor", Value: strconv.Quote(o.Floor), Reason: "give the smallest absolute amount a group must reach, 0 or more (0 lists every group); {0}", Args: []any{population.DecimalHint}}
 	}
 	o.Floor = strings.ReplaceAll(strings.TrimPrefix(strings.TrimSpace(o.Floor), "+"), "_", "")
 	return o.Spec.Check()

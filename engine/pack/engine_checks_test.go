@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/duplicates"
 	"github.com/leadline/leadline/engine/field"
 	"github.com/leadline/leadline/engine/limits"
 	"github.com/leadline/leadline/engine/load"
@@ -81,6 +82,9 @@ func TestPackRefusesAsTheEngine(t *testing.T) {
 		{"debit", "", "debit = \"amount\"\n", "debit", load.CheckDebitCredit(false, "amount", "")},
 		{"in_place", "", "[[source]]\nfiles = [\"skerrimoor_ledger_2025.csv\"]\nin_place = true\n", "in_place = true", load.CheckInPlace("skerrimoor_ledger_2025.csv", "csv")},
 		{"encoding", "", "encoding = \"ebcdic\"\n", "encoding", engine(func() error { _, err := load.NormalizeEncoding("ebcdic"); return err })},
+		{"duplicates floor", "", "[duplicates]\nfloor = -5\n", "floor", (&duplicates.Options{Floor: "-5"}).Check()},
+		{"duplicates window", "", "[duplicates]\nwindow_days = -2\n", "window_days", (&duplicates.Options{WindowDays: -2}).Check()},
+		{"duplicates min_records", "", "[duplicates]\nmin_records = 1\n", "min_records", (&duplicates.Options{MinRecords: 1}).Check()},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

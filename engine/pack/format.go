@@ -142,6 +142,7 @@ type Duplicates struct {
 	Top               Number   `toml:"top" json:"top"`                               // groups kept per test
 	MinCounterparties Number   `toml:"min_counterparties" json:"min_counterparties"` // spread: counterparties an amount must reach
 	MinRecords        Number   `toml:"min_records" json:"min_records"`               // rsf: records a counterparty must have
+	Floor             Number   `toml:"floor" json:"floor"`                           // smallest absolute amount a group must reach (0: every group)
 	Scope
 }
 

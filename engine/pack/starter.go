@@ -193,6 +193,7 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("top = 20                  # groups kept per test")
 	w("min_counterparties = 3    # spread: counterparties an amount must reach")
 	w("min_records = 3           # rsf: records a counterparty must have")
+	w("floor = 100               # groups whose amounts are all below this are left out (and counted); 0 keeps every group")
 	w("")
 	group := ""
 	for _, c := range []string{"user_id", "counterparty", "account"} {

@@ -885,25 +885,45 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 		pl.Ranges = o
 	}
 	if d := c.p.Duplicates; d != nil && enabled(d.Enabled) {
-		o := &duplicates.Options{Spec: c.scope(pl, "duplicates", d.Scope)}
-		for i, t := range d.Tests {
-			if !contains(duplicates.Tests, t) {
-				msg := fmt.Sprintf("unknown duplicate test %q (tests: %s)", t, strings.Join(duplicates.Tests, ", "))
+		o := &duplicates.Options{Spec: c.scope(pl, "duplicates", d.Scope), Tests: append([]string(nil), d.Tests...)}
+		o.WindowDays = int(c.intParam("duplicates.window_days", d.WindowDays, 0, math.MinInt32, "window_days"))
+		o.Top = int(c.intParam("duplicates.top", d.Top, duplicates.DefaultTop, 1, "top"))
+		o.MinCounterparties = int(c.intParam("duplicates.min_counterparties", d.MinCounterparties, duplicates.DefaultMinCounterparties, math.MinInt32, "min_counterparties"))
+		o.MinRecords = int(c.intParam("duplicates.min_records", d.MinRecords, duplicates.DefaultMinRecords, math.MinInt32, "min_records"))
+		if d.Floor.Set() {
+			t, err := d.Floor.Text()
+			if err != nil {
+				c.errf("duplicates.floor", "%v", err)
+			}
+			o.Floor = t
+		}
+		// The engine's own check, worded with the pack's keys; the
+		// population was checked above and is not reported twice.
+		spec := o.Spec
+		o.Spec = population.Spec{}
+		if err := o.Check(); err != nil {
+			msg := engineWords(err, map[string]string{"tests": ""})
+			if t := unknownTest(d.Tests); t != "" {
 				if sug := closest(t, duplicates.Tests); sug != "" {
 					msg += fmt.Sprintf("; did you mean %q?", sug)
 				}
-				c.errf(fmt.Sprintf("duplicates.tests[%d]", i), "%s", msg)
-				continue
 			}
-			o.Tests = append(o.Tests, t)
+			c.errf(fieldKey("duplicates", err, nil), "%s", msg)
 		}
-		o.WindowDays = int(c.intParam("duplicates.window_days", d.WindowDays, 0, 0, "window_days"))
-		o.Top = int(c.intParam("duplicates.top", d.Top, duplicates.DefaultTop, 1, "top"))
-		o.MinCounterparties = int(c.intParam("duplicates.min_counterparties", d.MinCounterparties, duplicates.DefaultMinCounterparties, 2, "min_counterparties"))
-		o.MinRecords = int(c.intParam("duplicates.min_records", d.MinRecords, duplicates.DefaultMinRecords, 2, "min_records"))
+		o.Spec = spec
 		pl.Duplicates = o
 	}
 	c.extracts(ctx, mem, pl, schemaOK)
+}
+
+// unknownTest is the first of tests that is not a duplicate test.
+func unknownTest(tests []string) string {
+	for _, t := range tests {
+		if !contains(duplicates.Tests, strings.ToLower(strings.TrimSpace(t))) {
+			return t
+		}
+	}
+	return ""
 }
 
 func contains(list []string, s string) bool {

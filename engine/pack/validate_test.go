@@ -94,7 +94,7 @@ func TestValidationCollectsEveryProblem(t *testing.T) {
 		{`[limt]`, `unknown key "limt" at the top level; did you mean "limits"?`},
 		{`"5,000",`, `limit "5,000" is not a number (write it without thousands separators`},
 		{`per_decade = "twenty"`, `"twenty" is not a number`},
-		{`tests = ["same_amout"]`, `unknown duplicate test "same_amout"`},
+		{`tests = ["same_amout"]`, `unknown test "same_amout"; give any of exact, same_amount, same_doc, spread, rsf; did you mean "same_amount"?`},
 		{`tests = ["same_amout"]`, `did you mean "same_amount"?`},
 		{`sql = "SELEC doc_id FROM ledger"`, `the SQL does not parse: syntax error at or near "SELEC"`},
 		{`sql = "DELETE FROM ledger"`, `refused: only a single read-only SELECT may run here`},
