@@ -31,22 +31,12 @@ func limitsCounts(ctx context.Context, e *env, o limitsOptions) error {
 	if err != nil {
 		return err
 	}
-	ws, err := e.openWorkspace(ctx, o.db, false)
-	if err != nil {
-		return err
-	}
-	defer ws.Close()
 	doc := &limitsCountsReport{Report: rep, CountsSource: src}
 	params := o.limits
 	params.Spec, params.Limits, params.Width = rep.Population, rep.Limits, rep.Width
-	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "limits", Started: started, Params: params, Result: doc, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+	run := workspace.Run{Kind: "limits", Started: started, Params: params, Result: doc, SetID: func(id int64) { rep.RunID = id }}
+	if done, err := storeCountsRun(ctx, e, o.db, run, src, o.format); done || err != nil {
 		return err
-	}
-	if o.format == "json" {
-		return writeJSON(e.stdout, doc)
-	}
-	if o.format == "text" {
-		printCountsSource(e.stdout, src)
 	}
 	return printLimits(e.stdout, o.format, rep, o.top)
 }
@@ -59,21 +49,33 @@ func rangesCounts(ctx context.Context, e *env, o rangesOptions) error {
 	if err != nil {
 		return err
 	}
-	ws, err := e.openWorkspace(ctx, o.db, false)
-	if err != nil {
-		return err
-	}
-	defer ws.Close()
 	doc := &rangesCountsReport{Report: rep, CountsSource: src}
 	params := ranges.Options{Spec: rep.Population, Layout: rep.Layout}
-	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "ranges", Started: started, Params: params, Result: doc, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+	run := workspace.Run{Kind: "ranges", Started: started, Params: params, Result: doc, SetID: func(id int64) { rep.RunID = id }}
+	if done, err := storeCountsRun(ctx, e, o.db, run, src, o.format); done || err != nil {
 		return err
 	}
-	if o.format == "json" {
-		return writeJSON(e.stdout, doc)
+	return printRanges(e.stdout, o.format, rep)
+}
+
+// storeCountsRun stores a run made on counts from elsewhere (scan, limits
+// or ranges --counts) in the workspace, and writes its JSON document
+// (done: nothing more to print) or, before the text, where the counts came
+// from.
+func storeCountsRun(ctx context.Context, e *env, db dbFlags, run workspace.Run, src *countsql.Source, format string) (done bool, err error) {
+	ws, err := e.openWorkspace(ctx, db, false)
+	if err != nil {
+		return false, err
 	}
-	if o.format == "text" {
+	defer ws.Close()
+	if _, err := ws.SaveRun(ctx, run); err != nil {
+		return false, err
+	}
+	switch format {
+	case "json":
+		return true, writeJSON(e.stdout, run.Result)
+	case "text":
 		printCountsSource(e.stdout, src)
 	}
-	return printRanges(e.stdout, o.format, rep)
+	return false, nil
 }

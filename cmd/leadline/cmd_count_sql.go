@@ -11,6 +11,7 @@ import (
 	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/countsql"
 	"github.com/leadline/leadline/engine/limits"
+	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/ranges"
 	"github.com/leadline/leadline/engine/workspace"
@@ -219,12 +220,12 @@ func (c *countsFlags) check(fs *pflag.FlagSet, fixed ...string) error {
 
 // printCountsSource says where a run's counts came from.
 func printCountsSource(w io.Writer, src *countsql.Source) {
-	fmt.Fprintf(w, "Counts from %s (table %s, query %s, SHA-256 %s), %d file(s):\n", src.Engine, src.Table, src.Query, src.QuerySHA256, len(src.Files))
+	fmt.Fprintf(w, "Counts from %s (table %s, query %s, SHA-256 %s), %s file(s):\n", src.Engine, src.Table, src.Query, src.QuerySHA256, numfmt.Int(int64(len(src.Files))))
 	for _, f := range src.Files {
-		fmt.Fprintf(w, "  %s  %s  %d rows\n", f.SHA256, f.Path, f.Rows)
+		fmt.Fprintf(w, "  %s  %s  %s rows\n", f.SHA256, f.Path, numfmt.Int(f.Rows))
 	}
 	if src.NoAmount+src.Filtered > 0 {
-		fmt.Fprintf(w, "  not in the counts below: %d rows without an amount, %d dropped by the query's filter\n", src.NoAmount, src.Filtered)
+		fmt.Fprintf(w, "  not in the counts below: %s rows without an amount, %s dropped by the query's filter\n", numfmt.Int(src.NoAmount), numfmt.Int(src.Filtered))
 	}
 }
 
@@ -237,20 +238,10 @@ func scanCounts(ctx context.Context, e *env, o scanOptions) error {
 	if err != nil {
 		return err
 	}
-	ws, err := e.openWorkspace(ctx, o.db, false)
-	if err != nil {
-		return err
-	}
-	defer ws.Close()
 	doc := &countsReport{Report: rep, CountsSource: src}
-	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: doc, SetID: func(id int64) { rep.RunID = id }}); err != nil {
+	run := workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: doc, SetID: func(id int64) { rep.RunID = id }}
+	if done, err := storeCountsRun(ctx, e, o.db, run, src, o.format); done || err != nil {
 		return err
-	}
-	if o.format == "json" {
-		return writeJSON(e.stdout, doc)
-	}
-	if o.format == "text" {
-		printCountsSource(e.stdout, src)
 	}
 	return printScan(e.stdout, o.format, rep, o.print)
 }
