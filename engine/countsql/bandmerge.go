@@ -1,10 +1,7 @@
 package countsql
 
 import (
-	"database/sql"
-	"errors"
 	"fmt"
-	"io"
 	"math"
 	"sort"
 	"strconv"
@@ -62,62 +59,24 @@ func readBands(paths []string, spec Spec) (*BandCounts, error) {
 	return m, nil
 }
 
-func (m *BandCounts) readFile(path string, first bool) error {
-	r, sum, closeFn, err := openCounts(path)
-	if err != nil {
-		return err
-	}
-	defer closeFn()
-	head, err := r.Read()
-	if err != nil {
-		return fmt.Errorf("%s: no header line (kind, bin, n, lo, hi): %w; write the query's result as CSV with a header (psql --csv, clickhouse client --format CSVWithNames, DuckDB COPY ... (HEADER))", path, err)
-	}
-	var by []string
-	for _, c := range head {
-		if n, ok := strings.CutPrefix(strings.TrimSpace(c), "by_"); ok {
-			by = append(by, n)
-		}
-	}
-	want := append(prefixed(by), "kind", "bin", "n", "lo", "hi")
-	if got := strings.Join(trimAll(head), ","); got != strings.Join(want, ",") {
-		if strings.HasSuffix(got, "sum_hi,sum_lo") {
+// bandFile is the layout of the band count files (count-sql --test
+// limits or ranges); a battery count file is named as such.
+var bandFile = countFile{tail: []string{"kind", "bin", "n", "lo", "hi"}, what: "band query",
+	other: func(path, header string) error {
+		if strings.HasSuffix(header, "sum_hi,sum_lo") {
 			return fmt.Errorf("%s: the digit battery's counts (sum_hi, sum_lo); limits and ranges read the counts of count-sql --test limits or --test ranges", path)
 		}
-		return fmt.Errorf("%s line 1: columns %s; the band query returns %s, with this header line (psql --csv without -t; clickhouse client --format CSVWithNames)", path, strings.Join(head, ","), strings.Join(want, ","))
-	}
-	if first {
-		m.By = by
-	} else if strings.Join(by, ",") != strings.Join(m.By, ",") {
-		return fmt.Errorf("%s: segments %v, but the first file has %v: count files to merge come from the same query", path, by, m.By)
-	}
-	nseg := len(by)
-	var rows int64
+		return nil
+	}}
+
+func (m *BandCounts) readFile(path string, first bool) error {
 	var a *bandAcc
-	key := make(segment.Key, nseg)
-	for line := 2; ; line++ {
-		rec, err := r.Read()
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			return fmt.Errorf("%s: %w", path, err)
-		}
-		rows++
-		bad := func(what string) error {
-			return fmt.Errorf("%s line %d: %s; the file must be the band query's result, unchanged", path, line, what)
-		}
-		for i := 0; i < nseg; i++ {
-			if v := rec[i]; v == "" || v == `\N` {
-				key[i] = sql.NullString{}
-			} else {
-				key[i] = sql.NullString{String: v, Valid: true}
-			}
-		}
-		kind := rec[nseg]
-		bin, err1 := strconv.ParseInt(rec[nseg+1], 10, 64)
-		n, err2 := strconv.ParseInt(rec[nseg+2], 10, 64)
+	by, f, err := bandFile.read(path, m.By, first, func(key segment.Key, rec []string, bad func(string) error) error {
+		kind := rec[0]
+		bin, err1 := strconv.ParseInt(rec[1], 10, 64)
+		n, err2 := strconv.ParseInt(rec[2], 10, 64)
 		if err1 != nil || err2 != nil || n < 0 {
-			return bad(fmt.Sprintf("bin %q and n %q are not whole numbers (n 0 or more)", rec[nseg+1], rec[nseg+2]))
+			return bad(fmt.Sprintf("bin %q and n %q are not whole numbers (n 0 or more)", rec[1], rec[2]))
 		}
 		if a == nil || !sameKey(a.key, key) {
 			ks := key.String()
@@ -129,10 +88,10 @@ func (m *BandCounts) readFile(path string, first bool) error {
 		}
 		switch {
 		case kind == "b" && m.grid.valid(bin):
-			lo, err3 := strconv.ParseInt(rec[nseg+3], 10, 64)
-			hi, err4 := strconv.ParseInt(rec[nseg+4], 10, 64)
+			lo, err3 := strconv.ParseInt(rec[3], 10, 64)
+			hi, err4 := strconv.ParseInt(rec[4], 10, 64)
 			if err3 != nil || err4 != nil || lo < 0 || hi < lo {
-				return bad(fmt.Sprintf("lo %q and hi %q are not whole numbers with 0 <= lo <= hi", rec[nseg+3], rec[nseg+4]))
+				return bad(fmt.Sprintf("lo %q and hi %q are not whole numbers with 0 <= lo <= hi", rec[3], rec[4]))
 			}
 			// Every |units| of bin b lies in [T(b-1), T(b)).
 			if (bin > 0 && lo < m.grid.lower(bin)) || (m.grid.valid(bin+1) && hi >= m.grid.lower(bin+1)) {
@@ -149,8 +108,15 @@ func (m *BandCounts) readFile(path string, first bool) error {
 		default:
 			return bad(fmt.Sprintf("kind %q with bin %d (kind b: a bin of the query's grid; kind x: a code -1..-5)", kind, bin))
 		}
+		return nil
+	})
+	if err != nil {
+		return err
 	}
-	m.Files = append(m.Files, File{Path: path, SHA256: sum(), Rows: rows})
+	if first {
+		m.By = by
+	}
+	m.Files = append(m.Files, f)
 	return nil
 }
 

@@ -6,7 +6,6 @@ import (
 	"database/sql"
 	"encoding/csv"
 	"encoding/hex"
-	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -134,77 +133,32 @@ func ReadFiles(paths []string) (*Merged, error) {
 	return m, nil
 }
 
+// batteryFile is the layout of the digit battery's count files.
+var batteryFile = countFile{tail: []string{"kind", "bin", "n", "sum_hi", "sum_lo"}, what: "counting query"}
+
 func (m *Merged) readFile(path string, first bool) error {
-	r, sum, closeFn, err := openCounts(path)
-	if err != nil {
-		return err
-	}
-	defer closeFn()
-	head, err := r.Read()
-	if err != nil {
-		return fmt.Errorf("%s: no header line (kind, bin, n, sum_hi, sum_lo): %w; write the query's result as CSV with a header (psql --csv, clickhouse client --format CSVWithNames, DuckDB COPY ... (HEADER))", path, err)
-	}
-	var by []string
-	for _, c := range head {
-		if n, ok := strings.CutPrefix(strings.TrimSpace(c), "by_"); ok {
-			by = append(by, n)
-		}
-	}
-	want := append(append([]string{}, prefixed(by)...), "kind", "bin", "n", "sum_hi", "sum_lo")
-	if strings.Join(trimAll(head), ",") != strings.Join(want, ",") {
-		return fmt.Errorf("%s line 1: columns %s; the counting query returns %s, with this header line (psql --csv without -t; clickhouse client --format CSVWithNames)", path, strings.Join(head, ","), strings.Join(want, ","))
-	}
-	if first {
-		m.By = by
-	} else if strings.Join(by, ",") != strings.Join(m.By, ",") {
-		return fmt.Errorf("%s: segments %v, but the first file has %v: count files to merge come from the same query", path, by, m.By)
-	}
-	nseg := len(by)
-	var rows int64
 	var a *acc
-	key := make(battery.Key, nseg)
-	for line := 2; ; line++ {
-		rec, err := r.Read()
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			return fmt.Errorf("%s: %w", path, err)
-		}
-		rows++
-		bad := func(what string) error {
-			return fmt.Errorf("%s line %d: %s; the file must be the counting query's result, unchanged", path, line, what)
-		}
-		for i := 0; i < nseg; i++ {
-			v := rec[i]
-			// NULL is empty (psql, DuckDB) or \N (ClickHouse); the query
-			// writes blank values as NULL, so no value is empty.
-			if v == "" || v == `\N` {
-				key[i] = sql.NullString{}
-			} else {
-				key[i] = sql.NullString{String: v, Valid: true}
-			}
-		}
-		kind := rec[nseg]
-		bin, err1 := strconv.ParseInt(rec[nseg+1], 10, 64)
-		n, err2 := strconv.ParseInt(rec[nseg+2], 10, 64)
+	by, f, err := batteryFile.read(path, m.By, first, func(key battery.Key, rec []string, bad func(string) error) error {
+		kind := rec[0]
+		bin, err1 := strconv.ParseInt(rec[1], 10, 64)
+		n, err2 := strconv.ParseInt(rec[2], 10, 64)
 		// Sums fit 64 bits per row on every engine but PostgreSQL, whose
 		// sum of bigint is numeric: read those wider ones exactly.
-		hi, err3 := strconv.ParseInt(rec[nseg+3], 10, 64)
-		lo, err4 := strconv.ParseInt(rec[nseg+4], 10, 64)
+		hi, err3 := strconv.ParseInt(rec[3], 10, 64)
+		lo, err4 := strconv.ParseInt(rec[4], 10, 64)
 		var wide *big.Int
 		if err3 != nil || err4 != nil {
-			h, ok1 := new(big.Int).SetString(rec[nseg+3], 10)
-			l, ok2 := new(big.Int).SetString(rec[nseg+4], 10)
+			h, ok1 := new(big.Int).SetString(rec[3], 10)
+			l, ok2 := new(big.Int).SetString(rec[4], 10)
 			if !ok1 || !ok2 || h.Sign() < 0 || l.Sign() < 0 {
-				return bad(fmt.Sprintf("sum_hi %q and sum_lo %q are not whole numbers of 0 or more", rec[nseg+3], rec[nseg+4]))
+				return bad(fmt.Sprintf("sum_hi %q and sum_lo %q are not whole numbers of 0 or more", rec[3], rec[4]))
 			}
 			wide = h.Mul(h, big.NewInt(1e9))
 			wide.Add(wide, l)
 			err3, err4 = nil, nil
 		}
 		if err1 != nil || err2 != nil || n < 0 || hi < 0 || lo < 0 {
-			return bad(fmt.Sprintf("bin %q, n %q, sum_hi %q, sum_lo %q are not whole numbers of 0 or more", rec[nseg+1], rec[nseg+2], rec[nseg+3], rec[nseg+4]))
+			return bad(fmt.Sprintf("bin %q, n %q, sum_hi %q, sum_lo %q are not whole numbers of 0 or more", rec[1], rec[2], rec[3], rec[4]))
 		}
 		// Rows come grouped by segment: look the segment up only when it
 		// changes.
@@ -240,8 +194,15 @@ func (m *Merged) readFile(path string, first bool) error {
 			return bad("the counts add up beyond a 64-bit integer")
 		}
 		*slot += n
+		return nil
+	})
+	if err != nil {
+		return err
 	}
-	m.Files = append(m.Files, File{Path: path, SHA256: sum(), Rows: rows})
+	if first {
+		m.By = by
+	}
+	m.Files = append(m.Files, f)
 	return nil
 }
 
