@@ -233,7 +233,7 @@ func TestSQLGuardHostile(t *testing.T) {
 
 // TestSQLGuardCTEScope: a CTE named like a file must not let a read of
 // that file through (cteHides), neither in the sql command nor in a filter.
-// Found with issue 10; engine/sqlguard now resolves CTE names by scope
+// Found by attacking the guard; engine/sqlguard now resolves CTE names by scope
 // (a plain CTE does not see its own name), and every form must be refused.
 func TestSQLGuardCTEScope(t *testing.T) {
 	ev := newInjectionEnv(t)

@@ -102,7 +102,7 @@ func TestSegmentRanking(t *testing.T) {
 	}
 }
 
-// TestWorkedScenario is the worked scenario of the limits issue, end to
+// TestWorkedScenario is the worked limit-clustering scenario, end to
 // end through the loader and the scan: 500,000 amounts log-uniform over
 // [10, 10^6), then 10% more (50,000) uniform in [2000, 5000). Expected: the
 // runs test over the first-two bins falls below its critical value (few

@@ -21,7 +21,7 @@ func inside(from, to, lo, hi float64) bool {
 	return math.Min(to, hi)-math.Max(from, lo) >= (to-from)/2
 }
 
-// TestScenario runs the worked scenario of issue 4 through the whole
+// TestScenario runs the worked limit-clustering scenario through the whole
 // pipeline (CSV written from a seed, engine/load, one SQL scan, the Go
 // statistics): the limit probe over the automatic round limits ranks 5,000
 // first and flags nothing else; the range table flags the bands between

@@ -14,7 +14,7 @@ import (
 	"github.com/leadline/leadline/fixtures"
 )
 
-// The worked scenario of issue 4, built here from a seed (invented test
+// The worked limit-clustering scenario (fixtures.ThresholdScenario), built here from a seed (invented test
 // data): 500,000 amounts log-uniform over [10, 10^6) (five whole decades:
 // a scale-invariant population), then 10% more amounts (50,000) uniform in
 // [2000, 5000): entries kept under a 5,000 limit.
