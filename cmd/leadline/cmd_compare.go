@@ -119,6 +119,7 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 	var f formatFlag
 	var pop bandPopulation
 	var runs, split string
+	var tests []string
 	o.db.add(fs)
 	fs.StringVar(&runs, "runs", "", "two stored scan runs to compare, left,right (run ids)")
 	fs.StringVar(&o.left, "left", "", `left side's filter on the ledger's columns, e.g. "posted < DATE '2025-07-01'"`)
@@ -131,6 +132,7 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 	fs.IntVar(&o.compare.Simulations, "simulations", compare.DefaultSimulations, "Monte Carlo tables for the homogeneity p-value when cells expect few amounts")
 	fs.Uint64Var(&o.compare.Seed, "seed", compare.DefaultSeed, "seed of the Monte Carlo tables")
 	fs.IntVar(&o.top, "top", compare.DefaultTop, "bins listed per test as changed most")
+	fs.StringSliceVar(&tests, "tests", nil, "tests compared: first, second, first_two, first_three, last_two (default: all five)")
 	f.add(fs)
 	return func(args []string) (compareOptions, error) {
 		if err := f.check(); err != nil {
@@ -141,6 +143,13 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 		}
 		o.format = f.value
 		o.compare.Top = o.top
+		for _, name := range tests {
+			t, err := benford.ParseTest(name)
+			if err != nil {
+				return o, fmt.Errorf("--tests: %w", err)
+			}
+			o.compare.Only = append(o.compare.Only, t)
+		}
 		if err := o.compare.Check(); err != nil {
 			return o, err
 		}

@@ -11,6 +11,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/compare"
 	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
@@ -42,6 +43,8 @@ func TestCompareFlags(t *testing.T) {
 		{[]string{"--split", "entity=A,B", "--min-excess", "-1"}, "--min-excess"},
 		{[]string{"--split", "entity=A,B", "--simulations", "5"}, "--simulations 5"},
 		{[]string{"--split", "entity=A,B", "--format", "xml"}, "xml"},
+		{[]string{"--split", "entity=A,B", "--tests", "summation"}, "--tests summation: compare takes the count-based digit tests"},
+		{[]string{"--split", "entity=A,B", "--tests", "firsttwo"}, `unknown test "firsttwo"`},
 	} {
 		_, err := parse(c.args...)
 		if err == nil || !strings.Contains(err.Error(), c.want) {
@@ -51,6 +54,9 @@ func TestCompareFlags(t *testing.T) {
 	o, err := parse("--split", "entity=KELP,TIDE", "--signs", "both")
 	if err != nil || o.mode() != compare.ModeSplit || o.split != "entity" || o.values != [2]string{"KELP", "TIDE"} || o.spec.Signs != "both" {
 		t.Fatalf("--split: %+v %v", o, err)
+	}
+	if o, err = parse("--split", "entity=A,B", "--tests", "f2,last_two"); err != nil || len(o.compare.Only) != 2 || o.compare.Only[0] != benford.FirstTwo || o.compare.Only[1] != benford.LastTwo {
+		t.Fatalf("--tests f2,last_two: %+v %v", o.compare.Only, err)
 	}
 	if o, err = parse("--runs", "3,9"); err != nil || o.mode() != compare.ModeRuns || o.runs[0] != 3 || o.runs[1] != 9 {
 		t.Fatalf("--runs: %+v %v", o, err)

@@ -5,7 +5,9 @@ import (
 	"hash/fnv"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
+	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/numfmt"
@@ -41,6 +43,10 @@ type Options struct {
 	Simulations int     `json:"simulations"` // Monte Carlo tables for the homogeneity p-value
 	Seed        uint64  `json:"seed"`
 	Top         int     `json:"top"` // bins listed as changed most per test
+	// Only lists the tests compared, in any order (empty: every test of
+	// Tests). Each test's flags are adjusted over its own bins, so leaving
+	// tests out changes no other test's result.
+	Only []benford.Test `json:"only,omitempty"`
 	// SkipSides leaves out each side's conformity (the rate simulations
 	// need only the comparison).
 	SkipSides bool `json:"-"`
@@ -62,7 +68,21 @@ func (o Options) Check() error {
 	if o.Top < 0 {
 		return fmt.Errorf("--top %d: give 0 or more", o.Top)
 	}
+	for _, t := range o.Only {
+		if !slices.Contains(Tests, t) {
+			return fmt.Errorf("--tests %s: compare takes the count-based digit tests: %s", t, testNames())
+		}
+	}
 	return nil
+}
+
+// testNames lists Tests for messages.
+func testNames() string {
+	names := make([]string, len(Tests))
+	for i, t := range Tests {
+		names[i] = string(t)
+	}
+	return strings.Join(names, ", ")
 }
 
 // Side is one of the two tables: a label and the bin counts of each test
@@ -170,6 +190,9 @@ func Compare(left, right Side, o Options) (*Result, error) {
 	}
 	res := &Result{Left: left, Right: right, Options: o, Tests: []TestResult{}}
 	for _, t := range Tests {
+		if len(o.Only) > 0 && !slices.Contains(o.Only, t) {
+			continue
+		}
 		a, b := left.Counts[t], right.Counts[t]
 		if a == nil || b == nil {
 			continue

@@ -265,6 +265,14 @@ func TestCompareSides(t *testing.T) {
 	if tr.Homogeneity.P > 1e-6 {
 		t.Fatalf("homogeneity p %v", tr.Homogeneity.P)
 	}
+	// Only the tests asked for are compared; the others' counts are there.
+	fd := benford.Multinomial(rng, benford.Expected(benford.FirstDigit), 30000)
+	left.Counts[benford.FirstDigit], right.Counts[benford.FirstDigit] = fd, fd
+	o := DefaultOptions()
+	o.Only = []benford.Test{benford.FirstDigit}
+	if res, err := Compare(left, right, o); err != nil || len(res.Tests) != 1 || res.Tests[0].Test != benford.FirstDigit || res.Tests[0].Flagged != 0 {
+		t.Fatalf("only the first-digit test: %+v %v", res, err)
+	}
 	if _, err := CompareTest(benford.FirstTwo, a[:5], b, DefaultOptions()); err == nil {
 		t.Fatal("wrong number of bins accepted")
 	}
