@@ -85,7 +85,7 @@ func runPack(ctx context.Context, e *env, o runCmdOptions) error {
 	if !o.quiet && o.format == "text" {
 		log = e.stderr
 	}
-	res, err := pack.Run(ctx, p, pack.RunOptions{Out: o.out, Fresh: o.fresh, Log: log, Output: output.Options{Extra: o.extra}})
+	res, err := pack.Run(withProgress(ctx), p, pack.RunOptions{Out: o.out, Fresh: o.fresh, Log: log, Output: output.Options{Extra: o.extra}})
 	if err != nil {
 		return packError(err)
 	}

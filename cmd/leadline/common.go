@@ -51,16 +51,19 @@ func (d *dbFlags) openOrCreate(ctx context.Context) (*workspace.Workspace, error
 
 func (d *dbFlags) openWith(ctx context.Context, o workspace.Options) (*workspace.Workspace, error) {
 	o.MemoryLimit, o.Threads, o.TempDir = d.memory, d.threads, d.tempDir
-	ws, err := workspace.Open(ctx, d.path, o)
-	if err != nil {
-		return nil, err
+	return workspace.Open(withProgress(ctx), d.path, o)
+}
+
+// withProgress draws a bar on standard error for queries that run longer
+// than a second on every workspace opened under the context, only when
+// standard error is a terminal: scripts see nothing.
+func withProgress(ctx context.Context) context.Context {
+	if !isTerminal(os.Stderr) || os.Getenv("LEADLINE_NO_PROGRESS") != "" {
+		return ctx
 	}
-	// A bar on standard error for queries that run longer than a second,
-	// only when standard error is a terminal: scripts see nothing.
-	if isTerminal(os.Stderr) && os.Getenv("LEADLINE_NO_PROGRESS") == "" {
+	return workspace.WithOnOpen(ctx, func(ws *workspace.Workspace) {
 		ws.OnClose(progress.Watch(ws, os.Stderr, "working", time.Second))
-	}
-	return ws, nil
+	})
 }
 
 // formatFlag is --format text|csv|json.

@@ -106,7 +106,10 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 		Summary: output.Summary{Caution: output.Caution, Findings: []output.Finding{}, Notes: []string{}}}
 	r := &runner{pl: pl, ws: ws, inputs: inputs, run: run, scale: pl.Scale, stepRuns: map[string]int64{}}
 	step0 := time.Now()
-	if err := r.completeness(ctx); err != nil {
+	doneStep := ws.Step("completeness")
+	err = r.completeness(ctx)
+	doneStep()
+	if err != nil {
 		return nil, fmt.Errorf("completeness: %w", err)
 	}
 	if o.Log != nil {
@@ -117,7 +120,11 @@ func Run(ctx context.Context, p *Pack, o RunOptions) (*Result, error) {
 			return
 		}
 		t0 := time.Now()
+		// The progress bar names the step; a step that names its own
+		// parts (the battery's tests) shows those.
+		done := ws.Step(name)
 		err := fn(ctx)
+		done()
 		if err != nil {
 			r.stepFailed(name, err)
 		}

@@ -132,6 +132,9 @@ func Open(ctx context.Context, path string, opts Options) (*Workspace, error) {
 		ws.Close()
 		return nil, fmt.Errorf("workspace %s: creating the amount macros: %w", path, err)
 	}
+	if f, ok := ctx.Value(onOpenKey{}).(func(*Workspace)); ok {
+		f(ws)
+	}
 	if !opts.DeferFileCheck && !empty {
 		if _, err := ws.CheckFiles(ctx, false, nil); err != nil {
 			ws.Close()
