@@ -288,6 +288,20 @@ func (q *quadForm) survival(x float64) float64 {
 	case x <= 0:
 		return 1
 	}
+	// Far in the tail Chernoff's bound alone is below the integral's
+	// accuracy, and the integral (whose panels narrow as x grows) would be
+	// replaced by it anyway: skip the integration.
+	if x > 2*q.sum {
+		if c := q.chernoff(x); c < imhofFloor {
+			return c
+		}
+	}
+	return q.imhof(x)
+}
+
+// imhof integrates Imhof's formula for P(Σ λ_i χ²₁ > x), x > 0, falling
+// back on Chernoff's bound below the integral's accuracy.
+func (q *quadForm) imhof(x float64) float64 {
 	h := 6 / (q.sum + x) // |θ'(u)| <= (Σλ + x)/2: at most 3 radians a panel
 	var total float64
 	for step := 0; step < maxImhofPanels; step++ {

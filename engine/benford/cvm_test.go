@@ -268,3 +268,32 @@ func TestQuadFormSurvivalFarTail(t *testing.T) {
 		prev = p
 	}
 }
+
+// TestQuadFormTailShortcut: far in the tail survival returns Chernoff's
+// bound without integrating; the integral would have returned the same
+// bound there (its result falls below the floor and is replaced by it), so
+// the shortcut changes no p-value. Checked on the first-two and
+// first-three weights of U² and W², over a grid of x where the bound is
+// below the floor.
+func TestQuadFormTailShortcut(t *testing.T) {
+	checked := 0
+	for _, test := range []Test{FirstTwo, FirstThree} {
+		for _, k := range []CvMKind{CvMU2, CvMW2} {
+			q := cvmNull(k, Expected(test))
+			for f := 2.0; f < 60; f *= 1.3 {
+				x := f * q.sum
+				c := q.chernoff(x)
+				if c >= imhofFloor {
+					continue
+				}
+				checked++
+				if got, full := q.survival(x), q.imhof(x); got != full {
+					t.Errorf("%s %v, x %v: shortcut %v, integral %v", test, k, x, got, full)
+				}
+			}
+		}
+	}
+	if checked < 8 {
+		t.Fatalf("only %d points in the far tail checked", checked)
+	}
+}
