@@ -147,6 +147,14 @@ type styles struct {
 // 0) as "< 1e-300", as the terminal and the report do.
 const PValueFormat = `[=0]"< 1e-300";[<0.0001]0.000E+00;0.0000`
 
+// IsIdentifier reports whether a whole-number column names a record (a
+// line of the client's file, a row, file or run id) rather than counting
+// something.
+func IsIdentifier(name string) bool {
+	n := strings.ToLower(name)
+	return n == "line" || strings.HasSuffix(n, "_line") || n == "id" || strings.HasSuffix(n, "_id") || n == "bin"
+}
+
 // numFmt is the number format of a column: p-values as PValueFormat,
 // proportions and percentages as percent (as the report shows them).
 func numFmt(k Kind, scale int, name string) string {
@@ -155,6 +163,9 @@ func numFmt(k Kind, scale int, name string) string {
 	}
 	switch k {
 	case Count:
+		if IsIdentifier(name) {
+			return "0" // a line or row number is looked up, not added: no separators
+		}
 		return "#,##0"
 	case Money:
 		if scale <= 0 {
