@@ -98,7 +98,9 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Summary, err
 		return fmt.Sprintf("no %s in the ledger (%s is not mapped): load with --map %s=COLUMN", what, col, col)
 	}
 
+	defer ws.Step("journal checks")()
 	// Documents that do not balance.
+	ws.Step("journal checks: documents that do not balance")
 	c := Check{Name: Unbalanced, Title: "Documents whose amounts do not sum to zero (per entity and document" + map[bool]string{true: " and currency)", false: ")"}[hasCurrency], Unit: "documents"}
 	if doc == 0 {
 		c.Status, c.Reason = StatusNotRun, notMapped("doc_id", "document numbers")
@@ -111,6 +113,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Summary, err
 	s.Checks = append(s.Checks, c)
 
 	// Postings outside the period.
+	ws.Step("journal checks: postings outside the period")
 	c = Check{Name: OutOfPeriod, Title: "Postings dated outside the declared period", Unit: "postings"}
 	switch {
 	case posted == 0:
@@ -130,6 +133,7 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Summary, err
 	s.Checks = append(s.Checks, c)
 
 	// Duplicate line keys.
+	ws.Step("journal checks: repeated line keys")
 	c = Check{Name: DuplicateKeys, Title: "Line keys (entity, doc_id, line_id) that appear more than once", Unit: "line keys"}
 	switch {
 	case doc == 0:
