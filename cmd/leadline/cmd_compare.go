@@ -98,6 +98,8 @@ type compareOptions struct {
 	spec    population.Spec
 	compare compare.Options
 	top     int // bins printed per test in text format
+	by      []string // --by: segment columns compared on both sides
+	minSeg  int64    // --min-segment: amounts a segment needs on each side
 }
 
 func (o compareOptions) mode() string {
@@ -132,6 +134,8 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 	fs.IntVar(&o.compare.Simulations, "simulations", compare.DefaultSimulations, "Monte Carlo tables for the homogeneity p-value when cells expect few amounts")
 	fs.Uint64Var(&o.compare.Seed, "seed", compare.DefaultSeed, "seed of the Monte Carlo tables")
 	fs.IntVar(&o.top, "top", compare.DefaultTop, "bins listed per test as changed most")
+	fs.StringSliceVar(&o.by, "by", nil, "also compare each segment of these columns on both sides (as scan --by: entity, account, user_id, month...); not with --runs")
+	fs.Int64Var(&o.minSeg, "min-segment", 1000, "with --by: amounts a segment needs on each side to be compared")
 	fs.StringSliceVar(&tests, "tests", nil, "tests compared: first, second, first_two, first_three, last_two (default: all five)")
 	f.add(fs)
 	return func(args []string) (compareOptions, error) {
@@ -176,7 +180,7 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 				}
 				o.runs = append(o.runs, id)
 			}
-			for _, name := range []string{"where", "signs", "min"} {
+			for _, name := range []string{"where", "signs", "min", "by"} {
 				if fs.Changed(name) {
 					return o, fmt.Errorf("--%s with --runs: a stored run keeps the population it tested; leave --%s out", name, name)
 				}
@@ -198,6 +202,9 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 				return o, fmt.Errorf("--split %q: the two values are the same", split)
 			}
 			o.split, o.values = strings.TrimSpace(col), [2]string{v[0], v[1]}
+		}
+		if o.minSeg < 1 {
+			return o, fmt.Errorf("--min-segment %d: give 1 or more", o.minSeg)
 		}
 		o.spec = pop.base().WithDefaults()
 		return o, nil
@@ -295,6 +302,11 @@ func runCompare(ctx context.Context, e *env, o compareOptions) error {
 	if err != nil {
 		return err
 	}
+	if len(o.by) > 0 {
+		if err := compareSegments(ctx, e, ws, o, rep); err != nil {
+			return err
+		}
+	}
 	params := struct {
 		Mode    string          `json:"mode"`
 		Runs    []int64         `json:"runs,omitempty"`
@@ -302,9 +314,10 @@ func runCompare(ctx context.Context, e *env, o compareOptions) error {
 		Right   string          `json:"right,omitempty"`
 		Split   string          `json:"split,omitempty"`
 		Against string          `json:"against,omitempty"`
+		By      []string        `json:"by,omitempty"`
 		Options compare.Options `json:"options"`
 		population.Spec
-	}{rep.Mode, o.runs, o.left, o.right, o.split, o.against, o.compare, o.spec}
+	}{rep.Mode, o.runs, o.left, o.right, o.split, o.against, o.by, o.compare, o.spec}
 	if rep.Mode == compare.ModeRuns {
 		params.Spec = population.Spec{}
 	}
@@ -538,6 +551,9 @@ func printCompareText(w io.Writer, rep *compare.Report, top int) error {
 		for _, n := range tr.Notes {
 			fmt.Fprintf(w, "Note: %s.\n", n)
 		}
+	}
+	if err := printCompareSegments(w, rep, top); err != nil {
+		return err
 	}
 	fmt.Fprintln(w, "\nFlags are signals for follow-up, never proof of fraud.")
 	return nil

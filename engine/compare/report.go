@@ -28,6 +28,14 @@ type Report struct {
 	// Notes are remarks on the comparison as a whole (populations tested
 	// with different settings, sides of very different sizes).
 	Notes []string `json:"notes"`
+	// With --by: the segments compared on both sides, per test
+	// (CompareSegments), the segment columns, the smallest N a segment
+	// needs on each side, and the segments left out.
+	By               []string      `json:"by,omitempty"`
+	MinSegment       int64         `json:"min_segment,omitempty"`
+	Segments         []SegmentTest `json:"segments,omitempty"`
+	SegmentsOneSide  int           `json:"segments_one_side,omitempty"`
+	SegmentsTooSmall int           `json:"segments_too_small,omitempty"`
 }
 
 // SideInfo says where one side's counts come from.
