@@ -97,7 +97,7 @@ type compareOptions struct {
 	against string // --against: the right side's workspace
 	spec    population.Spec
 	compare compare.Options
-	top     int // bins printed per test in text format
+	top     int      // bins printed per test in text format
 	by      []string // --by: segment columns compared on both sides
 	minSeg  int64    // --min-segment: amounts a segment needs on each side
 }
