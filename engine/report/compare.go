@@ -15,8 +15,22 @@ const KindCompare = compare.Kind
 type CompareSection struct {
 	Run    *Run
 	Ref    ref
-	Report compare.Report
-	Tests  []compareTestView
+	Report   compare.Report
+	Tests    []compareTestView
+	Segments []compareSegmentsView
+}
+
+// compareSegmentsView is one test's segment comparison (compare --by):
+// its flagged segments, up to compareBinRows.
+type compareSegmentsView struct {
+	S       compare.SegmentTest
+	R       ref
+	Flagged []compareSegmentView
+}
+
+type compareSegmentView struct {
+	C compare.SegmentChange
+	R ref
 }
 
 // compareTestView is one test of a comparison with the sources of its
@@ -57,6 +71,16 @@ func (m *Model) addCompare(r *Run, doc json.RawMessage, base string) error {
 		}
 		s.Tests = append(s.Tests, v)
 	}
+	for i, st := range rep.Segments {
+		v := compareSegmentsView{S: st, R: s.Ref.At("segments").AtField(i, st.Test)}
+		for j, c := range st.Segments {
+			if !c.Flagged || len(v.Flagged) == compareBinRows {
+				continue
+			}
+			v.Flagged = append(v.Flagged, compareSegmentView{C: c, R: v.R.At("segments").AtField(j, c.Segment)})
+		}
+		s.Segments = append(s.Segments, v)
+	}
 	m.Compares = append(m.Compares, s)
 	return nil
 }
@@ -81,6 +105,15 @@ const compareTemplate = `{{define "compare"}}
 {{range .Changed}}{{$b := .B}}{{$r := .R}}<tr class="flagged{{if le $b.Diff 0.0}} shortfall{{end}}"><td>{{$b.Label}}</td><td class="n">{{$r.F "left" $b.Left "int"}}</td><td class="n">{{$r.F "right" $b.Right "int"}}</td><td class="n">{{$r.F "left_share" $b.LeftShare "pct:2"}}</td><td class="n">{{$r.F "right_share" $b.RightShare "pct:2"}}</td><td class="n">{{$r.F "diff" $b.Diff "pct:2"}}</td><td class="n">{{$r.F "z" $b.Z "f:2"}}</td><td class="n">{{$r.F "p_adjusted" $b.PAdjusted "p"}}</td></tr>
 {{end}}</tbody></table>
 {{if lt (len .Changed) $t.Flagged}}<p class="more">{{len .Changed}} of {{$t.Flagged}} flagged bins shown; the run's JSON has every bin.</p>{{end}}{{end}}{{end}}
+{{if .Segments}}<h4>Segments by {{range $i, $b := $rep.By}}{{if $i}}, {{end}}{{$b}}{{end}}</h4>
+<p>Each segment with at least {{$R.F "min_segment" $rep.MinSegment "int"}} amounts on both sides, compared by its own homogeneity test; flagged when the p-value, adjusted by Holm's step-down over the segments, is below {{($R.At "options").F "alpha" $rep.Options.Alpha "pct:0"}} and a bin's share moved by the materiality margin.{{if $rep.SegmentsOneSide}} {{$rep.SegmentsOneSide}} segment(s) found on one side only are left out.{{end}}{{if $rep.SegmentsTooSmall}} {{$rep.SegmentsTooSmall}} segment(s) smaller on a side are left out.{{end}}</p>
+<table><thead><tr><th>test</th><th class="n">segments compared</th><th class="n">changed</th></tr></thead><tbody>
+{{range .Segments}}<tr{{if .S.Flagged}} class="flagged"{{end}}><td>{{.S.Test.Name}}</td><td class="n">{{.R.F "compared" .S.Compared "int"}}</td><td class="n">{{.R.F "flagged" .S.Flagged "int"}}</td></tr>
+{{end}}</tbody></table>
+{{range .Segments}}{{if .Flagged}}<h4>{{.S.Test.Name}}: segments whose distribution changed</h4>
+<table><thead><tr><th>segment</th><th class="n">left N</th><th class="n">right N</th><th class="n">chi-square</th><th class="n">adjusted p</th><th class="n">material bins</th><th class="n">left MAD</th><th class="n">right MAD</th></tr></thead><tbody>
+{{range .Flagged}}{{$c := .C}}{{$r := .R}}<tr class="flagged"><td>{{$c.Segment}}</td><td class="n">{{$r.F "left_n" $c.LeftN "int"}}</td><td class="n">{{$r.F "right_n" $c.RightN "int"}}</td><td class="n">{{($r.At "homogeneity").F "chi2" $c.Homogeneity.Chi2 "sf"}}</td><td class="n">{{$r.F "p_adjusted" $c.PAdjusted "p"}}</td><td class="n">{{$r.F "material_bins" $c.MaterialBins "int"}}</td><td class="n">{{$r.F "left_mad" $c.LeftMAD "sf"}}</td><td class="n">{{$r.F "right_mad" $c.RightMAD "sf"}}</td></tr>
+{{end}}</tbody></table>{{if lt (len .Flagged) .S.Flagged}}<p class="more">{{len .Flagged}} of {{.S.Flagged}} changed segments shown; the run's JSON has every segment.</p>{{end}}{{end}}{{end}}{{end}}
 {{end}}{{end}}`
 
 // The section's template joins the page's at start-up.

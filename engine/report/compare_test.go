@@ -33,6 +33,14 @@ func TestCompareSection(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// compare --by: two segments, the second changed.
+	segs := func(extra bool) []compare.SegmentSide {
+		return []compare.SegmentSide{{Key: "K1", Label: "K1", Counts: counts(false)}, {Key: "K2", Label: "K2", Counts: counts(extra)}}
+	}
+	if rep.Segments, rep.SegmentsOneSide, rep.SegmentsTooSmall, err = compare.CompareSegments(segs(false), segs(true), 1000, compare.DefaultOptions()); err != nil {
+		t.Fatal(err)
+	}
+	rep.By, rep.MinSegment = []string{"cost_centre"}, 1000
 	rep.RunID = 7
 	doc, err := json.Marshal(rep)
 	if err != nil {
@@ -66,12 +74,14 @@ func TestCompareSection(t *testing.T) {
 		}
 	}
 	got := checkNumbers(t, mine, func(src string) (any, error) { return pointer(stored, strings.TrimPrefix(src, "run/7#")) })
-	// 8 numbers per test, 4 of the sides and the flag, 7 of the flagged bin.
-	if got < 5*8+4+7 {
+	// 8 numbers per test, 4 of the sides and the flag, 7 of the flagged
+	// bin; with the segments 1 + 2 per test and 7 of the changed segment.
+	if got < 5*8+4+7+1+5*2+7 {
 		t.Fatalf("%d numbers checked in the compare section, want every test's row", got)
 	}
 	text := textOf(sec)
-	for _, want := range []string{"entity=A against entity=B", "first-two digits test: bins whose share changed", "first-three digits test"} {
+	for _, want := range []string{"entity=A against entity=B", "first-two digits test: bins whose share changed", "first-three digits test",
+		"Segments by cost_centre", "first-two digits test: segments whose distribution changed"} {
 		if !strings.Contains(text, want) {
 			t.Errorf("section lacks %q", want)
 		}
@@ -84,5 +94,14 @@ func TestCompareSection(t *testing.T) {
 	}
 	if !found {
 		t.Error("flagged first-two bin 47 not listed")
+	}
+	found = false
+	for _, n := range mine {
+		if n.field == "compare.segments.first_two.segments.K2.p_adjusted" {
+			found = true
+		}
+	}
+	if !found {
+		t.Error("changed segment K2 not listed")
 	}
 }
