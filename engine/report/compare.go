@@ -13,8 +13,8 @@ const KindCompare = compare.Kind
 
 // CompareSection is one stored comparison of two count sets.
 type CompareSection struct {
-	Run    *Run
-	Ref    ref
+	Run      *Run
+	Ref      ref
 	Report   compare.Report
 	Tests    []compareTestView
 	Segments []compareSegmentsView
