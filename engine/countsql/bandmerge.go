@@ -71,7 +71,7 @@ var bandFile = countFile{tail: []string{"kind", "bin", "n", "lo", "hi"}, what: "
 
 func (m *BandCounts) readFile(path string, first bool) error {
 	var a *bandAcc
-	by, f, err := bandFile.read(path, m.By, first, func(key segment.Key, rec []string, bad func(string) error) error {
+	return bandFile.read(path, &m.By, &m.Files, first, func(key segment.Key, rec []string, bad func(string) error) error {
 		kind := rec[0]
 		bin, err1 := strconv.ParseInt(rec[1], 10, 64)
 		n, err2 := strconv.ParseInt(rec[2], 10, 64)
@@ -110,14 +110,6 @@ func (m *BandCounts) readFile(path string, first bool) error {
 		}
 		return nil
 	})
-	if err != nil {
-		return err
-	}
-	if first {
-		m.By = by
-	}
-	m.Files = append(m.Files, f)
-	return nil
 }
 
 // left out of every segment: NULL amounts and rows the filter dropped.

@@ -21,12 +21,24 @@ type countFile struct {
 }
 
 // read reads one count file: checks its header against the layout and
-// the segments of the files read before (by, nil for the first file),
-// then calls row for every record with its line, its segment key (NULL
-// for an empty or \N value: the queries write blank values as NULL) and
-// the columns after the segments. bad words a problem of that line. It
-// returns the file's segments and its entry in the provenance.
-func (l countFile) read(path string, by []string, first bool, row func(key segment.Key, rec []string, bad func(string) error) error) ([]string, File, error) {
+// the segments of the files read before (*by; the first file sets them),
+// then calls row for every record with its segment key (NULL for an empty
+// or \N value: the queries write blank values as NULL) and the columns
+// after the segments; bad words a problem of that line. The file's entry
+// in the provenance is added to files.
+func (l countFile) read(path string, by *[]string, files *[]File, first bool, row func(key segment.Key, rec []string, bad func(string) error) error) error {
+	got, f, err := l.readFile(path, *by, first, row)
+	if err != nil {
+		return err
+	}
+	if first {
+		*by = got
+	}
+	*files = append(*files, f)
+	return nil
+}
+
+func (l countFile) readFile(path string, by []string, first bool, row func(key segment.Key, rec []string, bad func(string) error) error) ([]string, File, error) {
 	r, sum, closeFn, err := openCounts(path)
 	if err != nil {
 		return nil, File{}, err

@@ -138,7 +138,7 @@ var batteryFile = countFile{tail: []string{"kind", "bin", "n", "sum_hi", "sum_lo
 
 func (m *Merged) readFile(path string, first bool) error {
 	var a *acc
-	by, f, err := batteryFile.read(path, m.By, first, func(key battery.Key, rec []string, bad func(string) error) error {
+	return batteryFile.read(path, &m.By, &m.Files, first, func(key battery.Key, rec []string, bad func(string) error) error {
 		kind := rec[0]
 		bin, err1 := strconv.ParseInt(rec[1], 10, 64)
 		n, err2 := strconv.ParseInt(rec[2], 10, 64)
@@ -196,14 +196,6 @@ func (m *Merged) readFile(path string, first bool) error {
 		*slot += n
 		return nil
 	})
-	if err != nil {
-		return err
-	}
-	if first {
-		m.By = by
-	}
-	m.Files = append(m.Files, f)
-	return nil
 }
 
 // openCounts opens a count file: CSV with a header, or Parquet (a
