@@ -14,5 +14,10 @@
 //   - each side's conformity (MAD, its published class and the severity
 //     verdict of package benford) and whether it changed.
 //
+// CompareSegments does the same segment by segment (compare --by): each
+// segment found on both sides gets its own homogeneity test, the p-values
+// adjusted by Holm's step-down over the segments, and is flagged as
+// changed when that is below 5% and a bin's share moved materially.
+//
 // It works on counts only and needs no database.
 package compare
