@@ -5,6 +5,7 @@ import (
 	"hash/fnv"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"slices"
 	"sort"
 	"sync"
@@ -225,12 +226,31 @@ func localNullFor(n int64) *localNull {
 	}
 	h := fnv.New64a()
 	h.Write([]byte("local surplus"))
-	rng := rand.New(rand.NewPCG(h.Sum64(), uint64(key)))
+	seed := h.Sum64()
 	exp := Expected(FirstTwo)
-	d := &localNull{n: key, maxZ: make([]float64, 0, NullSimulations)}
-	for range NullSimulations {
-		d.maxZ = append(d.maxZ, localMaxZ(Multinomial(rng, exp, key)))
+	// Drawn in fixed chunks, each with its own seed, by as many workers as
+	// there are processors: the same draws whatever the number of workers.
+	const chunk = 250
+	d := &localNull{n: key, maxZ: make([]float64, NullSimulations)}
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for range runtime.GOMAXPROCS(0) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for c := range next {
+				rng := rand.New(rand.NewPCG(seed^uint64(c), uint64(key)))
+				for i := c; i < min(c+chunk, NullSimulations); i++ {
+					d.maxZ[i] = localMaxZ(Multinomial(rng, exp, key))
+				}
+			}
+		}()
 	}
+	for c := 0; c < NullSimulations; c += chunk {
+		next <- c
+	}
+	close(next)
+	wg.Wait()
 	slices.Sort(d.maxZ)
 	v, _ := localCache.LoadOrStore(key, d)
 	return v.(*localNull)
