@@ -75,6 +75,16 @@ least --min-excess (20%) of its expected share, or that share of 2.5
 percentage points of N when the bin expects more than 2.5%. The per-bin
 Z-statistic and its 1.96 bounds stay in the tables as the trade's
 reference: they mark about 5% of the bins of any population by chance.
+The first-two test also raises a local surplus flag: each stretch of up
+to 6 adjacent first-two bins is compared with a smooth curve fitted
+through the 6 bins on either side of it (on the log scale), so a population
+whose digits drift smoothly away from Benford's law, as large real
+populations do, raises none, while amounts pushed into a narrow range
+(just under an approval limit, a price list) do. A stretch is flagged when
+its surplus is beyond chance, calibrated by simulation so that a
+population following Benford's law has a flagged stretch in at most 5% of
+tests at any N, and at least 5% above the curve. Segment rankings show
+the flagged stretches in the column local.
 A flagged bin, test or segment is a signal for follow-up, never proof of
 fraud. Drill into a bin with: leadline drill --test first_two --bin 47.
 

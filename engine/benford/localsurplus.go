@@ -66,7 +66,7 @@ type LocalSurplus struct {
 	Simulations int            `json:"simulations"`
 	SimulatedN  int64          `json:"simulated_n"`
 	Largest     LocalStretch   `json:"largest"` // the stretch with the largest Z
-	Flagged     []LocalStretch `json:"flagged"` // flagged stretches that do not overlap, largest Z first
+	Flagged     []LocalStretch `json:"flagged"` // flagged stretches in the order found (each masked before the next: LocalSurplusTest)
 }
 
 // Label returns the stretch's bins, e.g. "45-49" or "50".
@@ -103,7 +103,7 @@ var firstTwoGeometry = func() (g struct{ u, x [90]float64 }) {
 //  3. E_S = Σ_{d in S} u_d exp(ŷ(x_d)), with variance gᵀ(XᵀWX)⁻¹g,
 //     g = Σ_{d in S} u_d exp(ŷ(x_d)) (1, x_d, x_d²) (the delta method);
 //  4. Z_S = (n_S - E_S)/sqrt(E_S + Var E_S), one-sided: only surpluses.
-func localStretches(counts []int64, fn func(s LocalStretch)) {
+func localStretches(counts []int64, masked *[90]bool, fn func(s LocalStretch)) {
 	g := &firstTwoGeometry
 	var y, w [90]float64
 	for i := range 90 {
@@ -115,6 +115,9 @@ func localStretches(counts []int64, fn func(s LocalStretch)) {
 	for from := 0; from < 90; from++ {
 		for L := 1; L <= LocalMaxBins && from+L <= 90; L++ {
 			to := from + L - 1
+			if masked[to] {
+				break // a stretch never holds a masked bin
+			}
 			c := (g.x[from] + g.x[to]) / 2
 			var a [3][3]float64
 			var rhs [3]float64
@@ -128,18 +131,20 @@ func localStretches(counts []int64, fn func(s LocalStretch)) {
 					}
 				}
 			}
-			left := min(h, from)
-			right := min(h, 89-to)
+			// h unmasked bins on each side; where one side runs out, more
+			// from the other (2h in all).
+			lf, rt := flank(masked, from, -1, 2*h), flank(masked, to, +1, 2*h)
+			left, right := min(h, len(lf)), min(h, len(rt))
 			if left < h {
-				right = min(2*h-left, 89-to)
+				right = min(2*h-left, len(rt))
 			} else if right < h {
-				left = min(2*h-right, from)
+				left = min(2*h-right, len(lf))
 			}
-			for k := 1; k <= left; k++ {
-				add(from-k, 0)
+			for _, i := range lf[:left] {
+				add(i, 0)
 			}
-			for k := 1; k <= right; k++ {
-				add(to+k, 0)
+			for _, i := range rt[:right] {
+				add(i, 0)
 			}
 			deg := 2
 			if min(left, right) < localMinSide {
@@ -183,10 +188,22 @@ func localStretches(counts []int64, fn func(s LocalStretch)) {
 	}
 }
 
+// flank returns up to k unmasked bins (indices 0..89) next to bin at,
+// walking in direction step (-1 left, +1 right), nearest first.
+func flank(masked *[90]bool, at, step, k int) []int {
+	var out []int
+	for i := at + step; i >= 0 && i < 90 && len(out) < k; i += step {
+		if !masked[i] {
+			out = append(out, i)
+		}
+	}
+	return out
+}
+
 // localMaxZ returns the largest Z over all stretches.
 func localMaxZ(counts []int64) float64 {
 	m := math.Inf(-1)
-	localStretches(counts, func(s LocalStretch) { m = math.Max(m, s.Z) })
+	localStretches(counts, &[90]bool{}, func(s LocalStretch) { m = math.Max(m, s.Z) })
 	return m
 }
 
@@ -279,32 +296,34 @@ func LocalSurplusTest(counts []int64, alpha, minExcess float64) LocalSurplus {
 	}
 	null := localNullFor(n)
 	res.Tested, res.Simulations, res.SimulatedN = true, len(null.maxZ), null.n
-	var all []LocalStretch
-	localStretches(counts, func(s LocalStretch) {
-		s.PAdjusted = null.atLeast(s.Z)
-		s.Material = s.Ratio >= 1+minExcess*(1-1e-12)
-		s.Flagged = s.PAdjusted < alpha && s.Material
-		all = append(all, s)
-		if len(all) == 1 || s.Z > res.Largest.Z {
-			res.Largest = s
-		}
-	})
-	res.Stretches = len(all)
-	sort.SliceStable(all, func(i, j int) bool { return all[i].Z > all[j].Z })
-	for _, s := range all {
-		if !s.Flagged {
-			continue
-		}
-		overlaps := false
-		for _, f := range res.Flagged {
-			if s.FromBin <= f.ToBin && f.FromBin <= s.ToBin {
-				overlaps = true
-				break
+	// Flagged stretches are found one after another, largest Z first;
+	// each one's bins are then masked: they leave the flanks of the other
+	// stretches (a spike would tilt the curve its neighbours are read
+	// against, and flag them by contrast) and no later stretch holds them.
+	var masked [90]bool
+	for pass := 0; ; pass++ {
+		var best LocalStretch
+		found := false
+		localStretches(counts, &masked, func(s LocalStretch) {
+			s.PAdjusted = null.atLeast(s.Z)
+			s.Material = s.Ratio >= 1+minExcess*(1-1e-12)
+			s.Flagged = s.PAdjusted < alpha && s.Material
+			if pass == 0 {
+				if res.Stretches == 0 || s.Z > res.Largest.Z {
+					res.Largest = s
+				}
+				res.Stretches++
 			}
+			if s.Flagged && (!found || s.Z > best.Z) {
+				best, found = s, true
+			}
+		})
+		if !found {
+			return res
 		}
-		if !overlaps {
-			res.Flagged = append(res.Flagged, s)
+		res.Flagged = append(res.Flagged, best)
+		for b := best.FromBin; b <= best.ToBin; b++ {
+			masked[b-10] = true
 		}
 	}
-	return res
 }

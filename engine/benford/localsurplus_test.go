@@ -48,7 +48,7 @@ func TestLocalSurplusFitOnMixture(t *testing.T) {
 			counts[i] = int64(math.Round(v * 5e7))
 		}
 		stretches := 0
-		localStretches(counts, func(s LocalStretch) {
+		localStretches(counts, &[90]bool{}, func(s LocalStretch) {
 			stretches++
 			if s.Ratio > 1+c.over || s.Ratio < 1-c.under {
 				t.Errorf("%s: stretch %s: ratio %.4f outside [%v, %v]", c.name, s.Label(), s.Ratio, 1-c.under, 1+c.over)
@@ -103,6 +103,29 @@ func u2Critical() float64 {
 		}
 	}
 	return hi
+}
+
+// TestLocalSurplusSpikeLeavesNeighbours: one spike (a refund of one
+// amount repeated, here 800 more amounts in bin 25 of 5,000 following
+// Benford's law exactly) is flagged, and the stretches beside it are not:
+// the spike tilts the curve fitted through any flank that holds it, so
+// the first bins (whose curve is a line drawn from their right side only)
+// would read as a surplus against it. Each flagged stretch leaves the
+// flanks of the others.
+func TestLocalSurplusSpikeLeavesNeighbours(t *testing.T) {
+	exp := Expected(FirstTwo)
+	c := make([]int64, 90)
+	for i, p := range exp {
+		c[i] = int64(math.Round(p * 5000))
+	}
+	c[25-10] += 800
+	r := LocalSurplusTest(c, FlagAlpha, LocalMinExcess)
+	if len(r.Flagged) != 1 || r.Flagged[0].FromBin > 25 || r.Flagged[0].ToBin < 25 || r.Flagged[0].ToBin-r.Flagged[0].FromBin > 2 {
+		for _, f := range r.Flagged {
+			t.Logf("flagged %s: ratio %.3f z %.2f", f.Label(), f.Ratio, f.Z)
+		}
+		t.Fatalf("want one flagged stretch around bin 25, got %d", len(r.Flagged))
+	}
 }
 
 // TestLocalSurplusRates measures the local surplus flag of the first-two
