@@ -128,6 +128,15 @@ func TestLocalSurplusSpikeLeavesNeighbours(t *testing.T) {
 	}
 }
 
+func TestLocalSimulatedN(t *testing.T) {
+	for _, c := range [][2]int64{{500, 500}, {1234, 1200}, {9949, 9900}, {9951, 10000}, {14999, 10000},
+		{15000, 20000}, {470042, 500000}, {949999, 900000}, {950000, 1000000}, {9375313, 1000000}} {
+		if got := localSimulatedN(c[0]); got != c[1] {
+			t.Errorf("localSimulatedN(%d) = %d, want %d", c[0], got, c[1])
+		}
+	}
+}
+
 // TestLocalNullHoldsRate: at N = 50,000 the flag fires on at most the 99%
 // upper binomial bound of 5% of 4,000 conforming populations (rateBound),
 // and the largest Z reaches its adjusted 5% in no fewer than the 1% lower
