@@ -153,7 +153,7 @@ func localStretches(counts []int64, masked *[90]bool, fn func(s LocalStretch)) {
 			if min(left, right) < localMinSide {
 				deg = 1 // one side too short to pin a curvature
 			}
-			inv, ok := invertSym(a, deg+1)
+			inv, ok := invertSmall(a, deg+1)
 			if !ok {
 				continue
 			}
@@ -201,6 +201,37 @@ func flank(masked *[90]bool, at, step int, buf []int) []int {
 		}
 	}
 	return buf
+}
+
+// invertSmall inverts the leading n×n block (n = 2 or 3) of the symmetric
+// matrix a by cofactors, and falls back to invertSym (Gauss-Jordan with
+// pivoting) when the determinant is small against the product of the
+// diagonal (a nearly singular design).
+func invertSmall(a [3][3]float64, n int) (inv [3][3]float64, ok bool) {
+	switch n {
+	case 2:
+		det := a[0][0]*a[1][1] - a[0][1]*a[0][1]
+		if det > 1e-9*a[0][0]*a[1][1] {
+			inv[0][0], inv[1][1] = a[1][1]/det, a[0][0]/det
+			inv[0][1] = -a[0][1] / det
+			inv[1][0] = inv[0][1]
+			return inv, true
+		}
+	case 3:
+		c00 := a[1][1]*a[2][2] - a[1][2]*a[1][2]
+		c01 := a[1][2]*a[0][2] - a[0][1]*a[2][2]
+		c02 := a[0][1]*a[1][2] - a[1][1]*a[0][2]
+		det := a[0][0]*c00 + a[0][1]*c01 + a[0][2]*c02
+		if det > 1e-9*a[0][0]*a[1][1]*a[2][2] {
+			inv[0][0], inv[0][1], inv[0][2] = c00/det, c01/det, c02/det
+			inv[1][1] = (a[0][0]*a[2][2] - a[0][2]*a[0][2]) / det
+			inv[1][2] = (a[0][1]*a[0][2] - a[0][0]*a[1][2]) / det
+			inv[2][2] = (a[0][0]*a[1][1] - a[0][1]*a[0][1]) / det
+			inv[1][0], inv[2][0], inv[2][1] = inv[0][1], inv[0][2], inv[1][2]
+			return inv, true
+		}
+	}
+	return invertSym(a, n)
 }
 
 // localMaxZ returns the largest Z over all stretches.

@@ -301,3 +301,34 @@ func firstTwoSignals(c []int64, exp []float64, u2Crit float64, near bool) [4]boo
 	_, _, p := ChiSquare(c, exp)
 	return [4]bool{local, bin, p < 0.05, cvmStat(CvMU2, c, exp, n) > u2Crit}
 }
+
+// TestInvertSmallMatches: the cofactor inverse of the local fits agrees with
+// Gauss-Jordan elimination with pivoting (invertSym) on random symmetric,
+// diagonally dominant matrices.
+func TestInvertSmallMatches(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	for range 1000 {
+		var a [3][3]float64
+		for r := range 3 {
+			for k := r; k < 3; k++ {
+				a[r][k] = rng.NormFloat64()
+				a[k][r] = a[r][k]
+			}
+			a[r][r] += 4
+		}
+		for _, n := range []int{2, 3} {
+			x, ok1 := invertSmall(a, n)
+			y, ok2 := invertSym(a, n)
+			if ok1 != ok2 {
+				continue
+			}
+			for r := range n {
+				for k := range n {
+					if math.Abs(x[r][k]-y[r][k]) > 1e-9*(1+math.Abs(y[r][k])) {
+						t.Fatalf("n %d: %v vs %v", n, x, y)
+					}
+				}
+			}
+		}
+	}
+}
