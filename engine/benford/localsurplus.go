@@ -255,7 +255,15 @@ func (d *localNull) atLeast(z float64) float64 {
 	return float64(k+1) / float64(len(d.maxZ)+1)
 }
 
-var localCache sync.Map // int64 -> *localNull
+// localCache holds one entry per simulated N; the entry's Once makes
+// segments that ask for the same N at the same time wait for one draw
+// instead of each drawing it.
+var localCache sync.Map // int64 -> *localEntry
+
+type localEntry struct {
+	once sync.Once
+	d    *localNull
+}
 
 // localSimulatedN is the N at which the null is drawn for N amounts: N
 // rounded to two significant digits up to 10,000, to one above (10,000,
@@ -284,9 +292,14 @@ func localSimulatedN(n int64) int64 {
 // drawn once with a seed fixed by N and kept for the life of the process.
 func localNullFor(n int64) *localNull {
 	key := localSimulatedN(n)
-	if v, ok := localCache.Load(key); ok {
-		return v.(*localNull)
-	}
+	v, _ := localCache.LoadOrStore(key, &localEntry{})
+	e := v.(*localEntry)
+	e.once.Do(func() { e.d = drawLocalNull(key) })
+	return e.d
+}
+
+// drawLocalNull draws the null distribution at N = key.
+func drawLocalNull(key int64) *localNull {
 	h := fnv.New64a()
 	h.Write([]byte("local surplus"))
 	seed := h.Sum64()
@@ -315,8 +328,7 @@ func localNullFor(n int64) *localNull {
 	close(next)
 	wg.Wait()
 	slices.Sort(d.maxZ)
-	v, _ := localCache.LoadOrStore(key, d)
-	return v.(*localNull)
+	return d
 }
 
 // splitMix64 scrambles a seed (the finalizer of SplitMix64: G. L. Steele,
