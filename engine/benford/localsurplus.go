@@ -23,8 +23,9 @@ const (
 	// LocalMinExcess is the materiality margin of the local surplus flag: a
 	// stretch is material when it holds at least 5% more amounts than its
 	// neighbours predict. A judgement of this project (no published
-	// source): on the smooth populations of the simulations the local fit
-	// misses by well under 1% (TestLocalSurplusRates), and amounts pushed
+	// source): on the smooth mixture of the simulations the local fit
+	// misses by under 1% above and 4% below (TestLocalSurplusFitOnMixture),
+	// and amounts pushed
 	// below a limit fill their bins by 10% and more once they are 0.5% of
 	// the population.
 	LocalMinExcess = 0.05
@@ -78,7 +79,7 @@ func (s LocalStretch) Label() string {
 }
 
 // firstTwoGeometry holds each first-two bin's width u_d = log10(1 + 1/d)
-// on the mantissa circle and its centre x_d.
+// on the log10 scale and its centre x_d.
 var firstTwoGeometry = func() (g struct{ u, x [90]float64 }) {
 	for d := 10; d <= 99; d++ {
 		g.u[d-10] = math.Log10(1 + 1/float64(d))
@@ -87,21 +88,25 @@ var firstTwoGeometry = func() (g struct{ u, x [90]float64 }) {
 	return g
 }()
 
-// localStretches returns Z and the fit of every stretch of the 90
-// first-two counts (bins 10..99 in order). The statistic, for a stretch S
-// of L <= LocalMaxBins adjacent bins (not wrapping past 99):
+// localStretches calls fn with Z and the fit of every stretch of the 90
+// first-two counts (bins 10..99 in order) that holds no masked bin. The
+// statistic, for a stretch S of L <= LocalMaxBins adjacent bins (not
+// wrapping past 99: at the top of a decade a population cut at --min or
+// at a price cap need not join smoothly onto the next decade's start):
 //
-//  1. the h = LocalFlankBins bins on each side of S (wrapping around the
-//     mantissa circle: bin 99 ends at 100, where bin 10 starts) give
+//  1. the h = LocalFlankBins unmasked bins nearest to S on each side (2h
+//     on one side where the other runs out at bin 10 or 99) give
 //     y_d = ln((n_d + 1/2)/u_d), the log count per unit of log10 width,
 //     whose variance is about 1/(n_d + 1/2); the 1/2 also removes the
 //     first-order bias of the log of a Poisson count;
-//  2. a quadratic in x_d (the bin's centre, log10 scale, unwrapped about
-//     S) is fitted to them by weighted least squares with weights
-//     n_d + 1/2; under Benford's law the density per unit of log10 is
-//     flat, and a smooth population's is a smooth curve;
+//  2. a quadratic in x_d - c (the bin's centre on the log10 scale, c the
+//     centre of S) is fitted to them by weighted least squares with
+//     weights n_d + 1/2 (a line when one side has no bins: no curvature
+//     is pinned from one side); under Benford's law the density per unit
+//     of log10 is flat, and a smooth population's is a smooth curve;
 //  3. E_S = Σ_{d in S} u_d exp(ŷ(x_d)), with variance gᵀ(XᵀWX)⁻¹g,
-//     g = Σ_{d in S} u_d exp(ŷ(x_d)) (1, x_d, x_d²) (the delta method);
+//     g = Σ_{d in S} u_d exp(ŷ(x_d)) (1, x_d - c, (x_d - c)²) (the delta
+//     method);
 //  4. Z_S = (n_S - E_S)/sqrt(E_S + Var E_S), one-sided: only surpluses.
 func localStretches(counts []int64, masked *[90]bool, fn func(s LocalStretch)) {
 	g := &firstTwoGeometry
