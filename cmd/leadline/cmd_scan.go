@@ -75,6 +75,16 @@ least --min-excess (20%) of its expected share, or that share of 2.5
 percentage points of N when the bin expects more than 2.5%. The per-bin
 Z-statistic and its 1.96 bounds stay in the tables as the trade's
 reference: they mark about 5% of the bins of any population by chance.
+The first-two test also raises a local surplus flag: each stretch of up
+to 6 adjacent first-two bins is compared with a smooth curve fitted
+through the 6 bins on either side of it (on the log scale), so a population
+whose digits drift smoothly away from Benford's law, as large real
+populations do, raises none, while amounts pushed into a narrow range
+(just under an approval limit, a price list) do. A stretch is flagged when
+its surplus is beyond chance, calibrated by simulation so that a
+population following Benford's law has a flagged stretch in at most 5% of
+tests at any N, and at least 5% above the curve. Segment rankings show
+the flagged stretches in the column local.
 A flagged bin, test or segment is a signal for follow-up, never proof of
 fraud. Drill into a bin with: leadline drill --test first_two --bin 47.
 
@@ -280,7 +290,12 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 			numfmt.Int(int64(s.Count)), numfmt.Int(int64(s.Ranked)), numfmt.Int(s.MinRows))
 		for _, rk := range s.Rankings {
 			fmt.Fprintf(w, "\n%s by segment, most distorted first (sorted by %s)\n", capitalize(rk.Test.Name()), strings.ReplaceAll(rk.SortBy, "_", " "))
-			t := &tabular.Table{Columns: []string{"rank", "segment", "n", "mad", "conformity", "excess_mad", "chi2_p", "flagged", "runs", "runs_p"}}
+			cols := []string{"rank", "segment", "n", "mad", "conformity", "excess_mad", "chi2_p", "flagged", "runs", "runs_p"}
+			local := rk.Test == benford.FirstTwo
+			if local {
+				cols = append(cols[:8:8], append([]string{"local"}, cols[8:]...)...)
+			}
+			t := &tabular.Table{Columns: cols}
 			for i, r := range rk.Rows {
 				if sp.rankRows > 0 && i >= sp.rankRows {
 					break
@@ -294,7 +309,15 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 				if rk.Test == benford.Summation {
 					chi, excess = nil, nil
 				}
-				t.Add(r.Rank, r.Segment, numfmt.Int(r.N), numfmt.Stat(r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP)
+				cells := []any{r.Rank, r.Segment, numfmt.Int(r.N), numfmt.Stat(r.MAD), r.Conformity, excess, chi, r.Flagged, runs, runsP}
+				if local {
+					var lf any
+					if r.LocalFlagged != nil {
+						lf = *r.LocalFlagged
+					}
+					cells = append(cells[:8:8], append([]any{lf}, cells[8:]...)...)
+				}
+				t.Add(cells...)
 			}
 			if err := t.WriteText(w, 40); err != nil {
 				return err
@@ -401,6 +424,9 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		fmt.Fprintf(w, "; follow up first: %s", strings.Join(s, ", "))
 	}
 	fmt.Fprintln(w)
+	if l := r.LocalSurplus; l != nil {
+		writeLocalSurplus(w, l)
+	}
 	if rr := r.Runs; rr != nil {
 		fmt.Fprintf(w, "Runs test: %d runs (expected %s, sd %s, z %s, one-sided p %s)\n",
 			rr.Runs, numfmt.Stat(rr.Expected), numfmt.Stat(rr.SD), numfmt.Stat(rr.Z), numfmt.P(rr.P))
@@ -419,6 +445,36 @@ func printTestText(w io.Writer, r benford.Result, allBins bool) error {
 		fmt.Fprintf(w, "Note: %s\n", n)
 	}
 	return nil
+}
+
+// writeLocalSurplus prints the first-two test's local surplus flag: the
+// flagged stretches, or the largest surplus and why it is not flagged.
+func writeLocalSurplus(w io.Writer, l *benford.LocalSurplus) {
+	if !l.Tested {
+		fmt.Fprintf(w, "Local surplus: not tested (fewer than %s amounts)\n", numfmt.Int(benford.LocalMinAmounts))
+		return
+	}
+	one := func(s benford.LocalStretch) string {
+		bins := "bins"
+		if s.FromBin == s.ToBin {
+			bins = "bin"
+		}
+		return fmt.Sprintf("%s %s: %s amounts, %s expected from the neighbouring bins (%+.1f%%, z %s, adjusted p %s)",
+			bins, s.Label(), numfmt.Int(s.Count), numfmt.Int(int64(math.Round(s.Expected))), 100*(s.Ratio-1), numfmt.Stat(s.Z), numfmt.P(s.PAdjusted))
+	}
+	if len(l.Flagged) == 0 {
+		fmt.Fprintf(w, "Local surplus: no stretch of up to %d adjacent bins flagged (beyond chance at 5%% and at least %.0f%% above its neighbours' trend); largest: %s\n",
+			l.MaxBins, 100*l.MinExcess, one(l.Largest))
+		return
+	}
+	fmt.Fprintf(w, "Local surplus flagged (beyond chance at 5%% and at least %.0f%% above the neighbours' trend):\n", 100*l.MinExcess)
+	for i, s := range l.Flagged {
+		if i == 5 {
+			fmt.Fprintf(w, "  ... %d more in the JSON output\n", len(l.Flagged)-i)
+			break
+		}
+		fmt.Fprintf(w, "  %s\n", one(s))
+	}
 }
 
 // scanBar draws actual as a bar of '#' scaled to max, with '|' where the

@@ -27,7 +27,8 @@ memory and the tests are run again. The loaded ledger is never changed or
 copied. The table gives, per signal and rate, the share of seeds in which
 the signal fired. The signals are the flags scan and limits raise: the bin
 flag (exact binomial with Holm's step-down and the materiality margin), the
-runs test's simulated p, chi-square and Cramér-von Mises U² at 5%, the MAD
+first-two local surplus flag (adjacent bins above their neighbours' smooth
+trend), the runs test's simulated p, chi-square and Cramér-von Mises U² at 5%, the MAD
 severity verdict and the limit probe with the density modelled from its
 flanking bands; rows named reference are the trade's older rules, kept for
 comparison.

@@ -118,6 +118,7 @@ type SegmentRow struct {
 	CvMU2          float64            `json:"cvm_u2"`   // discrete Cramér–von Mises U²
 	CvMU2P         float64            `json:"cvm_u2_p"` // its asymptotic p-value
 	Flagged        int                `json:"flagged"`
+	LocalFlagged   *int               `json:"local_flagged,omitempty"` // first-two: stretches the local surplus flag marks
 	OutsideGoodman int                `json:"outside_goodman"`
 	TopFlagged     []int              `json:"top_flagged"`
 	Runs           *int               `json:"runs,omitempty"`   // runs test (first-two, first-three, second-order)
@@ -353,6 +354,10 @@ func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []Segme
 			if r.Runs != nil {
 				n, pv := r.Runs.Runs, r.Runs.P
 				row.Runs, row.RunsP = &n, &pv
+			}
+			if l := r.LocalSurplus; l != nil && l.Tested {
+				k := len(l.Flagged)
+				row.LocalFlagged = &k
 			}
 			rows[r.Test] = append(rows[r.Test], row)
 		}

@@ -61,21 +61,25 @@ type Result struct {
 	// and Severity reads the MAD against it and against the published
 	// class (WithinChance, BeyondChanceImmaterial, BeyondChanceMaterial,
 	// BeyondChance); nil and "" for the summation test and N == 0.
-	MADNull        *MADNull `json:"mad_null,omitempty"`
-	Severity       string   `json:"severity,omitempty"`
-	Chi2           float64  `json:"chi2"`
-	DF             int      `json:"df"` // 0: chi-square not computed (N == 0, Summation)
-	PValue         float64  `json:"p_value"`
-	KSD            float64  `json:"ks_d"`
-	KSCritical     float64  `json:"ks_critical"` // 0: not computed (N == 0, Summation)
-	CvMU2          float64  `json:"cvm_u2"`      // discrete Cramér–von Mises: Watson's U² (cvm.go), the same wherever the cycle of bins starts
-	CvMU2P         float64  `json:"cvm_u2_p"`    // its asymptotic p-value (1: not computed, N == 0, Summation)
-	CvMW2          float64  `json:"cvm_w2"`      // discrete Cramér–von Mises W²
-	CvMW2P         float64  `json:"cvm_w2_p"`    // its asymptotic p-value
-	Flagged        int      `json:"flagged"`     // bins flagged (Bin.Flagged)
-	ZFlagged       int      `json:"z_flagged"`   // bins outside the per-bin 95% reference bounds
-	FlagRule       Flagging `json:"flag_rule"`   // the family-wise alpha and the materiality margin of Flagged
-	OutsideGoodman int      `json:"outside_goodman"`
+	MADNull    *MADNull `json:"mad_null,omitempty"`
+	Severity   string   `json:"severity,omitempty"`
+	Chi2       float64  `json:"chi2"`
+	DF         int      `json:"df"` // 0: chi-square not computed (N == 0, Summation)
+	PValue     float64  `json:"p_value"`
+	KSD        float64  `json:"ks_d"`
+	KSCritical float64  `json:"ks_critical"` // 0: not computed (N == 0, Summation)
+	CvMU2      float64  `json:"cvm_u2"`      // discrete Cramér–von Mises: Watson's U² (cvm.go), the same wherever the cycle of bins starts
+	CvMU2P     float64  `json:"cvm_u2_p"`    // its asymptotic p-value (1: not computed, N == 0, Summation)
+	CvMW2      float64  `json:"cvm_w2"`      // discrete Cramér–von Mises W²
+	CvMW2P     float64  `json:"cvm_w2_p"`    // its asymptotic p-value
+	Flagged    int      `json:"flagged"`     // bins flagged (Bin.Flagged)
+	// LocalSurplus is the first-two test's local surplus flag: stretches
+	// of adjacent bins against the smooth expectation of their neighbours
+	// (localsurplus.go); nil for the other tests and N == 0.
+	LocalSurplus   *LocalSurplus `json:"local_surplus,omitempty"`
+	ZFlagged       int           `json:"z_flagged"` // bins outside the per-bin 95% reference bounds
+	FlagRule       Flagging      `json:"flag_rule"` // the family-wise alpha and the materiality margin of Flagged
+	OutsideGoodman int           `json:"outside_goodman"`
 	// GoodmanHolds is false when some bin expects fewer than
 	// GoodmanMinExpected amounts: there the simultaneous intervals flag
 	// conforming populations far more often than 5% (measured in
@@ -195,6 +199,10 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 	res.CvMU2, res.CvMU2P = CramerVonMises(CvMU2, counts, exp)
 	res.CvMW2, res.CvMW2P = CramerVonMises(CvMW2, counts, exp)
 	res.countFlags()
+	if t == FirstTwo {
+		l := LocalSurplusTest(counts, f.Alpha, LocalMinExcess)
+		res.LocalSurplus = &l
+	}
 	if t == FirstTwo || t == FirstThree || t == SecondOrder {
 		r := RunsTest(actual, exp, lo)
 		calibrateRuns(&r, t, n)

@@ -134,8 +134,9 @@ func (o *Options) Validate() error {
 // the report and the limit probe), then the trade's older rules, named as
 // references.
 const (
-	SigFirstTwoFlag  = "first_two bin flagged"   // the battery's bin flag: exact binomial, Holm, material
-	SigRunsP         = "first_two runs p < 0.05" // the runs test against its simulated null
+	SigFirstTwoFlag  = "first_two bin flagged"           // the battery's bin flag: exact binomial, Holm, material
+	SigFirstTwoLocal = "first_two local surplus flagged" // adjacent bins above their neighbours' smooth trend: calibrated, material
+	SigRunsP         = "first_two runs p < 0.05"         // the runs test against its simulated null
 	SigFirstTwoChi   = "first_two chi-square p < 0.05"
 	SigFirstTwoCvM   = "first_two Cramér-von Mises U² p < 0.05"
 	SigFirstTwoSev   = "first_two MAD beyond chance, material" // the severity verdict: MAD beyond its simulated null and in the marginal or nonconforming class
@@ -177,7 +178,7 @@ func Run(pop Population, o Options) (*Result, error) {
 	if n == 0 {
 		return nil, fmt.Errorf("the population has no amounts to test")
 	}
-	signals := []string{SigFirstTwoFlag, SigRunsP, SigFirstTwoChi, SigFirstTwoCvM, SigFirstTwoSev, SigFirstThreeFlg, SigLastTwoFlag}
+	signals := []string{SigFirstTwoFlag, SigFirstTwoLocal, SigRunsP, SigFirstTwoChi, SigFirstTwoCvM, SigFirstTwoSev, SigFirstThreeFlg, SigLastTwoFlag}
 	if o.Kind == BelowLimit {
 		signals = append(signals, SigLimit)
 	}
@@ -244,7 +245,7 @@ func Run(pop Population, o Options) (*Result, error) {
 	} else {
 		res.Notes = append(res.Notes, "baseline: the workspace's own counts, the same in every seed; the rate-0 column says whether a signal already fires on the population itself")
 	}
-	res.Notes = append(res.Notes, "the signals are the product's flags (bin flag with Holm's step-down and materiality, calibrated runs test, chi-square, Cramér-von Mises U², MAD severity, the limit probe with the density modelled from its flanking bands); rows named reference are the trade's older rules, kept for comparison")
+	res.Notes = append(res.Notes, "the signals are the product's flags (bin flag with Holm's step-down and materiality, the first-two local surplus flag, calibrated runs test, chi-square, Cramér-von Mises U², MAD severity, the limit probe with the density modelled from its flanking bands); rows named reference are the trade's older rules, kept for comparison")
 	res.Notes = append(res.Notes, "rules of thumb among the signals (MAD ranges, runs < 35, top 10) are common practice, no source")
 	return res, nil
 }
@@ -320,6 +321,7 @@ func evaluate(f3, l2 []int64) map[string]bool {
 	out := map[string]bool{}
 	r2, _ := benford.Analyze(benford.FirstTwo, f2)
 	out[SigFirstTwoFlag] = r2.Flagged > 0
+	out[SigFirstTwoLocal] = r2.LocalSurplus != nil && len(r2.LocalSurplus.Flagged) > 0
 	out[SigRunsP] = r2.Runs != nil && r2.Runs.P < 0.05
 	out[SigFirstTwoChi] = r2.DF > 0 && r2.PValue < 0.05
 	out[SigFirstTwoCvM] = r2.DF > 0 && r2.CvMU2P < 0.05
