@@ -50,7 +50,9 @@ SELECT * FROM ({{select}}) WHERE {{keep}}
 -- name: inplace_pass
 -- The completeness pass, one read of the file: rows read, kept, rounded,
 -- the control totals of the kept rows, and every rejected row with its
--- line, column, value and reason. Bound: ? = the amount column's name,
+-- line, column, value and reason. The CASE inside list() builds a
+-- rejected row's record for rejected rows only (an aggregate's FILTER
+-- does not spare its argument's evaluation). Bound: ? = the amount column's name,
 -- ? = the date column's name, ? = the date reason. Placeholders:
 -- {{select}}, {{keep}} as in inplace_kept; {{rounded}}, {{raw_expr}},
 -- {{reason_expr}}, {{date_raw}} built by engine/load as for a copy.
@@ -61,10 +63,12 @@ SELECT count(*) AS rows_read,
        CAST(coalesce(sum(amount) FILTER (WHERE ll_keep AND amount > 0), 0) AS VARCHAR) AS positive,
        CAST(coalesce(sum(amount) FILTER (WHERE ll_keep AND amount < 0), 0) AS VARCHAR) AS negative,
        CAST(coalesce(sum(amount) FILTER (WHERE ll_keep), 0) AS VARCHAR) AS net,
-       list({'line': line,
-             'column_name': CASE WHEN amount IS NULL THEN CAST(? AS VARCHAR) ELSE CAST(? AS VARCHAR) END,
-             'raw_value': CAST(CASE WHEN amount IS NULL THEN CAST({{raw_expr}} AS VARCHAR) ELSE CAST({{date_raw}} AS VARCHAR) END AS VARCHAR),
-             'reason': CASE WHEN amount IS NULL THEN {{reason_expr}} ELSE CAST(? AS VARCHAR) END})
+       list(CASE WHEN NOT ll_keep THEN
+             {'line': line,
+              'column_name': CASE WHEN amount IS NULL THEN CAST(? AS VARCHAR) ELSE CAST(? AS VARCHAR) END,
+              'raw_value': CAST(CASE WHEN amount IS NULL THEN CAST({{raw_expr}} AS VARCHAR) ELSE CAST({{date_raw}} AS VARCHAR) END AS VARCHAR),
+              'reason': CASE WHEN amount IS NULL THEN {{reason_expr}} ELSE CAST(? AS VARCHAR) END}
+            END)
            FILTER (WHERE NOT ll_keep) AS rejected
 FROM (SELECT *, {{keep}} AS ll_keep FROM ({{select}}));
 

@@ -275,6 +275,19 @@ type inPlaceSQL struct {
 	rawExpr, reasonExpr, dateRaw string
 	amountCol, dateCol           string
 	dateReason, rounded          string
+	pass                         passSQL
+}
+
+// passSQL is what the completeness pass reads: the select with the amount
+// and date columns also as the file types them, and the keep test and
+// the rejects' expressions written on those, so that a row's text is
+// made only where a test needs it (a date that did not convert, a
+// rejected row). The ledger's text columns are projections: used in the
+// pass, DuckDB made text of every row's amount and date, five times the
+// cost of reading them.
+type passSQL struct {
+	sel, keep                             string
+	rawExpr, reasonExpr, dateRaw, rounded string
 }
 
 // buildInPlaceSQL builds, for a Parquet file, the expressions loadOne
@@ -352,6 +365,51 @@ func buildInPlaceSQL(src *Source, opts Options, amountType string, fileID, base 
 	if out.dateRaw != "NULL" {
 		out.keep += " AND NOT (posted IS NULL AND nullif(trim(CAST(" + out.dateRaw + " AS VARCHAR)), '') IS NOT NULL)"
 	}
+
+	// The pass: the text of the amount and date columns comes from their
+	// typed values under new names (ll_pass_raw_N), inside the tests that
+	// need it.
+	var rawCols, pairs []string
+	seen := map[string]bool{}
+	addRaw := func(orig string) {
+		q := queries.QuoteIdent(storedOf[orig].stored)
+		if seen[q] {
+			return
+		}
+		seen[q] = true
+		name := fmt.Sprintf("ll_pass_raw_%d", len(rawCols)+1)
+		rawCols = append(rawCols, src.ref(orig)+" AS "+name)
+		pairs = append(pairs, q, "CAST("+name+" AS VARCHAR)")
+	}
+	if m.Debit != "" {
+		addRaw(m.Debit)
+		addRaw(m.Credit)
+	} else {
+		addRaw(m.Columns["amount"])
+	}
+	if out.dateCol != "" {
+		addRaw(out.dateCol)
+	}
+	lazy := strings.NewReplacer(pairs...)
+	out.pass = passSQL{
+		rawExpr: lazy.Replace(out.rawExpr), reasonExpr: lazy.Replace(out.reasonExpr),
+		dateRaw: lazy.Replace(out.dateRaw), rounded: lazy.Replace(out.rounded),
+		keep: "amount IS NOT NULL",
+	}
+	if out.dateRaw != "NULL" {
+		// The same test as keep's, the text made only for dates that
+		// did not convert.
+		out.pass.keep += " AND NOT coalesce(CASE WHEN posted IS NULL THEN nullif(trim(CAST(" + out.pass.dateRaw + " AS VARCHAR)), '') IS NOT NULL END, false)"
+	}
+	out.pass.sel = queries.Render("inplace_select", map[string]string{
+		"row_id_base": fmt.Sprint(base),
+		"file_id":     fmt.Sprint(fileID),
+		"amount_expr": amountExpr,
+		"columns":     strings.Join(append(sel, rawCols...), ",\n    "),
+		"fast":        fast,
+		"parts":       parts,
+		"reader":      readerSQL(src, ""),
+	})
 	return out
 }
 
@@ -422,9 +480,10 @@ func passInPlace(ctx context.Context, tx *sql.Tx, f *placed, opts Options, amoun
 	}
 	s := buildInPlaceSQL(src, opts, amountType, f.fr.FileID, f.base)
 	f.kept = queries.Render("inplace_kept", map[string]string{"select": s.sel, "keep": s.keep})
+	p := s.pass
 	pass := queries.Render("inplace_pass", map[string]string{
-		"select": s.sel, "keep": s.keep, "rounded": s.rounded,
-		"raw_expr": s.rawExpr, "reason_expr": s.reasonExpr, "date_raw": s.dateRaw,
+		"select": p.sel, "keep": p.keep, "rounded": p.rounded,
+		"raw_expr": p.rawExpr, "reason_expr": p.reasonExpr, "date_raw": p.dateRaw,
 	})
 	if tracing {
 		fmt.Fprintln(os.Stderr, pass)
