@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/leadline/leadline/engine/tabular"
@@ -175,11 +176,19 @@ func runBenchYear(ctx context.Context, e *env, o benchYearOptions, format string
 	loadArgs := append(append([]string{"load", "--in-place"}, dbArgs...), filepath.Join(dir, "year-*.parquet"))
 	fmt.Fprintf(e.stderr, "  leadline %s\n", joinArgs(loadArgs))
 	lr, err := runTraced(ctx, leadline, loadArgs, commitMark, o.checksLimit)
-	if err != nil {
-		return fmt.Errorf("load --in-place: %w", err)
-	}
 	if lr.markSeconds < 0 {
+		if err != nil {
+			return fmt.Errorf("load --in-place: %w", err)
+		}
 		return fmt.Errorf("load --in-place: no %q line on its standard error; is %s a leadline with LEADLINE_TRACE?", commitMark, leadline)
+	}
+	// A load that fails after its commit (in the journal checks) leaves
+	// the files registered: the battery still runs, and the failure is
+	// reported with the checks.
+	checksFailed := ""
+	if err != nil {
+		checksFailed = oneLineOf(lr.failure)
+		fmt.Fprintf(e.stderr, "  the load failed after its commit:\n%s\n", lastLines(lr.failure, 6))
 	}
 	loadCmd := "LEADLINE_TRACE=1 leadline " + joinArgs(loadArgs)
 	reg := yearResult{name: "register in place", command: loadCmd + " (to " + commitMark + ")",
@@ -191,9 +200,15 @@ func runBenchYear(ctx context.Context, e *env, o benchYearOptions, format string
 	if lr.stopped {
 		checks.note = fmt.Sprintf("NOT FINISHED: stopped %s after the commit (--checks-limit); peak memory of the load process up to then", o.checksLimit)
 	}
+	if checksFailed != "" {
+		checks.note = "FAILED after the commit: " + checksFailed
+	}
 	whole := yearResult{name: "load, whole process", command: loadCmd, seconds: lr.seconds, peakMiB: lr.peakMiB, cpuSeconds: lr.cpuSeconds, load1: lr.load1}
 	if lr.stopped {
 		whole.note = "stopped during the journal checks"
+	}
+	if checksFailed != "" {
+		whole.note = "failed in the journal checks"
 	}
 	fmt.Fprintf(e.stderr, "  %-20s %8.2fs  peak %7s MiB\n  %-20s %8.2fs  peak %7s MiB%s\n", reg.name, reg.seconds, mib(reg.peakMiB), checks.name, checks.seconds, mib(checks.peakMiB), map[bool]string{true: " (stopped)"}[lr.stopped])
 
@@ -299,6 +314,18 @@ func generateYearFile(ctx context.Context, db *sql.DB, path string, first, n int
 		return fmt.Errorf("generating %s: %w", path, err)
 	}
 	return nil
+}
+
+// oneLineOf is the line of a failure's text that says what failed (the
+// one naming the load), else its first line.
+func oneLineOf(s string) string {
+	for _, l := range strings.Split(s, "\n") {
+		if strings.HasPrefix(l, "leadline load:") {
+			return strings.TrimSpace(strings.TrimPrefix(l, "leadline load:"))
+		}
+	}
+	l, _, _ := strings.Cut(strings.TrimSpace(s), "\n")
+	return l
 }
 
 func pass(ok bool) string {

@@ -35,6 +35,7 @@ type tracedRun struct {
 	// process ran (sampled from /proc/loadavg; -1 where it is missing).
 	load1          float64
 	stdout, stderr string
+	failure        string // the end of standard error of a process that failed
 }
 
 // runTraced runs prog with args and LEADLINE_TRACE=1, and notes when its
@@ -93,7 +94,8 @@ func runTraced(ctx context.Context, prog string, args []string, mark string, lim
 	stopped := r.stopped
 	mu.Unlock()
 	if err != nil && !stopped {
-		return r, fmt.Errorf("%v\n%s", err, lastLines(r.stderr, 20))
+		r.failure = lastLines(r.stderr, 20)
+		return r, fmt.Errorf("%v\n%s", err, r.failure)
 	}
 	return r, nil
 }
