@@ -23,28 +23,37 @@ func init() {
 		usage: `Usage: leadline-bench bench-year [options]
 
 The billion-row benchmark: generates --rows ledger rows (1,000,000,000 by
-default) as several Parquet files of --rows-per-file rows each, written as
-a stream (row groups of fixed size, so the generator's memory does not
-grow with the rows), then runs, each as its own leadline process:
+default) as Parquet files of --rows-per-file rows each, written by DuckDB
+itself from range() (each value a hash of the row number: amounts
+10^(5u) rounded to cents, so their leading digits follow Benford's law,
+in documents of four lines that balance; a file is the same on every
+run, and the first files of a billion rows are those of fewer), then
+runs, each as its own leadline process:
 
-  register in place   leadline load --in-place DIR/year-*.parquet
+  register in place   LEADLINE_TRACE=1 leadline load --in-place DIR/year-*.parquet,
+                      up to its "trace: commit" line: registration, SHA-256
+                      and the completeness pass
+  journal checks      the same process after its commit: the load's journal
+                      checks and summary (--checks-limit stops them)
   battery             leadline scan --tests first,second,first_two,first_three,last_two,summation
 
-and reports each step's wall time and peak resident memory (the leadline
-process's maximum RSS, from the operating system's accounting), with the
-battery's goal for a billion rows: under 60 s and under 2 GiB. Below a
-billion rows it also prints a linear extrapolation of the battery's time
-to a billion rows, labelled as an estimate: a measurement at a billion
-rows is the only figure to quote.
+and reports each step's wall time, peak resident memory (the leadline
+process's maximum RSS; up to the commit for the registration), CPU time
+and the machine's mean load average while it ran, with the battery's
+goal for a billion rows: under 60 s and under 2 GiB. Below a billion
+rows it also prints a linear extrapolation of the battery's time to a
+billion rows, labelled as an estimate: a measurement at a billion rows is
+the only figure to quote.
 
-Generating a billion rows writes about 9 GB of Parquet files and takes
-hours on two cores: give --dir on a disk with the room and --keep to reuse
-the files (they are regenerated only when missing). Not part of CI.
+A billion rows make about 6.7 GB of Parquet files; generating them took
+about 50 minutes on two busy cores. Give --dir on a disk with the room
+and --keep to reuse the files (they are regenerated only when missing);
+--generate-only writes them and stops. Not part of CI.
 
 Examples:
   go build -o leadline ./cmd/leadline
   go run ./cmd/leadline-bench bench-year --rows 10000000 --leadline ./leadline
-  leadline-bench bench-year --dir /data/year --keep      # 1,000,000,000 rows`,
+  leadline-bench bench-year --dir /data/year --keep --checks-limit 10m   # 1,000,000,000 rows`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var o benchYearOptions
 			fs.Int64Var(&o.rows, "rows", 1_000_000_000, "ledger rows to generate")
