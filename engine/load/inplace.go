@@ -481,25 +481,32 @@ func passInPlace(ctx context.Context, tx *sql.Tx, f *placed, opts Options, amoun
 	s := buildInPlaceSQL(src, opts, amountType, f.fr.FileID, f.base)
 	f.kept = queries.Render("inplace_kept", map[string]string{"select": s.sel, "keep": s.keep})
 	p := s.pass
-	pass := queries.Render("inplace_pass", map[string]string{
-		"select": p.sel, "keep": p.keep, "rounded": p.rounded,
-		"raw_expr": p.rawExpr, "reason_expr": p.reasonExpr, "date_raw": p.dateRaw,
-	})
+	pass := queries.Render("inplace_pass", map[string]string{"select": p.sel, "keep": p.keep, "rounded": p.rounded})
 	if tracing {
 		fmt.Fprintln(os.Stderr, pass)
 	}
 	defer tx.ExecContext(context.WithoutCancel(ctx), queries.Get("inplace_drop_pass"))
-	if _, err := tx.ExecContext(ctx, pass, s.amountCol, s.dateCol, s.dateReason); err != nil {
+	if _, err := tx.ExecContext(ctx, pass); err != nil {
 		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
 	fr := f.fr
-	var listed int64
 	if err := tx.QueryRowContext(ctx, queries.Get("inplace_pass_counts")).Scan(&fr.RowsRead, &fr.RowsLoaded, &fr.RowsRounded,
-		&fr.Positive, &fr.Negative, &fr.Net, &listed); err != nil {
+		&fr.Positive, &fr.Negative, &fr.Net); err != nil {
 		return err
 	}
-	if _, err := tx.ExecContext(ctx, queries.Get("inplace_insert_rejects"), fr.FileID); err != nil {
-		return fmt.Errorf("%s: recording rejected rows: %w", src.Path, err)
+	// The rows left out, listed by a second read only when there are some.
+	var listed int64
+	if fr.RowsRead != fr.RowsLoaded {
+		q := queries.Render("inplace_insert_rejects", map[string]string{
+			"select": p.sel, "keep": p.keep, "raw_expr": p.rawExpr, "reason_expr": p.reasonExpr, "date_raw": p.dateRaw,
+		})
+		res, err := tx.ExecContext(ctx, q, fr.FileID, s.amountCol, s.dateCol, s.dateReason)
+		if err != nil {
+			return fmt.Errorf("%s: recording rejected rows: %s", src.Path, explainReadError(err))
+		}
+		if listed, err = res.RowsAffected(); err != nil {
+			return err
+		}
 	}
 	if err := tx.QueryRowContext(ctx, queries.Get("load_rejected_count"), fr.FileID).Scan(&fr.RowsRejected); err != nil {
 		return err
