@@ -77,6 +77,9 @@ Examples:
 				if o.rows < 1 || o.perFile < 1 {
 					return fmt.Errorf("--rows and --rows-per-file: give 1 or more")
 				}
+				if o.checksLimit < 0 {
+					return fmt.Errorf("--checks-limit %s: give a duration of 0 (no limit) or more, e.g. 10m", o.checksLimit)
+				}
 				return runBenchYear(ctx, e, o, f.value)
 			}
 		},
