@@ -46,7 +46,7 @@ billion rows, labelled as an estimate: a measurement at a billion rows is
 the only figure to quote.
 
 A billion rows make about 6.7 GB of Parquet files; generating them took
-about 50 minutes on two busy cores. Give --dir on a disk with the room
+an hour (1,024 CPU seconds) on two busy cores. Give --dir on a disk with the room
 and --keep to reuse the files (they are regenerated only when missing);
 --generate-only writes them and stops. Not part of CI.
 
