@@ -48,37 +48,48 @@ FROM (
 SELECT * FROM ({{select}}) WHERE {{keep}}
 
 -- name: inplace_pass
--- The completeness pass, one read of the file: rows read, kept, rounded,
--- the control totals of the kept rows, and every rejected row with its
--- line, column, value and reason. Bound: ? = the amount column's name,
--- ? = the date column's name, ? = the date reason. Placeholders:
--- {{select}}, {{keep}} as in inplace_kept; {{rounded}}, {{raw_expr}},
--- {{reason_expr}}, {{date_raw}} built by engine/load as for a copy.
+-- The completeness pass, one read of the file: rows read, kept, rounded
+-- and the control totals of the kept rows (net = positive + negative,
+-- exact). No bound parameters. Placeholders: {{select}}, {{keep}} as in
+-- inplace_kept (engine/load's pass forms of them); {{rounded}} built by
+-- engine/load as for a copy. The rejected rows are listed by
+-- inplace_insert_rejects, run only when the pass kept fewer rows than it
+-- read: listing them here (a list() aggregate, even filtered to no rows)
+-- cost most of a read of the file again.
 CREATE OR REPLACE TEMP TABLE ll_inplace_pass AS
-SELECT count(*) AS rows_read,
-       count(*) FILTER (WHERE ll_keep) AS rows_loaded,
-       count(*) FILTER (WHERE ll_keep AND ({{rounded}})) AS rows_rounded,
-       CAST(coalesce(sum(amount) FILTER (WHERE ll_keep AND amount > 0), 0) AS VARCHAR) AS positive,
-       CAST(coalesce(sum(amount) FILTER (WHERE ll_keep AND amount < 0), 0) AS VARCHAR) AS negative,
-       CAST(coalesce(sum(amount) FILTER (WHERE ll_keep), 0) AS VARCHAR) AS net,
-       list({'line': line,
-             'column_name': CASE WHEN amount IS NULL THEN CAST(? AS VARCHAR) ELSE CAST(? AS VARCHAR) END,
-             'raw_value': CAST(CASE WHEN amount IS NULL THEN CAST({{raw_expr}} AS VARCHAR) ELSE CAST({{date_raw}} AS VARCHAR) END AS VARCHAR),
-             'reason': CASE WHEN amount IS NULL THEN {{reason_expr}} ELSE CAST(? AS VARCHAR) END})
-           FILTER (WHERE NOT ll_keep) AS rejected
-FROM (SELECT *, {{keep}} AS ll_keep FROM ({{select}}));
+SELECT rows_read, rows_loaded, rows_rounded,
+       CAST(positive AS VARCHAR) AS positive,
+       CAST(negative AS VARCHAR) AS negative,
+       CAST(positive + negative AS VARCHAR) AS net
+FROM (
+    SELECT count(*) AS rows_read,
+           count(*) FILTER (WHERE ll_keep) AS rows_loaded,
+           count(*) FILTER (WHERE ll_keep AND ({{rounded}})) AS rows_rounded,
+           coalesce(sum(amount) FILTER (WHERE ll_keep AND amount > 0), 0) AS positive,
+           coalesce(sum(amount) FILTER (WHERE ll_keep AND amount < 0), 0) AS negative
+    FROM (SELECT *, {{keep}} AS ll_keep FROM ({{select}}))
+);
 
 -- name: inplace_pass_counts
--- What the pass counted, and how many rejected rows it listed.
-SELECT rows_read, rows_loaded, rows_rounded, positive, negative, net, coalesce(len(rejected), 0)
+-- What the pass counted.
+SELECT rows_read, rows_loaded, rows_rounded, positive, negative, net
 FROM ll_inplace_pass;
 
 -- name: inplace_insert_rejects
--- The pass's rejected rows into rejects (? = file_id).
+-- Every row of the file the ledger leaves out, with its line, column,
+-- value and reason, into rejects. Bound: ? = file_id, ? = the amount
+-- column's name, ? = the date column's name, ? = the date reason.
+-- Placeholders as in inplace_pass, and {{raw_expr}}, {{reason_expr}},
+-- {{date_raw}} built by engine/load as for a copy.
 INSERT INTO rejects (file_id, line, column_name, raw_value, reason, raw_line)
-SELECT ?, r.line, r.column_name, r.raw_value, r.reason, NULL
-FROM (SELECT unnest(rejected) AS r FROM ll_inplace_pass)
-ORDER BY r.line;
+SELECT ?, line,
+       CASE WHEN amount IS NULL THEN CAST(? AS VARCHAR) ELSE CAST(? AS VARCHAR) END,
+       CAST(CASE WHEN amount IS NULL THEN CAST({{raw_expr}} AS VARCHAR) ELSE CAST({{date_raw}} AS VARCHAR) END AS VARCHAR),
+       CASE WHEN amount IS NULL THEN {{reason_expr}} ELSE CAST(? AS VARCHAR) END,
+       NULL
+FROM ({{select}})
+WHERE NOT ({{keep}})
+ORDER BY line;
 
 -- name: inplace_drop_pass
 DROP TABLE IF EXISTS ll_inplace_pass;

@@ -23,7 +23,14 @@ SELECT row_id, file_id, line, entity, doc_id, line_id, posted, amount FROM ledge
 -- name: journal_duplicate_keys
 -- Line keys (entity, doc_id, line_id) that appear more than once. No
 -- bound parameters, no placeholders.
-SELECT entity, doc_id, line_id, count(*) AS copies, min(row_id) AS first_row_id FROM ledger WHERE doc_id IS NOT NULL AND line_id IS NOT NULL GROUP BY entity, doc_id, line_id HAVING count(*) > 1 ORDER BY copies DESC, entity, doc_id, line_id
+-- Two steps, exact: the keys' 64-bit hashes that occur more than once
+-- (every repeated key is among them; a hash collision adds a candidate,
+-- never loses one), then the exact GROUP BY over the rows of those hashes
+-- only. Grouping every key on its three text columns needed a hash table
+-- of one entry per ledger line: at 100,000,000 lines in place it ran out
+-- of the default memory limit, where the fixed-width hashes group (and
+-- spill) within it.
+SELECT entity, doc_id, line_id, count(*) AS copies, min(row_id) AS first_row_id FROM ledger WHERE doc_id IS NOT NULL AND line_id IS NOT NULL AND hash(entity, doc_id, line_id) IN (SELECT ll_k FROM (SELECT hash(entity, doc_id, line_id) AS ll_k FROM ledger WHERE doc_id IS NOT NULL AND line_id IS NOT NULL) GROUP BY ll_k HAVING count(*) > 1) GROUP BY entity, doc_id, line_id HAVING count(*) > 1 ORDER BY copies DESC, entity, doc_id, line_id
 
 -- name: journal_count
 -- How many rows a check's listing has, and the ledger rows behind them.

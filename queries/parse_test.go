@@ -97,6 +97,10 @@ func fragments(dir string, segmented bool) map[string]string {
 		"rounded":  "false",
 		"date_raw": `"amt"`,
 		"union":    "SELECT 1 AS row_id",
+		// the billion-row benchmark's generator (bench.sql)
+		"first": "0",
+		"last":  "8",
+		"seed":  "2025",
 	}
 	if segmented {
 		f["group_by"] = "GROUP BY ll_s1"

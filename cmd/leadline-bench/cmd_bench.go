@@ -35,7 +35,9 @@ accounting of that process):
   bare Parquet read   SELECT count(*), sum(amount) FROM read_parquet(...)
   copy Parquet        CREATE TABLE AS SELECT * FROM read_parquet(...)
   load Parquet        leadline load
-  register in place   leadline load --in-place (no copy: hash, footer, one completeness pass)
+  register in place   leadline load --in-place up to its commit (no copy: hash, footer,
+                      one completeness pass), from its LEADLINE_TRACE=1 "trace: commit" line
+  load in place, whole  the same process to its end: the journal checks and summary too
   first-two GROUP BY  one hand-written first-two digits query on the workspace (the floor)
   scan                leadline scan of the six tests fed by the one aggregate scan
   scan in place       the same scan over the Parquet file registered in place
@@ -47,6 +49,9 @@ accounting of that process):
 and the ratios the sizing goals are stated in: load throughput against the
 bare read, battery against the single query, segments against the battery.
 --memory-limit, --threads and --temp-dir pass on to every step.
+--in-place-only generates the Parquet file alone and runs the bare Parquet
+read and the in-place load only. Every figure comes with the machine's
+mean one-minute load average over the run.
 
 The leadline steps run the leadline program given by --leadline (by
 default the one beside this program, else the one on the PATH); the bare
@@ -55,7 +60,8 @@ DuckDB steps run this program's bench-step.
 Examples:
   go build -o leadline ./cmd/leadline
   go run ./cmd/leadline-bench bench --rows 5000000 --leadline ./leadline
-  leadline-bench bench --rows 50000000 --dir /data/bench --keep`,
+  leadline-bench bench --rows 50000000 --dir /data/bench --keep
+  leadline-bench bench --rows 20000000 --in-place-only`,
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var o benchOptions
 			fs.Int64Var(&o.rows, "rows", 5_000_000, "ledger rows to generate")
@@ -65,6 +71,7 @@ Examples:
 			fs.IntVar(&o.threads, "threads", 0, "DuckDB threads for every step")
 			fs.StringVar(&o.tempDir, "temp-dir", "", "DuckDB spill folder for every step")
 			fs.StringVar(&o.leadline, "leadline", "", "the leadline program of the load, scan, dups and drill steps (default: beside this program, else on the PATH)")
+			fs.BoolVar(&o.inPlaceOnly, "in-place-only", false, "generate the Parquet file alone; run the bare Parquet read and the in-place load only")
 			return func(ctx context.Context, args []string, e *env) error {
 				return runBench(ctx, e, o)
 			}
@@ -72,7 +79,7 @@ Examples:
 	})
 	register(&command{
 		name:    "bench-step",
-		summary: "(used by bench) run one bare DuckDB step: gen, bare-csv, bare-parquet or first-two",
+		summary: "(used by bench) run one bare DuckDB step: gen, gen-parquet, bare-csv, bare-parquet or first-two",
 		usage:   "Usage: leadline-bench bench-step STEP ARGS... (see leadline-bench bench)",
 		flags: func(fs *pflag.FlagSet) func(context.Context, []string, *env) error {
 			var db stepDB
@@ -81,7 +88,7 @@ Examples:
 			fs.Int64Var(&rows, "rows", 0, "gen: rows")
 			return func(ctx context.Context, args []string, e *env) error {
 				if len(args) < 2 {
-					return fmt.Errorf("usage: bench-step gen|bare-csv|bare-parquet|first-two PATH")
+					return fmt.Errorf("usage: bench-step gen|gen-parquet|bare-csv|bare-parquet|first-two PATH")
 				}
 				return benchOneStep(ctx, e, &db, args[0], args[1], rows)
 			}
@@ -93,7 +100,7 @@ type benchOptions struct {
 	rows                           int64
 	dir, memory, tempDir, leadline string
 	threads                        int
-	keep                           bool
+	keep, inPlaceOnly              bool
 }
 
 // stepDB are the workspace flags of bench-step, as leadline's own.
@@ -206,16 +213,42 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 		results = append(results, r)
 		return nil
 	}
+	sampler := startLoadSampler()
 	if _, err := os.Stat(pqPath); err != nil || !o.keep {
 		for _, p := range []string{csvDB, pqDB, placeDB, csvDB + ".wal", pqDB + ".wal", placeDB + ".wal"} {
 			os.Remove(p)
 		}
-		if err := add(step("generate files", "bench-step", "gen", dir, "--rows", strconv.FormatInt(o.rows, 10))); err != nil {
+		gen := "gen"
+		if o.inPlaceOnly {
+			gen = "gen-parquet"
+		}
+		if err := add(step("generate files", "bench-step", gen, dir, "--rows", strconv.FormatInt(o.rows, 10))); err != nil {
 			return err
 		}
 	}
 	for _, p := range []string{csvDB, pqDB, placeDB, csvDB + ".wal", pqDB + ".wal", placeDB + ".wal"} {
 		os.Remove(p)
+	}
+	if err := add(step("bare Parquet read", append([]string{"bench-step", "bare-parquet", pqPath}, dbArgs(":memory:")...)...)); err != nil {
+		return err
+	}
+	// The in-place load, timed to its commit (registration, hash and the
+	// completeness pass) and as a whole (the journal checks follow).
+	placeArgs := append(append([]string{"load", "--in-place"}, dbArgs(placeDB)...), pqPath)
+	lr, err := runTraced(ctx, leadline, placeArgs, commitMark, 0)
+	if err != nil {
+		return fmt.Errorf("register in place: %w", err)
+	}
+	if lr.markSeconds < 0 {
+		return fmt.Errorf("register in place: no %q line on its standard error; is %s a leadline with LEADLINE_TRACE?", commitMark, leadline)
+	}
+	placeCmd := "LEADLINE_TRACE=1 leadline " + joinArgs(placeArgs)
+	results = append(results,
+		benchResult{name: "register in place", command: placeCmd + " (to " + commitMark + ")", seconds: lr.markSeconds, peakMB: lr.markPeakMiB},
+		benchResult{name: "load in place, whole", command: placeCmd, seconds: lr.seconds, peakMB: lr.peakMiB})
+	fmt.Fprintf(e.stderr, "  %-20s %8.2fs  peak %7s MB\n  %-20s %8.2fs  peak %7.0f MB\n", "register in place", lr.markSeconds, mib(lr.markPeakMiB), "load in place, whole", lr.seconds, lr.peakMiB)
+	if o.inPlaceOnly {
+		return printInPlaceOnly(e, o, dir, results, sampler.stop())
 	}
 	if err := add(step("bare CSV read", append([]string{"bench-step", "bare-csv", csvPath}, dbArgs(":memory:")...)...)); err != nil {
 		return err
@@ -229,17 +262,11 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	if err := add(step("load CSV", append(append([]string{"load"}, dbArgs(csvDB)...), csvPath)...)); err != nil {
 		return err
 	}
-	if err := add(step("bare Parquet read", append([]string{"bench-step", "bare-parquet", pqPath}, dbArgs(":memory:")...)...)); err != nil {
-		return err
-	}
 	if err := add(step("copy Parquet", append([]string{"bench-step", "copy-parquet", pqPath}, dbArgs(copyDB)...)...)); err != nil {
 		return err
 	}
 	os.Remove(copyDB)
 	if err := add(step("load Parquet", append(append([]string{"load"}, dbArgs(pqDB)...), pqPath)...)); err != nil {
-		return err
-	}
-	if err := add(step("register in place", append(append([]string{"load", "--in-place"}, dbArgs(placeDB)...), pqPath)...)); err != nil {
 		return err
 	}
 	if err := add(step("first-two GROUP BY", append([]string{"bench-step", "first-two", pqDB}, dbArgs(pqDB)[2:]...)...)); err != nil {
@@ -298,6 +325,32 @@ func runBench(ctx context.Context, e *env, o benchOptions) error {
 	}
 	fmt.Fprintf(e.stdout, "  peak resident memory of any step:            %.0f MB (goal at most 2048 MB at 50,000,000 rows)\n", peak)
 	fmt.Fprintln(e.stdout, "\nEach step is a whole process: its time includes starting and opening the workspace (about 0.1 s).")
+	fmt.Fprintln(e.stdout, "register in place: the in-place load up to its commit, with its peak memory up to then; the journal checks and summary follow in the same process (load in place, whole).")
+	fmt.Fprintf(e.stdout, "Mean one-minute load average of the machine over the run: %.1f (other work on the machine slows every step).\n", sampler.stop())
+	return nil
+}
+
+// printInPlaceOnly prints the steps of bench --in-place-only and the
+// in-place load's ratio to the bare read.
+func printInPlaceOnly(e *env, o benchOptions, dir string, results []benchResult, load1 float64) error {
+	t := &tabular.Table{Columns: []string{"step", "seconds", "peak_mb", "rows_per_s", "command"}}
+	by := map[string]benchResult{}
+	for _, r := range results {
+		by[r.name] = r
+		rate := ""
+		if r.name != "generate files" {
+			rate = fmt.Sprintf("%.0f", float64(o.rows)/r.seconds)
+		}
+		t.Add(r.name, fmt.Sprintf("%.2f", r.seconds), mib(r.peakMB), rate, r.command)
+	}
+	fmt.Fprintf(e.stdout, "leadline bench --in-place-only: %d rows, %s\n\n", o.rows, dir)
+	t.WriteText(e.stdout, 0)
+	bare := by["bare Parquet read"].seconds
+	fmt.Fprintf(e.stdout, "\nRatios:\n")
+	fmt.Fprintf(e.stdout, "  register in place throughput / bare Parquet read: %.2f   (goal at least 0.5)\n", bare/by["register in place"].seconds)
+	fmt.Fprintf(e.stdout, "  load in place, whole (journal checks too) / bare Parquet read: %.2f\n", bare/by["load in place, whole"].seconds)
+	fmt.Fprintln(e.stdout, "\nregister in place: the in-place load up to its commit, with its peak memory up to then; the journal checks and summary follow in the same process (load in place, whole).")
+	fmt.Fprintf(e.stdout, "Mean one-minute load average of the machine over the run: %.1f (other work on the machine slows every step).\n", load1)
 	return nil
 }
 
@@ -313,10 +366,12 @@ func joinArgs(a []string) string {
 }
 
 func benchOneStep(ctx context.Context, e *env, db *stepDB, stepName, path string, rows int64) error {
-	if stepName == "gen" {
+	if stepName == "gen" || stepName == "gen-parquet" {
 		cfg := fixtures.Config{Rows: rows, Seed: 2025, Plants: rows >= 10_000}
-		if _, err := fixtures.WriteCSV(filepath.Join(path, "ledger.csv"), cfg); err != nil {
-			return err
+		if stepName == "gen" {
+			if _, err := fixtures.WriteCSV(filepath.Join(path, "ledger.csv"), cfg); err != nil {
+				return err
+			}
 		}
 		_, err := fixtures.WriteParquet(filepath.Join(path, "ledger.parquet"), cfg)
 		return err

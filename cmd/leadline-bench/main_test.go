@@ -30,6 +30,7 @@ func TestBadFlags(t *testing.T) {
 		{[]string{"bench", "--bogus"}, 2, "unknown flag: --bogus"},
 		{[]string{"bench-year", "--rows-per-file", "0"}, 1, "--rows-per-file"},
 		{[]string{"bench-year", "extra"}, 1, `unexpected argument "extra"`},
+		{[]string{"bench-year", "--checks-limit", "-1m"}, 1, "--checks-limit -1m0s"},
 		{[]string{"scan"}, 2, `unknown command "scan"`},
 	} {
 		var out, errs bytes.Buffer

@@ -275,6 +275,19 @@ type inPlaceSQL struct {
 	rawExpr, reasonExpr, dateRaw string
 	amountCol, dateCol           string
 	dateReason, rounded          string
+	pass                         passSQL
+}
+
+// passSQL is what the completeness pass reads: the select with the amount
+// and date columns also as the file types them, and the keep test and
+// the rejects' expressions written on those, so that a row's text is
+// made only where a test needs it (a date that did not convert, a
+// rejected row). The ledger's text columns are projections: used in the
+// pass, DuckDB made text of every row's amount and date, five times the
+// cost of reading them.
+type passSQL struct {
+	sel, keep                             string
+	rawExpr, reasonExpr, dateRaw, rounded string
 }
 
 // buildInPlaceSQL builds, for a Parquet file, the expressions loadOne
@@ -352,6 +365,51 @@ func buildInPlaceSQL(src *Source, opts Options, amountType string, fileID, base 
 	if out.dateRaw != "NULL" {
 		out.keep += " AND NOT (posted IS NULL AND nullif(trim(CAST(" + out.dateRaw + " AS VARCHAR)), '') IS NOT NULL)"
 	}
+
+	// The pass: the text of the amount and date columns comes from their
+	// typed values under new names (ll_pass_raw_N), inside the tests that
+	// need it.
+	var rawCols, pairs []string
+	seen := map[string]bool{}
+	addRaw := func(orig string) {
+		q := queries.QuoteIdent(storedOf[orig].stored)
+		if seen[q] {
+			return
+		}
+		seen[q] = true
+		name := fmt.Sprintf("ll_pass_raw_%d", len(rawCols)+1)
+		rawCols = append(rawCols, src.ref(orig)+" AS "+name)
+		pairs = append(pairs, q, "CAST("+name+" AS VARCHAR)")
+	}
+	if m.Debit != "" {
+		addRaw(m.Debit)
+		addRaw(m.Credit)
+	} else {
+		addRaw(m.Columns["amount"])
+	}
+	if out.dateCol != "" {
+		addRaw(out.dateCol)
+	}
+	lazy := strings.NewReplacer(pairs...)
+	out.pass = passSQL{
+		rawExpr: lazy.Replace(out.rawExpr), reasonExpr: lazy.Replace(out.reasonExpr),
+		dateRaw: lazy.Replace(out.dateRaw), rounded: lazy.Replace(out.rounded),
+		keep: "amount IS NOT NULL",
+	}
+	if out.dateRaw != "NULL" {
+		// The same test as keep's, the text made only for dates that
+		// did not convert.
+		out.pass.keep += " AND NOT coalesce(CASE WHEN posted IS NULL THEN nullif(trim(CAST(" + out.pass.dateRaw + " AS VARCHAR)), '') IS NOT NULL END, false)"
+	}
+	out.pass.sel = queries.Render("inplace_select", map[string]string{
+		"row_id_base": fmt.Sprint(base),
+		"file_id":     fmt.Sprint(fileID),
+		"amount_expr": amountExpr,
+		"columns":     strings.Join(append(sel, rawCols...), ",\n    "),
+		"fast":        fast,
+		"parts":       parts,
+		"reader":      readerSQL(src, ""),
+	})
 	return out
 }
 
@@ -422,25 +480,33 @@ func passInPlace(ctx context.Context, tx *sql.Tx, f *placed, opts Options, amoun
 	}
 	s := buildInPlaceSQL(src, opts, amountType, f.fr.FileID, f.base)
 	f.kept = queries.Render("inplace_kept", map[string]string{"select": s.sel, "keep": s.keep})
-	pass := queries.Render("inplace_pass", map[string]string{
-		"select": s.sel, "keep": s.keep, "rounded": s.rounded,
-		"raw_expr": s.rawExpr, "reason_expr": s.reasonExpr, "date_raw": s.dateRaw,
-	})
+	p := s.pass
+	pass := queries.Render("inplace_pass", map[string]string{"select": p.sel, "keep": p.keep, "rounded": p.rounded})
 	if tracing {
 		fmt.Fprintln(os.Stderr, pass)
 	}
 	defer tx.ExecContext(context.WithoutCancel(ctx), queries.Get("inplace_drop_pass"))
-	if _, err := tx.ExecContext(ctx, pass, s.amountCol, s.dateCol, s.dateReason); err != nil {
+	if _, err := tx.ExecContext(ctx, pass); err != nil {
 		return fmt.Errorf("%s: %s", src.Path, explainReadError(err))
 	}
 	fr := f.fr
-	var listed int64
 	if err := tx.QueryRowContext(ctx, queries.Get("inplace_pass_counts")).Scan(&fr.RowsRead, &fr.RowsLoaded, &fr.RowsRounded,
-		&fr.Positive, &fr.Negative, &fr.Net, &listed); err != nil {
+		&fr.Positive, &fr.Negative, &fr.Net); err != nil {
 		return err
 	}
-	if _, err := tx.ExecContext(ctx, queries.Get("inplace_insert_rejects"), fr.FileID); err != nil {
-		return fmt.Errorf("%s: recording rejected rows: %w", src.Path, err)
+	// The rows left out, listed by a second read only when there are some.
+	var listed int64
+	if fr.RowsRead != fr.RowsLoaded {
+		q := queries.Render("inplace_insert_rejects", map[string]string{
+			"select": p.sel, "keep": p.keep, "raw_expr": p.rawExpr, "reason_expr": p.reasonExpr, "date_raw": p.dateRaw,
+		})
+		res, err := tx.ExecContext(ctx, q, fr.FileID, s.amountCol, s.dateCol, s.dateReason)
+		if err != nil {
+			return fmt.Errorf("%s: recording rejected rows: %s", src.Path, explainReadError(err))
+		}
+		if listed, err = res.RowsAffected(); err != nil {
+			return err
+		}
 	}
 	if err := tx.QueryRowContext(ctx, queries.Get("load_rejected_count"), fr.FileID).Scan(&fr.RowsRejected); err != nil {
 		return err
