@@ -26,19 +26,40 @@ func Multinomial(rng *rand.Rand, p []float64, n int64) []int64 {
 
 // multinomialInto is Multinomial into c (len(p), all zero).
 func multinomialInto(rng *rand.Rand, p []float64, n int64, c []int64) {
-	left, mass := n, 1.0
+	multinomialCond(rng, conditionals(p), n, c)
+}
+
+// conditionals returns the conditional probabilities of Multinomial's
+// binomial draws over p: p_k / (probability left), up to the bin that
+// takes all that is left (the last, or the first whose p_k reaches the
+// probability left), whose entry is last.
+func conditionals(p []float64) []binomialProb {
+	cond := make([]binomialProb, 0, len(p))
+	mass := 1.0
 	for k, pk := range p {
-		if left == 0 {
-			break
-		}
 		if k == len(p)-1 || pk >= mass {
-			c[k] = left
 			break
 		}
-		x := Binomial(rng, left, pk/mass)
+		cond = append(cond, newBinomialProb(pk/mass))
+		mass -= pk
+	}
+	return cond
+}
+
+// multinomialCond draws n amounts into c (all zero) by the conditional
+// binomials cond (from conditionals); the bin after them takes the rest.
+func multinomialCond(rng *rand.Rand, cond []binomialProb, n int64, c []int64) {
+	left := n
+	for k, b := range cond {
+		if left == 0 {
+			return
+		}
+		x := binomialDraw(rng, left, b)
 		c[k] = x
 		left -= x
-		mass -= pk
+	}
+	if left > 0 && len(c) > 0 {
+		c[len(cond)] = left
 	}
 }
 
@@ -51,19 +72,51 @@ func multinomialInto(rng *rand.Rand, p []float64, n int64, c []int64) {
 // method, e.g. L. Devroye, Non-Uniform Random Variate Generation, 1986,
 // chapter X, from memory.)
 func Binomial(rng *rand.Rand, n int64, q float64) int64 {
-	switch {
-	case n <= 0 || q <= 0:
-		return 0
-	case q >= 1:
-		return n
-	case q > 0.5:
-		return n - Binomial(rng, n, 1-q)
+	return binomialDraw(rng, n, newBinomialProb(q))
+}
+
+// binomialProb is what a binomial draw needs of its probability, computed
+// once when many draws share it (the conditional probabilities of a
+// multinomial over fixed proportions); the draw is the same as with the
+// logarithms taken afresh.
+type binomialProb struct {
+	q0              float64 // the probability asked for
+	q, logQ, log1mQ float64 // of min(q0, 1 - q0): q, ln q, ln(1 - q)
+	odds            float64 // q / (1 - q)
+	flip            bool    // q0 > 0.5: the draw is n - Binomial(n, 1 - q0)
+}
+
+func newBinomialProb(q0 float64) binomialProb {
+	b := binomialProb{q0: q0, q: q0}
+	if q0 <= 0 || q0 >= 1 {
+		return b
 	}
+	if q0 > 0.5 {
+		b.q, b.flip = 1-q0, true
+	}
+	b.logQ, b.log1mQ, b.odds = math.Log(b.q), math.Log1p(-b.q), b.q/(1-b.q)
+	return b
+}
+
+func binomialDraw(rng *rand.Rand, n int64, b binomialProb) int64 {
+	switch {
+	case n <= 0 || b.q0 <= 0:
+		return 0
+	case b.q0 >= 1:
+		return n
+	case b.flip:
+		return n - binomialLow(rng, n, b)
+	}
+	return binomialLow(rng, n, b)
+}
+
+// binomialLow draws Binomial(n, b.q) for n > 0 and 0 < b.q <= 0.5.
+func binomialLow(rng *rand.Rand, n int64, b binomialProb) int64 {
+	q, odds := b.q, b.odds
 	N := float64(n)
-	odds := q / (1 - q)
 	u := rng.Float64()
 	if N*q < 10 {
-		f := math.Exp(N * math.Log1p(-q)) // P(X = 0) >= e^-20
+		f := math.Exp(N * b.log1mQ) // P(X = 0) >= e^-20
 		for x := int64(0); x < n; x++ {
 			if u < f {
 				return x
@@ -78,7 +131,7 @@ func Binomial(rng *rand.Rand, n int64, q float64) int64 {
 		m = n
 	}
 	M := float64(m)
-	fm := math.Exp(logFactorial(n) - logFactorial(m) - logFactorial(n-m) + M*math.Log(q) + (N-M)*math.Log1p(-q))
+	fm := math.Exp(logFactorial(n) - logFactorial(m) - logFactorial(n-m) + M*b.logQ + (N-M)*b.log1mQ)
 	if u < fm {
 		return m
 	}
@@ -191,9 +244,13 @@ func runsNullFor(t Test, n int64) *runsNull {
 	if v, ok := runsCache.Load(key); ok {
 		return v.(*runsNull)
 	}
-	base, family := t, []Test{t}
+	// family[i] sums its counts from the bins of from[i]: first-two from
+	// first-three, first and second digit from first-two
+	base, family, from := t, []Test{t}, []int{-1}
 	if leadingFamily(t) {
-		base, family = FirstThree, []Test{FirstDigit, SecondDigit, FirstTwo, FirstThree}
+		base = FirstThree
+		family = []Test{FirstThree, FirstTwo, FirstDigit, SecondDigit}
+		from = []int{-1, -1, 1, 1}
 	}
 	h := fnv.New64a()
 	h.Write([]byte(base))
@@ -203,12 +260,20 @@ func runsNullFor(t Test, n int64) *runsNull {
 	draw := make([]int64, len(s.p))
 	accs := make([]*nullAcc, len(family))
 	for i, ft := range family {
-		accs[i] = newNullAcc(ft, base)
+		srcTest := base
+		if from[i] >= 0 {
+			srcTest = family[from[i]]
+		}
+		accs[i] = newNullAcc(ft, srcTest)
 	}
 	for range NullSimulations {
 		s.draw(src, rng, key.n, draw)
-		for _, a := range accs {
-			a.add(draw, key.n)
+		for i, a := range accs {
+			if from[i] >= 0 {
+				a.add(accs[from[i]].counts, key.n)
+			} else {
+				a.add(draw, key.n)
+			}
 		}
 	}
 	var d *runsNull
@@ -255,8 +320,8 @@ type nullAcc struct {
 	mads   []float64
 }
 
-// newNullAcc accumulates test t from draws over the bins of base (t
-// itself, or first-three for the leading-digit tests).
+// newNullAcc accumulates test t from counts over the bins of base (t
+// itself, or a leading-digit test with more digits).
 func newNullAcc(t, base Test) *nullAcc {
 	exp := Expected(t)
 	a := &nullAcc{exp: exp, counts: make([]int64, len(exp)), actual: make([]float64, len(exp)),
@@ -266,13 +331,15 @@ func newNullAcc(t, base Test) *nullAcc {
 	for b := lo; b <= hi; b++ {
 		v := b
 		if t != base {
+			// the leading digits of b (base first-two or first-three)
+			if base == FirstThree {
+				v = b / 10
+			}
 			switch t {
 			case FirstDigit:
-				v = b / 100
+				v /= 10
 			case SecondDigit:
-				v = b / 10 % 10
-			case FirstTwo:
-				v = b / 10
+				v %= 10
 			}
 		}
 		a.bin = append(a.bin, v-tlo)

@@ -104,10 +104,11 @@ const aliasPerBin = 10
 type multinomialSampler struct {
 	p     []float64
 	alias *aliasTable
+	cond  []binomialProb // Multinomial's conditional binomials over p
 }
 
 func newMultinomialSampler(p []float64) *multinomialSampler {
-	return &multinomialSampler{p: p, alias: newAliasTable(p)}
+	return &multinomialSampler{p: p, alias: newAliasTable(p), cond: conditionals(p)}
 }
 
 // draw fills c (len(p)) with the counts of n amounts, from src (by alias)
@@ -115,7 +116,7 @@ func newMultinomialSampler(p []float64) *multinomialSampler {
 func (s *multinomialSampler) draw(src *rand.PCG, rng *rand.Rand, n int64, c []int64) {
 	clear(c)
 	if n > aliasPerBin*int64(len(s.p)) {
-		multinomialInto(rng, s.p, n, c)
+		multinomialCond(rng, s.cond, n, c)
 		return
 	}
 	for range n {

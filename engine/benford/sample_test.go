@@ -247,3 +247,39 @@ func TestSamplerBinMarginals(t *testing.T) {
 		}
 	}
 }
+
+// TestSharedNullsMatchOwnDraws checks the nulls that the first-digit,
+// second-digit and first-two tests take from the first-three draws
+// against populations drawn for each test alone (Multinomial over its own
+// expected proportions, seeded): mean runs and mean MAD agree within four
+// standard errors of the difference. Summing the wrong bins (a digit
+// misread) moves them by many.
+func TestSharedNullsMatchOwnDraws(t *testing.T) {
+	for _, n := range []int64{300, 2500} {
+		for _, tt := range []Test{FirstDigit, SecondDigit, FirstTwo} {
+			d := runsNullFor(tt, n)
+			exp := Expected(tt)
+			rng := rand.New(rand.NewPCG(uint64(n), 5))
+			draws := 4000
+			actual := make([]float64, len(exp))
+			var r, r2, m, m2 float64
+			for range draws {
+				c := Multinomial(rng, exp, n)
+				for i := range c {
+					actual[i] = float64(c[i]) / float64(n)
+				}
+				x, y := float64(countRuns(actual, exp)), MAD(actual, exp)
+				r, r2, m, m2 = r+x, r2+x*x, m+y, m2+y*y
+			}
+			s := float64(draws)
+			rMean, mMean := r/s, m/s
+			rSD, mSD := math.Sqrt(r2/s-rMean*rMean), math.Sqrt(m2/s-mMean*mMean)
+			seR := math.Hypot(rSD/math.Sqrt(s), d.sd/math.Sqrt(float64(d.sims)))
+			seM := math.Hypot(mSD/math.Sqrt(s), d.madSD/math.Sqrt(float64(d.sims)))
+			if math.Abs(d.mean-rMean) > 4*seR || math.Abs(d.madMean-mMean) > 4*seM {
+				t.Errorf("%s N %d: shared null runs %.3f MAD %.6f, own draws runs %.3f (se %.3f) MAD %.6f (se %.6f)",
+					tt, n, d.mean, d.madMean, rMean, seR, mMean, seM)
+			}
+		}
+	}
+}
