@@ -283,3 +283,44 @@ func TestSharedNullsMatchOwnDraws(t *testing.T) {
 		}
 	}
 }
+
+// TestNullRatesAtOddN measures, on seeded conforming populations at sizes
+// that are not round (a segment's N is simulated exactly up to 10,000),
+// how often the calibrated runs test (p < 0.05) and the MAD's severity
+// ("beyond chance") fire. Each of the 20 counts must stay within the
+// 99.9% upper binomial bound of a 5% rate, so that a true 5% rate fails
+// some count in about 2% of seeds (a bound of 99% each would fail one in
+// about 18%).
+func TestNullRatesAtOddN(t *testing.T) {
+	pops := 1000
+	if testing.Short() {
+		pops = 200
+	}
+	bound := 0
+	for BinomialUpperTail(int64(bound+1), int64(pops), 0.05) > 0.001 {
+		bound++
+	}
+	for _, n := range []int64{1049, 5449} {
+		for _, tt := range []Test{FirstDigit, SecondDigit, FirstTwo, FirstThree, LastTwo} {
+			exp := Expected(tt)
+			rng := rand.New(rand.NewPCG(uint64(n)*31, 78))
+			runs, sev := 0, 0
+			for range pops {
+				r, err := Analyze(tt, Multinomial(rng, exp, n))
+				if err != nil {
+					t.Fatal(err)
+				}
+				if r.Runs != nil && r.Runs.P < 0.05 {
+					runs++
+				}
+				if r.Severity != WithinChance {
+					sev++
+				}
+			}
+			t.Logf("%s N %d: runs p < 0.05 in %d of %d, MAD beyond chance in %d (bound %d)", tt, n, runs, pops, sev, bound)
+			if runs > bound || sev > bound {
+				t.Errorf("%s N %d: runs test fired in %d, MAD severity in %d of %d conforming populations (bound %d)", tt, n, runs, sev, pops, bound)
+			}
+		}
+	}
+}
