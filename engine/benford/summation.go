@@ -148,11 +148,14 @@ func summationNullFor(s Scale) *summationNull {
 	}
 	h := fnv.New64a()
 	h.Write([]byte("summation"))
-	rng := rand.New(rand.NewPCG(h.Sum64()^math.Float64bits(key.decades), uint64(key.n)^math.Float64bits(key.offset)))
+	src := rand.NewPCG(h.Sum64()^math.Float64bits(key.decades), uint64(key.n)^math.Float64bits(key.offset))
+	rng := rand.New(src)
+	sampler := newMultinomialSampler(ps)
+	cnt := make([]int64, len(ps))
 	sims := summationSimulations
 	ratios := make([][90]float64, sims)
 	for d := range sims {
-		cnt := Multinomial(rng, ps, Binomial(rng, key.n, math.Min(1, pr)))
+		sampler.draw(src, rng, Binomial(rng, key.n, math.Min(1, pr)), cnt)
 		sums := fixed
 		var total float64
 		for _, x := range fixed {
