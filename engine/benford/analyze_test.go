@@ -228,7 +228,7 @@ func TestAnalyzeSummation(t *testing.T) {
 	sums[77-10] += 0.05 * r.Total // one bin gets 5% of the total more
 	r, _ = AnalyzeSummation(sums, counts)
 	if r.Flagged != 1 || len(r.TopFlagged) != 1 || r.TopFlagged[0] != 77 || r.Bins[67].Z < 3 || r.Bins[67].PAdjusted >= 0.05 {
-		t.Errorf("spike: flagged %d top %v", r.Flagged, r.TopFlagged)
+		t.Errorf("one-bin pile-up: flagged %d top %v", r.Flagged, r.TopFlagged)
 	}
 	if _, err := json.Marshal(r); err != nil {
 		t.Error(err)

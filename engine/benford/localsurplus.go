@@ -374,7 +374,7 @@ func LocalSurplusTest(counts []int64, alpha, minExcess float64) LocalSurplus {
 	res.Tested, res.Simulations, res.SimulatedN = true, len(null.maxZ), null.n
 	// Flagged stretches are found one after another, largest Z first;
 	// each one's bins are then masked: they leave the flanks of the other
-	// stretches (a spike would tilt the curve its neighbours are read
+	// stretches (a one-bin pile-up would tilt the curve its neighbours are read
 	// against, and flag them by contrast) and no later stretch holds them.
 	var masked [90]bool
 	for pass := 0; ; pass++ {

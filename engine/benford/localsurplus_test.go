@@ -105,14 +105,14 @@ func u2Critical() float64 {
 	return hi
 }
 
-// TestLocalSurplusSpikeLeavesNeighbours: one spike (a refund of one
+// TestLocalSurplusPileUpLeavesNeighbours: one pile-up (a refund of one
 // amount repeated, here 800 more amounts in bin 25 of 5,000 following
 // Benford's law exactly) is flagged, and the stretches beside it are not:
-// the spike tilts the curve fitted through any flank that holds it, so
+// the pile-up tilts the curve fitted through any flank that holds it, so
 // the first bins (whose curve is a line drawn from their right side only)
 // would read as a surplus against it. Each flagged stretch leaves the
 // flanks of the others.
-func TestLocalSurplusSpikeLeavesNeighbours(t *testing.T) {
+func TestLocalSurplusPileUpLeavesNeighbours(t *testing.T) {
 	exp := Expected(FirstTwo)
 	c := make([]int64, 90)
 	for i, p := range exp {
