@@ -120,6 +120,29 @@ func (d *stepDB) add(fs *pflag.FlagSet) {
 
 // findLeadline returns the leadline program: the one given, else the one
 // beside this program, else the one on the PATH.
+// benchSetup finds the leadline binary to time (given, or beside this
+// program) and makes the folder to work in: dir, or a new temporary folder
+// (made), which the caller removes unless asked to keep it.
+func benchSetup(given, dir, prefix string) (leadline, out string, made bool, err error) {
+	self, err := os.Executable()
+	if err != nil {
+		return "", "", false, err
+	}
+	if leadline, err = findLeadline(given, self); err != nil {
+		return "", "", false, err
+	}
+	if dir == "" {
+		if dir, err = os.MkdirTemp("", prefix); err != nil {
+			return "", "", false, err
+		}
+		made = true
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return "", "", false, err
+	}
+	return leadline, dir, made, nil
+}
+
 func findLeadline(given, self string) (string, error) {
 	if given != "" {
 		return exec.LookPath(given)
@@ -143,25 +166,16 @@ type benchResult struct {
 }
 
 func runBench(ctx context.Context, e *env, o benchOptions) error {
-	self, err := os.Executable()
+	leadline, dir, made, err := benchSetup(o.leadline, o.dir, "leadline-bench-")
 	if err != nil {
 		return err
 	}
-	leadline, err := findLeadline(o.leadline, self)
+	self, err := os.Executable() // bench-step runs in this program
 	if err != nil {
 		return err
 	}
-	dir := o.dir
-	if dir == "" {
-		if dir, err = os.MkdirTemp("", "leadline-bench-"); err != nil {
-			return err
-		}
-	}
-	if !o.keep && o.dir == "" {
+	if made && !o.keep {
 		defer os.RemoveAll(dir)
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
 	}
 	csvPath := filepath.Join(dir, "ledger.csv")
 	pqPath := filepath.Join(dir, "ledger.parquet")

@@ -47,25 +47,12 @@ Examples:
 }
 
 func runBenchXLSX(ctx context.Context, e *env, o benchOptions) error {
-	self, err := os.Executable()
+	leadline, dir, made, err := benchSetup(o.leadline, o.dir, "leadline-bench-xlsx-")
 	if err != nil {
 		return err
 	}
-	leadline, err := findLeadline(o.leadline, self)
-	if err != nil {
-		return err
-	}
-	dir := o.dir
-	if dir == "" {
-		if dir, err = os.MkdirTemp("", "leadline-bench-xlsx-"); err != nil {
-			return err
-		}
-		if !o.keep {
-			defer os.RemoveAll(dir)
-		}
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
+	if made && !o.keep {
+		defer os.RemoveAll(dir)
 	}
 	cfg := fixtures.Config{Rows: o.rows, Seed: 2025}
 	csvPath, xlsxPath := filepath.Join(dir, "ledger.csv"), filepath.Join(dir, "ledger.xlsx")

@@ -99,25 +99,12 @@ type benchYearOptions struct {
 const yearBatteryTests = "first,second,first_two,first_three,last_two,summation"
 
 func runBenchYear(ctx context.Context, e *env, o benchYearOptions, format string) error {
-	self, err := os.Executable()
+	leadline, dir, made, err := benchSetup(o.leadline, o.dir, "leadline-year-")
 	if err != nil {
 		return err
 	}
-	leadline, err := findLeadline(o.leadline, self)
-	if err != nil {
-		return err
-	}
-	dir := o.dir
-	if dir == "" {
-		if dir, err = os.MkdirTemp("", "leadline-year-"); err != nil {
-			return err
-		}
-		if !o.keep && !o.generateOnly {
-			defer os.RemoveAll(dir)
-		}
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
+	if made && !o.keep && !o.generateOnly {
+		defer os.RemoveAll(dir)
 	}
 	fmt.Fprintf(e.stderr, "Benchmark in %s: %d rows in files of %d\n", dir, o.rows, o.perFile)
 
