@@ -327,40 +327,46 @@ func runCompare(ctx context.Context, e *env, o compareOptions) error {
 	return printCompare(e.stdout, o.format, rep, o.top)
 }
 
-// batterySide runs the count tests of the battery on one population (with
-// by, its segments too) and returns the whole selection's counts.
+// batterySide counts the count tests of the battery on one population
+// and returns the whole selection's counts (the statistics are
+// compare's own).
 func batterySide(ctx context.Context, ws *workspace.Workspace, s population.Spec, by []string, flag string) (compare.SideInfo, map[benford.Test][]int64, error) {
-	rep, err := countBattery(ctx, ws, s, by, flag)
+	all, _, err := countScan(ctx, ws, s, by, flag)
 	if err != nil {
 		return compare.SideInfo{}, nil, err
 	}
-	info := compare.SideInfo{Where: s.Where, Signs: s.Signs, Min: s.Min, Tested: rep.Tested}
-	return info, countsOf(rep.Counts), nil
+	info := compare.SideInfo{Where: s.Where, Signs: s.Signs, Min: s.Min, Tested: all.N()}
+	return info, countsOf(all), nil
 }
 
-// countBattery runs the battery's count tests (one aggregate scan), with
-// by its segments too; flag names the flag whose filter an error is about.
-func countBattery(ctx context.Context, ws *workspace.Workspace, s population.Spec, by []string, flag string) (*battery.Report, error) {
-	rep, err := battery.Run(ctx, ws, battery.Options{Spec: s, Tests: compare.Tests, By: by})
+// countScan runs the battery's one aggregate scan of the count tests,
+// with by its segments too, and no statistics; flag names the flag whose
+// filter an error is about.
+func countScan(ctx context.Context, ws *workspace.Workspace, s population.Spec, by []string, flag string) (*battery.Counts, []battery.SegmentCounts, error) {
+	p, err := battery.Prepare(ctx, ws, battery.Options{Spec: s, Tests: compare.Tests, By: by})
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", flag, flagError(err))
+		return nil, nil, fmt.Errorf("%s: %w", flag, flagError(err))
 	}
-	return rep, nil
+	all, segs, err := p.Scan(ctx, ws)
+	if err != nil {
+		return nil, nil, fmt.Errorf("%s: %w", flag, err)
+	}
+	return all, segs, nil
 }
 
 // splitSides runs one scan segmented by the split column and takes the
 // two values' segments as the sides.
 func splitSides(ctx context.Context, ws *workspace.Workspace, o compareOptions) (l compare.SideInfo, lc map[benford.Test][]int64, r compare.SideInfo, rc map[benford.Test][]int64, err error) {
-	rep, err := countBattery(ctx, ws, o.spec, []string{o.split}, "--split")
+	_, segs, err := countScan(ctx, ws, o.spec, []string{o.split}, "--split")
 	if err != nil {
 		// The column is checked as a segment column: name it as --split's.
 		err = errors.New(strings.Replace(err.Error(), "--by "+o.split+": ", "", 1))
 		return
 	}
-	var found [2]*battery.SegmentResult
+	var found [2]*battery.SegmentCounts
 	var seen []string
-	for i := range rep.SegmentResults {
-		sr := &rep.SegmentResults[i]
+	for i := range segs {
+		sr := &segs[i]
 		label := sr.Key.Label()
 		seen = append(seen, label)
 		for j, v := range o.values {

@@ -6,7 +6,6 @@ import (
 	"io"
 	"strings"
 
-	"github.com/leadline/leadline/engine/battery"
 	"github.com/leadline/leadline/engine/compare"
 	"github.com/leadline/leadline/engine/numfmt"
 	"github.com/leadline/leadline/engine/population"
@@ -99,13 +98,9 @@ func sides(s []sideSegment) []compare.SegmentSide {
 // scan; the first lead parts of each key are the side (a split's value)
 // and the rest names the segment.
 func segmentSides(ctx context.Context, ws *workspace.Workspace, s population.Spec, by []string, flag string, lead int) ([]sideSegment, error) {
-	p, err := battery.Prepare(ctx, ws, battery.Options{Spec: s, Tests: compare.Tests, By: by})
+	_, segs, err := countScan(ctx, ws, s, by, flag)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", flag, flagError(err))
-	}
-	_, segs, err := p.Scan(ctx, ws)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", flag, err)
+		return nil, err
 	}
 	out := make([]sideSegment, 0, len(segs))
 	for _, sc := range segs {
