@@ -334,6 +334,7 @@ func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []Segme
 	if err != nil {
 		return nil, nil, err
 	}
+	adjustAcrossSegments(analysed)
 	rows := map[benford.Test][]SegmentRow{}
 	for i, sc := range segs {
 		info := SegmentInfo{Segment: sc.Key.Label(), Values: sc.Key.Values(p.Segments), Tested: sc.Counts.N(),
@@ -382,6 +383,22 @@ func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []Segme
 		out.Rankings = append(out.Rankings, rk)
 	}
 	return out, results, nil
+}
+
+// adjustAcrossSegments adjusts every test's flags over the segments
+// ranked (benford.AcrossSegments), so that a ranking of segments that all
+// follow Benford's law shows a flag in at most 5% of scans, however many
+// segments it has. analysed[i] is nil for a segment too small to rank.
+func adjustAcrossSegments(analysed [][]benford.Result) {
+	byTest := map[benford.Test][]*benford.Result{}
+	for _, res := range analysed {
+		for k := range res {
+			byTest[res[k].Test] = append(byTest[res[k].Test], &res[k])
+		}
+	}
+	for _, rs := range byTest {
+		benford.AcrossSegments(rs)
+	}
 }
 
 // analyzeSegments runs the tests on every segment large enough to rank,

@@ -27,22 +27,23 @@ const (
 // Bin is one bin of a digit test.
 type Bin struct {
 	Bin            int     `json:"bin"`
-	Label          string  `json:"label"`            // e.g. "1", "10", "05" for last-two
-	Count          int64   `json:"count"`            // for Summation: count of amounts in the bin (informational)
-	Amount         float64 `json:"amount,omitempty"` // Summation only: sum of absolute amounts in the bin
-	Actual         float64 `json:"actual"`           // p̂ = count/N (Summation: amount/total)
-	Expected       float64 `json:"expected"`         // p
-	Diff           float64 `json:"diff"`             // actual - expected
-	Z              float64 `json:"z"`                // ZStat, never negative (0 for Summation): the trade's reference
-	Lower          float64 `json:"lower"`            // p - (1.96 sqrt(p(1-p)/N) + 1/(2N)): reference bound
-	Upper          float64 `json:"upper"`            // p + (1.96 sqrt(p(1-p)/N) + 1/(2N)): reference bound
-	ZFlagged       bool    `json:"z_flagged"`        // actual outside [Lower, Upper]: the per-bin reference, about 5% of bins by chance
-	P              float64 `json:"p"`                // exact two-sided binomial p-value of the count (1 for Summation)
-	PAdjusted      float64 `json:"p_adjusted"`       // P adjusted by Holm's step-down over the test's bins
-	MinDiff        float64 `json:"min_diff"`         // the materiality margin: smallest |Diff| that is material
-	Material       bool    `json:"material"`         // |Diff| >= MinDiff
-	Flagged        bool    `json:"flagged"`          // the flag: PAdjusted < alpha and Material (Summation: its own rule)
-	GoodmanLower   float64 `json:"goodman_lower"`    // simultaneous 95% interval for the bin's proportion
+	Label          string  `json:"label"`                // e.g. "1", "10", "05" for last-two
+	Count          int64   `json:"count"`                // for Summation: count of amounts in the bin (informational)
+	Amount         float64 `json:"amount,omitempty"`     // Summation only: sum of absolute amounts in the bin
+	Actual         float64 `json:"actual"`               // p̂ = count/N (Summation: amount/total)
+	Expected       float64 `json:"expected"`             // p
+	Diff           float64 `json:"diff"`                 // actual - expected
+	Z              float64 `json:"z"`                    // ZStat, never negative (0 for Summation): the trade's reference
+	Lower          float64 `json:"lower"`                // p - (1.96 sqrt(p(1-p)/N) + 1/(2N)): reference bound
+	Upper          float64 `json:"upper"`                // p + (1.96 sqrt(p(1-p)/N) + 1/(2N)): reference bound
+	ZFlagged       bool    `json:"z_flagged"`            // actual outside [Lower, Upper]: the per-bin reference, about 5% of bins by chance
+	P              float64 `json:"p"`                    // exact two-sided binomial p-value of the count (1 for Summation)
+	PAdjusted      float64 `json:"p_adjusted"`           // P adjusted by Holm's step-down over the test's bins
+	MinDiff        float64 `json:"min_diff"`             // the materiality margin: smallest |Diff| that is material
+	Material       bool    `json:"material"`             // |Diff| >= MinDiff
+	Flagged        bool    `json:"flagged"`              // the flag: PAdjusted < alpha and Material (Summation: its own rule); in a segment, also PSegments < alpha
+	PSegments      float64 `json:"p_segments,omitempty"` // in a segment: PAdjusted adjusted again over the ranking's segments (AcrossSegments)
+	GoodmanLower   float64 `json:"goodman_lower"`        // simultaneous 95% interval for the bin's proportion
 	GoodmanUpper   float64 `json:"goodman_upper"`
 	OutsideGoodman bool    `json:"outside_goodman"` // expected outside [GoodmanLower, GoodmanUpper]
 }
@@ -89,9 +90,12 @@ type Result struct {
 	Runs         *Runs `json:"runs,omitempty"`
 	// Summation only: the null model's range in decades (fitted to the
 	// mean |amount|, rounded to whole decades) and the N it was simulated at.
-	SummationDecades float64  `json:"summation_decades,omitempty"`
-	SimulatedN       int64    `json:"simulated_n,omitempty"`
-	Notes            []string `json:"notes"`
+	SummationDecades float64 `json:"summation_decades,omitempty"`
+	SimulatedN       int64   `json:"simulated_n,omitempty"`
+	// SegmentFamily is set on a segment's result: how its flags were
+	// adjusted over the segments of its ranking (AcrossSegments).
+	SegmentFamily *SegmentFamily `json:"segment_family,omitempty"`
+	Notes         []string       `json:"notes"`
 }
 
 // Analyze runs digit test t from its bin counts with DefaultFlagging: see
@@ -219,11 +223,7 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 			"some bins expect fewer than %d amounts (the smallest %.1f): Goodman's simultaneous intervals flag conforming populations far more often than 5%% here, so bins outside them are not a family-wise signal; the bin flag (exact binomial tails with Holm's step-down) still holds its 5%%",
 			GoodmanMinExpected, minExp))
 	}
-	if t == FirstTwo && res.Flagged > MaxFlaggedFirstTwo {
-		res.Notes = append(res.Notes, fmt.Sprintf(
-			"%d first-two bins flagged (more than %d): ask whether this population should follow Benford's law at all, e.g. built-in minimums or maximums, assigned numbers, a single dominant transaction type (common practice, no source)",
-			res.Flagged, MaxFlaggedFirstTwo))
-	}
+	res.noteManyFlagged()
 	if t == FirstTwo && res.Runs != nil && res.Runs.Runs < FewRunsFirstTwo {
 		msg := fmt.Sprintf("%d runs over the 90 first-two bins (fewer than %d; %s expected; conforming populations of this size have fewer than %d runs in %.1f%% of draws, by simulation): long stretches of surplus and shortfall, look for a threshold at work",
 			res.Runs.Runs, FewRunsFirstTwo, numfmt.Stat(res.Runs.Expected), FewRunsFirstTwo, 100*res.Runs.FewRunsRate)
@@ -233,6 +233,20 @@ func analyze(t Test, counts []int64, f Flagging, exp []float64) (Result, error) 
 		res.Notes = append(res.Notes, msg+" (common practice, no source)")
 	}
 	return res, nil
+}
+
+// manyFlaggedTail ends the note of noteManyFlagged, so that recountFlags
+// can find it again.
+const manyFlaggedTail = "a single dominant transaction type (common practice, no source)"
+
+// noteManyFlagged adds the note on a first-two test with more than
+// MaxFlaggedFirstTwo flagged bins.
+func (res *Result) noteManyFlagged() {
+	if res.Test == FirstTwo && res.Flagged > MaxFlaggedFirstTwo {
+		res.Notes = append(res.Notes, fmt.Sprintf(
+			"%d first-two bins flagged (more than %d): ask whether this population should follow Benford's law at all, e.g. built-in minimums or maximums, assigned numbers, %s",
+			res.Flagged, MaxFlaggedFirstTwo, manyFlaggedTail))
+	}
 }
 
 // countFlags fills Flagged, OutsideGoodman and TopFlagged from the bins.

@@ -7,7 +7,6 @@ import (
 	"math/rand/v2"
 	"runtime"
 	"slices"
-	"sort"
 	"sync"
 )
 
@@ -42,13 +41,14 @@ type LocalStretch struct {
 	FromBin    int     `json:"from_bin"` // first bin of the stretch, 10..99
 	ToBin      int     `json:"to_bin"`   // last bin, FromBin..99
 	Count      int64   `json:"count"`
-	Expected   float64 `json:"expected"`    // from the flanking bins
-	ExpectedSE float64 `json:"expected_se"` // standard error of Expected from the fit
-	Ratio      float64 `json:"ratio"`       // Count / Expected
-	Z          float64 `json:"z"`           // (Count - Expected) / sqrt(Expected + ExpectedSE²)
-	PAdjusted  float64 `json:"p_adjusted"`  // share of simulated conforming populations whose largest Z is at least Z
-	Material   bool    `json:"material"`    // Ratio >= 1 + MinExcess
-	Flagged    bool    `json:"flagged"`     // PAdjusted < Alpha and Material
+	Expected   float64 `json:"expected"`             // from the flanking bins
+	ExpectedSE float64 `json:"expected_se"`          // standard error of Expected from the fit
+	Ratio      float64 `json:"ratio"`                // Count / Expected
+	Z          float64 `json:"z"`                    // (Count - Expected) / sqrt(Expected + ExpectedSE²)
+	PAdjusted  float64 `json:"p_adjusted"`           // share of simulated conforming populations whose largest Z is at least Z
+	Material   bool    `json:"material"`             // Ratio >= 1 + MinExcess
+	Flagged    bool    `json:"flagged"`              // PAdjusted < Alpha and Material
+	PSegments  float64 `json:"p_segments,omitempty"` // in a segment: PAdjusted adjusted again over the ranking's segments (AcrossSegments)
 }
 
 // LocalSurplus is the local surplus flag of the first-two test: does some
@@ -68,6 +68,9 @@ type LocalSurplus struct {
 	SimulatedN  int64          `json:"simulated_n"`
 	Largest     LocalStretch   `json:"largest"` // the stretch with the largest Z
 	Flagged     []LocalStretch `json:"flagged"` // flagged stretches in the order found (each masked before the next: LocalSurplusTest)
+	// Segments is the number of segments the flags were adjusted over
+	// (AcrossSegments); 0 for a whole population.
+	Segments int `json:"segments,omitempty"`
 }
 
 // Label returns the stretch's bins, e.g. "45-49" or "50".
@@ -254,10 +257,10 @@ type localNull struct {
 }
 
 // atLeast returns P(max Z >= z), counting the observed population among
-// the draws, so it is never 0.
+// the draws, so it is never 0; beyond the largest draw, from the fitted
+// tail (tailAtLeast).
 func (d *localNull) atLeast(z float64) float64 {
-	k := len(d.maxZ) - sort.SearchFloat64s(d.maxZ, z)
-	return float64(k+1) / float64(len(d.maxZ)+1)
+	return tailAtLeast(d.maxZ, z)
 }
 
 // localCache holds one entry per simulated N; the entry's Once makes
