@@ -325,6 +325,9 @@ func printScanText(w io.Writer, rep *battery.Report, sp scanPrint) error {
 			if sp.rankRows > 0 && len(rk.Rows) > sp.rankRows {
 				fmt.Fprintf(w, "(%d more; --rank-rows 0 shows all, --format json or csv has every segment)\n", len(rk.Rows)-sp.rankRows)
 			}
+			if rk.AdjustedOver > 1 {
+				fmt.Fprintf(w, "Flags adjusted over the %s segments ranked (Holm): segments that all follow Benford's law show a flag in at most 5%% of scans.\n", numfmt.Int(int64(rk.AdjustedOver)))
+			}
 		}
 		if len(s.TooSmall) > 0 {
 			names := make([]string, 0, 10)

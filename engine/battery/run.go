@@ -98,7 +98,10 @@ type SegmentInfo struct {
 type Ranking struct {
 	Test   benford.Test `json:"test"`
 	SortBy string       `json:"sort_by"` // "excess_mad" or "mad"
-	Rows   []SegmentRow `json:"rows"`
+	// AdjustedOver is the number of segments the flags were adjusted
+	// over (Holm over the ranked segments: benford.AcrossSegments).
+	AdjustedOver int          `json:"adjusted_over"`
+	Rows         []SegmentRow `json:"rows"`
 }
 
 // SegmentRow is one segment's line in a ranking.
@@ -118,7 +121,9 @@ type SegmentRow struct {
 	CvMU2          float64            `json:"cvm_u2"`   // discrete Cramér–von Mises U²
 	CvMU2P         float64            `json:"cvm_u2_p"` // its asymptotic p-value
 	Flagged        int                `json:"flagged"`
-	LocalFlagged   *int               `json:"local_flagged,omitempty"` // first-two: stretches the local surplus flag marks
+	PSegments      float64            `json:"p_segments"`                 // the segment's bin-flag p-value adjusted over the ranked segments (benford.AcrossSegments)
+	LocalFlagged   *int               `json:"local_flagged,omitempty"`    // first-two: stretches the local surplus flag marks
+	LocalPSegments *float64           `json:"local_p_segments,omitempty"` // first-two: the local surplus flag's p-value adjusted over the ranked segments
 	OutsideGoodman int                `json:"outside_goodman"`
 	TopFlagged     []int              `json:"top_flagged"`
 	Runs           *int               `json:"runs,omitempty"`   // runs test (first-two, first-three, second-order)
@@ -356,9 +361,16 @@ func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []Segme
 				n, pv := r.Runs.Runs, r.Runs.P
 				row.Runs, row.RunsP = &n, &pv
 			}
+			if f := r.SegmentFamily; f != nil {
+				row.PSegments = f.P
+			}
 			if l := r.LocalSurplus; l != nil && l.Tested {
 				k := len(l.Flagged)
 				row.LocalFlagged = &k
+				if f := r.SegmentFamily; f != nil {
+					p := f.LocalP
+					row.LocalPSegments = &p
+				}
 			}
 			rows[r.Test] = append(rows[r.Test], row)
 		}
@@ -367,7 +379,7 @@ func rankSegments(p *Plan, segs []SegmentCounts, nc noteCtx) (*Segments, []Segme
 		if !o.Has(t) {
 			continue
 		}
-		rk := Ranking{Test: t, SortBy: "excess_mad", Rows: rows[t]}
+		rk := Ranking{Test: t, SortBy: "excess_mad", Rows: rows[t], AdjustedOver: len(rows[t])}
 		if rk.Rows == nil {
 			rk.Rows = []SegmentRow{}
 		}

@@ -101,7 +101,7 @@ func (r *runner) batteryStep(ctx context.Context) error {
 			continue
 		}
 		t := &tabular.Table{Columns: []string{"test", "rank", "segment", "n", "mad", "conformity", "expected_mad", "excess_mad", "chi2", "df", "p_value",
-			"cvm_u2", "cvm_u2_p", "flagged", "outside_goodman", "top_flagged", "runs", "runs_p"}}
+			"cvm_u2", "cvm_u2_p", "flagged", "p_segments", "local_flagged", "local_p_segments", "outside_goodman", "top_flagged", "runs", "runs_p"}}
 		for _, rk := range sg.Rankings {
 			for _, row := range rk.Rows {
 				var runs, runsP any
@@ -111,17 +111,24 @@ func (r *runner) batteryStep(ctx context.Context) error {
 				if row.RunsP != nil {
 					runsP = *row.RunsP
 				}
+				var local, localP any
+				if row.LocalFlagged != nil {
+					local = int64(*row.LocalFlagged)
+				}
+				if row.LocalPSegments != nil {
+					localP = *row.LocalPSegments
+				}
 				t.Add(string(rk.Test), int64(row.Rank), row.Segment, row.N, row.MAD, row.Conformity, row.ExpectedMAD, row.ExcessMAD, row.Chi2, int64(row.DF),
-					row.PValue, row.CvMU2, row.CvMU2P, int64(row.Flagged), int64(row.OutsideGoodman), binsText(rk.Test, row.TopFlagged), runs, runsP)
+					row.PValue, row.CvMU2, row.CvMU2P, int64(row.Flagged), row.PSegments, local, localP, int64(row.OutsideGoodman), binsText(rk.Test, row.TopFlagged), runs, runsP)
 			}
 		}
 		ot := output.FromTabular(t, "segments_"+output.SafeName(strings.ReplaceAll(name, "+", "_")),
 			fmt.Sprintf("Segments by %s ranked per test, most distorted first (excess MAD)", strings.ReplaceAll(name, "+", " and ")), "battery",
 			map[string]output.Kind{"rank": output.Count, "n": output.Count, "mad": output.Number, "expected_mad": output.Number, "excess_mad": output.Number,
 				"chi2": output.Number, "df": output.Count, "p_value": output.Proportion, "cvm_u2": output.Number, "cvm_u2_p": output.Proportion,
-				"flagged": output.Count, "outside_goodman": output.Count,
+				"flagged": output.Count, "p_segments": output.Proportion, "local_flagged": output.Count, "local_p_segments": output.Proportion, "outside_goodman": output.Count,
 				"top_flagged": output.Text, "runs": output.Count, "runs_p": output.Proportion, "segment": output.Text, "conformity": output.Text})
-		ot.Note = fmt.Sprintf("%s segments, %s with at least %s amounts ranked", numfmt.Int(int64(sg.Count)), numfmt.Int(int64(sg.Ranked)), numfmt.Int(int64(sg.MinRows)))
+		ot.Note = fmt.Sprintf("%s segments, %s with at least %s amounts ranked; flags adjusted over the ranked segments (Holm: p_segments)", numfmt.Int(int64(sg.Count)), numfmt.Int(int64(sg.Ranked)), numfmt.Int(int64(sg.MinRows)))
 		r.add(ot)
 	}
 	r.run.Results["battery"] = rep
