@@ -40,6 +40,7 @@ type Bin struct {
 	P              float64 `json:"p"`                    // exact two-sided binomial p-value of the count (1 for Summation)
 	PAdjusted      float64 `json:"p_adjusted"`           // P adjusted by Holm's step-down over the test's bins
 	MinDiff        float64 `json:"min_diff"`             // the materiality margin: smallest |Diff| that is material
+	Neighbours     float64 `json:"neighbours,omitempty"` // Summation only: the median share of the bins beside it, part of its margin
 	Material       bool    `json:"material"`             // |Diff| >= MinDiff
 	Flagged        bool    `json:"flagged"`              // the flag: PAdjusted < alpha and Material (Summation: its own rule); in a segment, also PSegments < alpha
 	PSegments      float64 `json:"p_segments,omitempty"` // in a segment: PAdjusted adjusted again over the ranking's segments (AcrossSegments)
@@ -309,8 +310,9 @@ func AnalyzeSummation(sums []float64, counts []int64) (Result, error) {
 // the fitted range (surpluses only, 0 for a shortfall), P its one-sided
 // simulated p-value, PAdjusted the max-T adjusted p-value, Upper the share
 // above which the bin is beyond chance, and a bin is flagged when
-// PAdjusted < f.Alpha and it holds at least twice 1/90
-// (SummationMinExcess; --min-excess does not change it). Only
+// PAdjusted < f.Alpha and it holds at least twice 1/90 and twice the
+// median share of its neighbours (SummationMinExcess,
+// summationNeighbours; --min-excess does not change it). Only
 // surpluses are flagged: the test looks for large amounts.
 func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f Flagging) (Result, error) {
 	t := Summation
@@ -370,8 +372,8 @@ func AnalyzeSummationWith(sums []float64, counts []int64, minAmount float64, f F
 		res.flagSummation(sc, f)
 		d, fitted := FitDecades(sc.Min, sc.Mean)
 		msg := fmt.Sprintf(
-			"summation test: a bin is flagged when its share of the total is beyond chance for %s amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %s simulated populations, max-T adjusted p < %s) and holds at least %s times 1/90 (materiality, common practice, no source); chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
-			numfmt.Int(n), trimFloat(minAmount), res.SummationDecades, d, numfmt.Int(summationSimulations), trimFloat(f.Alpha), trimFloat(1+SummationMinExcess))
+			"summation test: a bin is flagged when its share of the total is beyond chance for %s amounts following Benford's law from %s over %.0f whole decades (the nearest to the %.1f whose mean is this population's mean |amount|; %s simulated populations, max-T adjusted p < %s) and holds at least %s times both 1/90 (materiality, common practice, no source) and the median share of the %d bins on either side (so that a smooth excess over the low bins, from a top decade that tapers, is not flagged; no source); chi-square and Kolmogorov-Smirnov are not defined for shares of amounts",
+			numfmt.Int(n), trimFloat(minAmount), res.SummationDecades, d, numfmt.Int(summationSimulations), trimFloat(f.Alpha), trimFloat(1+SummationMinExcess), summationNeighbours)
 		if !fitted {
 			msg += fmt.Sprintf("; the amounts' mean lies outside what %d to %d decades give, so the model is held at %.0f decades and the flag's rate is not known here", minDecades, maxDecades, d)
 		}

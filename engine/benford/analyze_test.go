@@ -278,3 +278,59 @@ func TestSummationMixtureOfDecades(t *testing.T) {
 		}
 	}
 }
+
+// TestSummationTaperNotFlagged: amounts whose top decade tapers (a
+// lognormal, median 2,000, σ 1.2 in natural log, at least 10: a smooth
+// population that does not follow Benford's law) hold more than twice
+// 1/90 of their total in several low first-two bins, beyond chance for
+// the log-uniform model, because the largest amounts crowd into the low
+// bins of the top decades. The bins' neighbours are lifted alike, so none
+// is material against its neighbours and none is flagged; under the
+// former margin (twice 1/90 alone) some were. The same population with
+// 40 amounts of 63,500.00 added (a large amount repeated, bin 63) has bin
+// 63 flagged.
+func TestSummationTaperNotFlagged(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	sums := make([]float64, 90)
+	counts := make([]int64, 90)
+	add := func(u int64) {
+		k := firstTwoOfUnits(u) - 10
+		sums[k] += float64(u) / 100
+		counts[k]++
+	}
+	for n := 0; n < 15000; {
+		x := 2000 * math.Exp(1.2*rng.NormFloat64())
+		if x < 10 {
+			continue
+		}
+		add(int64(math.Round(x * 100)))
+		n++
+	}
+	r, err := AnalyzeSummation(sums, counts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	former := 0
+	for _, b := range r.Bins {
+		if b.PAdjusted < 0.05 && b.Actual >= 2.0/90 {
+			former++
+		}
+	}
+	if former == 0 {
+		t.Fatalf("setup: no bin beyond chance and above twice 1/90; the taper is too gentle to test the neighbours' margin")
+	}
+	if r.Flagged != 0 {
+		t.Errorf("smooth taper: %d bins flagged (top %v); the former margin flagged %d", r.Flagged, r.TopFlagged, former)
+	}
+	t.Logf("smooth taper, 15,000 amounts: %d bins beyond chance and above twice 1/90 (the former flag), %d flagged now", former, r.Flagged)
+	for range 40 {
+		add(6350000)
+	}
+	r, err = AnalyzeSummation(sums, counts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Flagged != 1 || r.TopFlagged[0] != 63 {
+		t.Errorf("40 amounts of 63,500.00 added: flagged %d, top %v; want bin 63 alone (share %.4f, neighbours %.4f)", r.Flagged, r.TopFlagged, r.Bins[53].Actual, r.Bins[53].Neighbours)
+	}
+}
