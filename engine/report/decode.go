@@ -240,9 +240,9 @@ func (m *Model) addSegments(r *Run, segs *battery.Segments, R ref) {
 		}
 	}
 	rk := segs.Rankings[pick]
-	g := &SegmentGroup{Ref: R, Segments: *segs, Ranking: rk}
+	g := &SegmentGroup{Ref: R, RankRef: R.At("rankings").AtField(pick, rk.Test), Segments: *segs, Ranking: rk}
 	by := strings.Join(segs.By, "+")
-	rr := R.At("rankings").AtField(pick, rk.Test).At("rows")
+	rr := g.RankRef.At("rows")
 	for i, row := range rk.Rows {
 		if i == maxSegmentRows {
 			g.Hidden = len(rk.Rows) - i

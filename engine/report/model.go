@@ -374,6 +374,7 @@ type SegmentSection struct {
 // SegmentGroup is the ranking of one segmentation of a battery run.
 type SegmentGroup struct {
 	Ref      ref // the segments object
+	RankRef  ref // the ranking shown
 	Segments battery.Segments
 	Ranking  battery.Ranking // the ranking shown (first-two digits when run)
 	Rows     []SegmentRow
@@ -389,6 +390,25 @@ func (s *SegmentGroup) HasRuns() bool {
 		}
 	}
 	return false
+}
+
+// HasLocal reports whether the ranking carries the local surplus flag.
+func (s *SegmentGroup) HasLocal() bool {
+	for _, r := range s.Rows {
+		if r.Row.LocalFlagged != nil {
+			return true
+		}
+	}
+	return false
+}
+
+// LocalValue is the segment's number of flagged local stretches (0 when
+// not computed).
+func (s SegmentRow) LocalValue() int {
+	if s.Row.LocalFlagged == nil {
+		return 0
+	}
+	return *s.Row.LocalFlagged
 }
 
 // SegmentRow is one ranked segment.
