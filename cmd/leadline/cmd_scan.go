@@ -38,10 +38,13 @@ significant digit or later (at least 100.00 at scale 2, 10,000 for whole
 numbers or --last-two units), where they are close to uniform; for 10.00
 to 99.99 the cents are the third and fourth significant digits, which
 Benford's law does not spread evenly. The output says how many amounts it
-left out; --last-two-all tests them all. In the second-order test, bins
-10, 20, ..., 90 hold every difference of 1 to 9 units of the ledger's
-scale, a surplus the discreteness of the amounts explains: they are not
-flagged.
+left out; --last-two-all tests them all. In the second-order test,
+amounts held in whole units of the ledger's scale have discrete
+differences (bins 10, 20, ..., 90 take every difference of 1 to 9 units),
+so the expected shares are not Benford's own but those of amounts
+following Benford's law over the population's range (from --min, over
+the decades whose mean is its mean |amount|) held in whole units; the
+note says how many bins Benford's own shares would have flagged.
 
 Which amounts: positive amounts by default (--signs), because debits and
 credits (invoices and credit notes, payments and refunds) are different
