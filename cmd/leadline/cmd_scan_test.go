@@ -128,3 +128,81 @@ func TestScanCommand(t *testing.T) {
 		}
 	}
 }
+
+// TestScanSegmentFlagsAcrossSegments: a ranking of 30 entities whose
+// amounts follow Benford's law and one whose invoices pile up below
+// 5,000 states over how many segments its flags were adjusted, flags the
+// piled-up entity (bin flag and local surplus, adjusted p-values below
+// 5%), and no other segment shows a flag whose adjusted p-value is 5% or
+// more.
+func TestScanSegmentFlagsAcrossSegments(t *testing.T) {
+	dir := t.TempDir()
+	db := filepath.Join(dir, "ws.duckdb")
+	var b strings.Builder
+	b.WriteString("amount,entity\n")
+	cents := fixtures.LogUniformAmounts(31*2000, 10, 1e5, 17)
+	for i, c := range cents {
+		e := fmt.Sprintf("E%02d", i%31)
+		if e == "E07" && i%5 == 0 {
+			c = 450000 + int64(i)%50000 // one in five of E07's amounts in [4,500, 5,000)
+		}
+		fmt.Fprintf(&b, "%d.%02d,%s\n", c/100, c%100, e)
+	}
+	csvPath := filepath.Join(dir, "gl.csv")
+	if err := os.WriteFile(csvPath, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	cmd := func(args ...string) string {
+		t.Helper()
+		var out, errs bytes.Buffer
+		if code := run(context.Background(), args, &env{stdout: &out, stderr: &errs}); code != 0 {
+			t.Fatalf("leadline %s exited %d: %s", strings.Join(args, " "), code, errs.String())
+		}
+		return out.String()
+	}
+	cmd("load", "--db", db, csvPath)
+	var doc struct {
+		Segments struct {
+			Rankings []struct {
+				Test         string `json:"test"`
+				AdjustedOver int    `json:"adjusted_over"`
+				Rows         []struct {
+					Segment        string   `json:"segment"`
+					Flagged        int      `json:"flagged"`
+					PSegments      float64  `json:"p_segments"`
+					LocalFlagged   *int     `json:"local_flagged"`
+					LocalPSegments *float64 `json:"local_p_segments"`
+				} `json:"rows"`
+			} `json:"rankings"`
+		} `json:"segments"`
+	}
+	out := cmd("scan", "--db", db, "--tests", "first_two", "--by", "entity", "--format", "json")
+	if err := json.Unmarshal([]byte(out), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.Segments.Rankings) != 1 {
+		t.Fatalf("%d rankings", len(doc.Segments.Rankings))
+	}
+	rk := doc.Segments.Rankings[0]
+	if rk.AdjustedOver != 31 || len(rk.Rows) != 31 {
+		t.Fatalf("ranking adjusted over %d segments, %d rows; want 31", rk.AdjustedOver, len(rk.Rows))
+	}
+	for _, r := range rk.Rows {
+		if r.Segment == "E07" {
+			if r.Flagged == 0 || r.PSegments >= 0.05 || r.LocalFlagged == nil || *r.LocalFlagged == 0 || *r.LocalPSegments >= 0.05 {
+				t.Errorf("E07 (amounts piled below 5,000): %+v; want flagged bins and a local surplus, adjusted p below 5%%", r)
+			}
+			continue
+		}
+		if r.Flagged > 0 && r.PSegments >= 0.05 {
+			t.Errorf("%s: %d bins flagged with p_segments %v", r.Segment, r.Flagged, r.PSegments)
+		}
+		if r.LocalFlagged != nil && *r.LocalFlagged > 0 && *r.LocalPSegments >= 0.05 {
+			t.Errorf("%s: %d local stretches flagged with local_p_segments %v", r.Segment, *r.LocalFlagged, *r.LocalPSegments)
+		}
+	}
+	text := cmd("scan", "--db", db, "--tests", "first_two", "--by", "entity")
+	if !strings.Contains(text, "Flags adjusted over the 31 segments ranked (Holm)") {
+		t.Errorf("text output does not say over how many segments the flags were adjusted:\n%s", text)
+	}
+}
