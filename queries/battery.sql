@@ -167,22 +167,39 @@ SELECT CAST(min(amount) AS VARCHAR), CAST(max(amount) AS VARCHAR) FROM ledger;
 -- Second-order test (Nigrini and Miller 2009): sort the tested amounts
 -- (|amount|, per segment), take the differences between neighbours, drop
 -- zeros, and count the first two significant digits of the differences.
+-- The same pass gives the expectation's input: each difference's local
+-- mean spacing, (last - first)/(amounts - 1) over the {{window}} sorted
+-- amounts on either side of it, as a histogram of
+-- round(log10(spacing) * {{steps}}) (benford.SpacingHistogram says the
+-- same in Go). Two grouping sets: ll_set 0 rows count the differences by
+-- first two digits (NULL: zero differences, not tested), ll_set 1 rows
+-- count every difference by its spacing bucket (NULL: all the amounts
+-- around it equal).
 -- Parameter: the minimum |amount| in units.
-SELECT {{segment_names}}{{first3}}(ll_d) // 10 AS ll_f2, count(*) AS ll_n
+SELECT {{segment_names}}ll_f2, ll_mu, grouping(ll_f2) AS ll_set, count(*) AS ll_n
 FROM (
-    SELECT {{segment_names}}ll_a - lag(ll_a) OVER ({{partition}}ORDER BY ll_a) AS ll_d
+    SELECT {{segment_names}}
+           CASE WHEN ll_d > 0 THEN {{first3}}(ll_d) // 10 END AS ll_f2,
+           CASE WHEN ll_span > 0 THEN CAST(round(log10(ll_span / (ll_cnt - 1)) * {{steps}}) AS INTEGER) END AS ll_mu
     FROM (
-        SELECT {{segment_names}}ll_u, abs(ll_u) AS ll_a
+        SELECT {{segment_names}}ll_a - lag(ll_a) OVER ll_w AS ll_d,
+               last_value(ll_a) OVER ll_near - first_value(ll_a) OVER ll_near AS ll_span,
+               count(*) OVER ll_near AS ll_cnt
         FROM (
-            SELECT {{segment_select}}{{units}} AS ll_u
-            FROM ledger
-            WHERE {{filter}}
+            SELECT {{segment_names}}ll_u, abs(ll_u) AS ll_a
+            FROM (
+                SELECT {{segment_select}}{{units}} AS ll_u
+                FROM ledger
+                WHERE {{filter}}
+            )
         )
+        WHERE ll_u <> 0 AND ({{sign_ok}}) AND ll_a >= ?
+        WINDOW ll_w AS ({{partition}}ORDER BY ll_a),
+               ll_near AS ({{partition}}ORDER BY ll_a ROWS BETWEEN {{window}} PRECEDING AND {{window}} FOLLOWING)
     )
-    WHERE ll_u <> 0 AND ({{sign_ok}}) AND ll_a >= ?
+    WHERE ll_d IS NOT NULL
 )
-WHERE ll_d > 0
-GROUP BY ALL;
+GROUP BY GROUPING SETS (({{segment_names}}ll_f2), ({{segment_names}}ll_mu));
 
 -- name: battery_duplicates
 -- Number duplication: the most frequent exact amounts among those tested,

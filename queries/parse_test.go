@@ -44,6 +44,8 @@ func fragments(dir string, segmented bool) map[string]string {
 		"options":        "FORMAT csv, HEADER",
 		"order":          "row_id",
 		"partition":      "",
+		"window":         "50",
+		"steps":          "50",
 		"parts":          ", 1 AS ll_parts",
 		"predicate":      "(descr = 'x'\n)",
 		"col":            `"descr"`,

@@ -22,7 +22,11 @@ type Counts struct {
 	FirstThreeSum []float64 // sum of |amount| (currency units) per first-three bin
 	LastTwo       []int64   // count per last-two bin, 00..99
 	SecondOrder   []int64   // first-two digits of the differences between sorted amounts, bins 10..99; nil when not run
-	Left          Left      // amounts left out, and why
+	// Spacing is the histogram of the differences' local mean spacing
+	// (benford.SpacingHistogram: bucket -> differences), the second-order
+	// test's expectation; nil when not run.
+	Spacing map[int]int64
+	Left    Left // amounts left out, and why
 }
 
 // Left counts the rows of a population that were not tested, by reason
@@ -60,6 +64,12 @@ func (c *Counts) Add(o *Counts) {
 		for i := range c.SecondOrder {
 			c.SecondOrder[i] += o.SecondOrder[i]
 		}
+	}
+	for b, n := range o.Spacing {
+		if c.Spacing == nil {
+			c.Spacing = map[int]int64{}
+		}
+		c.Spacing[b] += n
 	}
 	c.Left.Add(o.Left)
 }

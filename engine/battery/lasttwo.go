@@ -69,34 +69,47 @@ func noteLastTwo(r *benford.Result, min string, tested int64) {
 }
 
 // noteSecondOrder tests the second-order bins again against the shares
-// expected of amounts held in whole units of the ledger's scale
-// (benford.SecondOrderExpectedScaled): their differences are whole units,
-// so differences of 1 to 9 units pile on bins 10, 20, ..., 90 and small
-// differences are rounded. The null model is Benford's law over this
-// population's range (its minimum and mean |amount|) at its N, with a
-// note saying so.
+// expected of amounts held in whole units of the ledger's scale: their
+// differences are whole units, so differences of 1 to 9 units pile on
+// bins 10, 20, ..., 90 and small differences are rounded. The expectation
+// reads each difference against its own local spacing (the histogram the
+// second-order query returns: benford.SecondOrderExpectedSpacing), so a
+// population whose amounts are not log-uniform is read against its own
+// density; without the histogram (counts made elsewhere) the null model
+// is Benford's law over this population's range (its minimum and mean
+// |amount|: benford.SecondOrderExpectedScaled). A note says which.
 func noteSecondOrder(r *benford.Result, c *Counts, o Options, nc noteCtx) error {
 	if r.N == 0 {
 		return nil
 	}
 	n := c.N()
-	var total float64
-	for _, v := range c.FirstThreeSum {
-		total += v
-	}
 	unit := math.Pow10(-nc.scale)
-	sc := benford.Scale{N: n, Min: minAmount(o, nc.scale), Mean: total / float64(max(n, 1)), Unit: unit}
 	plain := r.Flagged
-	scaled, err := benford.AnalyzeExpected(benford.SecondOrder, c.Bins(benford.SecondOrder), o.Flagging(), benford.SecondOrderExpectedScaled(sc))
+	var exp []float64
+	var how string
+	if len(c.Spacing) > 0 {
+		exp = benford.SecondOrderExpectedSpacing(c.Spacing)
+		how = fmt.Sprintf("the expected shares are those of differences in whole units with each difference's own local spacing (the mean difference of the %d sorted amounts on either side of it: the population's own density, not a model of it), so what stands out is spacing that density does not explain, such as amounts a fixed step apart", benford.SpacingWindow)
+	} else {
+		var total float64
+		for _, v := range c.FirstThreeSum {
+			total += v
+		}
+		sc := benford.Scale{N: n, Min: minAmount(o, nc.scale), Mean: total / float64(max(n, 1)), Unit: unit}
+		exp = benford.SecondOrderExpectedScaled(sc)
+		d, _ := benford.FitDecades(sc.Min, sc.Mean)
+		how = fmt.Sprintf("the expected shares are those of %s amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|) held in whole units",
+			numfmt.Int(n), strconv.FormatFloat(sc.Min, 'f', -1, 64), d)
+	}
+	scaled, err := benford.AnalyzeExpected(benford.SecondOrder, c.Bins(benford.SecondOrder), o.Flagging(), exp)
 	if err != nil {
 		return err
 	}
 	notes := r.Notes
 	*r = scaled
 	r.Notes = notes
-	d, _ := benford.FitDecades(sc.Min, sc.Mean)
 	r.Notes = append(r.Notes, fmt.Sprintf(
-		"second-order test: amounts are whole units of %s, so their differences are discrete (differences of 1 to 9 units fill bins 10, 20, ..., 90; small differences are rounded): the expected shares are those of %s amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|) held in whole units; against Benford's law itself %d bins would have been flagged",
-		strconv.FormatFloat(unit, 'f', -1, 64), numfmt.Int(n), strconv.FormatFloat(sc.Min, 'f', -1, 64), d, plain))
+		"second-order test: amounts are whole units of %s, so their differences are discrete (differences of 1 to 9 units fill bins 10, 20, ..., 90; small differences are rounded): %s; against Benford's law itself %d bins would have been flagged",
+		strconv.FormatFloat(unit, 'f', -1, 64), how, plain))
 	return nil
 }

@@ -10,6 +10,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/population"
 	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
@@ -300,6 +301,7 @@ func (p *Plan) SecondOrder(ctx context.Context, ws *workspace.Workspace, all *Co
 	q := queries.Render("battery_second_order", map[string]string{
 		"segment_select": sel, "segment_names": names, "units": p.units, "filter": p.filter,
 		"sign_ok": p.signOK, "first3": p.first3, "partition": partition,
+		"window": strconv.Itoa(benford.SpacingWindow), "steps": strconv.Itoa(benford.SpacingSteps),
 	})
 	rows, err := ws.Conn.QueryContext(ctx, q, p.MinUnits)
 	if err != nil {
@@ -309,31 +311,44 @@ func (p *Plan) SecondOrder(ctx context.Context, ws *workspace.Workspace, all *Co
 	idx := map[string]*Counts{}
 	for i := range segs {
 		segs[i].Counts.SecondOrder = make([]int64, 90)
+		segs[i].Counts.Spacing = map[int]int64{}
 		idx[segs[i].Key.String()] = segs[i].Counts
 	}
 	all.SecondOrder = make([]int64, 90)
+	all.Spacing = map[int]int64{}
 	nseg := len(p.Segments)
 	key := make([]sql.NullString, nseg)
-	dest := make([]any, nseg+2)
+	dest := make([]any, nseg+4)
 	for i := range key {
 		dest[i] = &key[i]
 	}
-	var f2, n int64
-	dest[nseg], dest[nseg+1] = &f2, &n
+	var f2, mu sql.NullInt64
+	var set, n int64
+	dest[nseg], dest[nseg+1], dest[nseg+2], dest[nseg+3] = &f2, &mu, &set, &n
 	for rows.Next() {
 		if err := rows.Scan(dest...); err != nil {
 			return fmt.Errorf("the second-order test: %w", err)
 		}
-		if f2 < 10 || f2 > 99 {
-			return fmt.Errorf("the second-order test returned first-two digits %d: an internal error, please report it", f2)
-		}
-		all.SecondOrder[f2-10] += n
+		var c *Counts
 		if nseg > 0 {
-			c := idx[Key(key).String()]
-			if c == nil {
+			if c = idx[Key(key).String()]; c == nil {
 				return fmt.Errorf("the second-order test found segment %q that the scan did not: an internal error, please report it", Key(key).Label())
 			}
-			c.SecondOrder[f2-10] += n
+		}
+		switch {
+		case set == 0 && f2.Valid:
+			if f2.Int64 < 10 || f2.Int64 > 99 {
+				return fmt.Errorf("the second-order test returned first-two digits %d: an internal error, please report it", f2.Int64)
+			}
+			all.SecondOrder[f2.Int64-10] += n
+			if c != nil {
+				c.SecondOrder[f2.Int64-10] += n
+			}
+		case set == 1 && mu.Valid:
+			all.Spacing[int(mu.Int64)] += n
+			if c != nil {
+				c.Spacing[int(mu.Int64)] += n
+			}
 		}
 	}
 	if err := rows.Err(); err != nil {

@@ -2,6 +2,7 @@ package battery
 
 import (
 	"fmt"
+	"maps"
 	"math/rand/v2"
 	"sort"
 	"testing"
@@ -147,6 +148,7 @@ func TestSecondOrderAgainstGo(t *testing.T) {
 	var ents []string
 	var cents []int64
 	want := map[string][]int64{}
+	wantSpacing := map[string]map[int]int64{}
 	for i, seg := range []string{"A", "B"} {
 		a := fixtures.LogUniformAmounts(3000, 1, 1e5, uint64(40+i))
 		a = append(a, a[:200]...) // repeats: zero differences, dropped
@@ -169,6 +171,7 @@ func TestSecondOrderAgainstGo(t *testing.T) {
 			}
 		}
 		want[seg] = w
+		wantSpacing[seg] = benford.SpacingHistogram(tested)
 	}
 	ws := openWS(t)
 	loadCents(t, ws, ents, cents)
@@ -180,6 +183,11 @@ func TestSecondOrderAgainstGo(t *testing.T) {
 			if got[k] != w[k] {
 				t.Fatalf("segment %s: second-order bin %d: %d, want %d", sr.Key.Label(), 10+k, got[k], w[k])
 			}
+		}
+		// The local spacing histogram of the query is the one Go computes
+		// (benford.SpacingHistogram), bucket for bucket.
+		if ws := wantSpacing[sr.Key[0].String]; !maps.Equal(sr.Counts.Spacing, ws) || len(ws) < 50 {
+			t.Fatalf("segment %s: spacing histogram %v, want %v", sr.Key.Label(), sr.Counts.Spacing, ws)
 		}
 	}
 	// Unsegmented: one sort over both segments' amounts.
@@ -202,6 +210,9 @@ func TestSecondOrderAgainstGo(t *testing.T) {
 		if got[k] != w[k] {
 			t.Fatalf("second-order bin %d: %d, want %d", 10+k, got[k], w[k])
 		}
+	}
+	if ws := benford.SpacingHistogram(all); !maps.Equal(r2.Counts.Spacing, ws) {
+		t.Fatalf("spacing histogram %v, want %v", r2.Counts.Spacing, ws)
 	}
 	if len(r2.Tests) != 1 || r2.Tests[0].Test != benford.SecondOrder || r2.Tests[0].Runs == nil {
 		t.Fatalf("results %+v", r2.Tests)

@@ -77,32 +77,50 @@ func secondOrderShares(n, D, logLow float64) []float64 {
 	var nonzero float64
 	for i := range steps {
 		lm := base + (float64(i)+0.5)*D/float64(steps)
-		lambda := math.Pow(10, -lm)
-		if lambda > 700 {
-			continue // differences below a unit: all ties
-		}
-		c := 4 * math.Pow(math.Sinh(lambda/2), 2) / lambda
-		den := -math.Expm1(-lambda)
-		// P(a <= D <= b)
-		between := func(a, b float64) float64 {
-			return c * (math.Exp(-lambda*a) - math.Exp(-lambda*(b+1))) / den
-		}
-		nonzero += c * math.Exp(-lambda) / den
-		for k := 10; k <= 99; k++ {
-			var q float64
-			if k%10 == 0 {
-				q += between(float64(k/10), float64(k/10))
-			}
-			for L := 0; L <= 17; L++ {
-				a := float64(k) * math.Pow10(L)
-				if lambda*a > 745 {
-					break
-				}
-				q += between(a, (float64(k)+1)*math.Pow10(L)-1)
-			}
-			p[k-10] += q
-		}
+		nonzero += addGapShares(p, math.Pow(10, -lm), 1)
 	}
+	return normalizeGapShares(p, nonzero)
+}
+
+// addGapShares adds to p (90 bins) weight times the probability that a
+// whole-unit difference of mean spacing 1/lambda units falls in each
+// first-two bin, and returns weight times the probability that it is not
+// zero.
+func addGapShares(p []float64, lambda, weight float64) float64 {
+	if lambda > 700 {
+		return 0 // differences below a unit: all ties
+	}
+	c := 4 * math.Pow(math.Sinh(lambda/2), 2) / lambda
+	den := -math.Expm1(-lambda)
+	// P(a <= D <= b) = c/den · (e^{-λa} − e^{-λ(b+1)}), written so that it
+	// keeps its digits when λ is tiny (a mean spacing of millions of units)
+	between := func(a, b float64) float64 {
+		return c * math.Exp(-lambda*a) * -math.Expm1(-lambda*(b+1-a)) / den
+	}
+	// Differences below 10^lo units hold a share under 10^-8 of them: the
+	// digit lengths start there (at 0, the single digits, when the
+	// spacing is small) and run until the exponential's tail is spent.
+	lo := max(0, int(math.Floor(-math.Log10(lambda)))-8)
+	for k := 10; k <= 99; k++ {
+		var q float64
+		if k%10 == 0 && lo == 0 {
+			q += between(float64(k/10), float64(k/10))
+		}
+		for L := lo; L <= lo+40; L++ {
+			a := float64(k) * math.Pow10(L)
+			if lambda*a > 745 {
+				break
+			}
+			q += between(a, (float64(k)+1)*math.Pow10(L)-1)
+		}
+		p[k-10] += weight * q
+	}
+	return weight * c * math.Exp(-lambda) / den
+}
+
+// normalizeGapShares turns the summed bin probabilities into shares of
+// the non-zero differences.
+func normalizeGapShares(p []float64, nonzero float64) []float64 {
 	if nonzero <= 0 {
 		return Expected(SecondOrder)
 	}
@@ -115,6 +133,66 @@ func secondOrderShares(n, D, logLow float64) []float64 {
 		p[k] /= tot // the digit lengths summed are complete to rounding
 	}
 	return p
+}
+
+// SpacingSteps is the number of buckets a decade of the local spacing's
+// histogram (SecondOrderExpectedSpacing): bucket b holds the differences
+// whose local mean spacing μ, in units, has round(log10(μ)·SpacingSteps)
+// = b.
+const SpacingSteps = 50
+
+// SpacingWindow is the number of sorted neighbours on each side over
+// which a difference's local mean spacing is taken: (largest - smallest
+// amount of the window) / (amounts in it - 1). 50 a side gives the mean
+// of 100 differences, about 10% noise.
+const SpacingWindow = 50
+
+// SecondOrderExpectedSpacing returns the expected shares of the
+// second-order bins 10..99 for differences in whole units whose local
+// mean spacings are given, as a histogram: spacing[b] differences (zero
+// ones included) have a local mean spacing of about 10^(b/SpacingSteps)
+// units. Each difference is taken as the whole-unit rounding of an
+// exponential gap of its own local mean (the spacings of order statistics
+// of a smooth density, locally), so the expectation follows the
+// population's own density instead of a model of it: a population whose
+// amounts are not log-uniform (most ledgers, built from ranges and
+// mixtures) is read against its own spacing, and what stands out is
+// spacing the density does not explain, such as amounts a fixed step
+// apart. An empty histogram gives Expected(SecondOrder).
+func SecondOrderExpectedSpacing(spacing map[int]int64) []float64 {
+	if len(spacing) == 0 {
+		return Expected(SecondOrder)
+	}
+	p := make([]float64, 90)
+	var nonzero float64
+	for b, w := range spacing {
+		if w <= 0 {
+			continue
+		}
+		nonzero += addGapShares(p, math.Pow(10, -float64(b)/SpacingSteps), float64(w))
+	}
+	return normalizeGapShares(p, nonzero)
+}
+
+// SpacingHistogram returns the local mean spacing histogram of sorted
+// amounts in whole units (ascending), as SecondOrderExpectedSpacing reads
+// it and as the battery's second-order query computes it in SQL: the
+// difference between amounts i-1 and i has the local mean spacing of the
+// amounts i-W .. i+W (W = SpacingWindow, cut at the ends), (last -
+// first)/(amounts - 1); where those amounts are all equal the difference
+// is left out (all its neighbours are ties).
+func SpacingHistogram(sorted []int64) map[int]int64 {
+	h := map[int]int64{}
+	n := len(sorted)
+	for i := 1; i < n; i++ {
+		lo, hi := max(0, i-SpacingWindow), min(n-1, i+SpacingWindow)
+		mu := float64(sorted[hi]-sorted[lo]) / float64(hi-lo)
+		if mu <= 0 {
+			continue
+		}
+		h[int(math.Round(math.Log10(mu)*SpacingSteps))]++
+	}
+	return h
 }
 
 // AnalyzeExpected runs count-based digit test t against the expected
