@@ -64,8 +64,7 @@ Per test it prints:
     the test's bins, below 5%: two samples of one population have a
     flagged bin in at most about 5% of comparisons) and material: the
     share moved by at least --min-excess (20%) of the bin's share over
-    both sides, or that share of 2.5 percentage points when the bin holds
-    more than 2.5% (the margin of scan's bin flag).
+    both sides (the margin of scan's bin flag).
   - Each side's conformity to Benford's law: MAD, its published class,
     and the severity verdict against the MAD of conforming populations of
     the same N; "changed" when the class or the verdict differs.
@@ -130,7 +129,7 @@ func compareFlags(fs *pflag.FlagSet) func(args []string) (compareOptions, error)
 	fs.StringVar(&o.against, "against", "", "another workspace file as the right side (the --db workspace is the left)")
 	pop.add(fs)
 	o.compare = compare.DefaultOptions()
-	fs.Float64Var(&o.compare.MinExcess, "min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin's share moved by at least this share of its share (capped at this times 2.5 percentage points); 0 flags on significance alone")
+	fs.Float64Var(&o.compare.MinExcess, "min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin's share moved by at least this share of its share; 0 flags on significance alone")
 	fs.IntVar(&o.compare.Simulations, "simulations", compare.DefaultSimulations, "Monte Carlo tables for the homogeneity p-value when cells expect few amounts")
 	fs.Uint64Var(&o.compare.Seed, "seed", compare.DefaultSeed, "seed of the Monte Carlo tables")
 	fs.IntVar(&o.top, "top", compare.DefaultTop, "bins listed per test as changed most")

@@ -74,8 +74,9 @@ A bin is flagged when its count is beyond chance and material: its exact
 binomial p-value, adjusted by Holm's step-down over the test's bins, is
 below 5% (so a population that follows Benford's law has a flagged bin in
 at most 5% of tests, at any N and in any segment), and it is off by at
-least --min-excess (20%) of its expected share, or that share of 2.5
-percentage points of N when the bin expects more than 2.5%. The per-bin
+least --min-excess (20%) of its expected share (for first digit 1, 6
+percentage points: about where the published MAD classes turn from
+acceptable to marginal). The per-bin
 Z-statistic and its 1.96 bounds stay in the tables as the trade's
 reference: they mark about 5% of the bins of any population by chance.
 The first-two test also raises a local surplus flag: each stretch of up
@@ -135,7 +136,7 @@ func scanFlags(fs *pflag.FlagSet) func(args []string) (scanOptions, error) {
 	fs.StringVar(&o.battery.LastTwo, "last-two", battery.LastTwoScale, "last two digits of the amount as written at the ledger's scale (scale) or of its whole-currency part (units)")
 	fs.IntVar(&o.battery.Top, "top", battery.DefaultTop, "exact amounts listed by number duplication")
 	fs.BoolVar(&o.battery.LastTwoAll, "last-two-all", false, "last-two digits test on every amount (default: only where the two digits read are the fourth significant digit or later, e.g. amounts of 100.00 and more at scale 2)")
-	minExcess := fs.Float64("min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin is off by at least this share of its expectation (capped at this times 2.5 percentage points of N); 0 flags on significance alone")
+	minExcess := fs.Float64("min-excess", benford.DefaultMinExcess, "materiality margin of the bin flag: a flagged bin is off by at least this share of its expectation; 0 flags on significance alone")
 	fs.IntVar(&o.print.rankRows, "rank-rows", 20, "segments shown per ranking in text format (0 = all)")
 	fs.BoolVar(&o.print.allBins, "all-bins", false, "text format: print all 900 first-three digits bins (default: the flagged ones)")
 	f.add(fs)

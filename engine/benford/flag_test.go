@@ -101,9 +101,10 @@ func TestFlagMateriality(t *testing.T) {
 	if _, err := AnalyzeWith(FirstTwo, counts, Flagging{Alpha: FlagAlpha, MinExcess: -1}); err == nil {
 		t.Error("negative margin accepted")
 	}
-	// The margin: 20% of the share, capped at 0.5 percentage points of N.
-	if m := MaterialDiff(0.301, 0.2); math.Abs(m-0.005) > 1e-15 {
-		t.Errorf("first digit 1: margin %v, want 0.005", m)
+	// The margin: 20% of the share, for every bin (6.02 points for a bin
+	// of 30.1%).
+	if m := MaterialDiff(0.301, 0.2); math.Abs(m-0.0602) > 1e-15 {
+		t.Errorf("first digit 1: margin %v, want 0.0602", m)
 	}
 	if m := MaterialDiff(0.01, 0.2); math.Abs(m-0.002) > 1e-15 {
 		t.Errorf("last-two bin: margin %v, want 0.002", m)
@@ -222,5 +223,41 @@ func TestFlagExcluding(t *testing.T) {
 	r.FlagExcluding(discrete)
 	if r.Flagged != 1 || !r.Bins[47-10].Flagged || r.TopFlagged[0] != 47 {
 		t.Errorf("bin 47 +40%%: %d flagged, top %v", r.Flagged, r.TopFlagged)
+	}
+}
+
+// TestFlagAgreesWithMADSeverity: the bin flag's margin and the MAD's
+// severity verdict agree on what is material in the first-digit test. At
+// 470,000 amounts with 1s at 33.5% (3.4 points over Benford's law, the
+// other digits scaled down alike; MAD 0.0076, acceptable, Nigrini 2012)
+// every bin is beyond chance, no bin is material and the verdict says
+// immaterial; with 1s at 38.1% (8 points over; MAD 0.0178,
+// nonconforming) digit 1 is flagged and the verdict says material.
+func TestFlagAgreesWithMADSeverity(t *testing.T) {
+	p := Expected(FirstDigit)
+	at := func(p1 float64) []int64 {
+		c := make([]int64, 9)
+		for i := range c {
+			q := p[i] * (1 - p1) / (1 - p[0])
+			if i == 0 {
+				q = p1
+			}
+			c[i] = int64(math.Round(q * 470000))
+		}
+		return c
+	}
+	r, err := Analyze(FirstDigit, at(0.335))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Conformity != Acceptable || r.Flagged != 0 || r.Severity != BeyondChanceImmaterial {
+		t.Errorf("1s at 33.5%%: MAD %.4f %s, %d bins flagged, verdict %q; want acceptable, none, %q", r.MAD, r.Conformity, r.Flagged, r.Severity, BeyondChanceImmaterial)
+	}
+	r, err = Analyze(FirstDigit, at(0.381))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Conformity != Nonconforming || r.Flagged == 0 || r.TopFlagged[0] != 1 || r.Severity != BeyondChanceMaterial {
+		t.Errorf("1s at 38.1%%: MAD %.4f %s, %d bins flagged (top %v), verdict %q; want nonconforming, digit 1 flagged, %q", r.MAD, r.Conformity, r.Flagged, r.TopFlagged, r.Severity, BeyondChanceMaterial)
 	}
 }
