@@ -195,6 +195,9 @@ func (c *countsFlags) given() bool { return len(c.files) > 0 || c.query != "" }
 type countsReport struct {
 	*battery.Report
 	CountsSource *countsql.Source `json:"counts_source"`
+	// Drills are the engine's queries listing the records behind each
+	// flag (scan only).
+	Drills []countsql.BinDrill `json:"drills,omitempty"`
 }
 
 // check refuses --counts without --count-query (or the reverse) and the
@@ -234,14 +237,27 @@ func printCountsSource(w io.Writer, src *countsql.Source) {
 // input (rep.Input) is not the counts' and is left out.
 func scanCounts(ctx context.Context, e *env, o scanOptions) error {
 	started := time.Now()
-	rep, src, err := countsql.Scan(o.counts.query, o.counts.files, o.battery)
+	rep, src, drills, err := countsql.Scan(o.counts.query, o.counts.files, o.battery)
 	if err != nil {
 		return err
 	}
-	doc := &countsReport{Report: rep, CountsSource: src}
+	doc := &countsReport{Report: rep, CountsSource: src, Drills: drills}
 	run := workspace.Run{Kind: "scan", Started: started, Params: rep.Params, Result: doc, SetID: func(id int64) { rep.RunID = id }}
 	if done, err := storeCountsRun(ctx, e, o.db, run, src, o.format); done || err != nil {
 		return err
 	}
-	return printScan(e.stdout, o.format, rep, o.print)
+	if err := printScan(e.stdout, o.format, rep, o.print); err != nil || o.format != "text" || len(drills) == 0 {
+		return err
+	}
+	// The records behind the flags live on the engine: its own queries,
+	// one line each, to paste into its client.
+	fmt.Fprintf(e.stdout, "\nRecords behind the flags, as %s queries (one line each, for its client):\n", src.Engine)
+	for _, d := range drills {
+		where := "whole selection"
+		if d.Segment != "" {
+			where = d.Segment
+		}
+		fmt.Fprintf(e.stdout, "-- %s %s %s (%s, %s records)\n%s\n", d.Test, d.Signal, d.Bins, where, numfmt.Int(d.Count), d.Query)
+	}
+	return nil
 }

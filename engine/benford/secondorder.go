@@ -2,7 +2,9 @@ package benford
 
 import (
 	"fmt"
+	"maps"
 	"math"
+	"slices"
 	"sync"
 )
 
@@ -165,11 +167,12 @@ func SecondOrderExpectedSpacing(spacing map[int]int64) []float64 {
 	}
 	p := make([]float64, 90)
 	var nonzero float64
-	for b, w := range spacing {
-		if w <= 0 {
-			continue
+	// In bucket order: sums of floats depend on their order, and the same
+	// histogram must give the same shares to the last bit on every run.
+	for _, b := range slices.Sorted(maps.Keys(spacing)) {
+		if w := spacing[b]; w > 0 {
+			nonzero += addGapShares(p, math.Pow(10, -float64(b)/SpacingSteps), float64(w))
 		}
-		nonzero += addGapShares(p, math.Pow(10, -float64(b)/SpacingSteps), float64(w))
 	}
 	return normalizeGapShares(p, nonzero)
 }

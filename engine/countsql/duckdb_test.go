@@ -51,7 +51,19 @@ func TestDuckDBCountsEqualLocalScan(t *testing.T) {
 			}
 			one := filepath.Join(dir, "all.csv")
 			copyCounts(t, ws, q, one)
-			sameReports(t, local, countsReport(t, q, []string{one}, v))
+			counted := countsReport(t, q, []string{one}, v)
+			sameReports(t, local, counted)
+			// The digit bins' drill-down queries list exactly the records
+			// the counts put in the bins.
+			for _, d := range binDrills(t, q, counted) {
+				var n int64
+				if err := ws.Conn.QueryRowContext(ctx, "SELECT count(*) FROM ("+strings.TrimSuffix(d.query, ";")+")").Scan(&n); err != nil {
+					t.Fatalf("%v\n%s", err, d.query)
+				}
+				if n != d.want {
+					t.Errorf("bin drill-down lists %d records, the counts put %d there:\n%s", n, d.want, d.query)
+				}
+			}
 
 			var parts []string
 			for _, half := range []string{"h0", "h1"} {

@@ -12,8 +12,10 @@ import (
 	"testing"
 
 	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/drill/drilltest"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -138,7 +140,7 @@ func countsReport(t *testing.T, q string, files []string, v variant) *battery.Re
 		t.Fatal(err)
 	}
 	o := battery.Options{Tests: battery.CountTests(), By: v.local, MinSegmentRows: 50}
-	rep, src, err := Scan(qp, files, o)
+	rep, src, _, err := Scan(qp, files, o)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -197,3 +199,70 @@ func stripQuery(q string) string {
 }
 
 func itoa(n int) string { return strconv.Itoa(n) }
+
+// binDrills returns drill-down checks of digit bins for a scan on counts
+// (rep, from the query q): for the whole selection and the first segment,
+// every count test's fullest bin and its emptiest non-empty bin, and the
+// first-two stretch 45 to 49, each with the count the counts put there;
+// and the drills Drills makes for the report's flags. Every query must
+// list exactly its count on the engine.
+func binDrills(t *testing.T, q string, rep *battery.Report) []drillCheck {
+	t.Helper()
+	spec, err := ReadQuery(q)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	for _, s := range spec.By {
+		names = append(names, s.Name)
+	}
+	var out []drillCheck
+	add := func(c *battery.Counts, key segment.Key) {
+		for _, tt := range battery.CountTests() {
+			b := c.Bins(tt)
+			lo, _ := tt.Bins()
+			most, least := -1, -1
+			for i, n := range b {
+				if most < 0 || n > b[most] {
+					most = i
+				}
+				if n > 0 && (least < 0 || n < b[least]) {
+					least = i
+				}
+			}
+			for _, i := range []int{most, least} {
+				if i < 0 {
+					continue
+				}
+				rq, err := BinRecordsQuery(spec, tt, lo+i, lo+i, names, key)
+				if err != nil {
+					t.Fatal(err)
+				}
+				out = append(out, drillCheck{rq, b[i]})
+			}
+			if tt == benford.FirstTwo {
+				var n int64
+				for i := 45 - lo; i <= 49-lo; i++ {
+					n += b[i]
+				}
+				rq, err := BinRecordsQuery(spec, tt, 45, 49, names, key)
+				if err != nil {
+					t.Fatal(err)
+				}
+				out = append(out, drillCheck{rq, n})
+			}
+		}
+	}
+	add(rep.Counts, nil)
+	if len(rep.SegmentResults) > 0 {
+		add(rep.SegmentResults[0].Counts, rep.SegmentResults[0].Key)
+	}
+	flags, err := Drills(spec, rep, names)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, d := range flags {
+		out = append(out, drillCheck{d.Query, d.Count})
+	}
+	return out
+}

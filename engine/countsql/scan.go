@@ -6,7 +6,9 @@ import (
 	"strings"
 
 	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/segment"
 )
 
 // Source says where a run's counts came from: the engine, the table, the
@@ -30,24 +32,36 @@ type Source struct {
 // exactly, and the statistics are those of a local scan of the same rows.
 // From o it takes the tests, the segments (--by, names among the query's
 // segments) and the ranking options; the population is the query's.
-func Scan(queryPath string, files []string, o battery.Options) (*battery.Report, *Source, error) {
+func Scan(queryPath string, files []string, o battery.Options) (*battery.Report, *Source, []BinDrill, error) {
+	rep, src, spec, names, err := scan(queryPath, files, o)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	drills, err := Drills(spec, rep, names)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	return rep, src, drills, nil
+}
+
+func scan(queryPath string, files []string, o battery.Options) (*battery.Report, *Source, Spec, []string, error) {
 	spec, text, err := readSpec(queryPath)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, spec, nil, err
 	}
 	if spec.Test != "" {
-		return nil, nil, fmt.Errorf("--count-query %s counts the bands of leadline %s: run leadline %s --counts with it, or print the battery's query with count-sql", queryPath, spec.Test, spec.Test)
+		return nil, nil, spec, nil, fmt.Errorf("--count-query %s counts the bands of leadline %s: run leadline %s --counts with it, or print the battery's query with count-sql", queryPath, spec.Test, spec.Test)
 	}
 	m, err := ReadFiles(files)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, spec, nil, err
 	}
 	if err := sameSegments(m.By, spec, queryPath); err != nil {
-		return nil, nil, err
+		return nil, nil, spec, nil, err
 	}
 	all, segs, err := m.Counts(o.By, spec.Scale)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, spec, nil, err
 	}
 	o.Spec = population.Spec{Where: spec.Where, Signs: spec.Signs, Min: spec.Min}
 	o.LastTwo = spec.LastTwo
@@ -66,10 +80,10 @@ func Scan(queryPath string, files []string, o battery.Options) (*battery.Report,
 	}
 	rep, err := battery.FromCounts(o, spec.Scale, AmountType(spec), names, all, segs)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, spec, nil, err
 	}
 	src := &Source{Engine: spec.Engine, Table: spec.Table, Query: queryPath, QuerySHA256: SHA256(text), Files: m.Files}
-	return rep, src, nil
+	return rep, src, spec, names, nil
 }
 
 // readSpec reads a query file count-sql printed and the spec on its first
@@ -103,4 +117,58 @@ func sameSegments(by []string, spec Spec, queryPath string) error {
 // AmountType describes the amounts counted elsewhere, for the report.
 func AmountType(s Spec) string {
 	return fmt.Sprintf("whole units of 10^-%d, counted by %s", s.Scale, s.Engine)
+}
+
+// BinDrill is the engine's query that lists the records behind a flagged
+// digit bin (or a flagged stretch of first-two bins) of a scan on counts.
+type BinDrill struct {
+	Test    benford.Test `json:"test"`
+	Segment string       `json:"segment,omitempty"` // the segment's label; empty for the whole selection
+	Bins    string       `json:"bins"`              // e.g. "47", or "45-49" for a stretch
+	Signal  string       `json:"signal"`            // "bin flag" or "local surplus"
+	Count   int64        `json:"count"`             // records the counts put there
+	Query   string       `json:"query"`
+}
+
+// Drills returns the drill-down queries of a scan on counts: for the
+// whole selection and every ranked segment, each test's bins to follow up
+// first (TopFlagged) and the first-two test's flagged local surplus
+// stretches, in the engine's SQL (BinRecordsQuery). names are the segment
+// names of the query, in the report's order.
+func Drills(spec Spec, rep *battery.Report, names []string) ([]BinDrill, error) {
+	out := []BinDrill{}
+	add := func(label string, key segment.Key, rs []benford.Result) error {
+		for _, r := range rs {
+			bins := map[int]benford.Bin{}
+			for _, b := range r.Bins {
+				bins[b.Bin] = b
+			}
+			for _, b := range r.TopFlagged {
+				q, err := BinRecordsQuery(spec, r.Test, b, b, names, key)
+				if err != nil {
+					return err
+				}
+				out = append(out, BinDrill{Test: r.Test, Segment: label, Bins: r.Test.Label(b), Signal: "bin flag", Count: bins[b].Count, Query: q})
+			}
+			if l := r.LocalSurplus; l != nil {
+				for _, st := range l.Flagged {
+					q, err := BinRecordsQuery(spec, r.Test, st.FromBin, st.ToBin, names, key)
+					if err != nil {
+						return err
+					}
+					out = append(out, BinDrill{Test: r.Test, Segment: label, Bins: st.Label(), Signal: "local surplus", Count: st.Count, Query: q})
+				}
+			}
+		}
+		return nil
+	}
+	if err := add("", nil, rep.Tests); err != nil {
+		return nil, err
+	}
+	for _, sr := range rep.SegmentResults {
+		if err := add(sr.Key.Label(), sr.Key, sr.Results); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
 }
