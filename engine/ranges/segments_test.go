@@ -1,14 +1,21 @@
 package ranges
 
 import (
+	"context"
 	"database/sql"
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
+	"strings"
 	"testing"
 
 	"github.com/leadline/leadline/engine/benford"
+	"github.com/leadline/leadline/engine/drill"
+	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/segment"
+	"github.com/leadline/leadline/engine/workspace"
 	"github.com/leadline/leadline/fixtures"
 )
 
@@ -205,4 +212,74 @@ func TestScoreSegmentsAdjustment(t *testing.T) {
 			t.Errorf("flagged segment %s ranked after an unflagged one", sr.Label)
 		}
 	}
+}
+
+// TestRunBy: a run with --by keeps the whole selection's table exactly as
+// without it, scores only the segments of at least MinSegment amounts,
+// and every band of every scored segment drills down (with the segment)
+// to exactly the amounts it counted; the segments' counts add up to the
+// whole selection's.
+func TestRunBy(t *testing.T) {
+	ws := loadRows(t, boundaryRows())
+	ctx := context.Background()
+	base := Options{Layout: Layout{Width: 2500, To: 30000}, Spec: population.Spec{Signs: "both", Min: "1"}}
+	plain, err := Run(ctx, ws, base)
+	if err != nil {
+		t.Fatal(err)
+	}
+	o := base
+	o.By, o.MinSegment = []string{"entity", "month"}, 150
+	rep, err := Run(ctx, ws, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, _ := json.Marshal(plain.Bands)
+	b, _ := json.Marshal(rep.Bands)
+	if string(a) != string(b) || plain.Counts != rep.Counts {
+		t.Errorf("the whole selection's table changed with --by")
+	}
+	combos := map[string]bool{}
+	for _, r := range boundaryRows() {
+		combos[r.entity+"/"+r.posted[:7]] = true
+	}
+	st := rep.Segments
+	if st == nil || st.Count != len(combos) || len(st.By) != 2 || st.By[0] != "entity" || st.By[1] != "month" {
+		t.Fatalf("segments: %v", st)
+	}
+	var tested int64 = st.TooSmallTested
+	for _, sr := range st.Rows {
+		if sr.Counts.Tested < 150 {
+			t.Errorf("segment %s of %d amounts scored", sr.Label, sr.Counts.Tested)
+		}
+		tested += sr.Counts.Tested
+		var sum int64
+		for _, band := range sr.Bands {
+			sel := drill.Selection{Spec: rep.Population, Range: band.Range, Segments: sr.Key().DrillSegments(mustResolve(t, ws, o.By))}
+			if got := drillCount(t, ws, sel); got != band.Count {
+				t.Errorf("segment %s band %s: %d counted, drill finds %d", sr.Label, band.Range, band.Count, got)
+			}
+			sum += band.Count
+		}
+		if sum+sr.BelowBands+sr.AboveBands != sr.Counts.Tested {
+			t.Errorf("segment %s: bands %d + below %d + above %d != tested %d", sr.Label, sum, sr.BelowBands, sr.AboveBands, sr.Counts.Tested)
+		}
+	}
+	if st.Scored+st.TooSmall != st.Count || st.Scored == 0 || st.TooSmall == 0 || tested != rep.Counts.Tested {
+		t.Errorf("%d scored + %d too small of %d segments; %d amounts in the segments, %d tested", st.Scored, st.TooSmall, st.Count, tested, rep.Counts.Tested)
+	}
+	if _, err := Run(ctx, ws, Options{By: []string{"nope"}}); err == nil || !strings.Contains(err.Error(), "--by") {
+		t.Errorf("--by nope: %v", err)
+	}
+	if _, err := Run(ctx, ws, Options{By: []string{"entity"}, MinSegment: -1}); err == nil || !strings.Contains(err.Error(), "--min-segment -1") {
+		t.Errorf("min segment -1: %v", err)
+	}
+}
+
+func mustResolve(t *testing.T, ws *workspace.Workspace, by []string) []Segment {
+	t.Helper()
+	segs, err := segment.Resolve(context.Background(), ws, by)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return segs
 }
