@@ -127,6 +127,9 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 				return o, err
 			}
 		}
+		if fs.Changed("by") && len(o.ranges.By) == 0 {
+			return o, fmt.Errorf("--by: give a column name, e.g. --by entity")
+		}
 		if fs.Changed("min-segment") && len(o.ranges.By) == 0 {
 			return o, fmt.Errorf("--min-segment goes with --by: give the segment column(s), e.g. --by entity")
 		}
@@ -146,7 +149,7 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 				return o, err
 			}
 		} else {
-			o.ranges.MinSegment = 0
+			o.ranges.By, o.ranges.MinSegment = nil, 0
 		}
 		o.format = f.value
 		return o, nil
@@ -294,10 +297,13 @@ func printRangeSegments(w io.Writer, st *ranges.SegmentTable, top, scale int) er
 	if st.TooSmall > 0 {
 		fmt.Fprintf(w, ", %s with fewer (%s amounts) not scored", numfmt.Int(int64(st.TooSmall)), numfmt.Int(st.TooSmallTested))
 	}
+	if st.NoBand > 0 {
+		fmt.Fprintf(w, ", %s whose amounts (%s) span too few bands to score one", numfmt.Int(int64(st.NoBand)), numfmt.Int(st.NoBandTested))
+	}
 	fmt.Fprintf(w, ".\nFlags Holm-adjusted over all %s scored (segment, band) pairs of the segments at 5%% (the whole selection's table is its own family): %s flagged in %s segment(s).\n\n",
 		numfmt.Int(int64(st.Pairs)), numfmt.Int(int64(st.Flagged)), numfmt.Int(int64(st.FlaggedSegments)))
 	if len(st.Rows) == 0 {
-		fmt.Fprintln(w, "No segment has enough tested amounts to be scored: lower --min-segment or choose a coarser --by.")
+		fmt.Fprintln(w, "No segment could be scored: a segment needs --min-segment tested amounts spread over enough bands; choose a coarser --by, or lower --min-segment.")
 		return nil
 	}
 	t := &tabular.Table{Name: "ranges_segments"}

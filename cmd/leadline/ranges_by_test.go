@@ -255,7 +255,7 @@ func fmtInt(n int) string {
 
 // TestRangesByFlags: --by and --min-segment are refused with --counts
 // (count-sql --test ranges counts no segments), --min-segment without
-// --by, and a --min-segment below 1.
+// --by, an empty --by, and a --min-segment below 1.
 func TestRangesByFlags(t *testing.T) {
 	for _, c := range []struct {
 		args []string
@@ -264,6 +264,7 @@ func TestRangesByFlags(t *testing.T) {
 		{[]string{"--by", "entity", "--counts", "c.csv", "--count-query", "q.sql"}, "--by: ranges --counts scores the whole selection only"},
 		{[]string{"--by", "entity", "--min-segment", "50", "--counts", "c.csv", "--count-query", "q.sql"}, "--by: ranges --counts"},
 		{[]string{"--min-segment", "50"}, "--min-segment goes with --by"},
+		{[]string{"--by", ""}, "--by: give a column name"},
 		{[]string{"--by", "entity", "--min-segment", "0"}, "--min-segment 0: give 1 or more"},
 		{[]string{"--by", "entity", "--top", "-1"}, "--top -1"},
 	} {

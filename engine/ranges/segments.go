@@ -52,9 +52,11 @@ type SegmentTable struct {
 	By              []string     `json:"by"`
 	MinSegment      int64        `json:"min_segment"`
 	Count           int          `json:"count"`            // segments with rows
-	Scored          int          `json:"scored"`           // segments with at least min_segment tested amounts
+	Scored          int          `json:"scored"`           // segments with at least min_segment tested amounts and a band scored: the rows
 	TooSmall        int          `json:"too_small"`        // segments with fewer, not scored
 	TooSmallTested  int64        `json:"too_small_tested"` // tested amounts in those segments
+	NoBand          int          `json:"no_band"`          // segments large enough whose amounts span too few bands to score one
+	NoBandTested    int64        `json:"no_band_tested"`   // tested amounts in those segments
 	Pairs           int          `json:"pairs"`            // scored (segment, band) pairs: the Holm family
 	Flagged         int          `json:"flagged"`          // flagged pairs
 	FlaggedSegments int          `json:"flagged_segments"` // segments with a flagged band
@@ -85,7 +87,8 @@ func (r *SegmentRow) Key() Key { return r.key }
 
 // ScoreSegments scores the bands in every group (one per segment of segs,
 // counted between the bands' edges) with at least minSegment tested
-// amounts, each on its own counts and range of amounts, then adjusts the
+// amounts, each on its own counts and range of amounts (a segment in
+// which no band can be scored is counted in NoBand, not listed), then adjusts the
 // bands' p-values by Holm over every scored (segment, band) pair of the
 // run, so that the flag keeps its 5% family-wise meaning however many
 // segments there are. minAmount is the population's minimum, scale the
@@ -124,6 +127,13 @@ func ScoreSegments(bands []benford.Band, groups []Group, segs []Segment, minAmou
 				refs = append(refs, ref{len(t.Rows), j})
 				scored = append(scored, rows[j].Band)
 			}
+		}
+		if len(scored) == 0 {
+			// Counted, not listed: a table without a scored band says
+			// nothing, and a fine --by would list thousands of them.
+			t.NoBand++
+			t.NoBandTested += g.Tested
+			continue
 		}
 		sr.Scored = len(scored)
 		sr.Dispersion = benford.BandDispersion(scored)

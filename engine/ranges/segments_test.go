@@ -162,24 +162,30 @@ func TestSegmentsFalseAlarmsAndDetection(t *testing.T) {
 
 // TestScoreSegmentsAdjustment: every scored pair's p_adjusted is Holm's
 // adjustment over all scored pairs of the segments (recomputed here from
-// the raw p-values), segments below the minimum are counted and not
-// scored, and the ranking puts the flagged segment first with its drill.
+// the raw p-values), segments below the minimum or without a scorable
+// band are counted and not listed, and the ranking puts the flagged
+// segment first with its drill.
 func TestScoreSegmentsAdjustment(t *testing.T) {
 	ledger := segLedger(3, 300, 4)
 	ledger[0] = ledger[0][:400] // below the minimum segment size
+	ledger[1] = nil             // 1,500 amounts in [100, 400): one band, none scorable
+	for k := range 1500 {
+		ledger[1] = append(ledger[1], 10000+int64(k)*20)
+	}
 	bands, groups := segGroups(t, Layout{Width: 500, To: 20000}, ledger)
 	st, err := ScoreSegments(bands, groups, nil, 10, DefaultMinSegment, 2, func(k Key, _, _ float64, r string) string { return k.Label() + " " + r })
 	if err != nil {
 		t.Fatal(err)
 	}
-	if st.Count != 20 || st.Scored != 19 || st.TooSmall != 1 || st.TooSmallTested != 400 {
-		t.Errorf("count %d scored %d too small %d (%d amounts), want 20, 19, 1 (400)", st.Count, st.Scored, st.TooSmall, st.TooSmallTested)
+	if st.Count != 20 || st.Scored != 18 || st.TooSmall != 1 || st.TooSmallTested != 400 || st.NoBand != 1 || st.NoBandTested != 1500 || len(st.Rows) != 18 {
+		t.Errorf("count %d scored %d (%d rows) too small %d (%d amounts) no band %d (%d amounts), want 20, 18, 1 (400), 1 (1,500)",
+			st.Count, st.Scored, len(st.Rows), st.TooSmall, st.TooSmallTested, st.NoBand, st.NoBandTested)
 	}
 	var p []float64
 	var got []float64
 	for _, sr := range st.Rows {
-		if sr.Label == "S00" {
-			t.Errorf("segment S00 of 400 amounts scored")
+		if sr.Label == "S00" || sr.Label == "S01" {
+			t.Errorf("segment %s listed", sr.Label)
 		}
 		for _, b := range sr.Bands {
 			if b.Scored {
@@ -188,7 +194,7 @@ func TestScoreSegmentsAdjustment(t *testing.T) {
 			}
 		}
 	}
-	if len(p) != st.Pairs || st.Pairs < 19*30 {
+	if len(p) != st.Pairs || st.Pairs < 18*30 {
 		t.Fatalf("%d scored pairs listed, %d counted", len(p), st.Pairs)
 	}
 	want := benford.Holm(p) // Holm (1979), engine/benford's implementation checked against the paper's definition there
@@ -264,8 +270,10 @@ func TestRunBy(t *testing.T) {
 			t.Errorf("segment %s: bands %d + below %d + above %d != tested %d", sr.Label, sum, sr.BelowBands, sr.AboveBands, sr.Counts.Tested)
 		}
 	}
-	if st.Scored+st.TooSmall != st.Count || st.Scored == 0 || st.TooSmall == 0 || tested != rep.Counts.Tested {
-		t.Errorf("%d scored + %d too small of %d segments; %d amounts in the segments, %d tested", st.Scored, st.TooSmall, st.Count, tested, rep.Counts.Tested)
+	tested += st.NoBandTested
+	if st.Scored+st.TooSmall+st.NoBand != st.Count || st.Scored == 0 || st.TooSmall == 0 || tested != rep.Counts.Tested {
+		t.Errorf("%d scored + %d too small + %d without a band of %d segments; %d amounts in the segments, %d tested",
+			st.Scored, st.TooSmall, st.NoBand, st.Count, tested, rep.Counts.Tested)
 	}
 	if _, err := Run(ctx, ws, Options{By: []string{"nope"}}); err == nil || !strings.Contains(err.Error(), "--by") {
 		t.Errorf("--by nope: %v", err)
