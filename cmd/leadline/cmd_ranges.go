@@ -45,6 +45,20 @@ the drill command that lists its records. The rates at which it flags
 bands without cause, and finds injected ones, are in the README (Range
 table: false alarms and detection).
 
+With --by, the table is also run in every segment (entity, account,
+counterparty, user_id, source, year, quarter, month of the posted date,
+or any original column; several --by columns make segments of their
+combinations), all from one scan. The bands are those of the whole
+selection, so they line up across segments; each segment with at least
+--min-segment tested amounts is scored on its own counts (bands its
+amounts do not reach are "not scored", as at the edges of the whole
+table). The segments' flags are adjusted together: Holm over all scored
+(segment, band) pairs of the segments at 5%, so that the chance of a
+flag anywhere in the segments stays at 5% however many there are (the
+whole selection's table stays its own family). Segments are ranked by
+their strongest band, and each flagged range in a segment has the drill
+command that lists its records in that segment.
+
 The amounts tested are those of the digit battery and the drill-down:
 positive amounts of at least 10 by default (--signs, --min), narrowed by
 --where. Bands are on absolute amounts: with --signs negative, 4500:5000
@@ -56,12 +70,15 @@ scales and contract values inflate ranges for ordinary reasons.
 With --counts FILE... --count-query QUERY the bands are counted by another
 engine (leadline count-sql --test ranges): the files are added up
 exactly, the layout and population are the query's, and each flagged
-range's drill is that engine's query listing the records.
+range's drill is that engine's query listing the records. --by does not
+go with --counts: count-sql --test ranges counts no segments (count one
+segment at a time with count-sql --where).
 
 Examples:
   leadline ranges                                   # logarithmic bands, 10 a decade
   leadline ranges --width 500 --from 0 --to 20000   # fixed-width bands of 500
   leadline ranges --per-decade 20 --where "entity = 'KELP'"
+  leadline ranges --width 500 --to 20000 --by cost_centre  # every cost centre on the same bands
   leadline ranges --width 1000 --to 50000 --signs negative --format csv > bands.csv`,
 		flags: thin(rangesFlags, runRanges),
 	})
@@ -72,6 +89,7 @@ type rangesOptions struct {
 	db     dbFlags
 	format string
 	ranges ranges.Options
+	top    int         // segments shown in text format (0 = all)
 	counts countsFlags // --counts, --count-query: the bands on counts made elsewhere
 }
 
@@ -85,6 +103,9 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 	fs.IntVar(&o.ranges.PerDecade, "per-decade", 0, "logarithmic bands to a decade (default 10 when --width is not given)")
 	fs.Float64Var(&o.ranges.From, "from", 0, "start of the bands (default: 0 for fixed-width bands, the smallest tested amount for logarithmic ones)")
 	fs.Float64Var(&o.ranges.To, "to", 0, "end of the bands (default: the largest tested amount)")
+	fs.StringSliceVar(&o.ranges.By, "by", nil, "segment column(s): entity, account, counterparty, user_id, source, year, quarter, month or an original column (repeatable; several make one segmentation of their combinations); flags adjusted over all (segment, band) pairs")
+	fs.Int64Var(&o.ranges.MinSegment, "min-segment", ranges.DefaultMinSegment, "with --by: fewest tested amounts for a segment to be scored")
+	fs.IntVar(&o.top, "top", 20, "with --by: segments shown in text format (0 = all)")
 	pop.add(fs)
 	pop.addCurrency(fs)
 	f.add(fs)
@@ -97,13 +118,38 @@ func rangesFlags(fs *pflag.FlagSet) func(args []string) (rangesOptions, error) {
 			return o, fmt.Errorf("unexpected argument %q (see --help)", args[0])
 		}
 		if o.counts.given() {
+			for _, name := range []string{"by", "min-segment"} {
+				if fs.Changed(name) {
+					return o, fmt.Errorf("--%s: ranges --counts scores the whole selection only (count-sql --test ranges counts no segments); run ranges --by on the workspace, or count one segment at a time with count-sql --where", name)
+				}
+			}
 			if err := o.counts.check(fs, "width", "per-decade", "from", "to"); err != nil {
 				return o, err
 			}
 		}
+		if fs.Changed("by") && len(o.ranges.By) == 0 {
+			return o, fmt.Errorf("--by: give a column name, e.g. --by entity")
+		}
+		if fs.Changed("min-segment") && len(o.ranges.By) == 0 {
+			return o, fmt.Errorf("--min-segment goes with --by: give the segment column(s), e.g. --by entity")
+		}
+		if o.top < 0 {
+			return o, fmt.Errorf("--top %d: give 0 (all) or more", o.top)
+		}
 		o.ranges.Spec = pop.base()
 		if err := o.ranges.Layout.Check(); err != nil {
 			return o, err
+		}
+		if err := ranges.CheckMinSegment(o.ranges.MinSegment); err != nil {
+			return o, err
+		}
+		var err error
+		if o.ranges.By != nil {
+			if o.ranges, err = o.ranges.CheckSegments(); err != nil {
+				return o, err
+			}
+		} else {
+			o.ranges.By, o.ranges.MinSegment = nil, 0
 		}
 		o.format = f.value
 		return o, nil
@@ -128,7 +174,7 @@ func runRanges(ctx context.Context, e *env, o rangesOptions) error {
 	if _, err := ws.SaveRun(ctx, workspace.Run{Kind: "ranges", Started: started, Params: o.ranges, Result: rep, SetID: func(id int64) { rep.RunID = id }}); err != nil {
 		return err
 	}
-	return printRanges(e.stdout, o.format, rep)
+	return printRangesTop(e.stdout, o.format, rep, o.top)
 }
 
 // bandPopulation are the flags that choose the amounts tested, as in the
@@ -171,12 +217,21 @@ func bandPopulationLine(b population.Spec, c ranges.Counts) string {
 }
 
 func printRanges(w io.Writer, format string, rep *ranges.Report) error {
+	return printRangesTop(w, format, rep, 20)
+}
+
+// printRangesTop prints a range table; with segments, top of them in text
+// (0 = all).
+func printRangesTop(w io.Writer, format string, rep *ranges.Report, top int) error {
 	if format == "json" {
 		return writeJSON(w, rep)
 	}
 	scale := bf.scale(rep.AmountType)
 	t := &tabular.Table{Name: "ranges", Columns: []string{"from", "to", "count", "expected", "ratio", "z", "p", "p_adjusted", "flagged", "note", "range"}}
 	if format == "csv" {
+		if rep.Segments != nil {
+			return rangesSegmentsCSV(w, rep)
+		}
 		for _, b := range rep.Bands {
 			t.Add(b.From, b.To, b.Count, b.Expected, b.Ratio, b.Z, b.P, b.PAdjusted, b.Flagged, b.Note, b.Range)
 		}
@@ -205,25 +260,136 @@ func printRanges(w io.Writer, format string, rep *ranges.Report) error {
 	if err := t.WriteText(w, 0); err != nil {
 		return err
 	}
-	if rep.Scored == 0 {
+	switch {
+	case rep.Scored == 0:
 		fmt.Fprintln(w, "\nNo band could be scored: each needs scorable bands on both sides; give more bands (--per-decade, a smaller --width).")
-		return nil
-	}
-	if len(rep.Stretches) == 0 {
+	case len(rep.Stretches) == 0:
 		fmt.Fprintln(w, "\nNo range stands out against its neighbours at the 5% family-wise level.")
-		return nil
+	default:
+		fmt.Fprintln(w, "\nInflated ranges (adjacent flagged bands), largest excess first:")
+		printStretches(w, rep.Stretches, 5, "  ", scale)
 	}
-	fmt.Fprintln(w, "\nInflated ranges (adjacent flagged bands), largest excess first:")
-	for i, s := range rep.Stretches {
-		if i == 5 {
-			fmt.Fprintf(w, "  ... and %d more (--format json lists them all)\n", len(rep.Stretches)-i)
-			break
-		}
-		fmt.Fprintf(w, "  %s to %s: %d band(s), %s amounts against %s expected (excess %s)\n    %s\n",
-			bandAmount(s.From, scale), bandAmount(s.To, scale), s.Bands,
-			numfmt.Int(s.Count), numfmt.Int(int64(s.Expected+0.5)), numfmt.Int(int64(math.Round(s.Excess))), s.Drill)
+	if rep.Segments != nil {
+		return printRangeSegments(w, rep.Segments, top, scale)
 	}
 	return nil
+}
+
+// printStretches lists the first n inflated ranges with their drill.
+func printStretches(w io.Writer, st []ranges.Stretch, n int, indent string, scale int) {
+	for i, s := range st {
+		if i == n {
+			fmt.Fprintf(w, "%s... and %d more (--format json lists them all)\n", indent, len(st)-i)
+			break
+		}
+		fmt.Fprintf(w, "%s%s to %s: %d band(s), %s amounts against %s expected (excess %s)\n%s  %s\n",
+			indent, bandAmount(s.From, scale), bandAmount(s.To, scale), s.Bands,
+			numfmt.Int(s.Count), numfmt.Int(int64(s.Expected+0.5)), numfmt.Int(int64(math.Round(s.Excess))), indent, s.Drill)
+	}
+}
+
+// printRangeSegments prints the segment part of a range table: the
+// ranking by strongest band and the inflated ranges of the flagged
+// segments.
+func printRangeSegments(w io.Writer, st *ranges.SegmentTable, top, scale int) error {
+	fmt.Fprintf(w, "\nSegments by %s: %s with rows; %s with at least %s tested amounts scored on the bands above",
+		strings.Join(st.By, ", "), numfmt.Int(int64(st.Count)), numfmt.Int(int64(st.Scored)), numfmt.Int(st.MinSegment))
+	if st.TooSmall > 0 {
+		fmt.Fprintf(w, ", %s with fewer (%s amounts) not scored", numfmt.Int(int64(st.TooSmall)), numfmt.Int(st.TooSmallTested))
+	}
+	if st.NoBand > 0 {
+		fmt.Fprintf(w, ", %s whose amounts (%s) span too few bands to score one", numfmt.Int(int64(st.NoBand)), numfmt.Int(st.NoBandTested))
+	}
+	fmt.Fprintf(w, ".\nFlags Holm-adjusted over all %s scored (segment, band) pairs of the segments at 5%% (the whole selection's table is its own family): %s flagged in %s segment(s).\n\n",
+		numfmt.Int(int64(st.Pairs)), numfmt.Int(int64(st.Flagged)), numfmt.Int(int64(st.FlaggedSegments)))
+	if len(st.Rows) == 0 {
+		fmt.Fprintln(w, "No segment could be scored: a segment needs --min-segment tested amounts spread over enough bands; choose a coarser --by, or lower --min-segment.")
+		return nil
+	}
+	t := &tabular.Table{Name: "ranges_segments"}
+	t.Columns = append([]string{"rank"}, st.By...)
+	t.Columns = append(t.Columns, "tested", "scored", "flagged", "strongest_band", "count", "expected", "ratio", "z", "p_adjusted", "flag")
+	shown := 0
+	for _, r := range st.Rows {
+		if top > 0 && shown == top {
+			break
+		}
+		row := append([]any{r.Rank}, segmentCells(st.By, r.Segment)...)
+		row = append(row, numfmt.Int(r.Counts.Tested), numfmt.Int(int64(r.Scored)), numfmt.Int(int64(r.Flagged)))
+		if b := r.Strongest; b != nil {
+			row = append(row, bandAmount(b.From, scale)+" to "+bandAmount(b.To, scale), numfmt.Int(b.Count), numfmt.Int(int64(b.Expected+0.5)),
+				numfmt.Stat(b.Ratio), numfmt.Stat(b.Z), bf.p(b.PAdjusted), bf.flag(b.Flagged))
+		} else {
+			row = append(row, "(none scored)", "", "", "", "", "", "")
+		}
+		t.Add(row...)
+		shown++
+	}
+	fmt.Fprintln(w, "Segments ranked by their strongest band (smallest adjusted p, then largest z):")
+	if err := t.WriteText(w, 0); err != nil {
+		return err
+	}
+	if shown < len(st.Rows) {
+		fmt.Fprintf(w, "(first %d of %d segments; --top 0 for all, or --format csv)\n", shown, len(st.Rows))
+	}
+	if st.Flagged == 0 {
+		fmt.Fprintln(w, "\nNo range stands out in any segment at the 5% family-wise level over the segments.")
+		return nil
+	}
+	fmt.Fprintln(w, "\nInflated ranges per flagged segment, largest excess first:")
+	printed := 0
+	for _, r := range st.Rows {
+		if r.Flagged == 0 {
+			continue
+		}
+		if top > 0 && printed == top {
+			fmt.Fprintf(w, "  ... %d segments flagged in all (--format json has every drill command)\n", st.FlaggedSegments)
+			break
+		}
+		fmt.Fprintf(w, "  %s:\n", r.Label)
+		printStretches(w, r.Stretches, 3, "    ", scale)
+		printed++
+	}
+	return nil
+}
+
+// segmentCells writes a segment's value of each --by column ("(all)" for
+// the whole selection, "(blank)" for a blank value).
+func segmentCells(by []string, seg map[string]*string) []any {
+	var out []any
+	for _, name := range by {
+		switch v, ok := seg[name]; {
+		case seg == nil:
+			out = append(out, "(all)")
+		case !ok || v == nil:
+			out = append(out, "(blank)")
+		default:
+			out = append(out, *v)
+		}
+	}
+	return out
+}
+
+// rangesSegmentsCSV prints the bands of the whole selection and of every
+// scored segment, one row per (segment, band).
+func rangesSegmentsCSV(w io.Writer, rep *ranges.Report) error {
+	st := rep.Segments
+	t := &tabular.Table{Name: "ranges"}
+	t.Columns = append(append([]string{}, st.By...), "from", "to", "count", "expected", "ratio", "z", "p", "p_adjusted", "flagged", "note", "range", "drill")
+	add := func(seg map[string]*string, b ranges.Row) {
+		row := segmentCells(st.By, seg)
+		row = append(row, b.From, b.To, b.Count, b.Expected, b.Ratio, b.Z, b.P, b.PAdjusted, b.Flagged, b.Note, b.Range, b.Drill)
+		t.Add(row...)
+	}
+	for _, b := range rep.Bands {
+		add(nil, b)
+	}
+	for _, r := range st.Rows {
+		for _, b := range r.Bands {
+			add(r.Segment, b)
+		}
+	}
+	return t.WriteCSV(w)
 }
 
 // fitText describes the local fit chosen by cross-validation.

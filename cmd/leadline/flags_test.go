@@ -169,7 +169,7 @@ func TestRangesFlags(t *testing.T) {
 	want := rangesOptions{db: defaultDB, format: "text", ranges: ranges.Options{
 		Spec:   population.Spec{Signs: "negative", Min: population.DefaultMin},
 		Layout: ranges.Layout{Width: 500, From: 0, To: 20000},
-	}}
+	}, top: 20}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("ranges options\n got %+v\nwant %+v", got, want)
 	}

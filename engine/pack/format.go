@@ -126,11 +126,13 @@ type Limits struct {
 
 // Ranges is the [ranges] table: the amount-range table.
 type Ranges struct {
-	Enabled   *bool  `toml:"enabled" json:"enabled"`
-	Width     Number `toml:"width" json:"width"`           // fixed band width in currency units, or
-	PerDecade Number `toml:"per_decade" json:"per_decade"` // bands per power of ten (default 20)
-	From      Number `toml:"from" json:"from"`             // first band's start (default: 0 or the smallest amount)
-	To        Number `toml:"to" json:"to"`                 // last band's end (default: the largest amount)
+	Enabled    *bool    `toml:"enabled" json:"enabled"`
+	Width      Number   `toml:"width" json:"width"`             // fixed band width in currency units, or
+	PerDecade  Number   `toml:"per_decade" json:"per_decade"`   // bands per power of ten (default 20)
+	From       Number   `toml:"from" json:"from"`               // first band's start (default: 0 or the smallest amount)
+	To         Number   `toml:"to" json:"to"`                   // last band's end (default: the largest amount)
+	By         []string `toml:"by" json:"by"`                   // segment columns; a segment is their combination
+	MinSegment Number   `toml:"min_segment" json:"min_segment"` // with by: fewest tested amounts for a segment to be scored
 	Scope
 }
 

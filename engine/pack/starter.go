@@ -184,6 +184,8 @@ func Starter(ctx context.Context, sample, packPath string, o StarterOptions) ([]
 	w("per_decade = 20           # logarithmic bands; or width = 500 for fixed-width bands (not both)")
 	w("# from = 0                # first band's start; default: the smallest amount (or 0 for fixed bands)")
 	w("# to = 100000             # last band's end; default: the largest amount")
+	w("# by = [%s]               # also per segment, on the same bands (a combination of these columns)", by)
+	w("# min_segment = 1000       # with by: fewest tested amounts for a segment to be scored")
 	w("")
 	w("# Duplicate tests (a test whose columns the ledger lacks is skipped).")
 	w("[duplicates]")

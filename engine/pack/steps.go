@@ -325,16 +325,84 @@ func (r *runner) rangesStep(ctx context.Context) error {
 	for i := range cp.Stretches {
 		cp.Stretches[i].Drill = ""
 	}
+	if rep.Segments != nil {
+		cp.Segments = r.rangeSegments(rep.Segments)
+	}
 	r.run.Results["ranges"] = &cp
 	if len(rep.Stretches) == 0 {
 		r.finding("ranges", "ranges", "Amount ranges: no band of the %s scored stands out from its neighbours.", numfmt.Int(int64(rep.Scored)))
-		return nil
+	} else {
+		s := rep.Stretches[0]
+		r.finding("ranges", "ranges_inflated", "Amount ranges: %s of %s bands flagged in %d inflated range(s); largest excess %s to %s: %s amounts against %s expected.",
+			numfmt.Int(int64(rep.Flagged)), numfmt.Int(int64(rep.Scored)), len(rep.Stretches), numfmt.Money(r.amountDec(s.From).Text), numfmt.Money(r.amountDec(s.To).Text),
+			numfmt.Int(s.Count), numfmt.Int(int64(math.Round(s.Expected))))
 	}
-	s := rep.Stretches[0]
-	r.finding("ranges", "ranges_inflated", "Amount ranges: %s of %s bands flagged in %d inflated range(s); largest excess %s to %s: %s amounts against %s expected.",
-		numfmt.Int(int64(rep.Flagged)), numfmt.Int(int64(rep.Scored)), len(rep.Stretches), numfmt.Money(r.amountDec(s.From).Text), numfmt.Money(r.amountDec(s.To).Text),
-		numfmt.Int(s.Count), numfmt.Int(int64(math.Round(s.Expected))))
+	if st := rep.Segments; st != nil {
+		by := strings.Join(st.By, " + ")
+		if st.Flagged == 0 {
+			r.finding("ranges", "ranges_segments", "Amount ranges by %s: no band stands out in any of the %s segments scored (Holm over all %s scored (segment, band) pairs).",
+				by, numfmt.Int(int64(st.Scored)), numfmt.Int(int64(st.Pairs)))
+			return nil
+		}
+		var top []string
+		for _, sr := range st.Rows {
+			if sr.Flagged == 0 || len(top) == 3 {
+				break
+			}
+			s := sr.Stretches[0]
+			top = append(top, fmt.Sprintf("%s %s to %s: %s amounts against %s expected", segmentText(sr.Segment),
+				numfmt.Money(r.amountDec(s.From).Text), numfmt.Money(r.amountDec(s.To).Text), numfmt.Int(s.Count), numfmt.Int(int64(math.Round(s.Expected)))))
+		}
+		r.finding("ranges", "ranges_segments_inflated", "Amount ranges by %s: %s of %s scored (segment, band) pairs flagged (Holm over the pairs) in %s segment(s); largest: %s.",
+			by, numfmt.Int(int64(st.Flagged)), numfmt.Int(int64(st.Pairs)), numfmt.Int(int64(st.FlaggedSegments)), strings.Join(top, "; "))
+	}
 	return nil
+}
+
+// rangeSegments writes the tables of a range table run per segment (the
+// ranking, and the inflated ranges of each flagged segment) and returns
+// the segments for results.json, drill commands left out as for the
+// whole table.
+func (r *runner) rangeSegments(st *ranges.SegmentTable) *ranges.SegmentTable {
+	t := &tabular.Table{Columns: []string{"rank", "segment", "tested", "scored", "flagged", "strongest_from", "strongest_to",
+		"strongest_count", "strongest_expected", "strongest_z", "strongest_p_adjusted", "strongest_range"}}
+	inf := &tabular.Table{Columns: []string{"segment_rank", "segment", "from", "to", "bands", "count", "expected", "excess", "range"}}
+	for _, sr := range st.Rows {
+		row := []any{int64(sr.Rank), segmentText(sr.Segment), sr.Counts.Tested, int64(sr.Scored), int64(sr.Flagged)}
+		if b := sr.Strongest; b != nil {
+			row = append(row, r.amountDec(b.From), r.amountDec(b.To), b.Count, b.Expected, b.Z, b.PAdjusted, b.Range)
+		} else {
+			row = append(row, nil, nil, nil, nil, nil, nil, nil)
+		}
+		t.Add(row...)
+		for _, s := range sr.Stretches {
+			inf.Add(int64(sr.Rank), segmentText(sr.Segment), r.amountDec(s.From), r.amountDec(s.To), int64(s.Bands), s.Count, s.Expected, s.Excess, s.Range)
+		}
+	}
+	r.add(output.FromTabular(t, "ranges_segments", fmt.Sprintf("Amount ranges by %s: segments scored on the same bands, ranked by their strongest band (Holm over all scored (segment, band) pairs)", strings.Join(st.By, " + ")), "ranges",
+		map[string]output.Kind{"rank": output.Count, "tested": output.Count, "scored": output.Count, "flagged": output.Count, "strongest_from": output.Money, "strongest_to": output.Money,
+			"strongest_count": output.Count, "strongest_expected": output.Number, "strongest_z": output.Number, "strongest_p_adjusted": output.Proportion}))
+	r.add(output.FromTabular(inf, "ranges_segments_inflated", "Inflated ranges per segment: adjacent flagged bands joined, segments in rank order, largest excess first", "ranges",
+		map[string]output.Kind{"segment_rank": output.Count, "from": output.Money, "to": output.Money, "bands": output.Count, "count": output.Count, "expected": output.Number, "excess": output.Number}))
+	cp := *st
+	cp.Rows = append([]ranges.SegmentRow(nil), st.Rows...)
+	for i := range cp.Rows {
+		sr := &cp.Rows[i]
+		sr.Bands = append([]ranges.Row(nil), sr.Bands...)
+		for j := range sr.Bands {
+			sr.Bands[j].Drill = ""
+		}
+		sr.Stretches = append([]ranges.Stretch(nil), sr.Stretches...)
+		for j := range sr.Stretches {
+			sr.Stretches[j].Drill = ""
+		}
+		if sr.Strongest != nil {
+			b := *sr.Strongest
+			b.Drill = ""
+			sr.Strongest = &b
+		}
+	}
+	return &cp
 }
 
 // groupColumns is the order of a duplicate group's fields in its table.
@@ -527,6 +595,18 @@ func (r *runner) extractStep(ctx context.Context, e ExtractPlan) error {
 			}
 			items = append(items, extractItem{label: fmt.Sprintf("inflated range %d, %s", i+1, s.Range),
 				sel: drill.Selection{Spec: r.pl.Ranges.Spec, Range: s.Range}})
+		}
+		// Then the flagged segments' inflated ranges, in rank order.
+		if st := r.ranges.Segments; st != nil {
+			for _, sr := range st.Rows {
+				for _, s := range sr.Stretches {
+					if len(items) >= e.Top {
+						break
+					}
+					items = append(items, extractItem{label: fmt.Sprintf("inflated range in %s, %s", segmentText(sr.Segment), s.Range),
+						sel: drill.Selection{Spec: r.pl.Ranges.Spec, Range: s.Range, Segments: segmentArgs(sr.Segment)}})
+				}
+			}
 		}
 	case "duplicates":
 		if r.duplicates == nil {

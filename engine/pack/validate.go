@@ -882,6 +882,21 @@ func (c *checker) steps(ctx context.Context, mem *workspace.Workspace, pl *Plan,
 				c.engineErr(fieldKey("ranges", err, nil), err, nil)
 			}
 		}
+		o.By = r.By
+		segments("ranges.by", r.By)
+		if r.MinSegment.Set() {
+			n := c.intParam("ranges.min_segment", r.MinSegment, ranges.DefaultMinSegment, math.MinInt64, "min_segment")
+			if len(r.By) == 0 {
+				c.errf("ranges.min_segment", "min_segment goes with by: give the segment column(s), e.g. by = [\"entity\"]")
+			} else if err := ranges.CheckMinSegment(n); err != nil {
+				c.engineErr("ranges.min_segment", err, nil)
+			} else {
+				o.MinSegment = n
+			}
+		}
+		if len(o.By) > 0 && o.MinSegment == 0 {
+			o.MinSegment = ranges.DefaultMinSegment
+		}
 		pl.Ranges = o
 	}
 	if d := c.p.Duplicates; d != nil && enabled(d.Enabled) {

@@ -22,6 +22,13 @@
 // NoteNearEdge). Adjacent flagged bands are joined into stretches, each
 // with the drill-down command that lists its records.
 //
+// Segments (--by): the same bands, laid out on the whole selection so
+// they line up, are scored in every segment of at least MinSegment tested
+// amounts on the segment's own counts (ScoreSegments), and the flags are
+// adjusted by Holm over all scored (segment, band) pairs of the segments,
+// so that a flag anywhere keeps its 5% family-wise meaning; the whole
+// selection's table stays its own family.
+//
 // The population is every test's (engine/population):
 // a filter predicate, the signs kept (positive amounts by default) and the
 // smallest absolute amount kept (10 by default). Amounts are compared as

@@ -2,9 +2,11 @@ package ranges
 
 import (
 	"context"
+	"strings"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/population"
+	"github.com/leadline/leadline/engine/segment"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -12,6 +14,8 @@ import (
 type Options struct {
 	population.Spec
 	Layout
+	By         []string `json:"by,omitempty"`          // segment columns; a segment is their combination
+	MinSegment int64    `json:"min_segment,omitempty"` // with By: fewest tested amounts for a segment to be scored (0: DefaultMinSegment)
 }
 
 // Report is the range table of one run; it is what --format json prints
@@ -32,7 +36,8 @@ type Report struct {
 	Dispersion float64         `json:"dispersion"` // quasi-Poisson dispersion of the scored bands
 	Fit        benford.BandFit `json:"fit"`        // the local fit chosen by cross-validation
 	Bands      []Row           `json:"bands"`
-	Stretches  []Stretch       `json:"stretches"` // adjacent flagged bands joined, largest excess first
+	Stretches  []Stretch       `json:"stretches"`          // adjacent flagged bands joined, largest excess first
+	Segments   *SegmentTable   `json:"segments,omitempty"` // with --by: the table run in every segment
 }
 
 // Run counts the tested amounts in the bands of the layout in one scan
@@ -42,11 +47,19 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 	if err := o.Layout.Check(); err != nil {
 		return nil, err
 	}
+	o, err := o.CheckSegments()
+	if err != nil {
+		return nil, err
+	}
 	pop, err := Prepare(ctx, ws, o.Spec)
 	if err != nil {
 		return nil, err
 	}
 	currency, err := pop.OneCurrency(ctx, ws, "a range band is an amount range in one currency")
+	if err != nil {
+		return nil, err
+	}
+	segs, err := segment.Resolve(ctx, ws, o.By)
 	if err != nil {
 		return nil, err
 	}
@@ -62,15 +75,34 @@ func Run(ctx context.Context, ws *workspace.Workspace, o Options) (*Report, erro
 		return nil, err
 	}
 	edges := Edges(bands)
-	defer ws.Step("ranges: counting the amounts per band")()
-	groups, err := pop.Count(ctx, ws, nil, edges)
+	step := "ranges: counting the amounts per band"
+	if len(segs) > 0 {
+		step += " by " + strings.Join(o.By, ", ")
+	}
+	defer ws.Step(step)()
+	groups, err := pop.Count(ctx, ws, segs, edges)
 	if err != nil {
 		return nil, err
 	}
-	rep, err := Finish(o, pop.Spec, pop.AmountType.SQL(), currency, pop.MinAmount, pop.AmountType.Scale, bands, groups[0],
+	all := groups[0]
+	if len(segs) > 0 {
+		if all, err = Merge(groups, edges); err != nil {
+			return nil, err
+		}
+	}
+	rep, err := Finish(o, pop.Spec, pop.AmountType.SQL(), currency, pop.MinAmount, pop.AmountType.Scale, bands, all,
 		func(_, _ float64, rangeSpec string) string { return DrillCommand(ws.Path, rangeSpec, pop.Spec, nil) })
 	if err != nil {
 		return nil, err
+	}
+	if len(segs) > 0 {
+		rep.Segments, err = ScoreSegments(bands, groups, segs, pop.MinAmount, o.MinSegment, pop.AmountType.Scale,
+			func(key Key, _, _ float64, rangeSpec string) string {
+				return DrillCommand(ws.Path, rangeSpec, pop.Spec, key.DrillSegments(segs))
+			})
+		if err != nil {
+			return nil, err
+		}
 	}
 	return rep, nil
 }

@@ -370,6 +370,24 @@ func (m *Model) addRanges(r *Run, doc json.RawMessage, base string) error {
 		sec.Drills = append(sec.Drills, d)
 	}
 	sec.Chart = template.HTML(rangeChart(fmt.Sprintf("r%d-ranges", r.ID), sec.Bands))
+	if st := rep.Segments; st != nil {
+		sec.SegRef = sec.Ref.At("segments")
+		sec.SegBy = strings.Join(st.By, ", ")
+		for i, sr := range st.Rows {
+			if i == MaxRangeSegments {
+				break
+			}
+			row := RangeSegment{Ref: sec.SegRef.At("rows").AtField(i, sr.Label), Row: sr}
+			if len(sr.Stretches) > 0 {
+				s := sr.Stretches[0]
+				row.Drill = s.Drill
+				if row.Drill == "" && s.Range != "" {
+					row.Drill = ranges.DrillCommand(m.Workspace, s.Range, rep.Population, segmentArgs(sr.Segment))
+				}
+			}
+			sec.Segments = append(sec.Segments, row)
+		}
+	}
 	m.Ranges = sec
 	return nil
 }

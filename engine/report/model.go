@@ -462,6 +462,20 @@ type RangeSection struct {
 	Flagged []RangeRow
 	Chart   template.HTML
 	Drills  []string // per stretch, the drill command listing its amounts
+	// With --by: the segments' ranking, the first MaxRangeSegments rows.
+	SegRef   ref
+	SegBy    string
+	Segments []RangeSegment
+}
+
+// MaxRangeSegments bounds the segments the report lists of a range table.
+const MaxRangeSegments = 10
+
+// RangeSegment is one segment of a range table run with --by.
+type RangeSegment struct {
+	Ref   ref
+	Row   ranges.SegmentRow
+	Drill string // the drill command of its largest inflated range ("" when none)
 }
 
 // RangeRow is one band.

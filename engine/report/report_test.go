@@ -314,11 +314,20 @@ func TestReportNumbersMatchStoredResults(t *testing.T) {
 	if len(segmentRows) != 5 {
 		t.Errorf("%d entities ranked in the report, want the 5 of the ledger", len(segmentRows))
 	}
+	rangeSegs := map[string]bool{}
+	for _, n := range nums {
+		if strings.HasPrefix(n.field, "ranges.segments.rows.") && strings.HasSuffix(n.field, ".counts.tested") {
+			rangeSegs[n.field] = true
+		}
+	}
+	if len(rangeSegs) != 5 {
+		t.Errorf("%d entities in the range table's segment ranking, want the 5 of the ledger", len(rangeSegs))
+	}
 	for _, f := range []string{
 		"first.mad", "first.n", "first.chi2", "first.p_value", "first.ks_d", "first.excess_mad",
 		"first_two.mad", "first_two.runs.runs", "first_two.runs.expected", "first_three.mad",
 		"summation.mad", "files.1.rows_read", "files.1.rows_rejected", "files.1.net", "total.rows_loaded",
-		"limits.flagged", "ranges.flagged", "duplicates.records_tested",
+		"limits.flagged", "ranges.flagged", "ranges.segments.pairs", "duplicates.records_tested",
 		"scan.tested", "scan.duplication.distinct", "scan.segments.ranked", "second_order.mad",
 		"sensitivity.n", "sensitivity.rows.limit probe flags the limit.detection.2",
 	} {

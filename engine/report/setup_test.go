@@ -49,7 +49,7 @@ func TestMain(m *testing.M) {
 
 // sharedDemo builds the shared workspace once: 50,000 generated rows with
 // the planted anomalies and 0.2% malformed amounts, loaded, then a scan,
-// limit, range and duplicates run stored.
+// limit, range (by entity) and duplicates run stored.
 func sharedDemo(t *testing.T) *demo {
 	t.Helper()
 	demoOnce.Do(func() { demoWS, demoErr = buildDemo() })
@@ -96,7 +96,7 @@ func buildDemo() (*demo, error) {
 	if d.runIDs["limits"], err = saveRun(ctx, d.ws, "limits", lim); err != nil {
 		return nil, err
 	}
-	rng, err := ranges.Run(ctx, d.ws, ranges.Options{})
+	rng, err := ranges.Run(ctx, d.ws, ranges.Options{By: []string{"entity"}})
 	if err != nil {
 		return nil, fmt.Errorf("ranges: %w", err)
 	}
