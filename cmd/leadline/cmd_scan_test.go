@@ -152,14 +152,7 @@ func TestScanSegmentFlagsAcrossSegments(t *testing.T) {
 	if err := os.WriteFile(csvPath, []byte(b.String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	cmd := func(args ...string) string {
-		t.Helper()
-		var out, errs bytes.Buffer
-		if code := run(context.Background(), args, &env{stdout: &out, stderr: &errs}); code != 0 {
-			t.Fatalf("leadline %s exited %d: %s", strings.Join(args, " "), code, errs.String())
-		}
-		return out.String()
-	}
+	cmd := func(args ...string) string { t.Helper(); return runOK(t, args...) }
 	cmd("load", "--db", db, csvPath)
 	var doc struct {
 		Segments struct {

@@ -1,8 +1,6 @@
 package main
 
 import (
-	"bytes"
-	"context"
 	"encoding/csv"
 	"encoding/json"
 	"fmt"
@@ -64,14 +62,7 @@ func TestRangesBy(t *testing.T) {
 	dir := t.TempDir()
 	db := filepath.Join(dir, "ws.duckdb")
 	path, want := rangesByLedger(t, dir)
-	cmd := func(args ...string) string {
-		t.Helper()
-		var out, errs bytes.Buffer
-		if code := run(context.Background(), args, &env{stdout: &out, stderr: &errs}); code != 0 {
-			t.Fatalf("leadline %s exited %d: %s", strings.Join(args, " "), code, errs.String())
-		}
-		return out.String()
-	}
+	cmd := func(args ...string) string { t.Helper(); return runOK(t, args...) }
 	cmd("load", "--db", db, path)
 
 	var doc struct {
