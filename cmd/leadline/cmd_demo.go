@@ -97,8 +97,9 @@ func centsText(c int64) string {
 
 // The demo pack names this file and this workspace (queries/packs/demo.toml).
 const (
-	demoLedger = "skerrimoor_ledger_2025.csv"
-	demoPack   = "skerrimoor-fy2025.toml"
+	demoLedger        = "skerrimoor_ledger_2025.csv"
+	demoLedgerParquet = "skerrimoor_ledger_2025.parquet"
+	demoPack          = "skerrimoor-fy2025.toml"
 )
 
 func runDemo(ctx context.Context, e *env, o demoOptions) error {
@@ -117,6 +118,13 @@ func runDemo(ctx context.Context, e *env, o demoOptions) error {
 		return err
 	}
 	fmt.Fprintf(e.stdout, "  %s: %d rows, %d of them with a deliberately malformed amount (%.1fs)\n", csvPath, sum.Rows, sum.BadRows, time.Since(start).Seconds())
+	// The same rows as Parquet, typed (no malformed amounts), for the
+	// in-place and count-elsewhere flows: not part of the pack.
+	pqPath := filepath.Join(o.out, demoLedgerParquet)
+	if _, err := fixtures.WriteParquet(pqPath, fixtures.Config{Rows: o.rows, Seed: o.seed, Plants: true}); err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stdout, "  the same rows as Parquet, amounts typed: %s (not part of the pack: for leadline load --in-place)\n", pqPath)
 	tbPath := filepath.Join(o.out, fixtures.TrialBalanceFile)
 	if err := fixtures.WriteTrialBalance(tbPath, o.seed, sum); err != nil {
 		return err
@@ -161,13 +169,18 @@ Not planted, but built into the generated ranges: GILD's invoices, receipts and 
 stop below 10,000, SHOR's receipts and all expense claims below 1,000; the limit probe
 shows those edges (GILD at 10,000, SHOR at 1,000), as it would a client's price cap.
 
+Data where it lives: leadline load --in-place --db %s %s
+registers the Parquet copy without copying its rows (then scan, limits, ranges and drill
+as on any workspace, and leadline verify hashes it again); leadline count-sql prints the
+battery's counting query for DuckDB, PostgreSQL or ClickHouse (README, Beyond one machine).
+
 Intake of a workbook: leadline inspect %s
 prints the load command for it (the sheet, its header row under the title, date cells);
 loaded whole, its positive amounts sum to %s and its net to %s.
 
 Open %s in a browser for the report, or %s for the workbook.
 Demo finished in %.1fs. Results are signals for follow-up, never proof.
-`, xlsxPath, numfmt.Money(centsText(xlsxPositive)), numfmt.Money(centsText(xlsxCents)), filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
+`, filepath.Join(o.out, "in-place.duckdb"), pqPath, xlsxPath, numfmt.Money(centsText(xlsxPositive)), numfmt.Money(centsText(xlsxCents)), filepath.Join(abs, "report.html"), filepath.Join(abs, "results.xlsx"), time.Since(start).Seconds())
 	return nil
 }
 

@@ -277,6 +277,40 @@ func TestDemoAnswerKey(t *testing.T) {
 		t.Errorf("reconciliation with the trial balance: %s", rc.Verdict)
 	}
 
+	// The Parquet copy registers in place, every row kept (its amounts
+	// are typed: none malformed), and the battery by entity reads it like
+	// the copied workspace: GILD, with the fee billing, ranks first.
+	t.Run("parquet in place", func(t *testing.T) {
+		db := filepath.Join(dir, "in-place.duckdb")
+		var lr struct {
+			RowsRead     int64 `json:"rows_read"`
+			RowsLoaded   int64 `json:"rows_loaded"`
+			RowsRejected int64 `json:"rows_rejected"`
+		}
+		if err := json.Unmarshal([]byte(runOK(t, "load", "--in-place", "--db", db, "--format", "json", filepath.Join(dir, demoLedgerParquet))), &lr); err != nil {
+			t.Fatal(err)
+		}
+		if lr.RowsRead != rows || lr.RowsLoaded != rows || lr.RowsRejected != 0 {
+			t.Fatalf("in place: read %d, loaded %d, rejected %d; want all %d rows", lr.RowsRead, lr.RowsLoaded, lr.RowsRejected, rows)
+		}
+		var sc struct {
+			Segments struct {
+				Rankings []struct {
+					Rows []struct {
+						Segment    string `json:"segment"`
+						Conformity string `json:"conformity"`
+					} `json:"rows"`
+				} `json:"rankings"`
+			} `json:"segments"`
+		}
+		if err := json.Unmarshal([]byte(runOK(t, "scan", "--db", db, "--tests", "first_two", "--by", "entity", "--format", "json")), &sc); err != nil {
+			t.Fatal(err)
+		}
+		if rk := sc.Segments.Rankings; len(rk) != 1 || len(rk[0].Rows) == 0 || rk[0].Rows[0].Segment != "GILD" || rk[0].Rows[0].Conformity != "nonconforming" {
+			t.Errorf("first-two by entity in place: %+v, want GILD first and nonconforming", rk)
+		}
+	})
+
 	// 6. Nothing else: the documents whose amounts conform by construction
 	// (payments, customer invoices and receipts, journals; the planted
 	// refunds of gwrenby left out: fixtures/README.md) raise no flag in any
