@@ -13,6 +13,7 @@ import (
 	_ "github.com/duckdb/duckdb-go/v2"
 
 	"github.com/leadline/leadline/engine/battery"
+	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/segment"
 )
 
@@ -245,5 +246,48 @@ func TestRecordsQueryPeriodSegment(t *testing.T) {
 		if !strings.Contains(q, c.want) {
 			t.Errorf("%s segment: %s\nlacks %s", c.seg.Name, q, c.want)
 		}
+	}
+}
+
+// TestDrillsCapSegments: drill-down queries are written for the whole
+// selection and for at most DrillSegments flagged segments per test, the
+// most distorted first in the ranking's order.
+func TestDrillsCapSegments(t *testing.T) {
+	spec := Spec{Engine: "duckdb", Table: "gl", Amount: "amount", Scale: 2, By: []Segment{{Name: "user_id", Column: "user_id"}}}.WithDefaults()
+	flagged := func() benford.Result {
+		r, err := benford.Analyze(benford.FirstDigit, []int64{4000, 1500, 1200, 850, 750, 650, 520, 480, 440})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(r.TopFlagged) == 0 {
+			t.Fatal("setup: no flagged bin")
+		}
+		return r
+	}
+	whole := flagged()
+	rep := &battery.Report{Tests: []benford.Result{whole}, Segments: &battery.Segments{}}
+	rk := battery.Ranking{Test: benford.FirstDigit}
+	for i := range 15 {
+		key := segment.Key{{String: fmt.Sprintf("u%02d", i), Valid: true}}
+		rep.SegmentResults = append(rep.SegmentResults, battery.SegmentResult{Key: key, Results: []benford.Result{flagged()}})
+		// ranked in reverse key order: u14 is the most distorted
+		rk.Rows = append([]battery.SegmentRow{{Segment: key.Label(), Flagged: 1}}, rk.Rows...)
+	}
+	rep.Segments.Rankings = []battery.Ranking{rk}
+	drills, err := Drills(spec, rep, []string{"user_id"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	per := len(whole.TopFlagged)
+	segs := map[string]bool{}
+	var order []string
+	for _, d := range drills {
+		if d.Segment != "" && !segs[d.Segment] {
+			segs[d.Segment] = true
+			order = append(order, d.Segment)
+		}
+	}
+	if len(drills) != per*(1+DrillSegments) || len(segs) != DrillSegments || order[0] != "u14" || order[DrillSegments-1] != "u05" {
+		t.Errorf("%d drills for %d segments, in the order %v; want %d for %d segments, u14 first and u05 last", len(drills), len(segs), order, per*(1+DrillSegments), DrillSegments)
 	}
 }

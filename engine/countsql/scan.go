@@ -130,11 +130,19 @@ type BinDrill struct {
 	Query   string       `json:"query"`
 }
 
+// DrillSegments is the most segments per test whose flags get drill-down
+// queries: the first flagged ones of the test's ranking (most distorted
+// first). A query is some 3 KB of SQL; a thousand flagged users would
+// otherwise print megabytes. The ranking names the others, and
+// count-sql --where narrows a query to any one of them.
+const DrillSegments = 10
+
 // Drills returns the drill-down queries of a scan on counts: for the
-// whole selection and every ranked segment, each test's bins to follow up
-// first (TopFlagged) and the first-two test's flagged local surplus
-// stretches, in the engine's SQL (BinRecordsQuery). names are the segment
-// names of the query, in the report's order.
+// whole selection and the first DrillSegments flagged segments of each
+// test's ranking, each test's bins to follow up first (TopFlagged) and
+// the first-two test's flagged local surplus stretches, in the engine's
+// SQL (BinRecordsQuery). names are the segment names of the query, in the
+// report's order.
 func Drills(spec Spec, rep *battery.Report, names []string) ([]BinDrill, error) {
 	out := []BinDrill{}
 	add := func(label string, key segment.Key, rs []benford.Result) error {
@@ -165,9 +173,32 @@ func Drills(spec Spec, rep *battery.Report, names []string) ([]BinDrill, error) 
 	if err := add("", nil, rep.Tests); err != nil {
 		return nil, err
 	}
+	if rep.Segments == nil {
+		return out, nil
+	}
+	byLabel := map[string]battery.SegmentResult{}
 	for _, sr := range rep.SegmentResults {
-		if err := add(sr.Key.Label(), sr.Key, sr.Results); err != nil {
-			return nil, err
+		byLabel[sr.Key.Label()] = sr
+	}
+	for _, rk := range rep.Segments.Rankings {
+		n := 0
+		for _, row := range rk.Rows {
+			local := row.LocalFlagged != nil && *row.LocalFlagged > 0
+			if row.Flagged == 0 && !local {
+				continue
+			}
+			if n == DrillSegments {
+				break
+			}
+			n++
+			sr := byLabel[row.Segment]
+			for _, r := range sr.Results {
+				if r.Test == rk.Test {
+					if err := add(row.Segment, sr.Key, []benford.Result{r}); err != nil {
+						return nil, err
+					}
+				}
+			}
 		}
 	}
 	return out, nil
