@@ -284,7 +284,9 @@ func (res *Result) flagSummation(s Scale, f Flagging) {
 		b.Z = math.Max(0, z)
 		// the share as it would read at the simulated N, for the marginal tail
 		b.P = atLeast(nl.sorted[k], nl.mean[k]+(r-nl.mean[k])*math.Sqrt(float64(s.N)/float64(nl.key.n)))
-		b.PAdjusted = tailAtLeast(nl.maxZ, z)
+		// No tail beyond the draws here (tailAtLeast): the largest
+		// standardized share has a skewed tail its check does not cover.
+		b.PAdjusted = atLeast(nl.maxZ, z)
 		b.Upper = (nl.mean[k] + crit*nl.sd[k]*math.Sqrt(float64(nl.key.n)/float64(s.N))) / 90
 		if math.IsInf(b.Upper, 0) {
 			b.Upper = 1
