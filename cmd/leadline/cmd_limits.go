@@ -146,20 +146,7 @@ func printLimits(w io.Writer, format string, rep *limits.Report, top int) error 
 	t := &tabular.Table{Name: "limits"}
 	t.Columns = append(t.Columns, "rank")
 	t.Columns = append(t.Columns, rep.By...)
-	segCell := func(r limits.Row) []any {
-		var out []any
-		for _, name := range rep.By {
-			switch v, ok := r.Segment[name]; {
-			case r.Segment == nil:
-				out = append(out, "(all)")
-			case !ok || v == nil:
-				out = append(out, "(blank)")
-			default:
-				out = append(out, *v)
-			}
-		}
-		return out
-	}
+	segCell := func(r limits.Row) []any { return segmentCells(rep.By, r.Segment) }
 	if format == "csv" {
 		t.Columns = append(t.Columns, "limit", "width", "from", "to", "below", "above", "expected_ratio", "observed_ratio",
 			"expected_below", "excess", "excess_vs_above", "z", "p", "p_adjusted", "flagged", "status", "range", "drill")
