@@ -68,7 +68,7 @@ func noteLastTwo(r *benford.Result, min string, tested int64) {
 		min, numfmt.Int(tested-r.N), numfmt.Int(tested)))
 }
 
-// noteSecondOrder tests the second-order bins again against the shares
+// secondOrderInUnits analyses the second-order bins against the shares
 // expected of amounts held in whole units of the ledger's scale: their
 // differences are whole units, so differences of 1 to 9 units pile on
 // bins 10, 20, ..., 90 and small differences are rounded. The expectation
@@ -77,14 +77,20 @@ func noteLastTwo(r *benford.Result, min string, tested int64) {
 // population whose amounts are not log-uniform is read against its own
 // density; without the histogram (counts made elsewhere) the null model
 // is Benford's law over this population's range (its minimum and mean
-// |amount|: benford.SecondOrderExpectedScaled). A note says which.
-func noteSecondOrder(r *benford.Result, c *Counts, o Options, nc noteCtx) error {
-	if r.N == 0 {
-		return nil
+// |amount|: benford.SecondOrderExpectedScaled). A note says which, and how
+// many bins Benford's law itself would have flagged.
+func secondOrderInUnits(c *Counts, o Options, nc noteCtx) (benford.Result, error) {
+	counts := c.Bins(benford.SecondOrder)
+	plain := benford.FlaggedBins(benford.SecondOrder, counts, o.Flagging())
+	var diffs int64
+	for _, v := range counts {
+		diffs += v
+	}
+	if diffs == 0 {
+		return benford.AnalyzeWith(benford.SecondOrder, counts, o.Flagging())
 	}
 	n := c.N()
 	unit := math.Pow10(-nc.scale)
-	plain := r.Flagged
 	var exp []float64
 	var how string
 	if len(c.Spacing) > 0 {
@@ -101,15 +107,12 @@ func noteSecondOrder(r *benford.Result, c *Counts, o Options, nc noteCtx) error 
 		how = fmt.Sprintf("the expected shares are those of %s amounts following Benford's law from %s over %.1f decades (the range whose mean is this population's mean |amount|) held in whole units",
 			numfmt.Int(n), strconv.FormatFloat(sc.Min, 'f', -1, 64), d)
 	}
-	scaled, err := benford.AnalyzeExpected(benford.SecondOrder, c.Bins(benford.SecondOrder), o.Flagging(), exp)
+	r, err := benford.AnalyzeExpected(benford.SecondOrder, counts, o.Flagging(), exp)
 	if err != nil {
-		return err
+		return r, err
 	}
-	notes := r.Notes
-	*r = scaled
-	r.Notes = notes
 	r.Notes = append(r.Notes, fmt.Sprintf(
 		"second-order test: amounts are whole units of %s, so their differences are discrete (differences of 1 to 9 units fill bins 10, 20, ..., 90; small differences are rounded): %s; against Benford's law itself %d bins would have been flagged",
 		strconv.FormatFloat(unit, 'f', -1, 64), how, plain))
-	return nil
+	return r, nil
 }

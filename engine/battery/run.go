@@ -5,15 +5,14 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"runtime"
 	"sort"
 	"strconv"
 	"strings"
-	"sync"
 	"time"
 
 	"github.com/leadline/leadline/engine/benford"
 	"github.com/leadline/leadline/engine/load"
+	"github.com/leadline/leadline/engine/parallel"
 	"github.com/leadline/leadline/engine/workspace"
 )
 
@@ -274,6 +273,12 @@ func minAmount(o Options, scale int) float64 {
 }
 
 func analyzeAll(c *Counts, tests []benford.Test, f benford.Flagging, minAmt float64) ([]benford.Result, error) {
+	return analyzeEach(c, tests, f, minAmt, nil)
+}
+
+// analyzeEach is analyzeAll with the second-order test analysed by
+// secondOrder when it is not nil.
+func analyzeEach(c *Counts, tests []benford.Test, f benford.Flagging, minAmt float64, secondOrder func() (benford.Result, error)) ([]benford.Result, error) {
 	out := []benford.Result{}
 	for _, t := range benford.AllTests() {
 		if !contains(tests, t) {
@@ -281,7 +286,9 @@ func analyzeAll(c *Counts, tests []benford.Test, f benford.Flagging, minAmt floa
 		}
 		var r benford.Result
 		var err error
-		if b := c.Bins(t); t == benford.Summation {
+		if b := c.Bins(t); t == benford.SecondOrder && secondOrder != nil {
+			r, err = secondOrder()
+		} else if t == benford.Summation {
 			r, err = benford.AnalyzeSummationWith(c.SummationSums(), b, minAmt, f)
 		} else if b != nil {
 			r, err = benford.AnalyzeWith(t, b, f)
@@ -301,18 +308,13 @@ func analyzeAll(c *Counts, tests []benford.Test, f benford.Flagging, minAmt floa
 // last-two digits test took, and the second-order bins that the
 // discreteness of the amounts explains.
 func analyzeNoted(c *Counts, o Options, nc noteCtx) ([]benford.Result, error) {
-	res, err := analyzeAll(c, o.Tests, o.Flagging(), minAmount(o, nc.scale))
+	res, err := analyzeEach(c, o.Tests, o.Flagging(), minAmount(o, nc.scale), func() (benford.Result, error) { return secondOrderInUnits(c, o, nc) })
 	if err != nil {
 		return nil, err
 	}
 	for i := range res {
-		switch res[i].Test {
-		case benford.LastTwo:
+		if res[i].Test == benford.LastTwo {
 			noteLastTwo(&res[i], nc.lastTwoMin, c.N())
-		case benford.SecondOrder:
-			if err := noteSecondOrder(&res[i], c, o, nc); err != nil {
-				return nil, err
-			}
 		}
 	}
 	return res, nil
@@ -420,23 +422,10 @@ func adjustAcrossSegments(analysed [][]benford.Result) {
 func analyzeSegments(segs []SegmentCounts, o Options, nc noteCtx) ([][]benford.Result, error) {
 	out := make([][]benford.Result, len(segs))
 	errs := make([]error, len(segs))
-	next := make(chan int)
-	var wg sync.WaitGroup
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range next {
-				out[i], errs[i] = analyzeNoted(segs[i].Counts, o, nc)
-			}
-		}()
-	}
-	for i, sc := range segs {
-		if sc.Counts.N() >= o.MinSegmentRows {
-			next <- i
+	parallel.For(len(segs), func(i int) {
+		if segs[i].Counts.N() >= o.MinSegmentRows {
+			out[i], errs[i] = analyzeNoted(segs[i].Counts, o, nc)
 		}
-	}
-	close(next)
-	wg.Wait()
+	})
 	return out, errors.Join(errs...)
 }

@@ -4,13 +4,13 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"runtime"
 	"slices"
 	"sort"
 	"strings"
 	"sync"
 	"testing"
 
+	"github.com/leadline/leadline/engine/parallel"
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
@@ -213,50 +213,31 @@ func TestSegmentRankingRates(t *testing.T) {
 			exp := Expected(tt)
 			var adj, raw, adjLocal, rawLocal int
 			var mu sync.Mutex
-			next := make(chan int)
-			var wg sync.WaitGroup
-			for range runtime.GOMAXPROCS(0) {
-				wg.Add(1)
-				go func() {
-					defer wg.Done()
-					for k := range next {
-						rng := rand.New(rand.NewPCG(uint64(k)<<8^uint64(c.segs), uint64(c.n)^uint64(len(tt))<<40^0x5e65))
-						rs := make([]*Result, c.segs)
-						rawBin, rawLoc := false, false
-						for i := range rs {
-							var r Result
-							var err error
-							if tt == Summation {
-								r, err = AnalyzeSummation(summationPopulation(rng, c.n))
-							} else {
-								r, err = Analyze(tt, Multinomial(rng, exp, c.n))
-							}
-							if err != nil {
-								t.Error(err)
-								return
-							}
-							rawBin = rawBin || r.Flagged > 0
-							rawLoc = rawLoc || (r.LocalSurplus != nil && len(r.LocalSurplus.Flagged) > 0)
-							rs[i] = &r
-						}
-						AcrossSegments(rs)
-						anyBin, anyLoc := false, false
-						for _, r := range rs {
-							anyBin = anyBin || r.Flagged > 0
-							anyLoc = anyLoc || (r.LocalSurplus != nil && len(r.LocalSurplus.Flagged) > 0)
-						}
-						mu.Lock()
-						adj, raw = adj+b2i(anyBin), raw+b2i(rawBin)
-						adjLocal, rawLocal = adjLocal+b2i(anyLoc), rawLocal+b2i(rawLoc)
-						mu.Unlock()
+			parallel.For(rankings, func(k int) {
+				rng := rand.New(rand.NewPCG(uint64(k)<<8^uint64(c.segs), uint64(c.n)^uint64(len(tt))<<40^0x5e65))
+				rs := make([]*Result, c.segs)
+				rawBin, rawLoc := false, false
+				for i := range rs {
+					r, err := conformingResult(rng, tt, exp, c.n)
+					if err != nil {
+						t.Error(err)
+						return
 					}
-				}()
-			}
-			for k := range rankings {
-				next <- k
-			}
-			close(next)
-			wg.Wait()
+					rawBin = rawBin || r.Flagged > 0
+					rawLoc = rawLoc || (r.LocalSurplus != nil && len(r.LocalSurplus.Flagged) > 0)
+					rs[i] = &r
+				}
+				AcrossSegments(rs)
+				anyBin, anyLoc := false, false
+				for _, r := range rs {
+					anyBin = anyBin || r.Flagged > 0
+					anyLoc = anyLoc || (r.LocalSurplus != nil && len(r.LocalSurplus.Flagged) > 0)
+				}
+				mu.Lock()
+				adj, raw = adj+b2i(anyBin), raw+b2i(rawBin)
+				adjLocal, rawLocal = adjLocal+b2i(anyLoc), rawLocal+b2i(rawLoc)
+				mu.Unlock()
+			})
 			pct := func(k int) string { return fmt.Sprintf("%.1f%%", 100*float64(k)/float64(rankings)) }
 			fmt.Fprintf(&table, "| %s | bin flag | %d x %d | %s | %s |\n", tt, c.segs, c.n, pct(adj), pct(raw))
 			// The summation flag is measured, not held: at the small

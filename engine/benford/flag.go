@@ -68,6 +68,33 @@ func MaterialDiff(p, minExcess float64) float64 {
 	return minExcess * p
 }
 
+// FlaggedBins returns how many bins of count-based test t the bin flag f
+// marks against the test's published expectation, without the rest of an
+// analysis: for a note that compares another expectation with it (the
+// second-order test on amounts in whole units).
+func FlaggedBins(t Test, counts []int64, f Flagging) int {
+	exp := Expected(t)
+	var n int64
+	for _, c := range counts {
+		n += c
+	}
+	if n == 0 || len(counts) != len(exp) {
+		return 0
+	}
+	res := Result{N: n, Bins: make([]Bin, len(counts))}
+	for i, c := range counts {
+		res.Bins[i] = Bin{Count: c, Expected: exp[i], Diff: float64(c)/float64(n) - exp[i]}
+	}
+	res.flagBins(f)
+	k := 0
+	for _, b := range res.Bins {
+		if b.Flagged {
+			k++
+		}
+	}
+	return k
+}
+
 // flagBins fills P, PAdjusted, Material and Flagged of the bins from their
 // counts (N = n > 0), and the result's flag settings.
 func (res *Result) flagBins(f Flagging) {

@@ -5,9 +5,10 @@ import (
 	"hash/fnv"
 	"math"
 	"math/rand/v2"
-	"runtime"
 	"slices"
 	"sync"
+
+	"github.com/leadline/leadline/engine/parallel"
 )
 
 // Settings of the local surplus flag of the first-two test.
@@ -316,25 +317,13 @@ func drawLocalNull(key int64) *localNull {
 	// there are processors: the same draws whatever the number of workers.
 	const chunk = 250
 	d := &localNull{n: key, maxZ: make([]float64, NullSimulations)}
-	next := make(chan int)
-	var wg sync.WaitGroup
-	for range runtime.GOMAXPROCS(0) {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for c := range next {
-				rng := rand.New(rand.NewPCG(splitMix64(seed+uint64(c)), splitMix64(uint64(key)^uint64(c)<<32)))
-				for i := c; i < min(c+chunk, NullSimulations); i++ {
-					d.maxZ[i] = localMaxZ(Multinomial(rng, exp, key))
-				}
-			}
-		}()
-	}
-	for c := 0; c < NullSimulations; c += chunk {
-		next <- c
-	}
-	close(next)
-	wg.Wait()
+	parallel.For((NullSimulations+chunk-1)/chunk, func(k int) {
+		c := k * chunk
+		rng := rand.New(rand.NewPCG(splitMix64(seed+uint64(c)), splitMix64(uint64(key)^uint64(c)<<32)))
+		for i := c; i < min(c+chunk, NullSimulations); i++ {
+			d.maxZ[i] = localMaxZ(Multinomial(rng, exp, key))
+		}
+	})
 	slices.Sort(d.maxZ)
 	return d
 }

@@ -5,10 +5,11 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
-	"runtime"
 	"strings"
 	"sync"
 	"testing"
+
+	"github.com/leadline/leadline/engine/parallel"
 )
 
 // mixtureFirstTwo returns the first-two proportions of SmoothMixture over
@@ -215,34 +216,21 @@ func TestLocalSurplusRates(t *testing.T) {
 				inj := int64(math.Round(share * float64(n)))
 				localNullFor(n + inj) // drawn once, before the workers share it
 				var mu sync.Mutex
-				next := make(chan int)
-				var wg sync.WaitGroup
-				for range runtime.GOMAXPROCS(0) {
-					wg.Add(1)
-					go func() {
-						defer wg.Done()
-						for s := range next {
-							rng := rand.New(rand.NewPCG(splitMix64(uint64(s)<<8^uint64(pi)), splitMix64(uint64(n)^uint64(share*1e6)<<40^0x10ca1)))
-							c := Multinomial(rng, pop.p, n)
-							for i, v := range Multinomial(rng, []float64{0.2, 0.2, 0.2, 0.2, 0.2}, inj) {
-								c[45-10+i] += v
-							}
-							on := firstTwoSignals(c, exp, u2Crit, share > 0)
-							mu.Lock()
-							for k, v := range on {
-								if v {
-									fired[pi][si][k][ni]++
-								}
-							}
-							mu.Unlock()
+				parallel.For(seeds, func(s int) {
+					rng := rand.New(rand.NewPCG(splitMix64(uint64(s)<<8^uint64(pi)), splitMix64(uint64(n)^uint64(share*1e6)<<40^0x10ca1)))
+					c := Multinomial(rng, pop.p, n)
+					for i, v := range Multinomial(rng, []float64{0.2, 0.2, 0.2, 0.2, 0.2}, inj) {
+						c[45-10+i] += v
+					}
+					on := firstTwoSignals(c, exp, u2Crit, share > 0)
+					mu.Lock()
+					for k, v := range on {
+						if v {
+							fired[pi][si][k][ni]++
 						}
-					}()
-				}
-				for s := range seeds {
-					next <- s
-				}
-				close(next)
-				wg.Wait()
+					}
+					mu.Unlock()
+				})
 				got := fired[pi][si][0][ni]
 				switch {
 				case share == 0 && got > bound && (pi == 0 || n >= 500000):

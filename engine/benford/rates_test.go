@@ -6,11 +6,12 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
-	"runtime"
 	"slices"
 	"strings"
 	"sync"
 	"testing"
+
+	"github.com/leadline/leadline/engine/parallel"
 )
 
 // The full false-alarm table (README, section "False-alarm rates"):
@@ -121,40 +122,21 @@ func TestFalseAlarmRates(t *testing.T) {
 			}
 			exp := Expected(tt)
 			salt := uint64(len(tt))<<32 ^ uint64(tt[len(tt)-1])
-			next := make(chan int)
-			var wg sync.WaitGroup
-			for range runtime.GOMAXPROCS(0) {
-				wg.Add(1)
-				go func() {
-					defer wg.Done()
-					for s := range next {
-						rng := rand.New(rand.NewPCG(uint64(s)^salt<<40, uint64(n)^0xfa15e))
-						var res Result
-						var err error
-						if tt == Summation {
-							res, err = AnalyzeSummation(summationPopulation(rng, n))
-						} else {
-							res, err = Analyze(tt, Multinomial(rng, exp, n))
-						}
-						if err != nil {
-							t.Error(err)
-							return
-						}
-						mu.Lock()
-						for _, r := range rateRows {
-							if r.test == tt && r.fires(res) {
-								fired[key(r)][si]++
-							}
-						}
-						mu.Unlock()
+			parallel.For(seeds, func(s int) {
+				rng := rand.New(rand.NewPCG(uint64(s)^salt<<40, uint64(n)^0xfa15e))
+				res, err := conformingResult(rng, tt, exp, n)
+				if err != nil {
+					t.Error(err)
+					return
+				}
+				mu.Lock()
+				for _, r := range rateRows {
+					if r.test == tt && r.fires(res) {
+						fired[key(r)][si]++
 					}
-				}()
-			}
-			for s := range seeds {
-				next <- s
-			}
-			close(next)
-			wg.Wait()
+				}
+				mu.Unlock()
+			})
 		}
 	}
 	var b strings.Builder
@@ -183,6 +165,16 @@ func TestFalseAlarmRates(t *testing.T) {
 		b.WriteString("\n")
 	}
 	t.Log("\n" + b.String())
+}
+
+// conformingResult draws a population of n that follows test tt's
+// expectation exp and analyses it: multinomial counts, or for the
+// summation test amounts drawn one by one (summationPopulation).
+func conformingResult(rng *rand.Rand, tt Test, exp []float64, n int64) (Result, error) {
+	if tt == Summation {
+		return AnalyzeSummation(summationPopulation(rng, n))
+	}
+	return Analyze(tt, Multinomial(rng, exp, n))
 }
 
 // summationPopulation draws n amounts following Benford's law (log-uniform

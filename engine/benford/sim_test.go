@@ -3,9 +3,10 @@ package benford
 import (
 	"math"
 	"math/rand/v2"
-	"runtime"
 	"sort"
 	"sync"
+
+	"github.com/leadline/leadline/engine/parallel"
 )
 
 // Simulated populations for the scenario and false-alarm tests. These are
@@ -138,22 +139,7 @@ var (
 func nullPopulations() []population {
 	nullOnce.Do(func() {
 		nullPops = make([]population, simSeeds)
-		var wg sync.WaitGroup
-		next := make(chan int)
-		for range runtime.GOMAXPROCS(0) {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				for s := range next {
-					nullPops[s] = simulate(uint64(1000+s), false)
-				}
-			}()
-		}
-		for s := range simSeeds {
-			next <- s
-		}
-		close(next)
-		wg.Wait()
+		parallel.For(simSeeds, func(s int) { nullPops[s] = simulate(uint64(1000+s), false) })
 	})
 	return nullPops
 }

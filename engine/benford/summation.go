@@ -252,13 +252,6 @@ func (nl *summationNull) zAt(k int, ratio float64, n int64) float64 {
 	return (ratio - nl.mean[k]) / sd
 }
 
-// atLeast returns the share of draws in sorted (ascending) at or above x,
-// counting the observed population among them ((count + 1)/(draws + 1)).
-func atLeast(sorted []float64, x float64) float64 {
-	i := sort.SearchFloat64s(sorted, x)
-	return float64(len(sorted)-i+1) / float64(len(sorted)+1)
-}
-
 // critical returns the smallest standardized surplus whose max-T p-value
 // is below alpha.
 func (nl *summationNull) critical(alpha float64) float64 {

@@ -5,6 +5,13 @@ import (
 	"sort"
 )
 
+// atLeast returns the share of draws in sorted (ascending) at or above x,
+// counting the observed population among them ((count + 1)/(draws + 1)).
+func atLeast(sorted []float64, x float64) float64 {
+	i := sort.SearchFloat64s(sorted, x)
+	return float64(len(sorted)-i+1) / float64(len(sorted)+1)
+}
+
 // tailTop is the number of the largest simulated draws through which
 // tailAtLeast fits the tail beyond the draws.
 const tailTop = 100
@@ -31,9 +38,8 @@ const tailTop = 100
 // returns more than 1/(draws + 1).
 func tailAtLeast(sorted []float64, x float64) float64 {
 	n := len(sorted)
-	i := sort.SearchFloat64s(sorted, x)
-	if i < n || n <= tailTop {
-		return float64(n-i+1) / float64(n+1)
+	if n <= tailTop || x <= sorted[n-1] {
+		return atLeast(sorted, x)
 	}
 	u := sorted[n-tailTop-1]
 	var excess float64
