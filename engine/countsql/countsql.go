@@ -325,10 +325,7 @@ func Query(s Spec) (string, error) {
 	minU, _ := s.MinUnits()
 	f := s.frame(d)
 	other := map[string]string{"positive": "u < 0", "negative": "u > 0", "both": "1 = 0"}[s.Signs]
-	last2 := "a % 100"
-	if s.LastTwo == "units" && s.Scale > 0 {
-		last2 = "(" + d.div("a", pow10(s.Scale).String()) + ") % 100"
-	}
+	last2 := s.lastTwoSQL(d, "a")
 	q := queries.Render(d.stmt, map[string]string{
 		"by_names": f.names, "by_select": f.sel, "table": f.table,
 		"filter": f.filter, "units": d.units(d.quote(s.Amount), s.Scale), "other_sign": other,
@@ -391,6 +388,16 @@ func (s Spec) frame(d *dialect) frame {
 		filter = "(" + strings.TrimSpace(s.Where) + ")"
 	}
 	return frame{names: list(names), sel: list(sel), table: strings.Join(table, "."), filter: filter}
+}
+
+// lastTwoSQL is the last two digits of a (|units|, a column) as the
+// spec reads them: of the units, or of the whole currency units with
+// LastTwo "units".
+func (s Spec) lastTwoSQL(d *dialect, a string) string {
+	if s.LastTwo == "units" && s.Scale > 0 {
+		return "(" + d.div(a, pow10(s.Scale).String()) + ") % 100"
+	}
+	return a + " % 100"
 }
 
 // lastTwoMinUnits is the smallest |units| counted under kind l: the local

@@ -59,11 +59,7 @@ func BinRecordsQuery(s Spec, t benford.Test, from, to int, names []string, key s
 	case benford.FirstThree:
 		cond = append(cond, fmt.Sprintf("%s BETWEEN %d AND %d", code, from, to))
 	case benford.LastTwo:
-		last2 := a + " % 100"
-		if s.LastTwo == "units" && s.Scale > 0 {
-			last2 = "(" + d.div(a, pow10(s.Scale).String()) + ") % 100"
-		}
-		cond = append(cond, fmt.Sprintf("%s BETWEEN %d AND %d", last2, from, to), fmt.Sprintf("%s >= %s", a, s.lastTwoMinUnits().String()))
+		cond = append(cond, fmt.Sprintf("%s BETWEEN %d AND %d", s.lastTwoSQL(d, a), from, to), fmt.Sprintf("%s >= %s", a, s.lastTwoMinUnits().String()))
 	default:
 		return "", fmt.Errorf("%s: needs the records, not counts", t.Name())
 	}
